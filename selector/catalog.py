@@ -1,0 +1,479 @@
+"""Load and validate the part catalogues (CSV) against `selector.schema`.
+
+Every mistake in a file is collected and reported at once in one `InputError`: the first line
+is a summary, then one line per problem naming file, line, part id, column, value, rule and
+what to do. Odd-but-usable values are loaded and reported with a `CatalogWarning`.
+
+File format: a header row, then one row per orderable part. Comment lines starting with ``#``
+(and blank lines) are allowed only at the very top of the file, before the header; a ``#``
+anywhere later is data. Extra columns are carried through as text.
+"""
+
+from __future__ import annotations
+
+import csv
+import difflib
+import io
+import math
+import re
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+from .physics.tyres import (
+    LOAD_INDEX_KG,
+    LOAD_INDEX_MAX,
+    LOAD_INDEX_MIN,
+    SPEED_SYMBOL_KMH,
+    load_capacity_kg,
+    parse_tyre_size,
+    speed_rating_kmh,
+    unloaded_diameter_m,
+)
+from .schema import DERIVED_COLUMNS, KINDS, SOURCE_ROW, Column, columns
+from .study import Catalogs
+from .units import RPM_TO_RAD_S
+
+__all__ = ["CatalogWarning", "load_catalog", "load_catalogs"]
+
+# Plausibility bounds for warnings (common practice, no published source).
+MOTOR_MASS_WARN_KG = 500.0
+EFFICIENCY_WARN_PCT = 80.0
+RR_WARN_N_PER_KN = (4.0, 20.0)
+RATIO_WARN = (1.0, 30.0)
+
+_REL_TOL = 1e-9  # equal values after rounding in a datasheet are not an error
+
+
+class CatalogWarning(UserWarning):
+    """A catalogue value is valid but unusual (loaded anyway; check it)."""
+
+
+# --------------------------------------------------------------------------------------------
+# public API
+
+
+def load_catalog(kind: str, path) -> pd.DataFrame:
+    """Load one catalogue CSV and validate it against the schema.
+
+    Parameters
+    ----------
+    kind : str
+        ``"motors"``, ``"reducers"`` or ``"tyres"``.
+    path : str or os.PathLike
+        CSV file; shown in messages as given.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Canonical columns (typed; units in the names), extra columns (text), ``source_row``
+        (line number in the file) and, for tyres, ``diameter_m`` [m], ``speed_rating_kmh``
+        [km/h] and ``load_capacity_kg`` [kg]. Sorted by ``part`` (string order), fresh index.
+        Motors: empty ``decline_speed_rpm`` = ``max_speed_rpm``, empty ``decline_exponent`` = 1.
+
+    Raises
+    ------
+    InputError
+        Listing every problem found in the file.
+
+    Warns
+    -----
+    CatalogWarning
+        One warning per file listing unusual values (heavy motor, low efficiency, rolling
+        resistance outside 4..20 N/kN, ratio outside 1..30, extra column resembling a schema
+        column).
+    """
+    schema = columns(kind)
+    frame, errors, odd = _load(kind, schema, Path(path), str(path))
+    if errors:
+        raise InputError(_report(str(path), kind, errors))
+    if odd:
+        n = len(odd)
+        warnings.warn(
+            f"{path}: {n} unusual value{'s' if n > 1 else ''} in the {kind} catalogue (loaded anyway; "
+            "check them):\n" + "\n".join(f"  {w}" for w in odd),
+            CatalogWarning,
+            stacklevel=2,
+        )
+    return frame
+
+
+def load_catalogs(paths: dict) -> Catalogs:
+    """Load the three catalogues, reporting the problems of all files together.
+
+    Parameters
+    ----------
+    paths : dict
+        ``{"motors": path, "reducers": path, "tyres": path}``.
+
+    Returns
+    -------
+    selector.study.Catalogs
+
+    Raises
+    ------
+    InputError
+        If a path is missing from `paths` or any file has problems (all files are checked).
+    """
+    missing = [k for k in KINDS if k not in paths]
+    unknown = [k for k in paths if k not in KINDS]
+    if missing or unknown:
+        raise InputError(
+            "catalogue paths: "
+            + "; ".join([f"no path for {k}" for k in missing] + [f"unknown kind {k!r}" for k in unknown])
+            + f". Give exactly {', '.join(KINDS)}."
+        )
+    frames, messages = {}, []
+    for kind in KINDS:
+        try:
+            frames[kind] = load_catalog(kind, paths[kind])
+        except InputError as exc:
+            messages.append(str(exc))
+    if messages:
+        if len(messages) == 1:
+            raise InputError(messages[0])
+        raise InputError(f"{len(messages)} catalogue files have errors (listed below).\n" + "\n".join(messages))
+    return Catalogs(motors=frames["motors"], reducers=frames["reducers"], tyres=frames["tyres"],
+                    paths={k: Path(paths[k]) for k in KINDS})
+
+
+# --------------------------------------------------------------------------------------------
+# reading
+
+
+def _report(disp: str, kind: str, errors: list[str]) -> str:
+    n = len(errors)
+    head = f"{disp}: {n} error{'s' if n > 1 else ''} in the {kind} catalogue; the file was not loaded."
+    return head + "\n" + "\n".join(f"  {e}" for e in errors)
+
+
+def _read_text(path: Path, disp: str) -> str:
+    if not path.exists():
+        raise InputError(f"{disp}: file not found. Check the path (catalogue paths in a problem file "
+                         "are relative to the problem file).")
+    if path.is_dir():
+        raise InputError(f"{disp}: is a folder, not a CSV file. Give the path of the CSV file.")
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"{disp}: cannot be read ({exc.strerror or exc}). Check the file's permissions.") from None
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"{disp}: is not UTF-8 text (undecodable byte at offset {exc.start}). "
+                         "Save the file as CSV UTF-8.") from None
+
+
+def _split_rows(text: str, disp: str):
+    """Return (header_line, header, rows) with rows = [(line, cells)], or raise for empty files."""
+    text = text.replace("\r\n", "\n").replace("\r", "\n")
+    lines = text.split("\n")
+    start = 0
+    while start < len(lines) and (not lines[start].strip() or lines[start].lstrip().startswith("#")):
+        start += 1
+    if start >= len(lines):
+        if any(line.strip() for line in lines):
+            raise InputError(f"{disp}: no header row (the file holds only comment lines). "
+                             "Add a header row and one row per part.")
+        raise InputError(f"{disp}: file is empty. Add a header row and one row per part.")
+    reader = csv.reader(io.StringIO("\n".join(lines[start:])), strict=False)
+    header_line = start + 1
+    header = None
+    rows = []
+    prev = 0
+    for cells in reader:
+        line = start + prev + 1
+        prev = reader.line_num
+        if header is None:
+            header = [c.strip() for c in cells]
+            continue
+        if not any(c.strip() for c in cells):
+            continue
+        rows.append((line, cells))
+    return header_line, header, rows
+
+
+def _near(name: str, candidates) -> str | None:
+    low = {c.lower(): c for c in candidates}
+    hit = difflib.get_close_matches(name.lower(), list(low), n=1, cutoff=0.75)
+    return low[hit[0]] if hit else None
+
+
+def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
+    text = _read_text(path, disp)
+    header_line, header, rows = _split_rows(text, disp)
+    hloc = f"{disp} line {header_line} (header row)"
+    errors: list[str] = []
+    odd: list[str] = []
+    names = [c.name for c in schema]
+    reserved = [c.name for c in DERIVED_COLUMNS[kind]] + [SOURCE_ROW]
+
+    if len(header) == 1 and (";" in header[0] or "\t" in header[0]):
+        sep = "semicolons" if ";" in header[0] else "tabs"
+        raise InputError(_report(disp, kind, [
+            f"{hloc}: the header is one column {header[0][:60]!r}; the file seems to be separated by {sep}. "
+            "Save it as comma-separated CSV."]))
+
+    # header: empty names, duplicates, reserved names, missing required columns
+    keep = []
+    for i, h in enumerate(header):
+        if not h:
+            if any(i < len(cells) and cells[i].strip() for _, cells in rows):
+                errors.append(f"{hloc}: column {i + 1} has no name but holds data. Give it a name in the header row.")
+            continue
+        keep.append(i)
+    seen: dict[str, int] = {}
+    for i in keep:
+        h = header[i]
+        if h in seen:
+            errors.append(f"{hloc}: column \"{h}\" appears twice (columns {seen[h] + 1} and {i + 1}). "
+                          "Remove or rename one of them.")
+        else:
+            seen[h] = i
+        if h in reserved:
+            errors.append(f"{hloc}: column \"{h}\" is computed by selector and must not be in the file. "
+                          "Rename or remove it.")
+    extras = [h for h in seen if h not in names and h not in reserved]
+    for c in schema:
+        if c.name in seen:
+            continue
+        if not c.required:
+            hint = _near(c.name, extras)
+            if hint:
+                odd.append(f"{hloc}: column \"{hint}\" looks like the optional column \"{c.name}\" "
+                           f"but is carried through as an extra column; {c.name} takes its default. "
+                           f"Rename it to {c.name} if that is what it holds.")
+            continue
+        hint = _near(c.name, extras)
+        did = f" (found \"{hint}\"; did you mean \"{c.name}\"?)" if hint else ""
+        errors.append(f"{hloc}: required column \"{c.name}\" is missing{did}. "
+                      f"Add or rename the column; expected columns: {', '.join(names)}.")
+    if errors:
+        raise InputError(_report(disp, kind, errors))
+    if not rows:
+        raise InputError(_report(disp, kind, [
+            f"{hloc}: no data rows after the header. Add one row per orderable part."]))
+
+    # cells
+    ncol = len(header)
+    records = []
+    for line, cells in rows:
+        if len(cells) > ncol:
+            surplus = [c for c in cells[ncol:] if c.strip()]
+            if surplus:
+                part = cells[header.index("part")].strip() if "part" in seen else ""
+                errors.append(f"{_loc(disp, line, part)}: {len(cells)} cells but the header has {ncol} columns "
+                              f"(surplus {surplus[0]!r}). Quote values that contain commas, or remove stray commas.")
+                continue
+            cells = cells[:ncol]
+        cells = cells + [""] * (ncol - len(cells))
+        records.append((line, {header[i]: cells[i].strip() for i in keep}))
+
+    typed: dict[str, list] = {c.name: [] for c in schema}
+    extra_vals: dict[str, list] = {h: [] for h in extras}
+    lines: list[int] = []
+    first_line_of_part: dict[str, int] = {}
+    for line, rec in records:
+        part = rec.get("part", "")
+        loc = _loc(disp, line, part)
+        row_ok = True
+        vals = {}
+        empty = [c.name for c in schema if c.required and rec.get(c.name, "") == ""]
+        collapse = len(empty) >= 3
+        if collapse:
+            hint = (" Comment lines starting with # are allowed only above the header row."
+                    if part.startswith("#") else "")
+            errors.append(f"{loc}: {len(empty)} required cells are empty ({', '.join(empty)}). "
+                          f"Fill them in or remove the row.{hint}")
+            row_ok = False
+        for c in schema:
+            raw = rec.get(c.name, "")
+            if collapse and raw == "" and c.required:
+                vals[c.name] = None
+                continue
+            v, err = _check_cell(c, raw, loc)
+            if err:
+                errors.append(err)
+                row_ok = False
+            vals[c.name] = v
+        if part:
+            if part in first_line_of_part:
+                errors.append(f"{loc}: part = \"{part}\" is also used on line {first_line_of_part[part]}; part ids "
+                              "must be unique within a file. Rename or remove one of the rows.")
+                row_ok = False
+            else:
+                first_line_of_part[part] = line
+        if row_ok:
+            row_errors, row_odd = _check_row(kind, vals, loc)
+            errors += row_errors
+            odd += row_odd
+        for c in schema:
+            typed[c.name].append(vals[c.name])
+        for h in extras:
+            extra_vals[h].append(rec.get(h, ""))
+        lines.append(line)
+    if errors:
+        raise InputError(_report(disp, kind, errors))
+
+    return _frame(kind, schema, typed, extra_vals, lines), errors, odd
+
+
+def _loc(disp: str, line: int, part: str) -> str:
+    who = f"part \"{part}\"" if part else "part id missing"
+    return f"{disp} line {line} ({who})"
+
+
+# --------------------------------------------------------------------------------------------
+# checks
+
+_NUM_WITH_UNIT = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*[^\d\s.,+-].*$")
+
+
+def _unit(c: Column) -> str:
+    return f" [{c.unit}]" if c.unit not in ("-", "") else ""
+
+
+def _check_cell(c: Column, raw: str, loc: str):
+    """Convert one cell; return (value, error message or None)."""
+    if raw == "":
+        if c.required:
+            return None, f"{loc}: {c.name} is empty; a value is required{_unit(c)}. Fill in the cell."
+        return None, None
+    if c.type == "str":
+        return _check_text(c, raw, loc)
+    try:
+        v = float(raw)
+    except ValueError:
+        if "," in raw:
+            try:
+                float(raw.replace(",", "."))
+                return None, (f"{loc}: {c.name} = \"{raw}\"; must be a number with a decimal point{_unit(c)}. "
+                              f"Write {raw.replace(',', '.')}.")
+            except ValueError:
+                pass
+        if _NUM_WITH_UNIT.match(raw):
+            return None, (f"{loc}: {c.name} = \"{raw}\"; must be a plain number{_unit(c)}. Remove the unit "
+                          "(the unit is in the column name).")
+        return None, f"{loc}: {c.name} = \"{raw}\"; must be a number{_unit(c)}. Fix the value in the file."
+    if not math.isfinite(v):
+        return None, f"{loc}: {c.name} = {raw}; must be a finite number{_unit(c)}. Fix the value in the file."
+    if c.type == "int":
+        if v != int(v):
+            return None, f"{loc}: {c.name} = {raw}; must be a whole number. Fix the value in the file."
+        v = int(v)
+    err = _check_rule(c, v, raw, loc)
+    return (None, err) if err else (v, None)
+
+
+def _check_rule(c: Column, v, raw: str, loc: str):
+    rule = c.rule
+    if rule == "> 0" and not v > 0:
+        return f"{loc}: {c.name} = {raw}; must be > 0{_unit(c)}. Fix the value in the file."
+    if rule == ">= 0" and not v >= 0:
+        return f"{loc}: {c.name} = {raw}; must be >= 0{_unit(c)}. Fix the value in the file."
+    if rule == "(0, 100]" and not 0 < v <= 100:
+        return (f"{loc}: {c.name} = {raw}; must be in (0, 100]{_unit(c)}. Give the value in percent, "
+                "e.g. 96.")
+    if rule.startswith("load index") and v not in LOAD_INDEX_KG:
+        return (f"{loc}: {c.name} = {raw}; must be a load index {LOAD_INDEX_MIN}..{LOAD_INDEX_MAX} "
+                f"(ISO 4000-1; selector tabulates only this range). Check the tyre's service description.")
+    return None
+
+
+def _check_text(c: Column, raw: str, loc: str):
+    if c.rule == "ISO metric size":
+        try:
+            parse_tyre_size(raw)
+        except ValueError as exc:
+            reason = str(exc).split(": ", 1)[-1]
+            return None, f"{loc}: {c.name} = \"{raw}\"; {reason}. Fix the size in the file."
+        return raw, None
+    if c.rule == "ISO speed symbol":
+        sym = raw.upper()
+        if sym not in SPEED_SYMBOL_KMH:
+            return None, (f"{loc}: {c.name} = \"{raw}\"; must be an ISO 4000-1 speed symbol "
+                          f"({', '.join(SPEED_SYMBOL_KMH)}). Use the letter from the tyre's service "
+                          "description, e.g. H for 210 km/h.")
+        return sym, None
+    return raw, None
+
+
+def _check_row(kind: str, v: dict, loc: str):
+    """Cross-column rules and plausibility warnings for one row whose cells are all valid."""
+    errors, odd = [], []
+    if kind == "motors":
+        for cont, peak, unit in (("cont_torque_nm", "peak_torque_nm", "N m"), ("cont_power_kw", "peak_power_kw", "kW")):
+            if v[cont] > v[peak] * (1 + _REL_TOL):
+                errors.append(f"{loc}: {cont} = {v[cont]:g} is above {peak} = {v[peak]:g}; must be <= {peak} "
+                              f"[{unit}]. Check both values against the datasheet.")
+        n_max = v["max_speed_rpm"]
+        n_dec = v["decline_speed_rpm"]
+        corner = v["peak_power_kw"] * 1000.0 / v["peak_torque_nm"] / RPM_TO_RAD_S
+        if n_dec is not None and n_dec > n_max * (1 + _REL_TOL):
+            errors.append(f"{loc}: decline_speed_rpm = {n_dec:g} is above max_speed_rpm = {n_max:g}; must be "
+                          "<= max_speed_rpm [rpm]. Fix one of the two values (leave decline_speed_rpm empty "
+                          "for constant power up to max speed).")
+        else:
+            limit, what = (n_dec, "decline_speed_rpm") if n_dec is not None else (
+                n_max, "max_speed_rpm (decline_speed_rpm is empty, so it equals max_speed_rpm)")
+            if corner > limit * (1 + _REL_TOL):
+                errors.append(f"{loc}: corner speed = {corner:.0f} rpm (peak_power_kw x 1000 / peak_torque_nm "
+                              f"with peak_power_kw = {v['peak_power_kw']:g}, peak_torque_nm = "
+                              f"{v['peak_torque_nm']:g}) is above {what} = {limit:g}; must be <= "
+                              f"{what.split(' ')[0]} [rpm]. Check the three values against the datasheet.")
+        if v["mass_kg"] > MOTOR_MASS_WARN_KG:
+            odd.append(f"{loc}: mass_kg = {v['mass_kg']:g}; above {MOTOR_MASS_WARN_KG:g} kg, unusual for a "
+                       "traction motor. Check the value and its unit (kg).")
+    elif kind == "reducers":
+        eff = v["efficiency_pct"]
+        if eff < EFFICIENCY_WARN_PCT:
+            hint = (" It looks like a fraction; efficiency_pct is in percent (96 means 96 %)." if eff <= 1
+                    else " Check the value.")
+            odd.append(f"{loc}: efficiency_pct = {eff:g}; below {EFFICIENCY_WARN_PCT:g} %, unusual for a "
+                       f"reducer.{hint}")
+        lo, hi = RATIO_WARN
+        if not lo <= v["ratio"] <= hi:
+            odd.append(f"{loc}: ratio = {v['ratio']:g}; outside {lo:g}..{hi:g}, unusual for a single-speed "
+                       "traction reducer. Check the value (ratio = motor speed / wheel speed).")
+    elif kind == "tyres":
+        rr = v["rr_coefficient_n_per_kn"]
+        lo, hi = RR_WARN_N_PER_KN
+        if not lo <= rr <= hi:
+            hint = (" It looks like a dimensionless Crr; the column is in N/kN (Crr x 1000, e.g. 8.5)."
+                    if rr < 0.1 else " Check the value (EU tyre label classes span about 6.5..12 N/kN).")
+            odd.append(f"{loc}: rr_coefficient_n_per_kn = {rr:g}; outside {lo:g}..{hi:g} N/kN.{hint}")
+    return errors, odd
+
+
+# --------------------------------------------------------------------------------------------
+# typed frame
+
+
+def _frame(kind, schema, typed, extra_vals, lines) -> pd.DataFrame:
+    data = {}
+    for c in schema:
+        vals = typed[c.name]
+        if c.type == "float":
+            data[c.name] = np.array([np.nan if x is None else x for x in vals], dtype=float)
+        elif c.type == "int":
+            data[c.name] = np.array(vals, dtype=np.int64)
+        else:
+            data[c.name] = pd.array(vals, dtype=object)
+    if kind == "motors":
+        dec = data["decline_speed_rpm"]
+        data["decline_speed_rpm"] = np.where(np.isnan(dec), data["max_speed_rpm"], dec)
+        k = data["decline_exponent"]
+        data["decline_exponent"] = np.where(np.isnan(k), 1.0, k)
+    for h, vals in extra_vals.items():
+        data[h] = pd.array(vals, dtype=object)
+    data[SOURCE_ROW] = np.array(lines, dtype=np.int64)
+    df = pd.DataFrame(data)
+    if kind == "tyres":
+        geo = [parse_tyre_size(s) for s in df["size"]]
+        df["diameter_m"] = unloaded_diameter_m([g[0] for g in geo], [g[1] for g in geo], [g[2] for g in geo])
+        df["speed_rating_kmh"] = np.asarray(speed_rating_kmh(df["speed_symbol"].to_numpy()), dtype=float)
+        df["load_capacity_kg"] = np.asarray(load_capacity_kg(df["load_index"].to_numpy()), dtype=float)
+    return df.sort_values("part", kind="stable").reset_index(drop=True)

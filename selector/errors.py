@@ -1,0 +1,18 @@
+"""Exceptions that carry a message meant for the user (no traceback shown)."""
+
+from __future__ import annotations
+
+
+class SelectorError(Exception):
+    """Base class of every error selector reports to the user."""
+
+
+class InputError(SelectorError):
+    """Bad input: a catalogue, a problem file or a command-line value (exit code 2).
+
+    The message names the file, the row or key, the value, the rule and what to do.
+    """
+
+
+class SolverUnavailableError(SelectorError):
+    """The MILP solver (HiGHS through Pyomo) is missing or broken (exit code 1)."""

@@ -1,0 +1,1 @@
+"""Pure, vectorised physics: every function takes numpy arrays (or scalars) in SI units."""

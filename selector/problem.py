@@ -1,0 +1,515 @@
+"""Load and validate a problem file (TOML) into `selector.study.Problem`.
+
+Every mistake is collected and reported at once in one `InputError` (first line a summary,
+then one line per problem naming file, line, table, key, value, rule and what to do).
+Unknown keys and tables are errors, with a "did you mean" suggestion.
+
+Choices made here (documented for users):
+
+- ``[environment] road_friction`` is required (no silent default for the friction coefficient).
+- Air: ``air_density_kg_m3``, or ``altitude_m`` (geopotential, ISA) with optional
+  ``temperature_c``, or ``temperature_c`` alone (sea-level pressure at that temperature);
+  none of them = ISA sea level, 1.225 kg/m^3.
+- Drag: ``drag_area_m2``, or ``drag_coefficient`` together with ``frontal_area_m2``.
+- Catalogue paths are relative to the problem file.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import os
+import re
+import tomllib
+import warnings
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Callable
+
+from .catalog import load_catalogs
+from .errors import InputError
+from .physics.atmosphere import ISA_MAX_ALTITUDE_M, ISA_MIN_ALTITUDE_M, isa_density_kg_m3
+from .study import Catalogs, Environment, Problem, Procurement, Requirements, Vehicle
+
+__all__ = ["ProblemWarning", "load_problem", "load_study"]
+
+OBJECTIVES = ("cost", "mass", "accel_time")
+DISTINCT = ("motor", "reducer", "tyre")
+DRIVEN_AXLES = ("rear", "front")
+ROLLING_RADIUS_FACTOR_RANGE = (0.9, 1.0)
+ROAD_FRICTION_MAX = 2.0          # common practice, no published source: road tyres stay well below
+TEMPERATURE_RANGE_C = (-70.0, 60.0)  # common practice, no published source: road-vehicle climates
+
+
+class ProblemWarning(UserWarning):
+    """A problem-file value is valid but probably not what was meant."""
+
+
+# --------------------------------------------------------------------------------------------
+# the key table
+
+
+@dataclass(frozen=True)
+class Key:
+    """One allowed key of a problem-file table."""
+
+    name: str
+    type: str
+    """``"number"``, ``"int"``, ``"str"``, ``"str list"``."""
+    required: bool = False
+    unit: str = ""
+    check: Callable[[object], str | None] | None = None
+    """Return the broken rule (``"must be > 0"``) or None."""
+    help: str = ""
+
+
+def _positive(v):
+    return None if v > 0 else "must be > 0"
+
+
+def _non_negative(v):
+    return None if v >= 0 else "must be >= 0"
+
+
+def _open_unit(v):
+    return None if 0 < v < 1 else "must be between 0 and 1 (exclusive)"
+
+
+def _one_of(choices):
+    def check(v):
+        return None if v in choices else "must be one of " + ", ".join(f'"{c}"' for c in choices)
+    return check
+
+
+def _between(lo, hi, lo_open=False):
+    def check(v):
+        ok = (lo < v if lo_open else lo <= v) and v <= hi
+        return None if ok else f"must be {'>' if lo_open else '>='} {lo:g} and <= {hi:g}"
+    return check
+
+
+def _even_tyres(v):
+    return None if v >= 2 and v % 2 == 0 else "must be an even number >= 2 (tyres split evenly between two axles)"
+
+
+def _non_empty(v):
+    return None if v.strip() else "must not be empty"
+
+
+_REQ = "optional requirement; absent = not required"
+
+TABLES: dict[str, dict[str, Key]] = {
+    "catalogs": {k.name: k for k in (
+        Key("motors", "str", True, help="path of motors.csv, relative to this file"),
+        Key("reducers", "str", True, help="path of reducers.csv, relative to this file"),
+        Key("tyres", "str", True, help="path of tyres.csv, relative to this file"),
+    )},
+    "vehicle": {k.name: k for k in (
+        Key("mass_kg", "number", True, "kg", _positive, "laden mass without the selected motor, reducer and tyres"),
+        Key("drag_area_m2", "number", False, "m^2", _positive, "Cd x frontal area"),
+        Key("drag_coefficient", "number", False, "", _positive, "Cd, with frontal_area_m2"),
+        Key("frontal_area_m2", "number", False, "m^2", _positive, "frontal area, with drag_coefficient"),
+        Key("wheelbase_m", "number", True, "m", _positive, "wheelbase"),
+        Key("cg_height_m", "number", True, "m", _positive, "height of the centre of gravity"),
+        Key("rear_axle_share", "number", True, "", _open_unit, "static share of mass_kg on the rear axle"),
+        Key("driven_axle", "str", True, "", _one_of(DRIVEN_AXLES), '"rear" or "front"'),
+        Key("tyre_count", "int", True, "", _even_tyres, "number of tyres"),
+        Key("rolling_radius_factor", "number", False, "", _between(*ROLLING_RADIUS_FACTOR_RANGE),
+            "dynamic rolling radius / free radius, default 0.97"),
+        Key("wheel_inertia_kgm2", "number", False, "kg m^2", _non_negative, "per wheel, default 0"),
+    )},
+    "environment": {k.name: k for k in (
+        Key("road_friction", "number", True, "", _between(0.0, ROAD_FRICTION_MAX, lo_open=True),
+            "peak tyre-road friction coefficient"),
+        Key("air_density_kg_m3", "number", False, "kg/m^3", _positive, "air density"),
+        Key("altitude_m", "number", False, "m", _between(ISA_MIN_ALTITUDE_M, ISA_MAX_ALTITUDE_M),
+            "geopotential altitude for the ISA"),
+        Key("temperature_c", "number", False, "degC", _between(*TEMPERATURE_RANGE_C), "air temperature"),
+    )},
+    "requirements": {k.name: k for k in (
+        Key("top_speed_kmh", "number", False, "km/h", _positive, _REQ),
+        Key("gradeability_pct", "number", False, "%", _positive, _REQ),
+        Key("launch_accel_mps2", "number", False, "m/s^2", _positive, _REQ),
+        Key("accel_to_kmh", "number", False, "km/h", _positive, "target speed of accel_time_s"),
+        Key("accel_time_s", "number", False, "s", _positive, _REQ + "; needs accel_to_kmh"),
+        Key("max_mass_kg", "number", False, "kg", _positive, _REQ),
+        Key("budget", "number", False, "currency", _positive, _REQ),
+        Key("speed_limiter_kmh", "number", False, "km/h", _positive, "caps the vehicle's maximum speed"),
+    )},
+    "objective": {k.name: k for k in (
+        Key("minimize", "str", False, "", _one_of(OBJECTIVES), '"cost" (default), "mass" or "accel_time"'),
+    )},
+    "procurement": {k.name: k for k in (
+        Key("distinct", "str", False, "", _one_of(DISTINCT), '"motor", "reducer" or "tyre"'),
+        Key("avoid_suppliers", "str list", False, "", None, "suppliers to leave out"),
+        Key("max_lead_time_weeks", "number", False, "weeks", _positive, "longest acceptable lead time"),
+    )},
+}
+"""Allowed keys per table of the problem file."""
+
+TOP_LEVEL: dict[str, str] = {"name": "str", **{t: "table" for t in TABLES}}
+"""Allowed top-level keys: ``name`` (text) and the tables."""
+REQUIRED_TABLES = ("catalogs", "vehicle", "environment")
+
+
+# --------------------------------------------------------------------------------------------
+# helpers
+
+
+def _toml_repr(v) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, str):
+        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
+    if isinstance(v, dict):
+        return "{...}"
+    if isinstance(v, list):
+        return "[" + ", ".join(_toml_repr(x) for x in v) + "]"
+    return str(v)
+
+
+def _type_name(v) -> str:
+    if isinstance(v, bool):
+        return "a boolean"
+    if isinstance(v, str):
+        return "text"
+    if isinstance(v, dict):
+        return "a table"
+    if isinstance(v, list):
+        return "a list"
+    if isinstance(v, int):
+        return "a whole number"
+    if isinstance(v, float):
+        return "a number"
+    return type(v).__name__
+
+
+_TABLE_RE = re.compile(r"^\s*\[\s*([A-Za-z0-9_.\- ]+?)\s*\]\s*(#.*)?$")
+_KEY_RE = re.compile(r"""^\s*([A-Za-z0-9_\-]+|"[^"]*"|'[^']*')\s*=""")
+
+
+def _key_lines(text: str) -> dict[tuple[str, str], int]:
+    """Map (table, key) -> first line number where the key is assigned (best effort)."""
+    out: dict[tuple[str, str], int] = {}
+    table = ""
+    for n, line in enumerate(text.splitlines(), start=1):
+        m = _TABLE_RE.match(line)
+        if m:
+            table = m.group(1).strip()
+            out.setdefault(("", table.split(".")[0].strip()), n)
+            continue
+        m = _KEY_RE.match(line)
+        if m:
+            out.setdefault((table, m.group(1).strip("\"'")), n)
+    return out
+
+
+class _Collector:
+    def __init__(self, disp: str, text: str):
+        self.disp = disp
+        self.lines = _key_lines(text)
+        self.errors: list[str] = []
+
+    def where(self, table: str, key: str | None = None) -> str:
+        n = self.lines.get((table, key)) if key else self.lines.get(("", table))
+        at = f" line {n}" if n else ""
+        if not table:
+            return f"{self.disp}{at}"
+        return f"{self.disp}{at} [{table}]"
+
+    def add(self, msg: str):
+        self.errors.append(msg)
+
+    def bad(self, table, key, value, rule, unit="", fix="Fix the value in the file."):
+        u = f" [{unit}]" if unit else ""
+        self.add(f"{self.where(table, key)} {key} = {_toml_repr(value)}; {rule}{u}. {fix}")
+
+
+def _suggest(name: str, known, table: str) -> str:
+    hit = difflib.get_close_matches(name, list(known), n=1, cutoff=0.6)
+    if hit:
+        return f' Did you mean "{hit[0]}"?'
+    for other, keys in TABLES.items():
+        if other != table and name in keys:
+            return f" It belongs in the [{other}] table."
+    return ""
+
+
+def _check_value(col: _Collector, table: str, spec: Key, v):
+    """Type and rule check; return the value or None (error recorded)."""
+    u = f" [{spec.unit}]" if spec.unit else ""
+    if spec.type in ("number", "int"):
+        if spec.type == "int":
+            ok = isinstance(v, int) and not isinstance(v, bool)
+            want = "a whole number"
+        else:
+            ok = isinstance(v, (int, float)) and not isinstance(v, bool)
+            want = "a number"
+        if not ok:
+            fix = "Write the number without quotes." if isinstance(v, str) else "Fix the value in the file."
+            if spec.type == "int" and isinstance(v, float) and not isinstance(v, bool):
+                fix = f"Write {int(v)}." if math.isfinite(v) and v == int(v) else "Fix the value in the file."
+            col.bad(table, spec.name, v, f"must be {want}, not {_type_name(v)}", spec.unit, fix)
+            return None
+        if not math.isfinite(v):
+            col.bad(table, spec.name, v, "must be a finite number", spec.unit)
+            return None
+    elif spec.type == "str":
+        if not isinstance(v, str):
+            col.bad(table, spec.name, v, f"must be text in double quotes, not {_type_name(v)}", "",
+                    "Put the value in double quotes.")
+            return None
+    elif spec.type == "str list":
+        if not isinstance(v, list) or not all(isinstance(x, str) and x.strip() for x in v):
+            col.bad(table, spec.name, v, "must be a list of non-empty texts, e.g. [\"Acme\", \"Volta\"]", "",
+                    "Fix the value in the file.")
+            return None
+        return tuple(x.strip() for x in v)
+    if spec.check is not None:
+        rule = spec.check(v)
+        if rule:
+            col.add(f"{col.where(table, spec.name)} {spec.name} = {_toml_repr(v)}; {rule}{u}. "
+                    "Fix the value in the file.")
+            return None
+    return v
+
+
+# --------------------------------------------------------------------------------------------
+# public API
+
+
+def load_problem(path) -> Problem:
+    """Load a problem file (TOML) and validate it.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Problem file; shown in messages as given.
+
+    Returns
+    -------
+    selector.study.Problem
+        Catalogue paths resolved relative to the problem file (``os.path.normpath`` of
+        problem folder / given path); air density computed from the [environment] table.
+
+    Raises
+    ------
+    InputError
+        File missing or unreadable, TOML syntax error (with line and column), or a list of every
+        type, range, missing-key and unknown-key problem found.
+    """
+    path = Path(path)
+    disp = str(path)
+    text = _read_text(path, disp)
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{disp}: TOML syntax error: {exc}. Fix the syntax (key = value, text in double "
+                         "quotes, tables as [name]).") from None
+
+    col = _Collector(disp, text)
+    # top level
+    for key, v in data.items():
+        if key not in TOP_LEVEL:
+            kind = "table" if isinstance(v, dict) else "key"
+            shown = f"[{key}]" if isinstance(v, dict) else key
+            col.add(f"{col.where('', key)}: unknown {kind} {shown}.{_suggest(key, TOP_LEVEL, '')} "
+                    f"Allowed: name, {', '.join(f'[{t}]' for t in TABLES)}.")
+        elif TOP_LEVEL[key] == "table" and not isinstance(v, dict):
+            col.add(f"{col.where('', key)}: {key} = {_toml_repr(v)}; must be a table [{key}], not {_type_name(v)}. "
+                    f"Write it as a [{key}] table with its keys.")
+    name = data.get("name", path.stem)
+    if not isinstance(name, str):
+        col.bad("", "name", name, f"must be text in double quotes, not {_type_name(name)}", "",
+                "Put the value in double quotes.")
+        name = path.stem
+    for t in REQUIRED_TABLES:
+        if t not in data:
+            required = ", ".join(k.name for k in TABLES[t].values() if k.required)
+            col.add(f"{disp}: table [{t}] is missing (required keys: {required}). Add it.")
+
+    values: dict[str, dict] = {}
+    for table, keys in TABLES.items():
+        raw = data.get(table, {})
+        raw = raw if isinstance(raw, dict) else {}
+        got = {}
+        for key, v in raw.items():
+            if key not in keys:
+                col.add(f"{col.where(table, key)} {key}: unknown key.{_suggest(key, keys, table)} "
+                        f"Allowed in [{table}]: {', '.join(keys)}.")
+                continue
+            checked = _check_value(col, table, keys[key], v)
+            if checked is not None:
+                got[key] = checked
+        if table in data and isinstance(data[table], dict):
+            for spec in keys.values():
+                if spec.required and spec.name not in raw:
+                    unit = f" [{spec.unit}]" if spec.unit else ""
+                    col.add(f"{col.where(table)}: required key {spec.name} is missing ({spec.help}{unit}). Add it.")
+        values[table] = got
+
+    vehicle = _vehicle(col, values["vehicle"], data)
+    environment = _environment(col, values["environment"], data)
+    requirements = _requirements(col, values["requirements"])
+    objective = _objective(col, values["objective"], data)
+    proc = dict(values["procurement"])
+    if "max_lead_time_weeks" in proc:
+        proc["max_lead_time_weeks"] = float(proc["max_lead_time_weeks"])
+    procurement = Procurement(**proc)
+    catalog_paths = _catalog_paths(col, path, values["catalogs"])
+
+    if col.errors:
+        n = len(col.errors)
+        raise InputError(f"{disp}: {n} error{'s' if n > 1 else ''} in the problem file; nothing was computed.\n"
+                         + "\n".join(f"  {e}" for e in col.errors))
+    return Problem(name=name, path=path, catalog_paths=catalog_paths, vehicle=vehicle,
+                   environment=environment, requirements=requirements, objective=objective,
+                   procurement=procurement)
+
+
+def load_study(path) -> tuple[Problem, Catalogs]:
+    """Load a problem file and the three catalogues it names.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Problem file (TOML).
+
+    Returns
+    -------
+    (selector.study.Problem, selector.study.Catalogs)
+
+    Raises
+    ------
+    InputError
+        For any problem in the problem file or in the catalogues.
+
+    Warns
+    -----
+    ProblemWarning
+        When a supplier in ``[procurement] avoid_suppliers`` appears in no catalogue.
+    CatalogWarning
+        For unusual catalogue values (see `selector.catalog.load_catalog`).
+    """
+    problem = load_problem(path)
+    catalogs = load_catalogs(problem.catalog_paths)
+    avoid = problem.procurement.avoid_suppliers
+    if avoid:
+        known = set()
+        for df in (catalogs.motors, catalogs.reducers, catalogs.tyres):
+            known.update(df["supplier"])
+        for s in avoid:
+            if s not in known:
+                hit = difflib.get_close_matches(s, sorted(known), n=1, cutoff=0.6)
+                did = f' Did you mean "{hit[0]}"?' if hit else ""
+                warnings.warn(f"{path} [procurement] avoid_suppliers: supplier \"{s}\" is in none of the "
+                              f"catalogues, so it excludes nothing.{did}", ProblemWarning, stacklevel=2)
+    return problem, catalogs
+
+
+# --------------------------------------------------------------------------------------------
+# sections
+
+
+def _read_text(path: Path, disp: str) -> str:
+    if not path.exists():
+        raise InputError(f"{disp}: problem file not found. Check the path.")
+    if path.is_dir():
+        raise InputError(f"{disp}: is a folder, not a problem file. Give the path of the .toml file.")
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise InputError(f"{disp}: cannot be read ({exc.strerror or exc}). Check the file's permissions.") from None
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"{disp}: is not UTF-8 text (undecodable byte at offset {exc.start}). "
+                         "Save the file as UTF-8.") from None
+
+
+def _vehicle(col: _Collector, v: dict, data: dict) -> Vehicle | None:
+    raw = data.get("vehicle") if isinstance(data.get("vehicle"), dict) else None
+    if raw is None:
+        return None
+    area_given = "drag_area_m2" in raw
+    cd, fa = "drag_coefficient" in raw, "frontal_area_m2" in raw
+    drag = None
+    if area_given and (cd or fa):
+        col.add(f"{col.where('vehicle', 'drag_area_m2')} drag_area_m2: give either drag_area_m2 or "
+                "drag_coefficient with frontal_area_m2, not both. Remove one of them.")
+    elif area_given:
+        drag = v.get("drag_area_m2")
+    elif cd and fa:
+        if "drag_coefficient" in v and "frontal_area_m2" in v:
+            drag = v["drag_coefficient"] * v["frontal_area_m2"]
+    elif cd or fa:
+        have, need = ("drag_coefficient", "frontal_area_m2") if cd else ("frontal_area_m2", "drag_coefficient")
+        col.add(f"{col.where('vehicle', have)} {have} is given without {need}. Add {need}, or give "
+                "drag_area_m2 (Cd x frontal area) instead.")
+    else:
+        col.add(f"{col.where('vehicle')}: no aerodynamic drag given. Add drag_area_m2 [m^2] (Cd x frontal "
+                "area), or drag_coefficient with frontal_area_m2 [m^2].")
+    needed = ("mass_kg", "wheelbase_m", "cg_height_m", "rear_axle_share", "driven_axle", "tyre_count")
+    if drag is None or any(k not in v for k in needed):
+        return None
+    extra = {k: v[k] for k in ("rolling_radius_factor", "wheel_inertia_kgm2") if k in v}
+    return Vehicle(mass_kg=float(v["mass_kg"]), drag_area_m2=float(drag), wheelbase_m=float(v["wheelbase_m"]),
+                   cg_height_m=float(v["cg_height_m"]), rear_axle_share=float(v["rear_axle_share"]),
+                   driven_axle=v["driven_axle"], tyre_count=int(v["tyre_count"]),
+                   **{k: float(x) for k, x in extra.items()})
+
+
+def _environment(col: _Collector, v: dict, data: dict) -> Environment | None:
+    raw = data.get("environment") if isinstance(data.get("environment"), dict) else {}
+    has_rho = "air_density_kg_m3" in raw
+    isa_keys = [k for k in ("altitude_m", "temperature_c") if k in raw]
+    if has_rho and isa_keys:
+        col.add(f"{col.where('environment', 'air_density_kg_m3')} air_density_kg_m3: give either "
+                f"air_density_kg_m3 or {' / '.join(isa_keys)} (ISA), not both. Remove one of them.")
+        return None
+    if "road_friction" not in v:
+        return None
+    if has_rho:
+        if "air_density_kg_m3" not in v:
+            return None
+        rho = float(v["air_density_kg_m3"])
+    else:
+        if any(k not in v for k in isa_keys):
+            return None
+        rho = isa_density_kg_m3(float(v.get("altitude_m", 0.0)),
+                                None if "temperature_c" not in v else float(v["temperature_c"]))
+    return Environment(air_density_kg_m3=rho, road_friction=float(v["road_friction"]))
+
+
+def _requirements(col: _Collector, v: dict) -> Requirements:
+    if "accel_time_s" in v and "accel_to_kmh" not in v:
+        col.add(f"{col.where('requirements', 'accel_time_s')} accel_time_s is given without accel_to_kmh. "
+                "Add accel_to_kmh (the target speed of the acceleration run) [km/h].")
+    return Requirements(**{k: float(x) for k, x in v.items()})
+
+
+def _objective(col: _Collector, v: dict, data: dict) -> str:
+    minimize = v.get("minimize", "cost")
+    raw_req = data.get("requirements") if isinstance(data.get("requirements"), dict) else {}
+    if minimize == "accel_time" and "accel_to_kmh" not in raw_req:
+        col.add(f"{col.where('objective', 'minimize')} minimize = \"accel_time\" needs [requirements] "
+                "accel_to_kmh (the target speed of the acceleration run). Add it [km/h].")
+    return minimize
+
+
+def _catalog_paths(col: _Collector, path: Path, v: dict) -> dict[str, Path]:
+    out = {}
+    base = path.parent
+    for kind, given in v.items():
+        if not given.strip():
+            col.bad("catalogs", kind, given, "must not be empty", "", f"Give the path of {kind}.csv.")
+            continue
+        p = Path(os.path.normpath(base / given))
+        if not p.exists():
+            col.add(f"{col.where('catalogs', kind)} {kind} = {_toml_repr(given)}: file not found (looked for {p}). "
+                    "Fix the path; it is relative to the problem file.")
+        elif p.is_dir():
+            col.add(f"{col.where('catalogs', kind)} {kind} = {_toml_repr(given)}: {p} is a folder, not a CSV file. "
+                    "Give the path of the CSV file.")
+        out[kind] = p
+    return out

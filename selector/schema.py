@@ -1,0 +1,168 @@
+"""The catalogue schema as data: one table of columns per catalogue kind.
+
+`catalog.py` checks every CSV against these tables; the documentation renders from them
+(`schema_markdown`). Units are in the column names; values are SI except where the unit says
+otherwise (kW, rpm, %, N/kN), which the physics converts at the edge.
+
+Rules understood by the loader (`Column.rule`):
+
+- ``"> 0"``, ``">= 0"``: numeric bounds;
+- ``"(0, 100]"``: 0 < value <= 100;
+- ``"non-empty"``: any non-blank text;
+- ``"unique, non-empty"``: non-blank text, unique within the file (the part id);
+- ``"ISO metric size"``: e.g. ``205/55R16`` (see `selector.physics.tyres.parse_tyre_size`);
+- ``"ISO speed symbol"``: a key of `SPEED_SYMBOL_KMH`;
+- ``"load index 60..130"``: a whole number that is a key of `LOAD_INDEX_KG`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+KINDS = ("motors", "reducers", "tyres")
+"""Catalogue kinds, in the order they are loaded and reported."""
+
+
+@dataclass(frozen=True)
+class Column:
+    """One catalogue column."""
+
+    name: str
+    """Column name in the CSV header (unit suffix included)."""
+    type: str
+    """``"float"``, ``"int"`` or ``"str"``."""
+    unit: str
+    """Unit shown in messages and docs; ``"-"`` for none."""
+    required: bool
+    """True: the column must be in the header and every cell filled."""
+    default: object
+    """Value (or rule) used for an empty cell when not required; None when required."""
+    rule: str
+    """Validity rule (see the module docstring)."""
+    description: str
+    """One line for the docs."""
+
+
+_PART = Column("part", "str", "-", True, None, "unique, non-empty",
+               "Orderable part id, unique within the file (also the tie-break order).")
+_SUPPLIER = Column("supplier", "str", "-", True, None, "non-empty", "Supplier name.")
+_MASS = Column("mass_kg", "float", "kg", True, None, "> 0", "Mass of one part.")
+_COST = Column("unit_cost", "float", "currency", True, None, ">= 0",
+               "Price of one part in the catalogue currency.")
+_LEAD = Column("lead_time_weeks", "float", "weeks", True, None, ">= 0",
+               "Delivery lead time (0 = in stock).")
+
+SCHEMA: dict[str, tuple[Column, ...]] = {
+    "motors": (
+        _PART,
+        _SUPPLIER,
+        Column("peak_torque_nm", "float", "N m", True, None, "> 0", "Peak (short-time) shaft torque."),
+        Column("peak_power_kw", "float", "kW", True, None, "> 0", "Peak (short-time) shaft power."),
+        Column("max_speed_rpm", "float", "rpm", True, None, "> 0", "Maximum shaft speed."),
+        Column("cont_torque_nm", "float", "N m", True, None, "> 0",
+               "Continuous shaft torque; must be <= peak_torque_nm."),
+        Column("cont_power_kw", "float", "kW", True, None, "> 0",
+               "Continuous shaft power; must be <= peak_power_kw."),
+        Column("decline_speed_rpm", "float", "rpm", False, "max_speed_rpm", "> 0",
+               "Speed above which power falls as (decline/speed)^exponent; empty = max_speed_rpm "
+               "(constant power up to max speed). Corner speed <= decline speed <= max speed."),
+        Column("decline_exponent", "float", "-", False, 1.0, "> 0",
+               "Exponent k of the power decline above decline_speed_rpm; empty = 1."),
+        _MASS,
+        Column("rotor_inertia_kgm2", "float", "kg m^2", True, None, "> 0", "Rotor polar moment of inertia."),
+        _COST,
+        _LEAD,
+    ),
+    "reducers": (
+        _PART,
+        _SUPPLIER,
+        Column("ratio", "float", "-", True, None, "> 0", "Reduction ratio G = motor speed / wheel speed."),
+        Column("efficiency_pct", "float", "%", True, None, "(0, 100]", "Mechanical efficiency eta."),
+        Column("max_input_torque_nm", "float", "N m", True, None, "> 0", "Rated input torque."),
+        Column("max_input_speed_rpm", "float", "rpm", True, None, "> 0", "Rated input speed."),
+        _MASS,
+        _COST,
+        _LEAD,
+    ),
+    "tyres": (
+        _PART,
+        _SUPPLIER,
+        Column("size", "str", "-", True, None, "ISO metric size",
+               "ISO metric size designation, e.g. 205/55R16, 205/55 R16, 225/50ZR16, 235/65R16C."),
+        Column("load_index", "int", "-", True, None, "load index 60..130",
+               "Load index (ISO 4000-1 / UN ECE R30), whole number 60..130."),
+        Column("speed_symbol", "str", "-", True, None, "ISO speed symbol",
+               "Speed symbol (ISO 4000-1 / UN ECE R30), e.g. H = 210 km/h."),
+        Column("rr_coefficient_n_per_kn", "float", "N/kN", True, None, "> 0",
+               "Rolling-resistance coefficient (EU label RRC); Crr = value / 1000."),
+        _MASS,
+        _COST,
+        _LEAD,
+    ),
+}
+"""Canonical columns per catalogue kind, in file order."""
+
+DERIVED_COLUMNS: dict[str, tuple[Column, ...]] = {
+    "motors": (),
+    "reducers": (),
+    "tyres": (
+        Column("diameter_m", "float", "m", False, None, "derived",
+               "Unloaded diameter D = rim code x 25.4 mm + 2 x width x aspect / 100."),
+        Column("speed_rating_kmh", "float", "km/h", False, None, "derived", "Reference speed of speed_symbol."),
+        Column("load_capacity_kg", "float", "kg", False, None, "derived", "Maximum load per tyre of load_index."),
+    ),
+}
+"""Columns the loader adds (a file must not contain them)."""
+
+SOURCE_ROW = "source_row"
+"""Column the loader adds to every table: the line number of the row in its file."""
+
+
+def columns(kind: str) -> tuple[Column, ...]:
+    """Canonical columns of one catalogue kind.
+
+    Parameters
+    ----------
+    kind : str
+        ``"motors"``, ``"reducers"`` or ``"tyres"``.
+
+    Returns
+    -------
+    tuple of Column
+    """
+    try:
+        return SCHEMA[kind]
+    except KeyError:
+        raise ValueError(f"unknown catalogue kind {kind!r}; expected one of {', '.join(KINDS)}") from None
+
+
+def schema_markdown(kind: str | None = None) -> str:
+    """Render the schema as markdown tables (for README / DEVELOPERS.md).
+
+    Parameters
+    ----------
+    kind : str or None
+        One catalogue kind, or None for all three (each under a ``### kind.csv`` heading).
+
+    Returns
+    -------
+    str
+        Markdown text.
+    """
+    kinds = KINDS if kind is None else (kind,)
+    parts = []
+    for k in kinds:
+        lines = []
+        if kind is None:
+            lines += [f"### {k}.csv", ""]
+        lines += ["| column | type | unit | required | default | rule | description |",
+                  "|---|---|---|---|---|---|---|"]
+        for c in columns(k) + DERIVED_COLUMNS[k]:
+            required = "derived" if c.rule == "derived" else ("yes" if c.required else "no")
+            if c.default is None:
+                default = ""
+            else:
+                default = f"= {c.default}" if isinstance(c.default, str) else f"{c.default:g}"
+            lines.append(f"| `{c.name}` | {c.type} | {c.unit} | {required} | {default} | {c.rule} | {c.description} |")
+        parts.append("\n".join(lines))
+    return "\n\n".join(parts) + "\n"

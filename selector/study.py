@@ -1,0 +1,104 @@
+"""Validated inputs of one study: the problem statement and the catalogue tables.
+
+These dataclasses are what the loaders (`problem.py`, `catalog.py`) produce and what every
+other module consumes. All values are SI or carry their unit in the field name.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import pandas as pd
+
+
+@dataclass(frozen=True)
+class Vehicle:
+    """Vehicle data that does not depend on the selected parts."""
+
+    mass_kg: float
+    """Laden mass without the selected motor, reducer and tyres [kg]."""
+    drag_area_m2: float
+    """Drag coefficient times frontal area, Cd*A [m^2]."""
+    wheelbase_m: float
+    """Wheelbase L [m]."""
+    cg_height_m: float
+    """Height of the centre of gravity h [m]."""
+    rear_axle_share: float
+    """Static share of mass_kg carried by the rear axle [-], in (0, 1)."""
+    driven_axle: str
+    """"rear" or "front"."""
+    tyre_count: int
+    """Number of tyres (even), split evenly between the two axles [-]."""
+    rolling_radius_factor: float = 0.97
+    """Dynamic rolling radius / free radius k [-] (assumption, overridable)."""
+    wheel_inertia_kgm2: float = 0.0
+    """Polar moment of inertia of one wheel and tyre [kg m^2] (0 = neglected)."""
+
+
+@dataclass(frozen=True)
+class Environment:
+    """Air and road."""
+
+    air_density_kg_m3: float
+    """Air density rho [kg/m^3] (given, or from ISA altitude/temperature)."""
+    road_friction: float
+    """Peak tyre-road friction coefficient mu [-]."""
+
+
+@dataclass(frozen=True)
+class Requirements:
+    """Performance targets and limits; None means not required."""
+
+    top_speed_kmh: float | None = None
+    gradeability_pct: float | None = None
+    launch_accel_mps2: float | None = None
+    accel_to_kmh: float | None = None
+    accel_time_s: float | None = None
+    max_mass_kg: float | None = None
+    budget: float | None = None
+    speed_limiter_kmh: float | None = None
+
+
+@dataclass(frozen=True)
+class Procurement:
+    """Purchasing filters and shortlist options (problem file table [procurement])."""
+
+    distinct: str | None = None
+    """"motor", "reducer", "tyre" or None."""
+    avoid_suppliers: tuple[str, ...] = ()
+    max_lead_time_weeks: float | None = None
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One study as stated in a problem file (TOML)."""
+
+    name: str
+    path: Path | None
+    catalog_paths: dict[str, Path]
+    """Keys "motors", "reducers", "tyres"; absolute or relative to the working directory."""
+    vehicle: Vehicle
+    environment: Environment
+    requirements: Requirements
+    objective: str = "cost"
+    """"cost", "mass" or "accel_time"."""
+    procurement: Procurement = field(default_factory=Procurement)
+
+
+@dataclass(frozen=True)
+class Catalogs:
+    """The three validated part tables.
+
+    Each DataFrame has the canonical columns of `schema.py` (units in the names), any extra
+    columns from the file, and is sorted by `part` (string order) with a fresh RangeIndex, so
+    row position order equals part-id order (the tie-break order).
+    Motors: empty decline_speed_rpm filled with max_speed_rpm, empty decline_exponent with 1.
+    Tyres get derived columns: diameter_m (unloaded, ISO formula with 25.4 mm per rim code),
+    speed_rating_kmh (from the speed symbol) and load_capacity_kg (from the load index).
+    """
+
+    motors: pd.DataFrame
+    reducers: pd.DataFrame
+    tyres: pd.DataFrame
+    paths: dict[str, Path] = field(default_factory=dict)

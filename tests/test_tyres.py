@@ -1,0 +1,188 @@
+"""Tyre designation, geometry and rating tables against published values.
+
+Sources: ISO 4000-1 / UN ECE R30 as reproduced in /work/shared/reference-values.md sections 3-5.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pint
+import pytest
+
+from selector.physics.tyres import (
+    LOAD_INDEX_KG,
+    SPEED_SYMBOL_KMH,
+    load_capacity_kg,
+    parse_tyre_size,
+    speed_rating_kmh,
+    unloaded_diameter_m,
+)
+
+# ---------------------------------------------------------------------------------- parsing
+
+
+@pytest.mark.parametrize(
+    "text, expected",
+    [
+        ("205/55R16", (205.0, 55.0, 16.0, "R")),
+        ("205/55 R16", (205.0, 55.0, 16.0, "R")),
+        ("205/55ZR16", (205.0, 55.0, 16.0, "ZR")),
+        ("225/50 ZR16", (225.0, 50.0, 16.0, "ZR")),
+        ("235/65R16C", (235.0, 65.0, 16.0, "RC")),
+        ("235/65 R16 C", (235.0, 65.0, 16.0, "RC")),
+        ("205/55r16", (205.0, 55.0, 16.0, "R")),
+        ("225/50 zr16", (225.0, 50.0, 16.0, "ZR")),
+        ("  195/65R15  ", (195.0, 65.0, 15.0, "R")),
+    ],
+)
+def test_parse_accepted_forms(text, expected):
+    # ISO 4000-1 designation S/Ra R d (reference-values.md section 3); ZR per section 4 conventions
+    assert parse_tyre_size(text) == expected
+
+
+@pytest.mark.parametrize(
+    "text, reason",
+    [
+        ("", "empty"),
+        ("205R16", "no '/'"),
+        ("205/55-16", "diagonal"),
+        ("P205/55R16", "prefix 'P'"),
+        ("205/55X16", "construction code 'R'"),
+        ("205/55R16 91V", "service description"),
+        ("205/55R", "width/aspect R rim"),
+        ("2055/55R16", "width/aspect R rim"),
+    ],
+)
+def test_parse_rejects_malformed_sizes_with_a_reason(text, reason):
+    with pytest.raises(ValueError, match="not an ISO metric size designation") as info:
+        parse_tyre_size(text)
+    assert reason in str(info.value)
+
+
+def test_parse_rejects_non_text():
+    with pytest.raises(ValueError, match="not text"):
+        parse_tyre_size(205)
+
+
+# --------------------------------------------------------------------------------- geometry
+
+# Unloaded diameter D, reference-values.md section 3 (ISO 4000-1 / UN R30 formula D = d + 2 S Ra/100).
+# "exact" uses d = 25.4 mm x code; "r30" uses the whole-millimetre rim table of UN R30 (from memory).
+# The tolerance of 0.5 mm accepts either convention (they differ by at most 0.4 mm).
+DIAMETERS_MM = [
+    # size, D exact (mm), D with R30-rounded rim (mm)  -- reference-values.md section 3, computed there
+    ("205/55 R16", 631.90, 631.50),
+    ("225/45 R17", 634.30, 634.50),
+    ("195/65 R15", 634.50, 634.50),
+    ("235/65 R16C", 711.90, 711.50),
+    ("275/35 R20", 700.50, 700.50),
+    ("215/60 R16", 664.40, None),  # also worked by hand on a secondary page: 664.4 mm
+]
+
+
+@pytest.mark.parametrize("size, d_exact_mm, d_r30_mm", DIAMETERS_MM)
+def test_unloaded_diameter_reference_sizes(size, d_exact_mm, d_r30_mm):
+    w, a, rim, _ = parse_tyre_size(size)
+    d_m = unloaded_diameter_m(w, a, rim)
+    assert d_m == pytest.approx(d_exact_mm / 1000.0, abs=0.5e-3)
+    if d_r30_mm is not None:
+        assert d_m == pytest.approx(d_r30_mm / 1000.0, abs=0.5e-3)
+
+
+def test_section_height_and_radius_205_55_r16():
+    # reference-values.md section 3: H = 112.75 mm, r0 = 315.95 mm (computed there with d = 25.4 x code)
+    d_m = unloaded_diameter_m(205, 55, 16)
+    assert (d_m - 16 * 0.0254) / 2 == pytest.approx(0.11275, abs=1e-9)
+    assert d_m / 2 == pytest.approx(0.31595, abs=1e-9)
+    # free circumference pi D = 1985.2 mm (printed to 0.1 mm)
+    assert np.pi * d_m * 1000 == pytest.approx(1985.2, abs=0.05)
+
+
+def test_unloaded_diameter_is_vectorised():
+    d = unloaded_diameter_m(np.array([205, 235]), np.array([55, 65]), np.array([16, 16]))
+    assert d.shape == (2,)
+    # reference-values.md section 3 (exact rim convention)
+    np.testing.assert_allclose(d, [0.6319, 0.7119], atol=1e-9)
+
+
+# ----------------------------------------------------------------------------- speed symbols
+
+# ISO 4000-1 / UN ECE R30 speed symbols, reference-values.md section 4 (confirmed via several secondary pages)
+SPEED_TABLE = {"L": 120, "M": 130, "N": 140, "P": 150, "Q": 160, "R": 170, "S": 180, "T": 190,
+               "U": 200, "H": 210, "V": 240, "W": 270, "Y": 300}
+# Lower symbols, reference-values.md section 4: from memory, also on one secondary page
+SPEED_TABLE_LOW = {"A1": 5, "A2": 10, "A3": 15, "A4": 20, "A5": 25, "A6": 30, "A7": 35, "A8": 40,
+                   "B": 50, "C": 60, "D": 65, "E": 70, "F": 80, "G": 90, "J": 100, "K": 110}
+
+
+@pytest.mark.parametrize("symbol, kmh", sorted({**SPEED_TABLE, **SPEED_TABLE_LOW}.items()))
+def test_speed_symbols(symbol, kmh):
+    assert speed_rating_kmh(symbol) == kmh
+    assert SPEED_SYMBOL_KMH[symbol] == kmh
+
+
+def test_speed_symbol_table_has_no_other_entries():
+    assert set(SPEED_SYMBOL_KMH) == set(SPEED_TABLE) | set(SPEED_TABLE_LOW)
+
+
+def test_speed_rating_vectorised_and_case_insensitive():
+    out = speed_rating_kmh(np.array(["h", " V ", "a8"]))
+    np.testing.assert_array_equal(out, [210.0, 240.0, 40.0])  # ISO 4000-1 speed symbols
+
+
+@pytest.mark.parametrize("bad", ["X", "Z", "A9", "ZR", "(Y)", ""])
+def test_unknown_speed_symbol_raises(bad):
+    with pytest.raises(ValueError, match="unknown speed symbol"):
+        speed_rating_kmh(bad)
+
+
+# ------------------------------------------------------------------------------ load indices
+
+# ISO 4000-1 / UN ECE R30 Annex 4 load index table, transcribed from reference-values.md section 5
+# (LI 60-119 confirmed via two independent secondary tables; 120-130 via a table in pounds).
+_LI_COLUMNS = {
+    60: [250, 257, 265, 272, 280, 290, 300, 307, 315, 325, 335, 345],
+    72: [355, 365, 375, 387, 400, 412, 425, 437, 450, 462, 475, 487],
+    84: [500, 515, 530, 545, 560, 580, 600, 615, 630, 650, 670, 690],
+    96: [710, 730, 750, 775, 800, 825, 850, 875, 900, 925, 950, 975],
+    108: [1000, 1030, 1060, 1090, 1120, 1150, 1180, 1215, 1250, 1285, 1320, 1360],
+    120: [1400, 1450, 1500, 1550, 1600, 1650, 1700, 1750, 1800, 1850, 1900],
+}
+LI_TABLE = {start + i: kg for start, col in _LI_COLUMNS.items() for i, kg in enumerate(col)}
+
+
+def test_load_index_table_covers_60_to_130():
+    assert sorted(LI_TABLE) == list(range(60, 131))
+    assert LOAD_INDEX_KG == {k: float(v) for k, v in LI_TABLE.items()}
+
+
+@pytest.mark.parametrize("li, kg", sorted(LI_TABLE.items()))
+def test_load_index(li, kg):
+    assert load_capacity_kg(li) == kg
+
+
+@pytest.mark.parametrize("li, kg", [(91, 615), (94, 670), (106, 950), (110, 1060), (112, 1120)])
+def test_load_index_single_points(li, kg):
+    # single published points on further secondary pages, reference-values.md section 5
+    assert load_capacity_kg(li) == kg
+
+
+@pytest.mark.parametrize("li, lb", [(120, 3086), (130, 4189)])
+def test_load_index_against_pound_table(li, lb):
+    # secondary table in pounds (reference-values.md section 5); pint converts lb -> kg (1959 pound).
+    # The pound table is rounded to 1 lb (0.45 kg), the kg table to the R-series step: allow 1 kg.
+    kg = pint.UnitRegistry().Quantity(lb, "lb").to("kg").magnitude
+    assert load_capacity_kg(li) == pytest.approx(kg, abs=1.0)
+
+
+def test_load_capacity_vectorised():
+    out = load_capacity_kg(np.array([[60, 91], [115, 130]]))
+    # ISO 4000-1 load index table (reference-values.md section 5)
+    np.testing.assert_array_equal(out, [[250.0, 615.0], [1215.0, 1900.0]])
+    assert load_capacity_kg(91.0) == 615.0  # a whole-number float is accepted
+
+
+@pytest.mark.parametrize("bad", [59, 131, 91.5, -1, "91", True, float("nan")])
+def test_load_index_outside_table_raises(bad):
+    with pytest.raises(ValueError, match=r"load index .* is not supported; .* 60\.\.130"):
+        load_capacity_kg(bad)

@@ -232,79 +232,90 @@ def launch_accel_mps2(drive: Drive, body: Body):
 
 # --------------------------------------------------------------------------- acceleration run
 
-def _accel_parts(drive: Drive, body: Body, m_eff, kap, wd_n, v):
-    """Net acceleration at speeds v (shape (n, s)) for designs broadcast along axis 0 [m/s^2]."""
+def _accel_parts(drive: Drive, body: Body, m_eff, kap, wd_n, v, a_cap=None):
+    """Motor-limited and traction-limited acceleration at speeds v (shape (n, s)) [m/s^2].
+
+    Designs are broadcast along axis 0. ``a_cap`` (n,) replaces the traction-limited acceleration
+    by a given bound (used for optimistic bounds); None = load-transfer physics.
+    """
     col = lambda a: np.asarray(a)[:, None]  # noqa: E731
     f_res = col(body.mass_kg) * G_N * col(body.crr) + col(body.q_n_s2_m2) * v * v
     dcol = Drive(*[col(getattr(drive, f.name)) for f in fields(Drive)])
     f_w = wheel_force(dcol, v)
-    a_trac = traction_limited_accel_mps2(col(body.road_friction), col(wd_n), f_res, col(m_eff), col(kap))
+    if a_cap is None:
+        a_trac = traction_limited_accel_mps2(col(body.road_friction), col(wd_n), f_res, col(m_eff), col(kap))
+    else:
+        a_trac = np.broadcast_to(col(a_cap), f_res.shape)
     a_motor = (f_w - f_res) / col(m_eff)
-    return np.minimum(a_motor, a_trac), f_w, f_res
+    return a_motor, a_trac
 
 
-def accel_time_s(drive: Drive, body: Body, target_mps, chunk=20000):
+def accel_time_s(drive: Drive, body: Body, target_mps, chunk=20000, traction_accel_bound_mps2=None):
     """Time from rest to ``target_mps`` on the level, with traction limit and load transfer [s].
 
     t = integral over v of m_eff / (min(F_w, F_trac) - F_res) dv, integrated in speed and split
     at the envelope's corner and decline speeds and at every motor/traction crossover (found by
     sampling and bisection), with Gauss-Legendre quadrature on each smooth piece. Infinite when
     the target exceeds the vehicle's maximum speed or the net force vanishes before it.
+    ``traction_accel_bound_mps2`` (optional, per design) replaces the traction-limited
+    acceleration by a given value (optimistic bounds in the optimiser).
     """
     drive, body = broadcast(drive, body)
     n = drive.ratio.shape[0]
     target = np.broadcast_to(np.asarray(target_mps, dtype=float), (n,)).copy()
+    cap = None
+    if traction_accel_bound_mps2 is not None:
+        cap = np.broadcast_to(np.asarray(traction_accel_bound_mps2, dtype=float), (n,)).copy()
     out = np.empty(n)
     for s in range(0, n, chunk):
         sl = slice(s, min(n, s + chunk))
-        out[sl] = _accel_time_chunk(take(drive, sl), take(body, sl), target[sl])
+        out[sl] = _accel_time_chunk(take(drive, sl), take(body, sl), target[sl], None if cap is None else cap[sl])
     return out
 
 
-def _accel_time_chunk(drive: Drive, body: Body, v_a):
+def _accel_time_chunk(drive: Drive, body: Body, v_a, a_cap=None):
     n = v_a.shape[0]
     m_eff = effective_mass(drive, body)
     kap = kappa(drive, body, m_eff)
     wd_n = driven_weight_n(body)
     e = drive.gear_over_radius
     reach = (v_a <= gearing_speed_limit_mps(drive) * (1 + 1e-12)) & (v_a <= body.speed_limit_mps)
-    a_end, _, _ = _accel_parts(drive, body, m_eff, kap, wd_n, v_a[:, None])
+
+    def net(sub, v):
+        a_m, a_t = _accel_parts(*sub[:5], v, sub[5])
+        return np.minimum(a_m, a_t), a_m - a_t
+
+    full = (drive, body, m_eff, kap, wd_n, a_cap)
+    a_end, _ = net(full, v_a[:, None])
     reach &= a_end[:, 0] > 0
     # Envelope breakpoints clipped to [0, v_a].
     v_c = np.clip(drive.power_w / drive.torque_nm / e, 0.0, v_a)
     v_d = np.clip(drive.decline_rad_s / e, 0.0, v_a)
     edges = [np.zeros(n), v_c, v_d, v_a]
-    # Motor/traction crossovers: sign changes of d = (1-k) F_w + k F_res - mu W_d on each piece.
-    pieces = [(np.zeros(n), v_c), (v_c, v_d), (v_d, v_a)]
+    # Motor/traction crossovers: sign changes of a_motor - a_traction on each smooth piece.
     col = lambda a: a[:, None]  # noqa: E731
-    traction_possible = (1.0 - kap) > 0
-
-    def d_fun(v):
-        _, f_w, f_res = _accel_parts(drive, body, m_eff, kap, wd_n, v)
-        return (1.0 - col(kap)) * f_w + col(kap) * f_res - col(body.road_friction * wd_n)
-
     frac = np.linspace(0.0, 1.0, _CROSS_SAMPLES)[None, :]
-    for lo, hi in pieces:
+    for lo, hi in ((np.zeros(n), v_c), (v_c, v_d), (v_d, v_a)):
         vs = col(lo) + (col(hi) - col(lo)) * frac
-        sg = d_fun(vs) > 0
-        change = sg[:, 1:] != sg[:, :-1]
-        has = change.any(axis=1) & traction_possible & (hi > lo)
+        _, dv = net(full, vs)
+        sg = dv > 0
+        change = (sg[:, 1:] != sg[:, :-1]) & np.isfinite(dv[:, 1:]) & np.isfinite(dv[:, :-1])
+        has = change.any(axis=1) & (hi > lo)
         first = np.argmax(change, axis=1)
         last = change.shape[1] - 1 - np.argmax(change[:, ::-1], axis=1)
         for idx, use in ((first, has), (last, has & (last != first))):
             rows = np.nonzero(use)[0]
             cross = v_a.copy()
             if rows.size:
-                sub_d, sub_b = take(drive, rows), take(body, rows)
-                sub = (m_eff[rows], kap[rows], wd_n[rows])
+                sub = (take(drive, rows), take(body, rows), m_eff[rows], kap[rows], wd_n[rows],
+                       None if a_cap is None else a_cap[rows])
                 a = vs[rows, idx[rows]].copy()
                 b = vs[rows, idx[rows] + 1].copy()
                 s_a = sg[rows, idx[rows]]
                 for _ in range(_BISECT_STEPS):
                     mid = 0.5 * (a + b)
-                    _, f_w, f_res = _accel_parts(sub_d, sub_b, *sub, mid[:, None])
-                    d_mid = (1.0 - sub[1]) * f_w[:, 0] + sub[1] * f_res[:, 0] - sub_b.road_friction * sub[2]
-                    same = (d_mid > 0) == s_a
+                    _, d_mid = net(sub, mid[:, None])
+                    same = (d_mid[:, 0] > 0) == s_a
                     a = np.where(same, mid, a)
                     b = np.where(same, b, mid)
                 cross[rows] = 0.5 * (a + b)
@@ -316,7 +327,7 @@ def _accel_time_chunk(drive: Drive, body: Body, v_a):
         a, b = br[:, i], br[:, i + 1]
         half = 0.5 * (b - a)
         v = col(0.5 * (a + b)) + col(half) * _GL_X[None, :]
-        acc, _, _ = _accel_parts(drive, body, m_eff, kap, wd_n, v)
+        acc, _ = net(full, v)
         width_pos = half > 0
         ok &= ~(width_pos & (acc <= 0).any(axis=1))
         with np.errstate(divide="ignore", invalid="ignore"):

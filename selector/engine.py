@@ -1,0 +1,169 @@
+"""The exact search: relax (MILP), verify (exact physics on a motor's whole slice), cut, repeat.
+
+Every model row is a relaxation, so the MILP optimum bounds the true optimum from below. Each
+iteration takes the motor the MILP picks, evaluates that motor's entire reducer x tyre slice
+with the exact physics (`evaluate.screen`), adds its best designs to a pool, forbids the motor,
+and tightens an objective cutoff to the pool's ``count``-th best value. When the MILP becomes
+infeasible, no unevaluated motor can beat the pool, so the pool is exact. At most one iteration
+per motor. Ties within 1e-9 relative are broken by part-id order (motor, reducer, tyre).
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from .bounds import accel_windows
+from .errors import SolverUnavailableError
+from .evaluate import order_best, screen, slice_indices, tie_tolerance
+from .model import SelectionModel
+from .parts import PartTables
+from .study import Requirements
+from .units import kmh_to_mps
+
+SOLVER_OPTIONS = {"mip_rel_gap": 0.0, "mip_abs_gap": 1e-9, "presolve": "off"}
+"""HiGHS options: exact gaps; presolve off (measured faster on these small dense one-hot models,
+see benchmarks/). Each solve only proposes a motor; exactness comes from the slice evaluation."""
+
+STATUS_OPTIMAL = "optimal"
+STATUS_INFEASIBLE = "infeasible"
+STATUS_TIME_LIMIT = "time_limit"
+
+
+@dataclass
+class SearchResult:
+    """Outcome of one exact search.
+
+    ``designs``: list of (objective value, motor idx, reducer idx, tyre idx), best first.
+    ``bound``: proven lower bound on the objective (equal to the best value when optimal).
+    """
+
+    status: str
+    objective: str
+    designs: list = field(default_factory=list)
+    bound: float | None = None
+    iterations: int = 0
+    reason: str | None = None
+    timings: dict = field(default_factory=lambda: {"build_s": 0.0, "solve_s": 0.0, "verify_s": 0.0})
+
+    @property
+    def gap(self) -> float | None:
+        """Relative gap between the best design and the bound (0 when optimal)."""
+        if not self.designs or self.bound is None:
+            return None
+        best = self.designs[0][0]
+        return 0.0 if best == self.bound else abs(best - self.bound) / max(abs(best), 1e-12)
+
+
+def _solver():
+    try:
+        from pyomo.contrib.solver.solvers.highs import Highs
+    except Exception as exc:  # pragma: no cover - depends on the installation
+        raise SolverUnavailableError(f"cannot load the HiGHS interface of Pyomo: {exc}. "
+                                     "Reinstall with: pip install pyomo highspy") from exc
+    opt = Highs()
+    if not opt.available():
+        raise SolverUnavailableError("the HiGHS solver (highspy) is not available. Install it with: pip install highspy")
+    return opt
+
+
+def search(parts: PartTables, objective: str | None = None, count: int = 1, per_motor: int | None = None,
+           requirements: Requirements | None = None, allowed: dict | None = None,
+           time_limit_s: float | None = None, threads: int = 1) -> SearchResult:
+    """Find the ``count`` best designs exactly.
+
+    Parameters
+    ----------
+    parts : the study's part tables
+    objective : "cost" | "mass" | "accel_time" (default: the problem's)
+    count : number of best designs wanted [-]
+    per_motor : at most this many designs per motor (1 = every design a different motor)
+    requirements : override of the problem's requirements (explain, frontier, sweeps)
+    allowed : {"motors"|"reducers"|"tyres": positions allowed} (procurement filters, exclusions)
+    time_limit_s : wall-clock limit [s]; on expiry status is "time_limit" with the best so far
+    threads : HiGHS threads [-]
+    """
+    t_start = time.perf_counter()
+    problem = parts.problem
+    objective = objective or problem.objective
+    req = requirements or problem.requirements
+    if req is not problem.requirements:
+        parts = replace(parts, problem=replace(problem, requirements=req))
+    result = SearchResult(status=STATUS_INFEASIBLE, objective=objective)
+    allowed = allowed or {}
+    if any(a is not None and len(a) == 0 for a in allowed.values()):
+        result.reason = "no parts left after the procurement filters"
+        return result
+
+    windows = None
+    accel_needed = req.accel_to_kmh is not None and (req.accel_time_s is not None or objective == "accel_time")
+    t0 = time.perf_counter()
+    if accel_needed:
+        windows = accel_windows(parts, kmh_to_mps(req.accel_to_kmh), req.accel_time_s)
+    model = SelectionModel(parts, objective, windows=windows,
+                           accel_target_kmh=req.accel_to_kmh if accel_needed else None,
+                           accel_limit_s=req.accel_time_s, allowed=allowed)
+    result.timings["build_s"] += time.perf_counter() - t0
+    if model.infeasible_reason:
+        result.reason = model.infeasible_reason
+        return result
+
+    opt = _solver()
+    scale = model.objective_scale()
+    per_slice = count if per_motor is None else min(count, per_motor)
+    pool_vals, pool_keys = np.empty(0), np.empty((0, 3), dtype=np.int64)
+    reducers, tyres = allowed.get("reducers"), allowed.get("tyres")
+    from pyomo.contrib.solver.common.results import TerminationCondition as TC
+
+    options = dict(SOLVER_OPTIONS, threads=threads)
+    while True:
+        remaining = None if time_limit_s is None else time_limit_s - (time.perf_counter() - t_start)
+        if remaining is not None and remaining <= 0:
+            result.status = STATUS_TIME_LIMIT
+            break
+        if len(pool_vals) >= count:
+            kth = pool_vals[order_best(pool_vals, pool_keys, count)[-1]]
+            model.set_cutoff((kth + tie_tolerance(kth)) * scale)
+        t0 = time.perf_counter()
+        res = opt.solve(model.m, load_solutions=False, raise_exception_on_nonoptimal_result=False,
+                        time_limit=remaining, solver_options=options)
+        result.timings["solve_s"] += time.perf_counter() - t0
+        result.iterations += 1
+        tc = res.termination_condition
+        if tc in (TC.provenInfeasible, TC.infeasibleOrUnbounded, TC.locallyInfeasible):
+            result.status = STATUS_OPTIMAL if len(pool_vals) else STATUS_INFEASIBLE
+            break
+        if tc == TC.maxTimeLimit and res.incumbent_objective is None:
+            result.status = STATUS_TIME_LIMIT
+            result.bound = None if res.objective_bound is None else res.objective_bound / scale
+            break
+        if tc not in (TC.convergenceCriteriaSatisfied, TC.maxTimeLimit):
+            raise SolverUnavailableError(f"HiGHS stopped unexpectedly ({tc.name}); rerun with --verbose and report it")
+        res.solution_loader.load_vars()
+        i, _, _ = model.chosen()
+        if tc == TC.maxTimeLimit:
+            result.bound = None if res.objective_bound is None else res.objective_bound / scale
+        t0 = time.perf_counter()
+        mi, rj, tk = slice_indices(parts, i, reducers, tyres)
+        ok, vals = screen(parts, mi, rj, tk, objective)
+        if ok.any():
+            keys = np.stack([mi[ok], rj[ok], tk[ok]], axis=1)
+            best = order_best(vals[ok], keys, per_slice)
+            pool_vals = np.concatenate([pool_vals, vals[ok][best]])
+            pool_keys = np.concatenate([pool_keys, keys[best]])
+        result.timings["verify_s"] += time.perf_counter() - t0
+        model.exclude_motor(i)
+        if tc == TC.maxTimeLimit:
+            result.status = STATUS_TIME_LIMIT
+            break
+
+    order = order_best(pool_vals, pool_keys, count)
+    result.designs = [(float(pool_vals[b]), int(pool_keys[b, 0]), int(pool_keys[b, 1]), int(pool_keys[b, 2]))
+                      for b in order]
+    if result.status == STATUS_OPTIMAL:
+        result.bound = result.designs[0][0]
+    elif result.status == STATUS_INFEASIBLE:
+        result.reason = result.reason or "no design in the catalogues meets every requirement"
+    return result

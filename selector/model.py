@@ -1,0 +1,407 @@
+"""The selection MILP in Pyomo, built from catalogue tables.
+
+One-hot binaries pick a motor x_i, a reducer variant y_j and a tyre z_k. Requirements become
+linear rows in log space (L = ln(G/r), E = ln(eta)), each a *relaxation* of the exact physics:
+exact where the physics is linear or log-linear, chords (under-estimators) of concave logs of
+mass and road load, tangents (under-estimators) of the convex log-sum-exp of translational and
+rotor inertia, and dropped terms only where they are demands. The engine (`engine.py`) verifies
+every candidate by the exact physics, so the model never needs to be exact, only valid: it must
+never cut off a design that meets every requirement.
+
+Scaling: masses in tonnes, money in thousands, logs of SI values.
+
+A drive unit (motor + reducer selection with its log-gearing copies) is a Pyomo Block, so that
+a second axle or a multi-speed reducer can be composed later; today the model has one unit.
+
+Every constraint family is one function registered in `FAMILIES` with its name, unit, the
+problem key that sets it and its formula; `explain` and DEVELOPERS.md read that registry.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+import pyomo.environ as pyo
+
+from .bounds import AccelWindows, log_gearing_range
+from .parts import PartTables
+from .units import G_N, kmh_to_mps
+
+SLACK_LOG = 1e-7
+"""Slack added to every log-space row [-] (floating-point safety; keeps the model a relaxation)."""
+SLACK_T = 1e-7
+"""Slack added to every row in tonnes or thousands [-]."""
+LSE_TANGENTS = (-9.0, -7.0, -6.0, -5.0, -4.5, -4.0, -3.5, -3.0, -2.5, -2.0, -1.5, -1.0, 0.0, 1.0)
+"""Points d = Y - X where the log-sum-exp ln(e^X + e^Y) is under-estimated by tangents [-]."""
+
+
+@dataclass(frozen=True)
+class Family:
+    """A registered constraint family."""
+
+    name: str
+    key: str | None
+    """Problem-file key that switches the family on (None: always on)."""
+    unit: str
+    formula: str
+    build: Callable
+
+
+FAMILIES: dict[str, Family] = {}
+
+
+def family(name: str, key: str | None, unit: str, formula: str):
+    """Register a constraint-family builder under ``name``."""
+
+    def deco(fn):
+        FAMILIES[name] = Family(name, key, unit, formula, fn)
+        return fn
+
+    return deco
+
+
+# ----------------------------------------------------------------------------- helpers
+
+def _sum(coefs, var, idx=None):
+    """Linear expression sum_i coefs[i] var[i] skipping zero coefficients."""
+    idx = range(len(coefs)) if idx is None else idx
+    return pyo.quicksum(float(coefs[i]) * var[i] for i in idx if coefs[i] != 0.0)
+
+
+def _chord(f, lo, hi):
+    """Intercept and slope of the chord of concave f on [lo, hi] (per element)."""
+    lo = np.asarray(lo, dtype=float)
+    hi = np.asarray(hi, dtype=float)
+    f_lo, f_hi = f(lo), f(hi)
+    width = hi - lo
+    slope = np.where(width > 1e-12, (f_hi - f_lo) / np.where(width > 1e-12, width, 1.0), 0.0)
+    intercept = f_lo - slope * lo
+    return intercept, slope
+
+
+def _softplus(d):
+    return np.log1p(np.exp(d)) if d < 30 else d
+
+
+def _sigmoid(d):
+    return 1.0 / (1.0 + np.exp(-d))
+
+
+# ----------------------------------------------------------------------------- model
+
+class SelectionModel:
+    """Pyomo model of one study, with handles the engine needs.
+
+    Attributes: ``m`` (the ConcreteModel), ``unit`` (the drive-unit block), ``parts``,
+    ``infeasible_reason`` (str when a requirement can be ruled out before solving, e.g. a top
+    speed above the speed limiter), ``families`` (names of the families built).
+    """
+
+    def __init__(self, parts: PartTables, objective: str, windows: AccelWindows | None = None,
+                 accel_target_kmh: float | None = None, accel_limit_s: float | None = None,
+                 requirements=None, allowed=None):
+        self.parts = parts
+        self.objective_name = objective
+        self.req = parts.problem.requirements if requirements is None else requirements
+        self.accel_target_kmh = accel_target_kmh
+        self.accel_limit_s = accel_limit_s
+        self.windows = windows
+        self.infeasible_reason: str | None = None
+        self.families: list[str] = []
+        self.allowed = allowed
+        self._build()
+
+    # -- structure ----------------------------------------------------------
+    def _build(self):
+        p = self.parts
+        n_m, n_r, n_t = p.sizes
+        mo, re, ty = p.motors, p.reducers, p.tyres
+        v = p.problem.vehicle
+        m = pyo.ConcreteModel(name="selector")
+        self.m = m
+        m.K = pyo.RangeSet(0, n_t - 1)
+        m.z = pyo.Var(m.K, domain=pyo.Binary)
+        m.one_tyre = pyo.Constraint(expr=pyo.quicksum(m.z[k] for k in m.K) == 1)
+        u = pyo.Block()
+        m.unit = u
+        self.unit = u
+        u.I = pyo.RangeSet(0, n_m - 1)
+        u.J = pyo.RangeSet(0, n_r - 1)
+        u.x = pyo.Var(u.I, domain=pyo.Binary)
+        u.y = pyo.Var(u.J, domain=pyo.Binary)
+        u.one_motor = pyo.Constraint(expr=pyo.quicksum(u.x[i] for i in u.I) == 1)
+        u.one_reducer = pyo.Constraint(expr=pyo.quicksum(u.y[j] for j in u.J) == 1)
+        if self.allowed is not None:
+            for kind, var in (("motors", u.x), ("reducers", u.y), ("tyres", m.z)):
+                keep = self.allowed.get(kind)
+                if keep is not None:
+                    keep = set(int(a) for a in keep)
+                    for idx in var:
+                        if idx not in keep:
+                            var[idx].fix(0)
+
+        # log gearing L = ln G - ln r, log efficiency E, per-motor copies Lm_i = x_i L
+        self.ln_g = np.log(re.ratio)
+        self.ln_r = np.log(ty.radius_m)
+        self.ln_eta = np.log(re.efficiency)
+        u.L = pyo.Expression(expr=_sum(self.ln_g, u.y) - _sum(self.ln_r, m.z))
+        u.E = pyo.Expression(expr=_sum(self.ln_eta, u.y))
+        l_lo, l_hi = log_gearing_range(p)
+        self.l_range = (l_lo, l_hi)
+        u.Lm = pyo.Var(u.I, bounds=(min(l_lo, 0.0), max(l_hi, 0.0)))
+        u.Lm_sum = pyo.Constraint(expr=pyo.quicksum(u.Lm[i] for i in u.I) == u.L)
+        u.Lm_lo_p = pyo.Param(u.I, mutable=True, initialize=l_lo)
+        u.Lm_hi_p = pyo.Param(u.I, mutable=True, initialize=l_hi)
+        u.Lm_lo = pyo.Constraint(u.I, rule=lambda b, i: b.Lm[i] >= b.Lm_lo_p[i] * b.x[i])
+        u.Lm_hi = pyo.Constraint(u.I, rule=lambda b, i: b.Lm[i] <= b.Lm_hi_p[i] * b.x[i])
+
+        # mass [t] and its disaggregated copies per motor and per tyre
+        n = v.tyre_count
+        self.mm_t = mo.mass_kg / 1000.0
+        self.mr_t = re.mass_kg / 1000.0
+        self.mt_t = ty.mass_kg / 1000.0
+        m0 = v.mass_kg / 1000.0
+        m.mass = pyo.Expression(expr=m0 + _sum(self.mm_t, u.x) + _sum(self.mr_t, u.y) + n * _sum(self.mt_t, m.z))
+        self.mass_lo_motor = m0 + self.mm_t + self.mr_t.min() + n * self.mt_t.min()
+        self.mass_hi_motor = m0 + self.mm_t + self.mr_t.max() + n * self.mt_t.max()
+        self.mass_lo_tyre = m0 + self.mm_t.min() + self.mr_t.min() + n * self.mt_t
+        self.mass_hi_tyre = m0 + self.mm_t.max() + self.mr_t.max() + n * self.mt_t
+        u.Mi = pyo.Var(u.I, bounds=(0.0, float(self.mass_hi_motor.max())))
+        u.Mi_sum = pyo.Constraint(expr=pyo.quicksum(u.Mi[i] for i in u.I) == m.mass)
+        u.Mi_lo = pyo.Constraint(u.I, rule=lambda b, i: b.Mi[i] >= float(self.mass_lo_motor[i]) * b.x[i])
+        u.Mi_hi = pyo.Constraint(u.I, rule=lambda b, i: b.Mi[i] <= float(self.mass_hi_motor[i]) * b.x[i])
+        m.Mk = pyo.Var(m.K, bounds=(0.0, float(self.mass_hi_tyre.max())))
+        m.Mk_sum = pyo.Constraint(expr=pyo.quicksum(m.Mk[k] for k in m.K) == m.mass)
+        m.Mk_lo = pyo.Constraint(m.K, rule=lambda b, k: b.Mk[k] >= float(self.mass_lo_tyre[k]) * b.z[k])
+        m.Mk_hi = pyo.Constraint(m.K, rule=lambda b, k: b.Mk[k] <= float(self.mass_hi_tyre[k]) * b.z[k])
+        # chord of ln(mass_kg) per motor: lnm <= ln(mass) for every design
+        a_i, b_i = _chord(lambda t: np.log(1000.0 * t), self.mass_lo_motor, self.mass_hi_motor)
+        m.lnm = pyo.Expression(expr=_sum(a_i, u.x) + _sum(b_i, u.Mi))
+        # sum_k crr_k * mass (exact with the tyre copies) [t]
+        m.crr_mass = pyo.Expression(expr=_sum(ty.crr, m.Mk))
+        # axle masses [t]
+        share0 = v.rear_axle_share
+        drive_parts = _sum(self.mm_t, u.x) + _sum(self.mr_t, u.y)
+        tyres_half = 0.5 * n * _sum(self.mt_t, m.z)
+        rear_drive = p.rear_drive
+        m.rear_mass = pyo.Expression(expr=share0 * m0 + tyres_half + (drive_parts if rear_drive else 0.0))
+        m.front_mass = pyo.Expression(expr=(1 - share0) * m0 + tyres_half + (0.0 if rear_drive else drive_parts))
+        m.cost = pyo.Expression(expr=(_sum(mo.cost, u.x) + _sum(re.cost, u.y) + n * _sum(ty.cost, m.z)) / 1000.0)
+
+        for fam in FAMILIES.values():
+            if fam.key is None or self._stated(fam.key):
+                fam.build(self)
+                self.families.append(fam.name)
+
+        # objective and cutoff
+        if self.objective_name == "cost":
+            expr = m.cost
+        elif self.objective_name == "mass":
+            expr = m.mass
+        else:
+            u.t_coef = pyo.Param(u.I, mutable=True, initialize=0.0)
+            expr = pyo.quicksum(u.t_coef[i] * u.x[i] for i in u.I)
+        m.obj_expr = pyo.Expression(expr=expr)
+        m.obj = pyo.Objective(expr=m.obj_expr, sense=pyo.minimize)
+        m.cutoff_p = pyo.Param(mutable=True, initialize=0.0)
+        m.cutoff = pyo.Constraint(expr=m.obj_expr <= m.cutoff_p)
+        m.cutoff.deactivate()
+        if self.windows is not None:
+            self.set_windows(self.windows)
+
+    def _stated(self, key: str) -> bool:
+        if key == "accel":
+            return self.accel_target_kmh is not None and (
+                self.accel_limit_s is not None or self.objective_name == "accel_time")
+        return getattr(self.req, key, None) is not None
+
+    # -- engine handles --------------------------------------------------------
+    def objective_scale(self) -> float:
+        """Model objective units per reported unit (cost: 1/1000, mass: 1/1000, time: 1)."""
+        return 1e-3 if self.objective_name in ("cost", "mass") else 1.0
+
+    def set_windows(self, windows: AccelWindows):
+        """Apply per-motor L windows (and optimistic times for the accel_time objective)."""
+        u = self.unit
+        l_lo, l_hi = self.l_range
+        for i in u.I:
+            lo, hi = float(windows.lo[i]), float(windows.hi[i])
+            if lo > hi:
+                u.x[i].setub(0)
+                u.Lm_lo_p[i] = l_lo
+                u.Lm_hi_p[i] = l_hi
+            else:
+                u.Lm_lo_p[i] = max(lo, l_lo - 1.0)
+                u.Lm_hi_p[i] = min(hi, l_hi + 1.0)
+            if self.objective_name == "accel_time":
+                t = float(windows.t_min_s[i])
+                u.t_coef[i] = t if np.isfinite(t) else 1e6
+
+    def set_cutoff(self, value_model_units: float):
+        """Objective <= value (in model units), loosened slightly: the model stays a relaxation."""
+        self.m.cutoff_p = float(value_model_units) * (1 + 1e-7) + 1e-7
+        self.m.cutoff.activate()
+
+    def exclude_motor(self, i: int):
+        """Forbid motor i (its whole slice has been evaluated exactly)."""
+        self.unit.x[i].setub(0)
+
+    def chosen(self) -> tuple[int, int, int]:
+        """(motor, reducer, tyre) positions of the loaded solution."""
+        u, m = self.unit, self.m
+        i = max(u.I, key=lambda a: pyo.value(u.x[a]))
+        j = max(u.J, key=lambda a: pyo.value(u.y[a]))
+        k = max(m.K, key=lambda a: pyo.value(m.z[a]))
+        return int(i), int(j), int(k)
+
+    def rule_out(self, reason: str):
+        """Record a requirement that no part choice can meet; the study is infeasible."""
+        if self.infeasible_reason is None:
+            self.infeasible_reason = reason
+
+
+# ----------------------------------------------------------------------------- families
+
+def _envelope_rows(sm: SelectionModel, name: str, speed_mps: float, continuous: bool):
+    """Rows: every envelope branch's wheel force at ``speed_mps`` covers the level road load there."""
+    p, u, m = sm.parts, sm.unit, sm.m
+    mo, ty = p.motors, p.tyres
+    t_lim = mo.cont_torque_nm if continuous else mo.torque_nm
+    p_lim = mo.cont_power_w if continuous else mo.power_w
+    q_v2 = p.q_n_s2_m2 * speed_mps ** 2
+    # chord of D_k(M) = ln(g crr_k 1000 M + q v^2) on each tyre's mass range
+    a_k, b_k = _chord(lambda t: np.log(G_N * ty.crr * 1000.0 * t + q_v2), sm.mass_lo_tyre, sm.mass_hi_tyre)
+    demand = _sum(a_k, m.z) + _sum(b_k, m.Mk)
+    ln_v = np.log(speed_mps)
+    k = mo.decline_exponent
+    blk = pyo.Block()
+    setattr(m, name, blk)
+    blk.torque = pyo.Constraint(expr=u.E + _sum(np.log(t_lim), u.x) + u.L >= demand - SLACK_LOG)
+    blk.power = pyo.Constraint(expr=u.E + _sum(np.log(p_lim) - ln_v, u.x) >= demand - SLACK_LOG)
+    const = np.log(p_lim) + k * np.log(mo.decline_rad_s) - (k + 1) * ln_v
+    blk.decline = pyo.Constraint(expr=u.E + _sum(const, u.x) - _sum(k, u.Lm) >= demand - SLACK_LOG)
+
+
+def _gearing_row(sm: SelectionModel, name: str, speed_mps: float):
+    """Row: gearing limit w_max r/G >= speed."""
+    u = sm.unit
+    setattr(sm.m, name, pyo.Constraint(
+        expr=_sum(np.log(sm.parts.motors.max_speed_rad_s), u.x) - u.L >= np.log(speed_mps) - SLACK_LOG))
+
+
+@family("top_speed", "top_speed_kmh", "km/h",
+        "ln(w_max) - L >= ln V; for each continuous-envelope branch b: E + ln F_b(L) >= chord ln(m g Crr + q V^2)")
+def _top_speed(sm: SelectionModel):
+    v_kmh = sm.req.top_speed_kmh
+    lim = sm.req.speed_limiter_kmh
+    if lim is not None and lim < v_kmh * (1 - 1e-9):
+        sm.rule_out(f"top_speed_kmh = {v_kmh:g} is above speed_limiter_kmh = {lim:g}")
+        return
+    v = kmh_to_mps(v_kmh)
+    _gearing_row(sm, "top_speed_gearing", v)
+    _envelope_rows(sm, "top_speed_envelope", v, continuous=True)
+
+
+@family("gradeability", "gradeability_pct", "%",
+        "E + ln T_pk + L >= chord ln m + ln g(Crr cos + sin); mu N_driven(theta) >= m g (Crr cos + sin) (exact, linear)")
+def _gradeability(sm: SelectionModel):
+    p, u, m = sm.parts, sm.unit, sm.m
+    theta = np.arctan(sm.req.gradeability_pct / 100.0)
+    c, s = np.cos(theta), np.sin(theta)
+    ty = p.tyres
+    m.grade_motor = pyo.Constraint(
+        expr=u.E + _sum(np.log(p.motors.torque_nm), u.x) + u.L
+        >= m.lnm + _sum(np.log(G_N * (ty.crr * c + s)), m.z) - SLACK_LOG)
+    v = p.problem.vehicle
+    mu = p.problem.environment.road_friction
+    hl = v.cg_height_m / v.wheelbase_m
+    if p.rear_drive:
+        traction = mu * (m.rear_mass * c + m.mass * hl * s)
+    else:
+        traction = mu * (m.front_mass * c - m.mass * hl * s)
+    m.grade_traction = pyo.Constraint(expr=traction - m.crr_mass * c - m.mass * s >= -SLACK_T)
+
+
+@family("launch", "launch_accel_mps2", "m/s^2",
+        "E + ln T_pk + L >= tangents of ln(m (a + g Crr) + J eta a (G/r)^2); mu N_driven(a) >= m a + m g Crr + J a min(eta G^2/r^2)")
+def _launch(sm: SelectionModel):
+    p, u, m = sm.parts, sm.unit, sm.m
+    a = sm.req.launch_accel_mps2
+    mo, re, ty = p.motors, p.reducers, p.tyres
+    supply = u.E + _sum(np.log(mo.torque_nm), u.x) + u.L
+    x_expr = m.lnm + _sum(np.log(a + G_N * ty.crr), m.z)
+    y_expr = np.log(a) + _sum(np.log(mo.rotor_inertia_kgm2), u.x) + u.E + 2 * u.L
+    blk = pyo.Block()
+    m.launch_motor = blk
+    blk.rows = pyo.ConstraintList()
+    for d in LSE_TANGENTS:
+        sg = _sigmoid(d)
+        blk.rows.add(supply >= (1 - sg) * x_expr + sg * y_expr + _softplus(d) - sg * d - SLACK_LOG)
+    v = p.problem.vehicle
+    mu = p.problem.environment.road_friction
+    hl = v.cg_height_m / v.wheelbase_m
+    e2_min = float(re.efficiency.min() * re.ratio.min() ** 2 / ty.radius_m.max() ** 2)
+    inertia_t = _sum(mo.rotor_inertia_kgm2 * e2_min / 1000.0, u.x) + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m.max() ** 2 / 1000.0
+    if p.rear_drive:
+        traction = mu * (G_N * m.rear_mass + a * hl * m.mass)
+    else:
+        traction = mu * (G_N * m.front_mass - a * hl * m.mass)
+    m.launch_traction = pyo.Constraint(
+        expr=traction - a * m.mass - G_N * m.crr_mass - a * inertia_t >= -SLACK_T)
+
+
+@family("accel", "accel", "s",
+        "ln(w_max) - L >= ln V_a; peak envelope covers road load at V_a; lo_i x_i <= Lm_i <= hi_i x_i (optimistic time window)")
+def _accel(sm: SelectionModel):
+    v_kmh = sm.accel_target_kmh
+    lim = sm.req.speed_limiter_kmh
+    if lim is not None and lim < v_kmh * (1 - 1e-12):
+        sm.rule_out(f"accel_to_kmh = {v_kmh:g} is above speed_limiter_kmh = {lim:g}: the target is unreachable")
+        return
+    v = kmh_to_mps(v_kmh)
+    _gearing_row(sm, "accel_gearing", v)
+    _envelope_rows(sm, "accel_envelope", v, continuous=False)
+
+
+@family("max_mass", "max_mass_kg", "kg", "m <= max_mass (exact)")
+def _max_mass(sm: SelectionModel):
+    sm.m.max_mass = pyo.Constraint(expr=sm.m.mass <= sm.req.max_mass_kg / 1000.0 + SLACK_T)
+
+
+@family("budget", "budget", "currency", "motor + reducer + n tyre cost <= budget (exact)")
+def _budget(sm: SelectionModel):
+    sm.m.budget = pyo.Constraint(expr=sm.m.cost <= sm.req.budget / 1000.0 + SLACK_T)
+
+
+@family("tyre_load", None, "kg", "(n/2) load_capacity_k >= each static axle mass (exact)")
+def _tyre_load(sm: SelectionModel):
+    p, m = sm.parts, sm.m
+    half = 0.5 * p.problem.vehicle.tyre_count
+    cap = _sum(p.tyres.load_capacity_kg * half / 1000.0, m.z)
+    m.tyre_load_rear = pyo.Constraint(expr=cap >= m.rear_mass - SLACK_T)
+    m.tyre_load_front = pyo.Constraint(expr=cap >= m.front_mass - SLACK_T)
+
+
+def _staircase(sm: SelectionModel, name: str, need: np.ndarray, rating: np.ndarray):
+    """Clique rows: for each distinct rating tau, motors needing more than tau + reducers rated <= tau <= 1."""
+    u = sm.unit
+    blk = pyo.Block()
+    setattr(sm.m, name, blk)
+    blk.rows = pyo.ConstraintList()
+    tol = 1e-9
+    for tau in np.unique(rating):
+        motors = np.nonzero(need > tau * (1 + tol))[0]
+        if motors.size == 0:
+            continue
+        reducers = np.nonzero(rating <= tau)[0]
+        blk.rows.add(pyo.quicksum(u.x[int(i)] for i in motors) + pyo.quicksum(u.y[int(j)] for j in reducers) <= 1)
+
+
+@family("reducer_rating", None, "N m, rpm",
+        "for each rating tau: sum(x_i: need_i > tau) + sum(y_j: rating_j <= tau) <= 1 (torque and speed, exact)")
+def _reducer_rating(sm: SelectionModel):
+    p = sm.parts
+    _staircase(sm, "reducer_torque", p.motors.torque_nm, p.reducers.max_torque_nm)
+    _staircase(sm, "reducer_speed", p.motors.max_speed_rad_s, p.reducers.max_speed_rad_s)

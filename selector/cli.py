@@ -1,0 +1,232 @@
+"""Command line: ``selector COMMAND PROBLEM [options]``.
+
+`run(argv) -> int` is the testable core: 0 success (including a clean "infeasible" answer),
+2 bad input (the message on stderr, no traceback), 1 internal error (traceback only with
+--verbose). Each command is one function; `COMMANDS` maps names to (setup, handler).
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import traceback
+import warnings
+
+from . import __version__
+from .errors import InputError, SelectorError, SolverUnavailableError
+from .report import CAUTION, dumps, fmt, parts_table, performance_table, requirement_table, table
+
+
+class _Parser(argparse.ArgumentParser):
+    """argparse that raises InputError instead of exiting, so run() returns 2."""
+
+    def error(self, message):
+        raise InputError(f"{self.prog}: {message}. See '{self.prog} --help'.")
+
+
+def _positive_float(text):
+    try:
+        v = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+    if not v > 0:
+        raise argparse.ArgumentTypeError(f"{text!r} must be > 0")
+    return v
+
+
+def _positive_int(text):
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"{text!r} must be >= 1")
+    return v
+
+
+def _common(p):
+    p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
+    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+
+
+def _out(args, text_or_obj):
+    if args.format == "json":
+        print(dumps(text_or_obj))
+    else:
+        print(text_or_obj)
+
+
+# ----------------------------------------------------------------------------- check
+
+def _setup_check(p):
+    _common(p)
+
+
+def _cmd_check(args) -> int:
+    from .api import open_study, problem_summary
+
+    s = problem_summary(open_study(args.problem))
+    if args.format == "json":
+        _out(args, s)
+        return 0
+    lines = [f"{s['problem']}: valid", ""]
+    lines.append(table(["catalogue", "parts", "after filters", "file"],
+                       [[k, s["parts"][k], s["after_procurement_filters"][k], s["catalogues"][k]]
+                        for k in ("motors", "reducers", "tyres")], "lrrl"))
+    lines.append(f"\ncombinations: {s['combinations']:,}")
+    lines.append(f"air density: {fmt(s['air_density_kg_m3'])} kg/m^3")
+    lines.append(f"objective: minimise {s['objective']}")
+    lines.append("requirements: " + (", ".join(f"{k} = {fmt(v)}" for k, v in s["requirements"].items()) or "none"))
+    print("\n".join(lines))
+    return 0
+
+
+# ----------------------------------------------------------------------------- simulate
+
+def _setup_simulate(p):
+    _common(p)
+    p.add_argument("--motor", required=True, help="motor part id")
+    p.add_argument("--reducer", required=True, help="reducer part id (one ratio variant)")
+    p.add_argument("--tyre", required=True, help="tyre part id")
+    p.add_argument("--plot", metavar="FILE", help="write the tractive-effort diagram (PNG or SVG)")
+
+
+def _cmd_simulate(args) -> int:
+    from .api import open_study, simulate
+
+    study = open_study(args.problem)
+    res = simulate(study, args.motor, args.reducer, args.tyre)
+    if getattr(args, "plot", None):
+        from .plots import tractive_effort_plot
+
+        tractive_effort_plot(study, args.motor, args.reducer, args.tyre, args.plot)
+        res["plot"] = args.plot
+    if args.format == "json":
+        _out(args, res)
+        return 0
+    d = res["design"]
+    print(f"{res['problem']}\ndesign {d['motor']} + {d['reducer']} + {d['tyre']}: "
+          f"{'meets every requirement' if d['feasible'] else 'DOES NOT meet every requirement'}\n")
+    print(parts_table(d) + "\n")
+    print(performance_table(d) + "\n")
+    print(requirement_table(d))
+    if getattr(args, "plot", None):
+        print(f"\nplot written to {args.plot}")
+    print("\n" + CAUTION)
+    return 0
+
+
+# ----------------------------------------------------------------------------- solve
+
+def _setup_solve(p):
+    _common(p)
+    p.add_argument("--time-limit", type=_positive_float, metavar="SECONDS", help="wall-clock limit of the search")
+
+
+def print_search_result(res: dict, title: str = "best design") -> None:
+    """Terminal rendering of a solve/shortlist result."""
+    print(f"{res['problem']}")
+    obj = res["objective"]
+    print(f"status: {res['status']}   objective: minimise {obj['minimize']} [{obj['unit']}]"
+          f"   value: {fmt(obj['value'])}   bound: {fmt(res.get('bound'))}")
+    s = res["search"]
+    print(f"searched {s['combinations']:,} combinations exactly: {s['iterations']} MILP solves, "
+          f"build {s['build_s']:.2f} s, solve {s['solve_s']:.2f} s, verify {s['verify_s']:.2f} s")
+    for note in s.get("procurement_filters", []):
+        print(f"procurement filter: {note}")
+    if res["status"] == "infeasible":
+        print(f"\nno design meets every requirement: {res.get('reason')}")
+        print("run `selector explain` for the closest design and the relaxation that fixes it.")
+    for n, d in enumerate(res["designs"], 1):
+        print(f"\n{title if len(res['designs']) == 1 else f'design {n}'}: {d['motor']} + {d['reducer']} + {d['tyre']}"
+              f"   cost {fmt(d['cost'])}   mass {fmt(d['mass_kg'])} kg")
+        print(parts_table(d) + "\n")
+        print(requirement_table(d))
+        active = [r["name"] for r in d["requirements"] if r["binding"]]
+        print(f"binding ({res['binding_rule']}): {', '.join(active) if active else 'none'}")
+    print("\n" + CAUTION)
+
+
+def _cmd_solve(args) -> int:
+    from .api import open_study, solve
+
+    res = solve(open_study(args.problem), time_limit_s=args.time_limit)
+    if args.format == "json":
+        _out(args, res)
+    else:
+        print_search_result(res)
+    return 0
+
+
+COMMANDS = {
+    "check": (_setup_check, _cmd_check, "validate a problem file and its catalogues"),
+    "simulate": (_setup_simulate, _cmd_simulate, "evaluate one design (motor, reducer, tyre)"),
+    "solve": (_setup_solve, _cmd_solve, "find the optimal design, exactly, and verify it"),
+}
+# Further commands register themselves here (explain, frontier, sweep, shortlist).
+
+
+def _register_optional():
+    for mod in ("explain", "frontier", "sweep", "shortlist"):
+        try:
+            module = __import__(f"selector.{mod}_cli", fromlist=["register"])
+        except ModuleNotFoundError as exc:
+            if exc.name != f"selector.{mod}_cli":
+                raise
+            continue
+        module.register(COMMANDS)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every registered command."""
+    _register_optional()
+    parser = _Parser(prog="selector", description="Pick a traction motor, reduction ratio and tyre from "
+                     "supplier catalogues, exactly (MILP), verified by physics.")
+    parser.add_argument("--version", action="version", version=f"selector {__version__}")
+    parser.add_argument("--verbose", action="store_true", help="show tracebacks of internal errors")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name, (setup, _, help_text) in COMMANDS.items():
+        setup(sub.add_parser(name, help=help_text, description=help_text))
+    return parser
+
+
+def run(argv=None) -> int:
+    """Run the CLI; returns the exit code (0 ok, 2 bad input, 1 internal error)."""
+    argv = list(sys.argv[1:] if argv is None else argv)
+    verbose = "--verbose" in argv
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            parser = build_parser()
+            args = parser.parse_args(argv)
+            if not args.command:
+                parser.print_help()
+                return 2
+            code = COMMANDS[args.command][1](args)
+        for w in caught:
+            if issubclass(w.category, UserWarning):
+                print(f"warning: {w.message}", file=sys.stderr)
+        return code
+    except InputError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    except SolverUnavailableError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 1
+    except SelectorError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 1
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001 - last resort: an internal error is a bug
+        if verbose:
+            traceback.print_exc()
+        print(f"internal error: {type(exc).__name__}: {exc}. This is a bug in selector; rerun with --verbose "
+              "and report the output.", file=sys.stderr)
+        return 1
+
+
+def main() -> None:
+    """Console-script entry point."""
+    sys.exit(run())

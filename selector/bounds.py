@@ -21,8 +21,13 @@ from .units import G_N
 
 GRID_POINTS = 64
 """Grid of L values on which t_i(L) is sampled before refinement [-]."""
-REFINE_STEPS = 30
-"""Bisection / golden-section steps refining window edges and minima [-]."""
+SUB_POINTS = 24
+"""Samples per refinement bracket [-]."""
+REFINE_LEVELS = 3
+"""Nested refinement levels (each shrinks a bracket by (SUB_POINTS - 1) / 2) [-]."""
+T_MIN_SAFETY = 1e-4
+"""Relative margin subtracted from the sampled optimistic minimum time, covering the sampling
+error near a kinked minimum (|dt/dL| step / t stays far below this at the final level) [-]."""
 
 
 @dataclass(frozen=True)
@@ -96,65 +101,73 @@ def optimistic_time_s(parts: PartTables, motors, log_g, target_mps) -> np.ndarra
 def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | None) -> AccelWindows:
     """Window of L per motor where the optimistic time meets ``time_limit_s`` (None: finite time).
 
-    The window is the hull of the grid points that meet the limit and of the refined minimiser,
-    extended outward by bisection to the edge of feasibility. This is exact when t_i(L) is
-    quasi-convex in L (constant-torque/power envelopes: time falls with L until the gearing
-    limit bites); a feasible island narrower than the grid spacing away from the minimum could be
-    missed (documented limitation).
+    t_i(L) is sampled on a grid over the catalogue's L range, then refined by nested grids
+    around the minimum and around both edges of the feasible set (each level shrinks the bracket
+    to two sub-steps). The window is the hull of every sampled point that meets the limit,
+    widened to the nearest sampled point that does not (so it only errs on the wide side, which
+    keeps the model a relaxation). Exact when the feasible set is an interval (t_i(L)
+    quasi-convex, the usual case: time falls with L until the gearing limit bites); a feasible
+    island narrower than the grid spacing away from the minimum could be missed (documented).
+    The optimistic minimum time is the smallest sample, lowered by `T_MIN_SAFETY`.
     """
     n_m = parts.sizes[0]
+    rows = np.arange(n_m)
     l_lo, l_hi = log_gearing_range(parts)
     pad = 1e-6
     grid = np.linspace(l_lo - pad, l_hi + pad, GRID_POINTS)
-    motors = np.arange(n_m)
-    t = optimistic_time_s(parts, motors[:, None], grid[None, :], target_mps)  # (n_m, G)
     limit = np.inf if time_limit_s is None else time_limit_s * (1 + 1e-7)
-
-    # Golden-section refinement of the minimum around the best grid point.
+    t = optimistic_time_s(parts, rows[:, None], grid[None, :], target_mps)  # (n_m, G)
+    ok = t <= limit
+    any_ok = ok.any(axis=1)
     best = np.argmin(t, axis=1)
-    a = grid[np.maximum(best - 1, 0)]
-    b = grid[np.minimum(best + 1, GRID_POINTS - 1)]
-    gr = (np.sqrt(5) - 1) / 2
-    c = b - gr * (b - a)
-    d = a + gr * (b - a)
-    fc = optimistic_time_s(parts, motors, c, target_mps)
-    fd = optimistic_time_s(parts, motors, d, target_mps)
-    for _ in range(REFINE_STEPS):
-        left = fc < fd  # minimum in [a, d]: drop (d, b]
-        b = np.where(left, d, b)
-        a = np.where(left, a, c)
-        x_new = np.where(left, b - gr * (b - a), a + gr * (b - a))
-        f_new = optimistic_time_s(parts, motors, x_new, target_mps)
-        c, d, fc, fd = (np.where(left, x_new, d), np.where(left, c, x_new),
-                        np.where(left, f_new, fd), np.where(left, fc, f_new))
-    l_star = np.where(fc < fd, c, d)
-    t_star = np.minimum(np.minimum(fc, fd), t[np.arange(n_m), best])
-    l_star = np.where(t[np.arange(n_m), best] <= np.minimum(fc, fd), grid[best], l_star)
-
-    ok_grid = t <= limit
-    star_ok = t_star <= limit
-    any_ok = ok_grid.any(axis=1) | star_ok
-    first = np.where(ok_grid.any(axis=1), grid[np.argmax(ok_grid, axis=1)], np.inf)
-    last = np.where(ok_grid.any(axis=1), grid[GRID_POINTS - 1 - np.argmax(ok_grid[:, ::-1], axis=1)], -np.inf)
-    lo = np.where(star_ok, np.minimum(first, l_star), first)
-    hi = np.where(star_ok, np.maximum(last, l_star), last)
-    # Extend each edge outward to the next infeasible grid point by bisection.
+    t_best = t[rows, best]
+    # brackets [a, b] to refine: around the minimum, and across each edge of the feasible set
+    first = np.argmax(ok, axis=1)
+    last = GRID_POINTS - 1 - np.argmax(ok[:, ::-1], axis=1)
     step = grid[1] - grid[0]
-    lo = np.where(any_ok, lo, grid[0])
-    hi = np.where(any_ok, hi, grid[0])
-    for edge, direction in ((lo, -1.0), (hi, 1.0)):
-        inside = edge.copy()
-        outside = edge + direction * step
-        active = any_ok & (outside >= grid[0]) & (outside <= grid[-1])
-        for _ in range(REFINE_STEPS):
-            mid = 0.5 * (inside + outside)
-            tm = optimistic_time_s(parts, motors, np.where(active, mid, inside), target_mps)
-            good = tm <= limit
-            inside = np.where(active & good, mid, inside)
-            outside = np.where(active & ~good, mid, outside)
-        # keep the outer point: the window may only grow (a relaxation)
-        edge[:] = np.where(active, outside, np.where(any_ok, edge + direction * step, edge))
-    lo = np.where(any_ok, lo - pad, np.inf)
-    hi = np.where(any_ok, hi + pad, -np.inf)
-    t_min = np.where(np.isfinite(t_star), t_star * (1 - 1e-7), np.inf)
+    lo = np.where(any_ok, grid[first] - step, np.inf)   # widened to the neighbouring sample
+    hi = np.where(any_ok, grid[last] + step, -np.inf)
+    brackets = {
+        "min": (grid[np.maximum(best - 1, 0)], grid[np.minimum(best + 1, GRID_POINTS - 1)]),
+        "lo": (np.maximum(grid[first] - step, grid[0]), grid[first]),
+        "hi": (grid[last], np.minimum(grid[last] + step, grid[-1])),
+    }
+    min_bracket0 = brackets["min"]
+    grid_ok = any_ok.copy()
+    frac = np.linspace(0.0, 1.0, SUB_POINTS)[None, :]
+    for _ in range(REFINE_LEVELS):
+        pts = {k: a[:, None] + (b - a)[:, None] * frac for k, (a, b) in brackets.items()}
+        allp = np.concatenate([pts["min"], pts["lo"], pts["hi"]], axis=1)
+        tt = optimistic_time_s(parts, rows[:, None], allp, target_mps)
+        t_min_pts, t_lo_pts, t_hi_pts = np.split(tt, 3, axis=1)
+        # minimum
+        k = np.argmin(t_min_pts, axis=1)
+        t_best = np.minimum(t_best, t_min_pts[rows, k])
+        p = pts["min"]
+        brackets["min"] = (p[rows, np.maximum(k - 1, 0)], p[rows, np.minimum(k + 1, SUB_POINTS - 1)])
+        # lower edge: first feasible sample in the bracket, keep its infeasible left neighbour
+        okl = t_lo_pts <= limit
+        fl = np.argmax(okl, axis=1)
+        has = okl.any(axis=1)
+        p = pts["lo"]
+        left = p[rows, np.maximum(fl - 1, 0)]
+        lo = np.where(has, left, lo)
+        brackets["lo"] = (left, p[rows, fl])
+        # upper edge
+        okh = t_hi_pts <= limit
+        lh = SUB_POINTS - 1 - np.argmax(okh[:, ::-1], axis=1)
+        has = okh.any(axis=1)
+        p = pts["hi"]
+        right = p[rows, np.minimum(lh + 1, SUB_POINTS - 1)]
+        hi = np.where(has, right, hi)
+        brackets["hi"] = (p[rows, lh], right)
+    # a minimum that meets the limit where no grid point did: the feasible set lies between the
+    # infeasible grid neighbours of the minimum
+    star_only = (t_best <= limit) & ~grid_ok
+    lo = np.where(star_only, min_bracket0[0], lo)
+    hi = np.where(star_only, min_bracket0[1], hi)
+    ok_final = grid_ok | star_only
+    lo = np.where(ok_final, lo - pad, np.inf)
+    hi = np.where(ok_final, hi + pad, -np.inf)
+    t_min = np.where(np.isfinite(t_best), t_best * (1 - T_MIN_SAFETY), np.inf)
     return AccelWindows(lo=lo, hi=hi, t_min_s=t_min)

@@ -123,8 +123,8 @@ def _setup_solve(p):
     p.add_argument("--time-limit", type=_positive_float, metavar="SECONDS", help="wall-clock limit of the search")
 
 
-def print_search_result(res: dict, title: str = "best design") -> None:
-    """Terminal rendering of a solve/shortlist result."""
+def print_search_result(res: dict, title: str = "best design", diagnosis: list[str] | None = None) -> None:
+    """Terminal rendering of a solve/shortlist result (``diagnosis``: short lines for infeasible studies)."""
     print(f"{res['problem']}")
     obj = res["objective"]
     print(f"status: {res['status']}   objective: minimise {obj['minimize']} [{obj['unit']}]"
@@ -136,6 +136,8 @@ def print_search_result(res: dict, title: str = "best design") -> None:
         print(f"procurement filter: {note}")
     if res["status"] == "infeasible":
         print(f"\nno design meets every requirement: {res.get('reason')}")
+        for line in diagnosis or []:
+            print(f"  {line}")
         print("run `selector explain` for the closest design and the relaxation that fixes it.")
     for n, d in enumerate(res["designs"], 1):
         print(f"\n{title if len(res['designs']) == 1 else f'design {n}'}: {d['motor']} + {d['reducer']} + {d['tyre']}"
@@ -143,18 +145,25 @@ def print_search_result(res: dict, title: str = "best design") -> None:
         print(parts_table(d) + "\n")
         print(requirement_table(d))
         active = [r["name"] for r in d["requirements"] if r["binding"]]
-        print(f"binding ({res['binding_rule']}): {', '.join(active) if active else 'none'}")
+        print(f"active requirements (margin-based: {res['binding_rule']} %): {', '.join(active) if active else 'none'}"
+              "; `selector explain` re-solves to show which ones change the optimum and what each costs")
     print("\n" + CAUTION)
 
 
 def _cmd_solve(args) -> int:
     from .api import open_study, solve
 
-    res = solve(open_study(args.problem), time_limit_s=args.time_limit)
+    study = open_study(args.problem)
+    res = solve(study, time_limit_s=args.time_limit)
     if args.format == "json":
         _out(args, res)
     else:
-        print_search_result(res)
+        diagnosis = None
+        if res["status"] == "infeasible":
+            from .explain import short_diagnosis
+
+            diagnosis = short_diagnosis(study)
+        print_search_result(res, diagnosis=diagnosis)
     return 0
 
 

@@ -57,6 +57,16 @@ class SearchResult:
         return 0.0 if best == self.bound else abs(best - self.bound) / max(abs(best), 1e-12)
 
 
+def cached_accel_windows(parts: PartTables, target_kmh: float, limit_s: float | None):
+    """`bounds.accel_windows`, memoised per part tables, target and limit (explain, frontier and
+    sweeps re-solve many times with the same acceleration requirement)."""
+    cache = parts.__dict__.setdefault("_window_cache", {})
+    key = (float(target_kmh), None if limit_s is None else float(limit_s), parts.speed_limit_mps)
+    if key not in cache:
+        cache[key] = accel_windows(parts, kmh_to_mps(target_kmh), limit_s)
+    return cache[key]
+
+
 def _solver():
     try:
         from pyomo.contrib.solver.solvers.highs import Highs
@@ -90,7 +100,11 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     objective = objective or problem.objective
     req = requirements or problem.requirements
     if req is not problem.requirements:
-        parts = replace(parts, problem=replace(problem, requirements=req))
+        cache = parts.__dict__.setdefault("_window_cache", {})
+        lim = req.speed_limiter_kmh
+        parts = replace(parts, problem=replace(problem, requirements=req),
+                        speed_limit_mps=float("inf") if lim is None else float(kmh_to_mps(lim)))
+        parts.__dict__["_window_cache"] = cache
     result = SearchResult(status=STATUS_INFEASIBLE, objective=objective)
     allowed = allowed or {}
     if any(a is not None and len(a) == 0 for a in allowed.values()):
@@ -101,7 +115,7 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     accel_needed = req.accel_to_kmh is not None and (req.accel_time_s is not None or objective == "accel_time")
     t0 = time.perf_counter()
     if accel_needed:
-        windows = accel_windows(parts, kmh_to_mps(req.accel_to_kmh), req.accel_time_s)
+        windows = cached_accel_windows(parts, req.accel_to_kmh, req.accel_time_s)
     model = SelectionModel(parts, objective, windows=windows,
                            accel_target_kmh=req.accel_to_kmh if accel_needed else None,
                            accel_limit_s=req.accel_time_s, allowed=allowed)

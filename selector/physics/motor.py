@@ -31,10 +31,17 @@ def envelope_torque_nm(speed_rad_s, torque_nm, power_w, decline_rad_s, decline_e
     Available shaft torque [N m]; 0 above w_max.
     """
     w = np.asarray(speed_rad_s, dtype=float)
+    shape = np.broadcast_shapes(w.shape, np.shape(torque_nm), np.shape(power_w), np.shape(decline_rad_s),
+                                np.shape(decline_exponent), np.shape(max_speed_rad_s))
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        p_branch = np.where(w > 0, power_w / w, np.inf)
-        d_branch = np.where(w > 0, power_w * (decline_rad_s / w) ** decline_exponent / w, np.inf)
-    t = np.minimum(np.minimum(torque_nm, p_branch), d_branch)
+        p_branch = np.broadcast_to(np.where(w > 0, power_w / w, np.inf), shape)
+        ratio = np.broadcast_to(decline_rad_s / w, shape)
+    t = np.minimum(torque_nm, p_branch)
+    declining = ratio < 1.0  # only there is the decline branch below the power branch
+    if declining.any():
+        with np.errstate(invalid="ignore", over="ignore"):
+            factor = np.power(ratio, np.broadcast_to(decline_exponent, shape), out=np.ones(shape), where=declining)
+            t = np.minimum(t, p_branch * factor)
     return np.where(w <= max_speed_rad_s * (1 + 1e-12), t, 0.0)
 
 

@@ -19,15 +19,19 @@ from .parts import PartTables
 from .physics.performance import Body, Drive, accel_time_s
 from .units import G_N
 
-GRID_POINTS = 64
+GRID_POINTS = 24
 """Grid of L values on which t_i(L) is sampled before refinement [-]."""
-SUB_POINTS = 24
+SUB_POINTS = 8
 """Samples per refinement bracket [-]."""
 REFINE_LEVELS = 3
 """Nested refinement levels (each shrinks a bracket by (SUB_POINTS - 1) / 2) [-]."""
-T_MIN_SAFETY = 1e-4
-"""Relative margin subtracted from the sampled optimistic minimum time, covering the sampling
-error near a kinked minimum (|dt/dL| step / t stays far below this at the final level) [-]."""
+BOUND_NODES = 12
+"""Gauss-Legendre nodes per piece for optimistic times (max relative error seen ~3e-4, on
+near-singular runs; covered by `BOUND_SAFETY`) [-]."""
+BOUND_SAFETY = 1e-3
+"""Relative safety on optimistic times: windows admit t <= limit (1 + this), minima are lowered
+by this factor [-]. Covers quadrature error and sampling of a smooth minimum; the common kinked
+minimum (time falling until the gearing limit) is sampled exactly at L_gear."""
 
 
 @dataclass(frozen=True)
@@ -95,7 +99,7 @@ def optimistic_time_s(parts: PartTables, motors, log_g, target_mps) -> np.ndarra
     motors, log_g = np.broadcast_arrays(np.asarray(motors, dtype=np.int64), np.asarray(log_g, dtype=float))
     shape = motors.shape
     drive, body, cap = _optimistic_designs(parts, motors.ravel(), log_g.ravel())
-    return accel_time_s(drive, body, target_mps, traction_accel_bound_mps2=cap).reshape(shape)
+    return accel_time_s(drive, body, target_mps, traction_accel_bound_mps2=cap, nodes=BOUND_NODES).reshape(shape)
 
 
 def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | None) -> AccelWindows:
@@ -115,7 +119,7 @@ def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | No
     l_lo, l_hi = log_gearing_range(parts)
     pad = 1e-6
     grid = np.linspace(l_lo - pad, l_hi + pad, GRID_POINTS)
-    limit = np.inf if time_limit_s is None else time_limit_s * (1 + 1e-7)
+    limit = np.inf if time_limit_s is None else time_limit_s * (1 + BOUND_SAFETY)
     t = optimistic_time_s(parts, rows[:, None], grid[None, :], target_mps)  # (n_m, G)
     ok = t <= limit
     any_ok = ok.any(axis=1)
@@ -169,5 +173,13 @@ def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | No
     ok_final = grid_ok | star_only
     lo = np.where(ok_final, lo - pad, np.inf)
     hi = np.where(ok_final, hi + pad, -np.inf)
-    t_min = np.where(np.isfinite(t_best), t_best * (1 - T_MIN_SAFETY), np.inf)
+    # time often falls with L right up to the gearing limit L_gear = ln(w_max / V): sample it
+    l_gear = np.log(parts.motors.max_speed_rad_s / target_mps) * (1 - 1e-13)
+    in_range = (l_gear >= grid[0]) & (l_gear <= grid[-1])
+    t_gear = optimistic_time_s(parts, rows, np.where(in_range, l_gear, grid[0]), target_mps)
+    t_best = np.where(in_range, np.minimum(t_best, t_gear), t_best)
+    gear_only = in_range & (t_gear <= limit) & ~ok_final
+    lo = np.where(gear_only, l_gear - step - pad, lo)
+    hi = np.where(gear_only, l_gear + pad, hi)
+    t_min = np.where(np.isfinite(t_best), t_best * (1 - BOUND_SAFETY), np.inf)
     return AccelWindows(lo=lo, hi=hi, t_min_s=t_min)

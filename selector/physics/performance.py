@@ -16,7 +16,14 @@ from .motor import wheel_force_n
 from .vehicle import driven_axle_share, effective_mass_kg, traction_limited_accel_mps2, transfer_factor
 
 # Gauss-Legendre nodes and weights on [-1, 1] for each smooth piece of the acceleration integral.
-_GL_X, _GL_W = np.polynomial.legendre.leggauss(20)
+_GL_NODES = 20
+_GL_CACHE = {}
+
+
+def _gauss_legendre(n):
+    if n not in _GL_CACHE:
+        _GL_CACHE[n] = np.polynomial.legendre.leggauss(n)
+    return _GL_CACHE[n]
 _CROSS_SAMPLES = 17
 _BISECT_STEPS = 42
 _NEWTON_STEPS = 40
@@ -253,7 +260,8 @@ def _accel_parts(drive: Drive, body: Body, m_eff, kap, wd_n, v, a_cap=None):
     return a_motor, a_trac
 
 
-def accel_time_s(drive: Drive, body: Body, target_mps, chunk=20000, traction_accel_bound_mps2=None):
+def accel_time_s(drive: Drive, body: Body, target_mps, chunk=20000, traction_accel_bound_mps2=None,
+                 nodes=_GL_NODES):
     """Time from rest to ``target_mps`` on the level, with traction limit and load transfer [s].
 
     t = integral over v of m_eff / (min(F_w, F_trac) - F_res) dv, integrated in speed and split
@@ -261,7 +269,8 @@ def accel_time_s(drive: Drive, body: Body, target_mps, chunk=20000, traction_acc
     sampling and bisection), with Gauss-Legendre quadrature on each smooth piece. Infinite when
     the target exceeds the vehicle's maximum speed or the net force vanishes before it.
     ``traction_accel_bound_mps2`` (optional, per design) replaces the traction-limited
-    acceleration by a given value (optimistic bounds in the optimiser).
+    acceleration by a given value (optimistic bounds in the optimiser). ``nodes``: Gauss-Legendre
+    nodes per smooth piece (20 by default; fewer only for bounds that carry a safety factor).
     """
     drive, body = broadcast(drive, body)
     n = drive.ratio.shape[0]
@@ -272,11 +281,13 @@ def accel_time_s(drive: Drive, body: Body, target_mps, chunk=20000, traction_acc
     out = np.empty(n)
     for s in range(0, n, chunk):
         sl = slice(s, min(n, s + chunk))
-        out[sl] = _accel_time_chunk(take(drive, sl), take(body, sl), target[sl], None if cap is None else cap[sl])
+        out[sl] = _accel_time_chunk(take(drive, sl), take(body, sl), target[sl], None if cap is None else cap[sl],
+                                    nodes)
     return out
 
 
-def _accel_time_chunk(drive: Drive, body: Body, v_a, a_cap=None):
+def _accel_time_chunk(drive: Drive, body: Body, v_a, a_cap=None, nodes=_GL_NODES):
+    gl_x, gl_w = _gauss_legendre(nodes)
     n = v_a.shape[0]
     m_eff = effective_mass(drive, body)
     kap = kappa(drive, body, m_eff)
@@ -335,12 +346,12 @@ def _accel_time_chunk(drive: Drive, body: Body, v_a, a_cap=None):
 
     def integrate(sub, a, b):
         half = 0.5 * (b - a)
-        v = col(0.5 * (a + b)) + col(half) * _GL_X[None, :]
+        v = col(0.5 * (a + b)) + col(half) * gl_x[None, :]
         acc, _ = net(sub, v)
         width_pos = half > 0
         bad = width_pos & (acc <= 0).any(axis=1)
         with np.errstate(divide="ignore", invalid="ignore"):
-            contrib = half * (_GL_W[None, :] / acc).sum(axis=1)
+            contrib = half * (gl_w[None, :] / acc).sum(axis=1)
         return np.where(width_pos, contrib, 0.0), bad
 
     def integrate_pieces(sub, edges_):

@@ -1,0 +1,183 @@
+"""Atomic writing of tables to CSV and XLSX files.
+
+Every file is written to a temporary file in the target folder and moved over the target with
+`os.replace`, so a reader never sees a half-written file and a failed write leaves the old file
+(if any) untouched and no temporary file behind. Input files (the problem file, the catalogues)
+are never overwritten: pass them as ``protected``.
+
+Failures a user can fix (missing folder, read-only folder, the path is a folder, its parent is a
+file, unknown extension, the path is an input file) raise `selector.errors.InputError` with the
+path, the cause and what to do.
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+import os
+import stat
+import tempfile
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .errors import InputError
+
+FORMATS = {".csv": "csv", ".xlsx": "xlsx"}
+"""File extension (lower case) -> format name."""
+
+
+@dataclass(frozen=True)
+class Sheet:
+    """One table: a name (the XLSX sheet name), a header row and data rows."""
+
+    name: str
+    columns: list[str]
+    rows: list[list] = field(default_factory=list)
+
+
+def output_format(path, option: str = "--out") -> str:
+    """Format ("csv" | "xlsx") from the file extension, or an InputError naming the accepted ones."""
+    suffix = Path(path).suffix.lower()
+    if suffix not in FORMATS:
+        got = f"extension {suffix!r}" if suffix else "no extension"
+        raise InputError(f"{option} {path}: {got} is not a known output format; "
+                         f"name the file with one of {', '.join(FORMATS)}.")
+    return FORMATS[suffix]
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    try:
+        if a.exists() and b.exists():
+            return os.path.samefile(a, b)
+    except OSError:
+        pass
+    return a.resolve() == b.resolve()
+
+
+def check_output_path(path, protected=(), option: str = "--out") -> Path:
+    """Validate an output path before any work is done; return it as an absolute Path.
+
+    Parameters
+    ----------
+    path : the file to write
+    protected : input files that must never be overwritten (problem file, catalogues)
+    option : the command-line option named in messages
+
+    Raises
+    ------
+    InputError
+        Unknown extension; the path is a folder; its folder is missing or is a file; the path is
+        one of the ``protected`` files.
+    """
+    p = Path(path).expanduser()
+    output_format(p, option)
+    absolute = Path(os.path.abspath(p))
+    for q in protected:
+        if q is not None and _same_file(absolute, Path(q)):
+            raise InputError(f"{option} {path}: this is an input file of the study ({q}); selector never "
+                             "overwrites its inputs. Choose another output file name.")
+    if absolute.is_dir():
+        raise InputError(f"{option} {path}: is a folder. Give a file name, e.g. {Path(path) / 'shortlist.xlsx'}.")
+    parent = absolute.parent
+    if not parent.exists():
+        raise InputError(f"{option} {path}: the folder {parent} does not exist. Create it first or choose "
+                         "another folder.")
+    if not parent.is_dir():
+        raise InputError(f"{option} {path}: {parent} is a file, not a folder. Choose a path inside a folder.")
+    return absolute
+
+
+def _new_file_mode() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
+def atomic_write(path, write, protected=(), option: str = "--out") -> Path:
+    """Write a file atomically: ``write(tmp_path)`` fills a temporary file that replaces ``path``.
+
+    On any failure the temporary file is removed and the old file (if any) stays untouched;
+    operating-system errors (permissions, missing folder, disk full...) become InputError.
+    Returns the absolute path written.
+    """
+    target = check_output_path(path, protected, option)
+    mode = stat.S_IMODE(target.stat().st_mode) if target.exists() else _new_file_mode()
+    tmp = None
+    try:
+        fd, name = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+        tmp = Path(name)
+        os.close(fd)
+        write(tmp)
+        os.chmod(tmp, mode)
+        os.replace(tmp, target)
+        tmp = None
+    except OSError as exc:
+        cause = exc.strerror or str(exc)
+        hint = ("check that the folder exists and is writable, and that the file is not open in "
+                "another program")
+        raise InputError(f"{option} {path}: cannot write the file ({cause}); {hint}. "
+                         "Nothing was written.") from exc
+    finally:
+        if tmp is not None:
+            try:
+                tmp.unlink()
+            except FileNotFoundError:
+                pass
+    return target
+
+
+def _csv_cell(v):
+    if v is None:
+        return ""
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, float) and not math.isfinite(v):
+        return ""
+    return v
+
+
+def write_csv(path, sheet: Sheet, protected=(), option: str = "--out") -> Path:
+    """Write one table as CSV (UTF-8, comma-separated, header row; None/NaN as empty cells)."""
+    def write(tmp: Path):
+        with open(tmp, "w", newline="", encoding="utf-8") as fh:
+            w = csv.writer(fh, lineterminator="\n")
+            w.writerow(sheet.columns)
+            for row in sheet.rows:
+                w.writerow([_csv_cell(v) for v in row])
+
+    return atomic_write(path, write, protected, option)
+
+
+def _xlsx_cell(ws, r: int, c: int, v):
+    if isinstance(v, float) and not math.isfinite(v):
+        v = None
+    cell = ws.cell(row=r, column=c, value=v)
+    if isinstance(v, str) and v.startswith("="):
+        cell.data_type = "s"  # text, never a formula
+    return cell
+
+
+def write_xlsx(path, sheets: list[Sheet], protected=(), option: str = "--out") -> Path:
+    """Write tables as an XLSX workbook, one sheet per `Sheet` (header row bold and frozen)."""
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    def write(tmp: Path):
+        wb = Workbook()
+        wb.remove(wb.active)
+        bold = Font(bold=True)
+        for sheet in sheets:
+            ws = wb.create_sheet(title=sheet.name[:31])
+            for c, name in enumerate(sheet.columns, 1):
+                _xlsx_cell(ws, 1, c, name).font = bold
+            for r, row in enumerate(sheet.rows, 2):
+                for c, v in enumerate(row, 1):
+                    _xlsx_cell(ws, r, c, v)
+            ws.freeze_panes = "A2"
+            for c, name in enumerate(sheet.columns, 1):
+                width = max([len(str(name))] + [len(str(row[c - 1])) for row in sheet.rows
+                                                 if c - 1 < len(row) and row[c - 1] is not None])
+                ws.column_dimensions[ws.cell(row=1, column=c).column_letter].width = min(max(width + 2, 8), 80)
+        wb.save(tmp)
+
+    return atomic_write(path, write, protected, option)

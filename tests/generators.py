@@ -48,10 +48,12 @@ from selector.schema import columns
 from selector.study import Catalogs, Problem
 from selector.units import RPM_TO_RAD_S
 
-OBJECTIVES = ("cost", "mass", "accel_time")
-REQUIREMENT_KEYS = ("top_speed_kmh", "gradeability_pct", "launch_accel_mps2", "accel_time_s", "max_mass_kg",
-                    "budget", "speed_limiter_kmh")
-"""Requirement families the generator may state (accel_time_s brings accel_to_kmh with it)."""
+OBJECTIVE_WEIGHTS = {"cost": 1 / 3, "mass": 1 / 3, "accel_time": 1 / 3}
+"""Default probability of each objective."""
+REQUIREMENT_SHARE = {"top_speed_kmh": 0.4, "gradeability_pct": 0.4, "launch_accel_mps2": 0.4, "accel_time_s": 0.35,
+                     "max_mass_kg": 0.4, "budget": 0.4, "speed_limiter_kmh": 0.25}
+"""Default probability that each requirement family is stated (accel_time_s brings accel_to_kmh)."""
+REQUIREMENT_KEYS = tuple(REQUIREMENT_SHARE)
 
 SPEED_SYMBOLS = tuple(s for s, v in SPEED_SYMBOL_KMH.items() if v >= 100.0)
 """ISO 4000-1 speed symbols of road-car tyres used here (J = 100 km/h ... Y = 300 km/h)."""
@@ -59,7 +61,7 @@ SPEED_SYMBOLS = tuple(s for s, v in SPEED_SYMBOL_KMH.items() if v >= 100.0)
 DEFAULT_SIZES = ((3, 8), (3, 6), (3, 6))
 """Inclusive (min, max) counts of motors, reducers and tyres."""
 
-HEADER_COMMENT = "# Invented data for selector's tests (seed {seed}); illustrative, not real products."
+HEADER_COMMENT = "# Invented data for selector's tests ({what}); illustrative, not real products."
 
 
 @dataclass
@@ -225,11 +227,14 @@ def random_environment(rng) -> dict:
 
 # ------------------------------------------------------------------------------------------ files
 
-def write_csv(path: Path, kind: str, rows: list[dict], seed: int) -> None:
-    """Write one catalogue CSV with the canonical header (and the invented-data comment)."""
+def write_csv(path: Path, kind: str, rows: list[dict], what: str = "hand-made") -> None:
+    """Write one catalogue CSV with the canonical header and an invented-data comment naming ``what``.
+
+    Missing keys of a row are written as empty cells (optional columns take their defaults).
+    """
     names = [c.name for c in columns(kind)]
     with open(path, "w", newline="", encoding="utf-8") as fh:
-        fh.write(HEADER_COMMENT.format(seed=seed) + "\n")
+        fh.write(HEADER_COMMENT.format(what=what) + "\n")
         w = csv.writer(fh, lineterminator="\n")
         w.writerow(names)
         for r in rows:
@@ -250,9 +255,9 @@ def _toml_value(v) -> str:
 
 
 def write_problem(path: Path, name: str, vehicle: dict, environment: dict, requirements: dict,
-                  objective: str, seed: int) -> None:
+                  objective: str, what: str = "hand-made") -> None:
     """Write a problem TOML naming motors.csv, reducers.csv and tyres.csv beside it."""
-    lines = [HEADER_COMMENT.format(seed=seed), f"name = {_toml_value(name)}", "", "[catalogs]",
+    lines = [HEADER_COMMENT.format(what=what), f"name = {_toml_value(name)}", "", "[catalogs]",
              'motors = "motors.csv"', 'reducers = "reducers.csv"', 'tyres = "tyres.csv"', "", "[vehicle]"]
     lines += [f"{k} = {_toml_value(x)}" for k, x in vehicle.items()]
     lines += ["", "[environment]"] + [f"{k} = {_toml_value(x)}" for k, x in environment.items()]
@@ -311,7 +316,7 @@ def _compatible(parts: PartTables, metrics: dict) -> np.ndarray:
 # ------------------------------------------------------------------------------------------ studies
 
 def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | None = None,
-                 requirement_share: float = 0.4) -> Study:
+                 objective_weights: dict | None = None, requirement_share: dict | float | None = None) -> Study:
     """Generate, write and load one random study.
 
     Parameters
@@ -319,8 +324,10 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     seed : seed of `numpy.random.default_rng`; same seed, same files [-]
     directory : folder to write motors.csv, reducers.csv, tyres.csv and problem.toml into
     sizes : ((min, max) motors, (min, max) reducers, (min, max) tyres), inclusive; or three ints
-    objective : force an objective (default: drawn)
-    requirement_share : probability that each requirement family is stated [-]
+    objective : force an objective (default: drawn with ``objective_weights``)
+    objective_weights : {objective: probability} (default `OBJECTIVE_WEIGHTS`)
+    requirement_share : probability that each requirement family is stated, one number for all or
+        {key: probability} (default `REQUIREMENT_SHARE`) [-]
 
     Returns
     -------
@@ -335,18 +342,25 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     motors = random_motors(rng, counts[0])
     reducers = random_reducers(rng, counts[1], motors)
     # a rough tyre load (heavier static axle with ~100 kg of drive parts) to centre the load indices
-    share = max(vehicle["rear_axle_share"], 1 - vehicle["rear_axle_share"])
-    tyre_load = (share * vehicle["mass_kg"] + 100.0) / (vehicle["tyre_count"] / 2)
+    axle_share = max(vehicle["rear_axle_share"], 1 - vehicle["rear_axle_share"])
+    tyre_load = (axle_share * vehicle["mass_kg"] + 100.0) / (vehicle["tyre_count"] / 2)
     tyres = random_tyres(rng, counts[2], tyre_load)
     for kind, rows in (("motors", motors), ("reducers", reducers), ("tyres", tyres)):
-        write_csv(directory / f"{kind}.csv", kind, rows, seed)
-    objective = objective or str(rng.choice(OBJECTIVES))
-    stated = [k for k in REQUIREMENT_KEYS if rng.random() < requirement_share]
+        write_csv(directory / f"{kind}.csv", kind, rows, f"seed {seed}")
+    weights = OBJECTIVE_WEIGHTS if objective_weights is None else objective_weights
+    names = sorted(weights)
+    p = np.array([weights[k] for k in names], dtype=float)
+    drawn = str(rng.choice(names, p=p / p.sum()))
+    objective = objective or drawn
+    share = REQUIREMENT_SHARE if requirement_share is None else requirement_share
+    if not isinstance(share, dict):
+        share = {k: float(share) for k in REQUIREMENT_KEYS}
+    stated = [k for k in REQUIREMENT_KEYS if rng.random() < share.get(k, 0.0)]
 
     # calibration: load the catalogues with the requirement-free problem, enumerate every design
     path = directory / "problem.toml"
     name = f"Random study {seed} (invented data)"
-    write_problem(path, name, vehicle, environment, {}, "cost", seed)
+    write_problem(path, name, vehicle, environment, {}, "cost", f"seed {seed}")
     base, catalogs = load_study(path)
     parts = PartTables.build(base, catalogs)
     mi, rj, tk = _all_triples(parts)
@@ -385,7 +399,65 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
             req[key] = level
         levels[key] = kind
 
-    write_problem(path, name, vehicle, environment, req, objective, seed)
+    write_problem(path, name, vehicle, environment, req, objective, f"seed {seed}")
     problem, catalogs = load_study(path)
     return Study(seed=seed, problem_path=path, problem=problem, catalogs=catalogs,
                  parts=PartTables.build(problem, catalogs), levels=levels)
+
+
+def write_and_load(directory, motors: list[dict], reducers: list[dict], tyres: list[dict], vehicle: dict,
+                   environment: dict, requirements: dict | None = None, objective: str = "cost",
+                   name: str = "Hand-made study (invented data)") -> PartTables:
+    """Write hand-made catalogue rows and a problem to ``directory``, load them, return the part tables.
+
+    Rows are dicts keyed by catalogue column (missing optional columns are left empty).
+    """
+    directory = Path(directory)
+    directory.mkdir(parents=True, exist_ok=True)
+    for kind, rows in (("motors", motors), ("reducers", reducers), ("tyres", tyres)):
+        write_csv(directory / f"{kind}.csv", kind, rows)
+    path = directory / "problem.toml"
+    write_problem(path, name, vehicle, environment, requirements or {}, objective)
+    problem, catalogs = load_study(path)
+    return PartTables.build(problem, catalogs)
+
+
+def part_ids(parts: PartTables, design) -> tuple[str, str, str]:
+    """(motor, reducer, tyre) part ids of a design (value, mi, rj, tk)."""
+    _, i, j, k = design
+    return str(parts.motors.part[i]), str(parts.reducers.part[j]), str(parts.tyres.part[k])
+
+
+# ------------------------------------------------------------------------------------------ hand-made blocks
+# Building blocks of the hand-made engine tests (test_engine_families.py, test_engine_ties.py):
+# an invented 1500 kg vehicle and one part of each kind, overridable field by field.
+
+HAND_VEHICLE = {"mass_kg": 1500.0, "drag_area_m2": 0.8, "wheelbase_m": 2.8, "cg_height_m": 0.6,
+                "rear_axle_share": 0.5, "driven_axle": "rear", "tyre_count": 4}
+HAND_ENVIRONMENT = {"road_friction": 0.9, "air_density_kg_m3": 1.2}
+
+
+def motor_row(part, **kw):
+    """Motor row: 250 N m / 80 kW peak, 130 N m / 40 kW continuous, 12000 rpm, no decline, 40 kg, 2000."""
+    row = {"part": part, "supplier": "Volta Drives", "peak_torque_nm": 250, "peak_power_kw": 80,
+           "max_speed_rpm": 12000, "cont_torque_nm": 130, "cont_power_kw": 40, "decline_speed_rpm": "",
+           "decline_exponent": "", "mass_kg": 40, "rotor_inertia_kgm2": 0.02, "unit_cost": 2000,
+           "lead_time_weeks": 4}
+    row.update(kw)
+    return row
+
+
+def reducer_row(part, **kw):
+    """Reducer row: ratio 8, 97 %, 400 N m, 16000 rpm, 15 kg, 500."""
+    row = {"part": part, "supplier": "Geartech", "ratio": 8, "efficiency_pct": 97, "max_input_torque_nm": 400,
+           "max_input_speed_rpm": 16000, "mass_kg": 15, "unit_cost": 500, "lead_time_weeks": 2}
+    row.update(kw)
+    return row
+
+
+def tyre_row(part, **kw):
+    """Tyre row: 205/55R16 91V, 8.0 N/kN, 9 kg, 100."""
+    row = {"part": part, "supplier": "Roundway", "size": "205/55R16", "load_index": 91, "speed_symbol": "V",
+           "rr_coefficient_n_per_kn": 8.0, "mass_kg": 9, "unit_cost": 100, "lead_time_weeks": 1}
+    row.update(kw)
+    return row

@@ -6,7 +6,9 @@ Unknown keys and tables are errors, with a "did you mean" suggestion.
 
 Choices made here (documented for users):
 
-- ``[environment] road_friction`` is required (no silent default for the friction coefficient).
+- ``[environment] road_friction`` defaults to 0.8 (dry asphalt, reference-values section 9) with a
+  warning, so a study never runs on an unstated friction silently; the [environment] table may be
+  omitted (ISA sea level, friction 0.8, both warned).
 - Air: ``air_density_kg_m3``, or ``altitude_m`` (geopotential, ISA) with optional
   ``temperature_c``, or ``temperature_c`` alone (sea-level pressure at that temperature);
   none of them = ISA sea level, 1.225 kg/m^3.
@@ -119,7 +121,7 @@ TABLES: dict[str, dict[str, Key]] = {
         Key("wheel_inertia_kgm2", "number", False, "kg m^2", _non_negative, "per wheel, default 0"),
     )},
     "environment": {k.name: k for k in (
-        Key("road_friction", "number", True, "", _between(0.0, ROAD_FRICTION_MAX, lo_open=True),
+        Key("road_friction", "number", False, "", _between(0.0, ROAD_FRICTION_MAX, lo_open=True),
             "peak tyre-road friction coefficient"),
         Key("air_density_kg_m3", "number", False, "kg/m^3", _positive, "air density"),
         Key("altitude_m", "number", False, "m", _between(ISA_MIN_ALTITUDE_M, ISA_MAX_ALTITUDE_M),
@@ -149,7 +151,10 @@ TABLES: dict[str, dict[str, Key]] = {
 
 TOP_LEVEL: dict[str, str] = {"name": "str", **{t: "table" for t in TABLES}}
 """Allowed top-level keys: ``name`` (text) and the tables."""
-REQUIRED_TABLES = ("catalogs", "vehicle", "environment")
+REQUIRED_TABLES = ("catalogs", "vehicle")
+DEFAULT_ROAD_FRICTION = 0.8
+"""Peak friction assumed when the problem gives none: dry asphalt/concrete 0.8-0.9 (Wong, Theory of
+Ground Vehicles ch. 1, from memory; reference-values section 9)."""
 
 
 # --------------------------------------------------------------------------------------------
@@ -209,6 +214,8 @@ class _Collector:
         self.disp = disp
         self.lines = _key_lines(text)
         self.errors: list[str] = []
+        self.notes: list[str] = []
+        """Warnings, issued only when the file has no errors."""
 
     def where(self, table: str, key: str | None = None) -> str:
         n = self.lines.get((table, key)) if key else self.lines.get(("", table))
@@ -362,6 +369,8 @@ def load_problem(path) -> Problem:
         n = len(col.errors)
         raise InputError(f"{disp}: {n} error{'s' if n > 1 else ''} in the problem file; nothing was computed.\n"
                          + "\n".join(f"  {e}" for e in col.errors))
+    for note in col.notes:
+        warnings.warn(note, ProblemWarning, stacklevel=2)
     return Problem(name=name, path=path, catalog_paths=catalog_paths, vehicle=vehicle,
                    environment=environment, requirements=requirements, objective=objective,
                    procurement=procurement)
@@ -467,7 +476,10 @@ def _environment(col: _Collector, v: dict, data: dict) -> Environment | None:
         col.add(f"{col.where('environment', 'air_density_kg_m3')} air_density_kg_m3: give either "
                 f"air_density_kg_m3 or {' / '.join(isa_keys)} (ISA), not both. Remove one of them.")
         return None
-    if "road_friction" not in v:
+    if "road_friction" not in raw:
+        col.notes.append(f"{col.disp}: [environment] road_friction not given; assuming {DEFAULT_ROAD_FRICTION} "
+                         "(dry asphalt). State it for wet, gravel or snow studies.")
+    elif "road_friction" not in v:
         return None
     if has_rho:
         if "air_density_kg_m3" not in v:
@@ -478,7 +490,7 @@ def _environment(col: _Collector, v: dict, data: dict) -> Environment | None:
             return None
         rho = isa_density_kg_m3(float(v.get("altitude_m", 0.0)),
                                 None if "temperature_c" not in v else float(v["temperature_c"]))
-    return Environment(air_density_kg_m3=rho, road_friction=float(v["road_friction"]))
+    return Environment(air_density_kg_m3=rho, road_friction=float(v.get("road_friction", DEFAULT_ROAD_FRICTION)))
 
 
 def _requirements(col: _Collector, v: dict) -> Requirements:

@@ -210,3 +210,17 @@ def test_temperature_range_and_density_with_temperature(tmp_path):
         load_problem(minimal(tmp_path, env="temperature_c = 80\n"))
     with pytest.raises(InputError, match="give either air_density_kg_m3 or temperature_c"):
         load_problem(minimal(tmp_path, env="temperature_c = 20\nair_density_kg_m3 = 1.2\n"))
+
+
+def test_road_friction_defaults_to_dry_asphalt_with_a_warning(tmp_path):
+    # 0.8: dry asphalt/concrete peak friction 0.8-0.9 (Wong ch. 1, from memory; reference-values section 9)
+    from selector.problem import ProblemWarning, load_problem
+
+    text = (VALID / "problem.toml").read_text(encoding="utf-8").replace("road_friction = 0.7\n", "")
+    for name in ("motors", "reducers", "tyres"):
+        text = text.replace(f'{name} = "{name}.csv"', f'{name} = "{(VALID / (name + ".csv")).as_posix()}"')
+    path = tmp_path / "no_friction.toml"
+    path.write_text(text, encoding="utf-8")
+    with pytest.warns(ProblemWarning, match="road_friction not given; assuming 0.8"):
+        p = load_problem(path)
+    assert p.environment.road_friction == 0.8

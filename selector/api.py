@@ -98,15 +98,19 @@ def records(parts: PartTables, designs, objective: str) -> list[dict]:
     return [design_record(parts, i, j, k, metrics, pos) for pos, (_, i, j, k) in enumerate(designs)]
 
 
+def objective_dict(objective: str, designs) -> dict:
+    """The `objective` entry of a result: what is minimised, its unit and the best value."""
+    return {"minimize": objective, "unit": OBJECTIVE_UNITS[objective], "metric": OBJECTIVE_METRIC[objective],
+            "value": clean(designs[0][0]) if designs else None}
+
+
 def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> dict:
     """The JSON contract for a search result (solve / shortlist)."""
     parts = study.parts
     out = header(parts)
     out.update({
         "status": res.status,
-        "objective": {"minimize": res.objective, "unit": OBJECTIVE_UNITS[res.objective],
-                      "metric": OBJECTIVE_METRIC[res.objective],
-                      "value": clean(res.designs[0][0]) if res.designs else None},
+        "objective": objective_dict(res.objective, res.designs),
         "bound": clean(res.bound), "gap": clean(res.gap),
         "binding_rule": BINDING_RULE,
         "search": {"iterations": res.iterations, **{k: round(v, 4) for k, v in res.timings.items()},

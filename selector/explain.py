@@ -36,7 +36,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .api import Study, header, records
+from .api import OBJECTIVE_UNITS as UNITS
+from .api import Study, header, objective_dict, records
 from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, SearchResult, search
 from .evaluate import OBJECTIVE_METRIC, evaluate, feasible, order_best, slice_indices, tie_tolerance
 from .parts import PartTables
@@ -59,7 +60,6 @@ ACCEL_BATCH = 4096
 """Designs per batch of lazily computed acceleration times in the elastic search [-]."""
 ACTIVE_RULE = ("re-solve without the requirement: the optimal design changes, or the objective improves "
                "by more than 1e-9 relative")
-UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s"}
 
 
 # ----------------------------------------------------------------------------- small helpers
@@ -604,9 +604,7 @@ def explain(study: Study, step_pct: float = STEP_PCT, near_miss_pct: float = NEA
     out = header(parts)
     out.update({
         "status": res.status,
-        "objective": {"minimize": ctx.objective, "unit": UNITS[ctx.objective],
-                      "metric": OBJECTIVE_METRIC[ctx.objective],
-                      "value": clean(res.designs[0][0]) if res.designs else None},
+        "objective": objective_dict(ctx.objective, res.designs),
         "step_pct": step_pct, "near_miss_pct": near_miss_pct,
         "definitions": {"binding": f"margin-based, as in solve: {BINDING_RULE} %",
                         "active": ACTIVE_RULE,

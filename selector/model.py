@@ -281,14 +281,18 @@ def _gearing_row(sm: SelectionModel, name: str, speed_mps: float):
 @family("top_speed", "top_speed_kmh", "km/h",
         "ln(w_max) - L >= ln V; for each continuous-envelope branch b: E + ln F_b(L) >= under-estimator of ln(m g Crr + q V^2)")
 def _top_speed(sm: SelectionModel):
-    v_kmh = sm.req.top_speed_kmh
+    _speed_target_rows(sm, "top_speed", "top_speed_kmh", sm.req.top_speed_kmh, continuous=True)
+
+
+def _speed_target_rows(sm: SelectionModel, name: str, key: str, v_kmh: float, continuous: bool):
+    """Gearing and envelope rows for reaching ``v_kmh``; rules the study out above the limiter."""
     lim = sm.req.speed_limiter_kmh
     if lim is not None and lim < v_kmh * (1 - 1e-9):
-        sm.rule_out(f"top_speed_kmh = {v_kmh:g} is above speed_limiter_kmh = {lim:g}")
+        sm.rule_out(f"{key} = {v_kmh:g} is above speed_limiter_kmh = {lim:g}: the speed is unreachable")
         return
     v = kmh_to_mps(v_kmh)
-    _gearing_row(sm, "top_speed_gearing", v)
-    _envelope_rows(sm, "top_speed_envelope", v, continuous=True)
+    _gearing_row(sm, f"{name}_gearing", v)
+    _envelope_rows(sm, f"{name}_envelope", v, continuous=continuous)
 
 
 @family("gradeability", "gradeability_pct", "%",
@@ -342,14 +346,7 @@ def _launch(sm: SelectionModel):
 @family("accel", "accel", "s",
         "ln(w_max) - L >= ln V_a; peak envelope covers road load at V_a; lo_i x_i <= Lm_i <= hi_i x_i (optimistic time window)")
 def _accel(sm: SelectionModel):
-    v_kmh = sm.accel_target_kmh
-    lim = sm.req.speed_limiter_kmh
-    if lim is not None and lim < v_kmh * (1 - 1e-12):
-        sm.rule_out(f"accel_to_kmh = {v_kmh:g} is above speed_limiter_kmh = {lim:g}: the target is unreachable")
-        return
-    v = kmh_to_mps(v_kmh)
-    _gearing_row(sm, "accel_gearing", v)
-    _envelope_rows(sm, "accel_envelope", v, continuous=False)
+    _speed_target_rows(sm, "accel", "accel_to_kmh", sm.accel_target_kmh, continuous=False)
 
 
 @family("max_mass", "max_mass_kg", "kg", "m <= max_mass (exact)")

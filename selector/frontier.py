@@ -1,0 +1,193 @@
+"""The cost-versus-acceleration frontier (or mass-versus-acceleration), exactly, by epsilon-constraint.
+
+A design is on the frontier when it meets every requirement of the problem except
+``accel_time_s`` (which becomes the frontier's axis), reaches ``accel_to_kmh`` at all (finite
+time), and no other such design is both cheaper (or equally cheap) and faster (or equally fast),
+with one of the two strictly.
+
+The frontier is traced with the exact engine, two searches per point:
+
+1. min cost subject to time <= t_cap (t_cap = "any finite time" at first) -> c;
+2. min time subject to cost <= c (1 + 1e-9) (and the problem's own budget) -> point (c, t);
+3. t_cap = t (1 - 3e-9), strictly faster than the last point; repeat until step 1 is infeasible.
+
+Every search is exact (`engine.search`), so the frontier is exact: each point is the fastest
+design at its cost, and no design with a cost between two consecutive points is faster than
+the cheaper of them. Times within 2e-9 relative (the pass tolerance on both sides of
+``t_cap``) count as equal, as do costs within 2e-9. Every point is verified by the
+independent physics re-check (`api.records`). With ``axis="mass"`` the same holds for the
+vehicle mass and ``max_mass_kg`` instead of the cost and ``budget``.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import replace
+
+import numpy as np
+
+from .api import Study, header, records
+from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, search
+from .errors import InputError, SelectorError
+from .evaluate import evaluate
+from .report import clean
+from .requirements import REL_TOL, passes
+
+AXES = {
+    # axis: (objective, requirement limiting it, design-record key, label, unit)
+    "cost": ("cost", "budget", "cost", "cost", "currency"),
+    "mass": ("mass", "max_mass_kg", "mass_kg", "vehicle mass", "kg"),
+}
+"""Axes a frontier can be traced against the acceleration time."""
+
+ANY_FINITE_TIME_S = 1e9
+"""Time cap of the first search: every design that reaches accel_to_kmh at all passes it [s]."""
+
+STRICTLY_FASTER = 3.0 * REL_TOL
+"""Relative step below the last point's time: with the 1e-9 pass tolerance on the cap, the next
+point is at least 2e-9 relative faster [-]."""
+
+LIMIT_SLACK = REL_TOL
+"""Relative slack on the cost (or mass) limit of the min-time search [-]."""
+
+
+class FrontierTimeLimit(SelectorError):
+    """A search of the frontier hit its time limit (the frontier would not be exact)."""
+
+
+def _requirements_check(study: Study, axis: str):
+    if axis not in AXES:
+        raise InputError(f"--axis {axis!r}: must be one of {', '.join(AXES)}.")
+    p = study.parts.problem
+    if p.requirements.accel_to_kmh is None:
+        where = f"{p.path}: " if p.path else ""
+        raise InputError(f"{where}[requirements] accel_to_kmh is missing; the frontier plots the 0-to-accel_to_kmh "
+                         "time against cost, so it needs the target speed of the acceleration run. "
+                         "Add accel_to_kmh [km/h] to the [requirements] table.")
+
+
+def _check_status(res, what: str):
+    if res.status not in (STATUS_OPTIMAL, STATUS_INFEASIBLE):
+        raise FrontierTimeLimit(f"the {what} search stopped at its time limit; the frontier would not be exact. "
+                                "Rerun without --time-limit or with a longer one.")
+
+
+def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -> tuple[list, dict]:
+    """Exact frontier points of a study.
+
+    Parameters
+    ----------
+    study : the loaded study (procurement filters apply)
+    axis : "cost" or "mass" [-]
+    time_limit_s : wall-clock limit of each search [s] (None = none)
+
+    Returns
+    -------
+    (points, stats): points as (axis value, accel time, motor idx, reducer idx, tyre idx), ordered
+    by the axis value (increasing) and the time (decreasing); stats {"searches", "elapsed_s"}.
+    """
+    _requirements_check(study, axis)
+    objective, limit_key, _, _, _ = AXES[axis]
+    parts = study.parts
+    req0 = parts.problem.requirements
+    base = replace(req0, accel_time_s=None)
+    own_limit = getattr(req0, limit_key)
+    t_cap = ANY_FINITE_TIME_S
+    points, searches, t0 = [], 0, time.perf_counter()
+    # Each loop adds one point with a strictly larger axis value and strictly smaller time,
+    # so it ends after at most (number of designs) loops.
+    while True:
+        cheapest = search(parts, objective=objective, requirements=replace(base, accel_time_s=t_cap),
+                          allowed=study.allowed, time_limit_s=time_limit_s)
+        searches += 1
+        _check_status(cheapest, f"min {objective}")
+        if cheapest.status == STATUS_INFEASIBLE:
+            break
+        value = cheapest.designs[0][0]
+        limit = value * (1.0 + LIMIT_SLACK)
+        if own_limit is not None:
+            limit = min(limit, own_limit)
+        fastest = search(parts, objective="accel_time", requirements=replace(base, **{limit_key: limit}),
+                         allowed=study.allowed, time_limit_s=time_limit_s)
+        searches += 1
+        _check_status(fastest, "min accel_time")
+        if fastest.status == STATUS_INFEASIBLE:  # cannot happen: the cheapest design qualifies
+            raise SelectorError("frontier: the fastest-design search found nothing where the cheapest-design "
+                                "search found a design; please report this bug")
+        t, i, j, k = fastest.designs[0]
+        points.append((float(value), float(t), i, j, k))
+        t_cap = t * (1.0 - STRICTLY_FASTER)
+    # axis value of each point is the design's own (may differ from the cheapest design's by ties)
+    return points, {"searches": searches, "elapsed_s": round(time.perf_counter() - t0, 3)}
+
+
+def _chosen(study: Study, time_limit_s: float | None):
+    """The problem's own optimum (its objective and all its requirements), or None if infeasible."""
+    res = search(study.parts, allowed=study.allowed, time_limit_s=time_limit_s)
+    if res.status != STATUS_OPTIMAL or not res.designs:
+        return None
+    return res.designs[0][1:]
+
+
+def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None) -> dict:
+    """The frontier as the JSON-ready result.
+
+    Keys: the common head (selector_version, problem, problem_file, caution), ``axis``,
+    ``axis_unit``, ``accel_to_kmh``, ``requirement`` (the problem's accel_time_s [s] or None),
+    ``points`` (ordered by the axis value; each a verified design record plus ``accel_time_s``,
+    ``meets_accel_time_s`` and ``chosen``), ``chosen`` (the problem's optimum design ids with its
+    cost, mass and time, and ``on_frontier``; None when the problem is infeasible) and
+    ``search`` (searches, elapsed_s).
+    """
+    _requirements_check(study, axis)
+    _, limit_key, key, label, unit = AXES[axis]
+    parts = study.parts
+    problem = parts.problem
+    req_t = problem.requirements.accel_time_s
+    pts, stats = trace(study, axis, time_limit_s)
+    base_parts = replace(parts, problem=replace(problem, requirements=replace(problem.requirements,
+                                                                              accel_time_s=None)))
+    designs = [(t, i, j, k) for _, t, i, j, k in pts]
+    recs = records(base_parts, designs, "accel_time")
+    t0 = time.perf_counter()
+    chosen_ids = _chosen(study, time_limit_s)
+    stats["searches"] += 1
+    stats["elapsed_s"] = round(stats["elapsed_s"] + time.perf_counter() - t0, 3)
+    chosen = None
+    if chosen_ids is not None:
+        ci, cj, ck = chosen_ids
+        m = evaluate(parts, [ci], [cj], [ck])
+        chosen = {"motor": str(parts.motors.part[ci]), "reducer": str(parts.reducers.part[cj]),
+                  "tyre": str(parts.tyres.part[ck]), "cost": clean(m["cost"][0]), "mass_kg": clean(m["mass_kg"][0]),
+                  "accel_time_s": clean(m["accel_time_s"][0]), "objective": problem.objective}
+        chosen["on_frontier"] = any(_same(r[key], chosen[key]) and _same(r["performance"]["accel_time_s"],
+                                                                        chosen["accel_time_s"]) for r in recs)
+    out_points = []
+    for rec, (_, t_exact, *_) in zip(recs, pts):
+        rec = {"motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"], "cost": rec["cost"],
+               "mass_kg": rec["mass_kg"], "accel_time_s": rec["performance"]["accel_time_s"],
+               "meets_accel_time_s": None if req_t is None else bool(passes("max", req_t, t_exact)),
+               "chosen": bool(chosen is not None and all(rec[p] == chosen[p] for p in ("motor", "reducer", "tyre"))),
+               **{k: v for k, v in rec.items() if k not in ("motor", "reducer", "tyre", "cost", "mass_kg")}}
+        out_points.append(rec)
+    out = header(parts)
+    out.update({
+        "axis": axis, "axis_key": key, "axis_label": label, "axis_unit": unit,
+        "accel_to_kmh": clean(problem.requirements.accel_to_kmh),
+        "requirement": clean(req_t),
+        "limit": {"name": limit_key, "required": clean(getattr(problem.requirements, limit_key))},
+        "points": out_points,
+        "chosen": chosen,
+        "search": {**stats, "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes)),
+                   "combinations": int(np.prod(parts.sizes)), "procurement_filters": list(study.filter_notes)},
+        "definition": (f"designs meeting every requirement except accel_time_s, non-dominated in ({key}, "
+                       f"0-{problem.requirements.accel_to_kmh:g} km/h time); values within 2e-9 relative are equal"),
+    })
+    return out
+
+
+def _same(a, b) -> bool:
+    if a is None or b is None:
+        return a is None and b is None
+    return math.isclose(a, b, rel_tol=4 * REL_TOL, abs_tol=0.0)

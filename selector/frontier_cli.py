@@ -1,0 +1,82 @@
+"""``selector frontier PROBLEM [--axis cost|mass] [--plot FILE] [--format table|json]``."""
+
+from __future__ import annotations
+
+from .report import CAUTION, dumps, fmt, table
+
+HELP = "exact cost (or mass) versus acceleration-time frontier"
+
+
+def setup(p):
+    """Arguments of the frontier command."""
+    p.add_argument("problem", help="problem file (TOML) with [requirements] accel_to_kmh")
+    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+    p.add_argument("--axis", choices=("cost", "mass"), default="cost",
+                   help="trade the acceleration time against cost (default) or vehicle mass")
+    p.add_argument("--plot", metavar="FILE", help="write the frontier chart (.png, .svg or .pdf)")
+
+
+def handle(args) -> int:
+    """Trace the frontier, print it, optionally plot it."""
+    from .api import open_study
+    from .frontier import frontier
+
+    if args.plot:
+        from .plots import check_output_path
+
+        check_output_path(args.plot)
+    res = frontier(open_study(args.problem), axis=args.axis)
+    if args.plot:
+        from .plots import frontier_plot
+
+        frontier_plot(res, args.plot)
+        res["plot"] = args.plot
+    if args.format == "json":
+        print(dumps(res))
+        return 0
+    print(render(res))
+    return 0
+
+
+def render(res: dict) -> str:
+    """Terminal rendering of a frontier result."""
+    key, unit = res["axis_key"], res["axis_unit"]
+    req = res["requirement"]
+    lines = [res["problem"],
+             f"frontier: {len(res['points'])} designs non-dominated in ({res['axis_label']} [{unit}], "
+             f"0-{fmt(res['accel_to_kmh'])} km/h time [s]), meeting every other requirement",
+             f"{res['search']['searches']} exact searches over {res['search']['combinations']:,} combinations "
+             f"in {res['search']['elapsed_s']:.1f} s", ""]
+    rows = []
+    for n, q in enumerate(res["points"], 1):
+        note = []
+        if q["chosen"]:
+            note.append("chosen")
+        if q["meets_accel_time_s"]:
+            note.append("meets accel_time_s")
+        rows.append([str(n), fmt(q[key]), fmt(q["accel_time_s"]), fmt(q["cost"] if key != "cost" else q["mass_kg"]),
+                     q["motor"], q["reducer"], q["tyre"], ", ".join(note)])
+    other = "mass_kg" if key == "cost" else "cost"
+    if not rows:
+        lines.append("no design meets the other requirements and reaches accel_to_kmh: the frontier is empty.")
+    else:
+        lines.append(table(["#", f"{key} [{unit}]", "time [s]", other, "motor", "reducer", "tyre", "note"], rows,
+                           "rrrrllll"))
+    if req is not None:
+        lines.append(f"\naccel_time_s required: {fmt(req)} s")
+    ch = res["chosen"]
+    if ch is None:
+        lines.append("the problem as stated is infeasible: no chosen design")
+    else:
+        where = "on the frontier" if ch["on_frontier"] else "not on the frontier (a frontier design is at least as good)"
+        lines.append(f"chosen ({ch['objective']} optimum of the problem): {ch['motor']} + {ch['reducer']} + {ch['tyre']}"
+                     f", {key} {fmt(ch[key])}, time {fmt(ch['accel_time_s'])} s, {where}")
+    if res.get("plot"):
+        lines.append(f"plot written to {res['plot']}")
+    lines.append("\n" + CAUTION)
+    return "\n".join(lines)
+
+
+def register(commands: dict) -> None:
+    """Add the frontier command to the CLI's command table."""
+    commands["frontier"] = (setup, handle, HELP)

@@ -1,0 +1,329 @@
+"""Charts engineers read: the tractive-effort diagram, the cost/acceleration frontier, sweep curves.
+
+Figures are drawn with matplotlib's object API on an Agg canvas (no screen, no pyplot, no global
+backend switch) and written atomically: to a temporary file in the target folder, then
+``os.replace``. The format follows the file name's suffix (``.png``, ``.svg``, ``.pdf``).
+Every plotting function returns the `matplotlib.figure.Figure` it saved (tests read its data back).
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+from .errors import InputError
+
+FORMATS = ("png", "svg", "pdf")
+"""File formats a plot can be written in (the file name's suffix)."""
+
+SPEED_SAMPLES = 400
+"""Road speeds sampled per curve [-]."""
+
+ACCEL_RUN_SAMPLES = 120
+"""Speeds at which the acceleration run's time is computed [-]."""
+
+TRACTION_SHOWN = 2.5
+"""The traction-limit curve stretches the force axis up to this multiple of the largest other curve [-]."""
+
+ACCEL_RUN_END = 0.98
+"""Without a reachable accel_to_kmh, the run is drawn up to this share of the maximum speed [-]
+(the time to the maximum speed itself is infinite)."""
+
+
+# ----------------------------------------------------------------------------- files
+
+def check_output_path(path, option: str = "--plot") -> Path:
+    """The output path, or an InputError when its folder is missing or its suffix unknown."""
+    p = Path(path)
+    suffix = p.suffix.lower().lstrip(".")
+    if suffix not in FORMATS:
+        raise InputError(f"{option} {path}: unknown file type {p.suffix or '(none)'!r}; give a file name ending in "
+                         f"{', '.join('.' + f for f in FORMATS)}.")
+    folder = p.parent if str(p.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError(f"{option} {path}: folder {folder} does not exist. Create it or choose another path.")
+    return p
+
+
+def atomic_write(path, write, binary: bool = False) -> None:
+    """Write a file atomically: ``write(handle)`` into a temporary file beside it, then os.replace.
+
+    Parameters
+    ----------
+    path : target file
+    write : callable taking the open file handle
+    binary : open the temporary file in binary mode
+    """
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8", "newline": ""})) as fh:
+            write(fh)
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+
+
+def save_figure(fig, path) -> None:
+    """Save a figure atomically in the format of the file name's suffix."""
+    p = check_output_path(path)
+    fmt = p.suffix.lower().lstrip(".")
+    atomic_write(p, lambda fh: fig.savefig(fh, format=fmt, dpi=120), binary=True)
+
+
+def _figure(nrows=1, ncols=1, size=(8.0, 5.0)):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=size, layout="constrained")
+    FigureCanvasAgg(fig)
+    axes = fig.subplots(nrows, ncols, squeeze=False)
+    return fig, axes.ravel()
+
+
+# ----------------------------------------------------------------------------- tractive effort
+
+def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
+    """Curves of the tractive-effort diagram and the acceleration run of one design (SI arrays).
+
+    Returns speed_mps (grid up to just above the vehicle's maximum speed), peak_n, cont_n (wheel
+    force of the peak and continuous envelopes), traction_n (traction-limited force on the level
+    at the acceleration it gives, F = (mu W_d - kappa F_res) / (1 - kappa); inf when unlimited),
+    road_level_n, road_grade_n (None without gradeability_pct), grade_pct, max_speed_mps,
+    gearing_limit_mps, run_speed_mps and run_time_s (the acceleration run: time to reach each
+    speed, computed by `physics.performance.accel_time_s`, so the last point is the reported
+    accel_time_s), accel_target_mps.
+    """
+    from .physics import performance as perf
+    from .physics.road import road_load_n
+    from .units import kmh_to_mps
+
+    drive, body = perf.broadcast(*parts.design(np.array([i]), np.array([j]), np.array([k])))
+    p = parts.problem
+    v_max = float(perf.max_speed_mps(drive, body)[0])
+    v_gear = float(perf.gearing_speed_limit_mps(drive)[0])
+    v_end = min(v_gear, v_max * 1.25 if np.isfinite(v_max) and v_max > 0 else v_gear)
+    if p.requirements.top_speed_kmh is not None:
+        v_end = max(v_end, kmh_to_mps(p.requirements.top_speed_kmh) * 1.1)
+    v = np.linspace(0.0, v_end, SPEED_SAMPLES)
+    peak = perf.wheel_force(drive, v)
+    cont = perf.wheel_force(drive, v, continuous=True)
+    f_level = perf.level_road_load(body, v)
+    m_eff = perf.effective_mass(drive, body)
+    kap = perf.kappa(drive, body, m_eff)
+    w_d = perf.driven_weight_n(body)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        trac = np.where(1.0 - kap > 0, (body.road_friction * w_d - kap * f_level) / (1.0 - kap), np.inf)
+    grade = p.requirements.gradeability_pct
+    f_grade = None if grade is None else road_load_n(body.mass_kg, body.crr, body.q_n_s2_m2, v, grade)
+    target = None if p.requirements.accel_to_kmh is None else kmh_to_mps(p.requirements.accel_to_kmh)
+    run_end = target if target is not None and target <= v_max else ACCEL_RUN_END * v_max
+    run_v = np.linspace(0.0, max(run_end, 0.0), ACCEL_RUN_SAMPLES)
+    if run_end > 0:
+        n = run_v.size - 1
+        d_n, b_n = parts.design(np.full(n, i), np.full(n, j), np.full(n, k))
+        run_t = np.concatenate([[0.0], perf.accel_time_s(d_n, b_n, run_v[1:])])
+    else:
+        run_v, run_t = np.zeros(1), np.zeros(1)
+    ok = np.isfinite(run_t)
+    return {"speed_mps": v, "peak_n": peak, "cont_n": cont, "traction_n": trac, "road_level_n": f_level,
+            "road_grade_n": f_grade, "grade_pct": grade, "max_speed_mps": v_max, "gearing_limit_mps": v_gear,
+            "run_speed_mps": run_v[ok], "run_time_s": run_t[ok], "accel_target_mps": target}
+
+
+def tractive_effort_plot(study, motor_id: str, reducer_id: str, tyre_id: str, path):
+    """Write the tractive-effort diagram and the acceleration run of one design.
+
+    Left: wheel force [kN] against road speed [km/h] of the peak and continuous envelopes, the
+    traction limit on the level, road load on the level and on the required grade, the top-speed
+    requirement and the vehicle's maximum speed. Right: road speed against time in the
+    acceleration run from rest on the level (to accel_to_kmh, or near the maximum speed).
+
+    Parameters
+    ----------
+    study : `api.Study`
+    motor_id, reducer_id, tyre_id : catalogue part ids
+    path : output file (.png, .svg or .pdf)
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from .api import find_part
+    from .units import mps_to_kmh
+
+    check_output_path(path)
+    parts = study.parts
+    i, j, k = (find_part(parts, "motor", motor_id), find_part(parts, "reducer", reducer_id),
+               find_part(parts, "tyre", tyre_id))
+    d = tractive_effort_data(parts, i, j, k)
+    p = parts.problem
+    fig, (ax, ax2) = _figure(1, 2, size=(12.0, 5.0))
+    kmh = mps_to_kmh(d["speed_mps"])
+    ax.plot(kmh, d["peak_n"] / 1e3, color="C0", lw=2, label="peak envelope")
+    ax.plot(kmh, d["cont_n"] / 1e3, color="C0", lw=1.5, ls="--", label="continuous envelope")
+    finite = [a for a in (d["peak_n"], d["road_level_n"], d["road_grade_n"]) if a is not None]
+    ymax = max(float(np.max(a)) for a in finite) / 1e3
+    trac = d["traction_n"]
+    fin = np.isfinite(trac)
+    if fin.any():
+        t_max = float(np.max(trac[fin])) / 1e3
+        above = float(np.min(trac[fin])) / 1e3 > TRACTION_SHOWN * ymax
+        if not above:
+            ymax = max(ymax, min(t_max, TRACTION_SHOWN * ymax))
+        ax.plot(kmh[fin], trac[fin] / 1e3, color="C3", lw=1.2, ls="-.",
+                label="traction limit, level" + (f" (above the chart, >= {np.min(trac[fin]) / 1e3:.1f} kN)"
+                                                 if above else ""))
+    else:
+        ax.plot([], [], color="C3", lw=1.2, ls="-.", label="traction limit, level: none (rear drive, kappa >= 1)")
+    ax.plot(kmh, d["road_level_n"] / 1e3, color="0.3", lw=1.2, label="road load, level")
+    if d["road_grade_n"] is not None:
+        ax.plot(kmh, d["road_grade_n"] / 1e3, color="0.55", lw=1.2, ls=":",
+                label=f"road load, {d['grade_pct']:g} % grade")
+    top = p.requirements.top_speed_kmh
+    if top is not None:
+        ax.axvline(top, color="C2", lw=1.2, ls="--", label=f"top_speed_kmh required ({top:g} km/h)")
+    if np.isfinite(d["max_speed_mps"]):
+        ax.axvline(mps_to_kmh(d["max_speed_mps"]), color="C1", lw=1.0, ls=":",
+                   label=f"maximum speed ({mps_to_kmh(d['max_speed_mps']):.1f} km/h)")
+    ax.set_ylim(0.0, ymax * 1.15 if ymax > 0 else 1.0)
+    ax.set_xlim(0.0, float(kmh[-1]))
+    ax.set_xlabel("road speed [km/h]")
+    ax.set_ylabel("wheel force [kN]")
+    ax.set_title(f"Tractive effort: {motor_id} + {reducer_id} + {tyre_id}", fontsize=10)
+    ax.grid(True, alpha=0.3)
+    ax.legend(fontsize=8, loc="upper right")
+
+    t, vs = d["run_time_s"], mps_to_kmh(d["run_speed_mps"])
+    ax2.plot(t, vs, color="C0", lw=2, label="acceleration run, level")
+    target = d["accel_target_mps"]
+    if target is not None:
+        ax2.axhline(mps_to_kmh(target), color="0.5", lw=1.0, ls=":", label=f"accel_to_kmh ({mps_to_kmh(target):g} km/h)")
+    req_t = p.requirements.accel_time_s
+    if req_t is not None:
+        ax2.axvline(req_t, color="C2", lw=1.2, ls="--", label=f"accel_time_s required ({req_t:g} s)")
+    if t.size > 1:
+        ax2.annotate(f"{t[-1]:.2f} s", (t[-1], vs[-1]), textcoords="offset points", xytext=(4, -12), fontsize=8)
+    ax2.set_xlabel("time [s]")
+    ax2.set_ylabel("road speed [km/h]")
+    ax2.set_xlim(left=0.0)
+    ax2.set_ylim(bottom=0.0)
+    ax2.set_title("Acceleration from rest", fontsize=10)
+    ax2.grid(True, alpha=0.3)
+    ax2.legend(fontsize=8, loc="lower right")
+    save_figure(fig, path)
+    return fig
+
+
+# ----------------------------------------------------------------------------- frontier
+
+MAX_LABELS = 25
+"""Frontier points labelled with their part ids when there are at most this many [-]."""
+
+
+def frontier_plot(result: dict, path):
+    """Write the frontier chart of a `frontier.frontier` result.
+
+    A step line through the frontier points (line label "frontier", data = (axis value, time) of
+    the points in the JSON order), the points labelled with their part ids when readable (at most
+    `MAX_LABELS` points; otherwise the motor id where the motor changes), the
+    problem's chosen design (star) and the accel_time_s requirement (horizontal line).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    check_output_path(path)
+    fig, (ax,) = _figure(size=(9.0, 6.0))
+    key = result["axis_key"]
+    pts = result["points"]
+    x = np.array([q[key] for q in pts], dtype=float)
+    y = np.array([q["accel_time_s"] for q in pts], dtype=float)
+    if pts:
+        ax.step(x, y, where="post", color="C0", lw=1.0, alpha=0.6, label="_frontier steps")
+        ax.plot(x, y, ls="none", marker="o", ms=5, color="C0", label="frontier")
+        full = len(pts) <= MAX_LABELS  # all three ids on every point; else the motor where it changes
+        for n, q in enumerate(pts):
+            if full:
+                text = f"{q['motor']}\n{q['reducer']}\n{q['tyre']}"
+            elif n == 0 or q["motor"] != pts[n - 1]["motor"]:
+                text = q["motor"]
+            else:
+                continue
+            ax.annotate(text, (x[n], y[n]), textcoords="offset points", xytext=(5, 4), fontsize=6, color="0.25")
+    ch = result.get("chosen")
+    if ch is not None and ch.get("accel_time_s") is not None:
+        ax.plot([ch[key]], [ch["accel_time_s"]], ls="none", marker="*", ms=16, color="C1", mec="k",
+                label=f"chosen ({ch['objective']} optimum): {ch['motor']} + {ch['reducer']} + {ch['tyre']}")
+    req = result.get("requirement")
+    if req is not None:
+        ax.axhline(req, color="C3", lw=1.2, ls="--", label=f"accel_time_s required ({req:g} s)")
+    lim = result.get("limit", {}) or {}
+    if lim.get("required") is not None:
+        ax.axvline(lim["required"], color="0.4", lw=1.0, ls=":", label=f"{lim['name']} ({lim['required']:g})")
+    ax.set_xlabel(f"{result['axis_label']} [{result['axis_unit']}]")
+    ax.set_ylabel(f"0-{result['accel_to_kmh']:g} km/h time [s]")
+    ax.set_title(f"{result['problem']}\n{len(pts)} non-dominated designs", fontsize=10)
+    ax.grid(True, alpha=0.3)
+    ax.legend(fontsize=8, loc="upper right")
+    save_figure(fig, path)
+    return fig
+
+
+# ----------------------------------------------------------------------------- sweeps
+
+def sweep_plot(result: dict, path):
+    """Write the objective against the first swept parameter, one line per value of the others.
+
+    Lines are labelled by the other parameters' values (line data = the objective of each
+    feasible point in grid order); a marker and the new part ids where the chosen parts change
+    along a line; infeasible points are left out of the lines.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    check_output_path(path)
+    fig, (ax,) = _figure(size=(9.0, 6.0))
+    keys = [q["key"] for q in result["parameters"]]
+    first, others = keys[0], keys[1:]
+    groups: dict[tuple, list[dict]] = {}
+    for row in result["rows"]:
+        groups.setdefault(tuple(row[k] for k in others), []).append(row)
+    obj = result["objective"]
+    for n, (combo, rows) in enumerate(groups.items()):
+        rows = sorted(rows, key=lambda r: r[first])
+        label = ", ".join(f"{v:g}" for v in combo) or obj["minimize"]
+        ok = [r for r in rows if r["status"] == "optimal"]
+        color = f"C{n % 10}"
+        ax.plot([r[first] for r in ok], [r["objective"] for r in ok], marker=".", color=color, label=label)
+        prev = None
+        for r in ok:
+            ids = (r["motor"], r["reducer"], r["tyre"])
+            if prev is not None and ids != prev:
+                changed = [new for new, old in zip(ids, prev) if new != old]
+                ax.plot([r[first]], [r["objective"]], ls="none", marker="D", ms=7, mfc="none", mec=color,
+                        label="_change")
+                ax.annotate("\n".join(changed), (r[first], r["objective"]), textcoords="offset points",
+                            xytext=(4, 6), fontsize=6, color=color)
+            prev = ids
+    infeasible = sum(r["status"] != "optimal" for r in result["rows"])
+    ax.set_xlabel(f"{first} [{result['parameters'][0]['unit']}]")
+    ax.set_ylabel(f"optimal {obj['minimize']} [{obj['unit']}]")
+    note = f"; {infeasible} infeasible point{'s' if infeasible != 1 else ''} not drawn" if infeasible else ""
+    ax.set_title(f"{result['problem']}\nsweep of {len(result['rows'])} points{note}; diamonds: chosen parts change",
+                 fontsize=10)
+    ax.grid(True, alpha=0.3)
+    if len(groups) > 1 or others:
+        units = {q["key"]: q["unit"] for q in result["parameters"]}
+        ax.legend(fontsize=8, title=", ".join(f"{k} [{units[k]}]" for k in others) if others else None)
+    save_figure(fig, path)
+    return fig

@@ -1,0 +1,107 @@
+"""``selector sweep PROBLEM --vary KEY=START:STOP:N [...] [--out FILE.csv] [--plot FILE]``."""
+
+from __future__ import annotations
+
+import sys
+
+from .report import CAUTION, dumps, fmt, table
+
+HELP = "re-solve exactly over a grid of problem values (parameter sweep)"
+
+
+def _workers(text):
+    import argparse
+
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"{text!r} must be >= 1")
+    return v
+
+
+def setup(p):
+    """Arguments of the sweep command."""
+    p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
+    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+    p.add_argument("--vary", action="append", required=True, metavar="KEY=START:STOP:N",
+                   help="a dotted problem key and its range, e.g. requirements.top_speed_kmh=100:140:5 "
+                        "(repeat for a grid; the first key varies slowest)")
+    p.add_argument("--out", metavar="FILE.csv", help="also write the table as CSV")
+    p.add_argument("--plot", metavar="FILE", help="write the objective against the first key (.png, .svg or .pdf)")
+    p.add_argument("--workers", type=_workers, metavar="N", help="local worker processes (default: CPU count)")
+    p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://host:8786")
+
+
+def handle(args) -> int:
+    """Run the sweep, print it, optionally write CSV and plot."""
+    from .plots import atomic_write, check_output_path
+    from .sweep import sweep, to_csv
+
+    if args.plot:
+        check_output_path(args.plot)
+    if args.out:
+        _check_csv_path(args.out)
+    progress = args.format == "table" and sys.stderr.isatty()
+    res = sweep(args.problem, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
+    if args.out:
+        text = to_csv(res)
+        atomic_write(args.out, lambda fh: fh.write(text))
+        res["csv"] = args.out
+    if args.plot:
+        from .plots import sweep_plot
+
+        sweep_plot(res, args.plot)
+        res["plot"] = args.plot
+    if args.format == "json":
+        print(dumps(res))
+    else:
+        print(render(res))
+    return 0
+
+
+def _check_csv_path(path):
+    from pathlib import Path
+
+    from .errors import InputError
+
+    p = Path(path)
+    folder = p.parent if str(p.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError(f"--out {path}: folder {folder} does not exist. Create it or choose another path.")
+    if p.suffix.lower() != ".csv":
+        raise InputError(f"--out {path}: give a file name ending in .csv.")
+
+
+def render(res: dict) -> str:
+    """Terminal rendering of a sweep result."""
+    keys = [q["key"] for q in res["parameters"]]
+    obj = res["objective"]
+    r = res["runner"]
+    how = f"{r['mode']}, {r['workers']} worker{'s' if r['workers'] != 1 else ''}"
+    lines = [res["problem"],
+             f"sweep of {len(res['rows'])} points ({' x '.join(str(q['n']) for q in res['parameters'])}), "
+             f"minimise {obj['minimize']} [{obj['unit']}], each solved exactly and verified; "
+             f"{res['infeasible']} infeasible; {r['elapsed_s']:.1f} s ({how})"]
+    lines += [f"note: {n}" for n in res["notes"]]
+    lines.append("")
+    rows = []
+    for row in res["rows"]:
+        rows.append([fmt(row[k]) for k in keys] + [row["status"], fmt(row["objective"]), row["motor"] or "-",
+                                                   row["reducer"] or "-", row["tyre"] or "-", fmt(row["cost"]),
+                                                   fmt(row["mass_kg"]), fmt(row["accel_time_s"])])
+    units = {q["key"]: q["unit"] for q in res["parameters"]}
+    head = [f"{k} [{units[k]}]" for k in keys] + ["status", f"min {obj['minimize']} [{obj['unit']}]", "motor", "reducer",
+                                                  "tyre", "cost", "mass_kg", "accel_time_s"]
+    lines.append(table(head, rows, "r" * len(keys) + "lrlllrrr"))
+    for extra in ("csv", "plot"):
+        if res.get(extra):
+            lines.append(f"{'CSV' if extra == 'csv' else 'plot'} written to {res[extra]}")
+    lines.append("\n" + CAUTION)
+    return "\n".join(lines)
+
+
+def register(commands: dict) -> None:
+    """Add the sweep command to the CLI's command table."""
+    commands["sweep"] = (setup, handle, HELP)

@@ -13,6 +13,7 @@ import traceback
 import warnings
 
 from . import __version__
+from .cli_args import add_common, positive_float
 from .errors import InputError, SelectorError, SolverUnavailableError
 from .report import CAUTION, dumps, fmt, parts_table, performance_table, requirement_table, table
 
@@ -24,29 +25,7 @@ class _Parser(argparse.ArgumentParser):
         raise InputError(f"{self.prog}: {message}. See '{self.prog} --help'.")
 
 
-def _positive_float(text):
-    try:
-        v = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-    if not v > 0:
-        raise argparse.ArgumentTypeError(f"{text!r} must be > 0")
-    return v
-
-
-def _positive_int(text):
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 1:
-        raise argparse.ArgumentTypeError(f"{text!r} must be >= 1")
-    return v
-
-
-def _common(p):
-    p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
-    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+_common = add_common
 
 
 def _out(args, text_or_obj):
@@ -120,7 +99,7 @@ def _cmd_simulate(args) -> int:
 
 def _setup_solve(p):
     _common(p)
-    p.add_argument("--time-limit", type=_positive_float, metavar="SECONDS", help="wall-clock limit of the search")
+    p.add_argument("--time-limit", type=positive_float, metavar="SECONDS", help="wall-clock limit of the search")
 
 
 def print_search_result(res: dict, title: str = "best design", diagnosis: list[str] | None = None) -> None:

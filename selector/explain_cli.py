@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import argparse
 
+from .cli_args import add_common
 from .report import CAUTION, dumps, fmt, parts_table, table
 
 
@@ -23,8 +24,7 @@ def _pct(text):
 def _setup(p):
     from .explain import NEAR_MISS_PCT, STEP_PCT
 
-    p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
-    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+    add_common(p)
     p.add_argument("--step", type=_pct, default=STEP_PCT, metavar="PCT",
                    help=f"loosening step for the price of each requirement [%%] (default {STEP_PCT:g})")
     p.add_argument("--near-miss", type=_pct, default=NEAR_MISS_PCT, metavar="PCT",

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from .cli_args import add_common
 from .report import CAUTION, dumps, fmt, table
 
 HELP = "exact cost (or mass) versus acceleration-time frontier"
@@ -9,8 +10,7 @@ HELP = "exact cost (or mass) versus acceleration-time frontier"
 
 def setup(p):
     """Arguments of the frontier command."""
-    p.add_argument("problem", help="problem file (TOML) with [requirements] accel_to_kmh")
-    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+    add_common(p)
     p.add_argument("--axis", choices=("cost", "mass"), default="cost",
                    help="trade the acceleration time against cost (default) or vehicle mass")
     p.add_argument("--plot", metavar="FILE", help="write the frontier chart (.png, .svg or .pdf)")

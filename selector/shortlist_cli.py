@@ -2,38 +2,14 @@
 
 from __future__ import annotations
 
-import argparse
-
+from .cli_args import add_common, number, positive_int
 from .report import CAUTION, dumps, fmt, table
-
-
-def _positive_int(text):
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 1:
-        raise argparse.ArgumentTypeError(f"{text!r} must be >= 1")
-    return v
-
-
-def _number(minimum: float, strict: bool):
-    def parse(text):
-        try:
-            v = float(text)
-        except ValueError:
-            raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
-        if not (v > minimum if strict else v >= minimum) or v != v or v == float("inf"):
-            raise argparse.ArgumentTypeError(f"{text!r} must be {'>' if strict else '>='} {minimum:g}")
-        return v
-    return parse
 
 
 def setup(p) -> None:
     """Arguments of ``selector shortlist``."""
-    p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
-    p.add_argument("--count", type=_positive_int, required=True, metavar="N", help="number of designs wanted")
-    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+    add_common(p)
+    p.add_argument("--count", type=positive_int, required=True, metavar="N", help="number of designs wanted")
     p.add_argument("--out", metavar="FILE", help="also write the shortlist to FILE.csv (bill-of-materials lines) "
                    "or FILE.xlsx (Header, Shortlist and BOM sheets); written atomically")
     p.add_argument("--distinct", choices=("motor", "reducer", "tyre", "none"),
@@ -41,11 +17,11 @@ def setup(p) -> None:
                    "not sharing the part); default: the problem's [procurement] distinct")
     p.add_argument("--avoid-supplier", action="append", default=[], metavar="NAME",
                    help="never propose parts from this supplier (repeatable; replaces the problem's avoid_suppliers)")
-    p.add_argument("--max-lead-time-weeks", type=_number(0.0, False), metavar="W",
+    p.add_argument("--max-lead-time-weeks", type=number(0.0, False), metavar="W",
                    help="never propose parts with a longer lead time (replaces the problem's)")
-    p.add_argument("--vehicles", type=_positive_int, default=1, metavar="Q",
+    p.add_argument("--vehicles", type=positive_int, default=1, metavar="Q",
                    help="vehicles to buy for: multiplies quantities and extended costs (default 1)")
-    p.add_argument("--time-limit", type=_number(0.0, True), metavar="SECONDS", help="wall-clock limit of the search")
+    p.add_argument("--time-limit", type=number(0.0, True), metavar="SECONDS", help="wall-clock limit of the search")
 
 
 def print_shortlist(res: dict) -> None:

@@ -4,33 +4,21 @@ from __future__ import annotations
 
 import sys
 
+from .cli_args import add_common, positive_int
 from .report import CAUTION, dumps, fmt, table
 
 HELP = "re-solve exactly over a grid of problem values (parameter sweep)"
 
 
-def _workers(text):
-    import argparse
-
-    try:
-        v = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
-    if v < 1:
-        raise argparse.ArgumentTypeError(f"{text!r} must be >= 1")
-    return v
-
-
 def setup(p):
     """Arguments of the sweep command."""
-    p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
-    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+    add_common(p)
     p.add_argument("--vary", action="append", required=True, metavar="KEY=START:STOP:N",
                    help="a dotted problem key and its range, e.g. requirements.top_speed_kmh=100:140:5 "
                         "(repeat for a grid; the first key varies slowest)")
     p.add_argument("--out", metavar="FILE.csv", help="also write the table as CSV")
     p.add_argument("--plot", metavar="FILE", help="write the objective against the first key (.png, .svg or .pdf)")
-    p.add_argument("--workers", type=_workers, metavar="N", help="local worker processes (default: CPU count)")
+    p.add_argument("--workers", type=positive_int, metavar="N", help="local worker processes (default: CPU count)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://host:8786")
 
 

@@ -1,0 +1,41 @@
+"""Argument types and common arguments shared by every command of the CLI."""
+
+from __future__ import annotations
+
+import argparse
+import math
+
+
+def positive_int(text):
+    """A whole number >= 1 (argparse type)."""
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError(f"{text!r} must be >= 1")
+    return v
+
+
+def number(minimum: float = 0.0, strict: bool = True):
+    """An argparse type for a finite number > ``minimum`` (or >= when not ``strict``)."""
+
+    def parse(text):
+        try:
+            v = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a number") from None
+        if not math.isfinite(v) or not (v > minimum if strict else v >= minimum):
+            raise argparse.ArgumentTypeError(f"{text!r} must be {'>' if strict else '>='} {minimum:g}")
+        return v
+
+    return parse
+
+
+positive_float = number(0.0, strict=True)
+
+
+def add_common(p) -> None:
+    """The problem file and --format, taken by every command."""
+    p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
+    p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")

@@ -132,7 +132,10 @@ def solve(study: Study, count: int = 1, time_limit_s: float | None = None, objec
 
 
 def simulate(study: Study, motor: str, reducer: str, tyre: str) -> dict:
-    """Evaluate one design given by part ids: performance, requirements and checks."""
+    """Evaluate one design given by part ids: performance, requirements and checks.
+
+    The design record's keys (as in `solve`'s designs) are at the top level, and also under "design".
+    """
     parts = study.parts
     i, j, k = (find_part(parts, "motor", motor), find_part(parts, "reducer", reducer),
                find_part(parts, "tyre", tyre))
@@ -140,6 +143,7 @@ def simulate(study: Study, motor: str, reducer: str, tyre: str) -> dict:
     rec = design_record(parts, i, j, k, metrics, 0)
     rec["feasible"] = all(r["met"] for r in rec["requirements"] + rec["checks"])
     out = header(parts)
+    out.update(rec)  # motor, reducer, tyre, cost, mass_kg, performance, requirements, checks, ... at the top
     out["design"] = rec
     out["details"] = {"rear_axle_share": clean(metrics["rear_axle_share"][0]),
                       "effective_mass_kg": clean(metrics["effective_mass_kg"][0]),

@@ -54,3 +54,17 @@ def test_solve_table_shows_caution(capsys):
     assert run(["solve", str(PROBLEMS[0])]) == 0
     out, _ = capsys.readouterr()
     assert "Caution" in out and "binding" in out
+
+
+def test_simulate_json_has_performance_and_requirements(capsys):
+    # the solve answer of the parcel van, re-evaluated by `simulate` (invented demo data)
+    path = str(PROBLEMS[[p.stem for p in PROBLEMS].index("parcel_van")])
+    assert run(["solve", path, "--format", "json"]) == 0
+    best = json.loads(capsys.readouterr().out)["designs"][0]
+    assert run(["simulate", path, "--motor", best["motor"], "--reducer", best["reducer"], "--tyre", best["tyre"],
+                "--format", "json"]) == 0
+    sim = json.loads(capsys.readouterr().out)
+    assert set(sim["performance"]) >= PERF_KEYS
+    assert sim["performance"] == best["performance"]
+    assert [r["name"] for r in sim["requirements"]] == [r["name"] for r in best["requirements"]]
+    assert sim["feasible"] is True

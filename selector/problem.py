@@ -6,7 +6,7 @@ Unknown keys and tables are errors, with a "did you mean" suggestion.
 
 Choices made here (documented for users):
 
-- ``[environment] road_friction`` defaults to 0.8 (dry asphalt, reference-values section 9) with a
+- ``[environment] road_friction`` defaults to 0.8 (dry asphalt, Wong ch. 1, from memory) with a
   warning, so a study never runs on an unstated friction silently; the [environment] table may be
   omitted (ISA sea level, friction 0.8, both warned).
 - Air: ``air_density_kg_m3``, or ``altitude_m`` (geopotential, ISA) with optional
@@ -154,7 +154,7 @@ TOP_LEVEL: dict[str, str] = {"name": "str", **{t: "table" for t in TABLES}}
 REQUIRED_TABLES = ("catalogs", "vehicle")
 DEFAULT_ROAD_FRICTION = 0.8
 """Peak friction assumed when the problem gives none: dry asphalt/concrete 0.8-0.9 (Wong, Theory of
-Ground Vehicles ch. 1, from memory; reference-values section 9)."""
+Ground Vehicles ch. 1, table of road adhesion, from memory)."""
 
 
 # --------------------------------------------------------------------------------------------

@@ -1,4 +1,4 @@
-"""Design records (the JSON contract of design-notes section 6) and readable terminal tables.
+"""Design records (the JSON contract documented in README.md) and readable terminal tables.
 
 A design record is built only from a *verified* evaluation (`verify.verify_design`). Infinite
 values become JSON null. Requirement names are the problem file's keys.

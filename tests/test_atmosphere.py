@@ -1,6 +1,6 @@
 """ISA air density against ICAO Doc 7488 values and the `ambiance` package.
 
-Sources: reference-values.md section 2 (ISA = ICAO Doc 7488/3 = ISO 2533); ambiance 1.3 (PyPI),
+Sources: ISA = ICAO Doc 7488/3 (1993) = ISO 2533:1975 (troposphere formulas); ambiance 1.3 (PyPI),
 which implements the ICAO 1993 atmosphere and takes GEOMETRIC altitude.
 """
 
@@ -40,7 +40,7 @@ def test_sea_level():
 @pytest.mark.parametrize(
     "h_m, t_k, p_pa, rho",
     [
-        # ISA formula at geopotential altitude, reference-values.md section 2 ("computed here" rows,
+        # ISA troposphere formula at geopotential altitude (ICAO Doc 7488; computed from the formula,
         # matching ambiance at the corresponding geometric height); printed to 6 significant digits
         (1000.0, 281.650, 89874.6, 1.11164),
         (2000.0, 275.150, 79495.2, 1.00649),
@@ -65,7 +65,7 @@ def test_against_ambiance(h_geometric_m):
 
 
 def test_geometric_vs_geopotential_differs_as_documented():
-    # reference-values.md section 2: at 3000 m the two altitude kinds differ by 1.4e-4 in density.
+    # ISA (ambiance vs the geopotential formula): at 3000 m the two altitude kinds differ by 1.4e-4 in density.
     # That figure comes from densities printed to 5 digits (0.90925 vs 0.90912), so it is good to
     # about +-1e-5; the unrounded difference is 1.46e-4.
     rel = isa_density_kg_m3(3000.0) / float(Atmosphere(3000.0).density[0]) - 1.0
@@ -75,7 +75,7 @@ def test_geometric_vs_geopotential_differs_as_documented():
 @pytest.mark.parametrize(
     "t_c, rho",
     [
-        # ideal gas rho = p/(R T), 101325 Pa, R = 287.05287 (reference-values.md section 2, computed there)
+        # ideal gas rho = p/(R T), 101325 Pa, R = 287.05287 (ICAO Doc 7488 constant; computed from the formula)
         (25.0, 1.18391),
         (20.0, 1.20411),
         (15.0, 1.22500),
@@ -98,7 +98,7 @@ def test_vectorised_and_broadcast():
     hs = np.array([0.0, 1000.0, 2000.0, 3000.0])
     rho = isa_density_kg_m3(hs)
     assert isinstance(rho, np.ndarray) and rho.shape == (4,)
-    # ISA rows above (reference-values.md section 2)
+    # ISA rows above (ICAO Doc 7488 formula, computed)
     np.testing.assert_allclose(rho, [1.225, 1.11164, 1.00649, 0.90912], atol=5e-6)
     both = isa_density_kg_m3(np.array([0.0, 0.0]), np.array([25.0, 0.0]))
     np.testing.assert_allclose(both, [1.18391, 1.29227], atol=5e-6)  # ideal-gas rows above

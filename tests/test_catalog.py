@@ -43,8 +43,8 @@ def write(tmp_path: Path, name: str, text: str, **kw) -> Path:
 # ------------------------------------------------------------------------------ schema
 
 
-def test_schema_columns_match_design_notes():
-    # exact column lists of design-notes.md section 2
+def test_schema_columns_match_the_documented_formats():
+    # exact column lists of the catalogue formats documented in README.md
     assert [c.name for c in SCHEMA["motors"]] == MOTORS_HEADER.split(",")
     assert [c.name for c in SCHEMA["reducers"]] == REDUCERS_HEADER.split(",")
     assert [c.name for c in SCHEMA["tyres"]] == TYRES_HEADER.split(",")
@@ -99,7 +99,7 @@ def test_reducers_blank_line_keeps_line_numbers():
 
 def test_tyres_derived_columns():
     df = load_catalog("tyres", VALID / "tyres.csv").set_index("part")
-    # D = 25.4 d + 2 S Ra/100 (ISO 4000-1; reference-values.md section 3: 205/55 R16 -> 631.90 mm,
+    # D = 25.4 d + 2 S Ra/100 (ISO 4000-1 / UN ECE R30 formula, computed: 205/55 R16 -> 631.90 mm,
     # 235/65 R16C -> 711.90 mm, 195/65 R15 -> 634.50 mm)
     assert df.loc["T-20555R16", "diameter_m"] == pytest.approx(0.63190, abs=1e-9)
     assert df.loc["T-23565R16C", "diameter_m"] == pytest.approx(0.71190, abs=1e-9)

@@ -1,5 +1,5 @@
 """Every bundled demo problem solves, verifies, matches exhaustive enumeration, and its JSON
-follows the contract of design-notes section 6 (the demo data are invented and illustrative)."""
+follows the JSON contract documented in README.md (the demo data are invented and illustrative)."""
 
 from __future__ import annotations
 

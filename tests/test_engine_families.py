@@ -2,8 +2,8 @@
 
 Each test builds a catalogue of 2-3 parts per kind (invented, illustrative data) where a cheaper
 (or lighter) design fails exactly one family, so a failing test names the family. The expected
-design is derived by hand in the comments, from the textbook relations of the design notes
-section 4 (road load F = m g Crr + 0.5 rho CdA v^2; wheel force F = eta T G / r; grade load
+design is derived by hand in the comments, from standard textbook relations
+(road load F = m g Crr + 0.5 rho CdA v^2; wheel force F = eta T G / r; grade load
 m g (Crr cos + sin); ISO 4000-1 tyre tables), with margins of several percent so that rounding
 in the hand arithmetic cannot change the verdict. Every test also checks:
 
@@ -16,7 +16,7 @@ Common data (unless a test says otherwise):
 - vehicle 1500 kg without the parts, CdA 0.8 m^2, wheelbase 2.8 m, CG 0.6 m, rear share 0.5,
   rear drive, 4 tyres; air 1.2 kg/m^3; road friction 0.9;
 - tyre 205/55R16: D = 16 x 25.4 mm + 2 x 205 mm x 0.55 = 0.6319 m; rolling radius
-  r = 0.97 x D/2 = 0.30647 m (ISO 4000-1 designation; k = 0.97 design-notes default);
+  r = 0.97 x D/2 = 0.30647 m (ISO 4000-1 designation; k = 0.97 project default, an assumption);
   LI 91 = 615 kg, V = 240 km/h (ISO 4000-1 tables); 8.0 N/kN; 9 kg; 100 each;
 - reducer ratio 8, 97 %, 400 N m, 16000 rpm, 15 kg, 500;
 - so G/r = 8 / 0.30647 = 26.10 1/m and, with a 40 kg motor, m = 1500 + 40 + 15 + 4 x 9 = 1591 kg.
@@ -215,7 +215,7 @@ def test_speed_limiter_admits_slower_tyre(tmp_path):
 
 
 def test_speed_limiter_below_top_speed_is_infeasible(tmp_path):
-    # The sustained top speed is capped by the limiter (design notes section 4): a 155 km/h top-speed
+    # The sustained top speed is capped by the limiter (product rule): a 155 km/h top-speed
     # requirement with a 150 km/h limiter cannot be met by any design, although the motor could
     # hold 155 km/h (43.06 m/s: 125 + 0.48 x 43.06^2 = 1015 N, 43.7 kW <= 0.97 x 60 kW).
     parts = study(tmp_path, [motor("M-A", cont_power_kw=60)],

@@ -5,7 +5,7 @@ with the exact physics; the engine (`engine.search`) must return the same design
 
 - infeasible exactly when enumeration finds no design;
 - otherwise the same objective value (1e-9 relative) AND the same design: ties within 1e-9
-  relative break by part-id order (design notes section 4), so the design is determined too;
+  relative break by part-id order (the project's tie rule), so the design is determined too;
   a same-value different-design answer is reported as a tie-break disagreement;
 - every design the engine returns passes `evaluate.feasible` (the unstaged checks);
 - on a subset, ``count=3``: the same top three, in order.

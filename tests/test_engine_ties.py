@@ -1,4 +1,4 @@
-"""Deterministic tie-breaking of the engine (design notes sections 4 and 5).
+"""Deterministic tie-breaking of the engine (the project's tie rule: part ids, motor then reducer then tyre).
 
 "Ties within 1e-9 relative break by part id string order (motor, then reducer, then tyre)", and
 "the same input always gives the same answer". Each case duplicates a part under two ids, written

@@ -251,15 +251,15 @@ def test_infeasible_study_is_explained(path):
 
 
 def test_impossibility_limits_are_computed():
-    # speed limiter: the limit is the limiter itself (design-notes section 4: speeds capped by the limiter)
+    # speed limiter: the limit is the limiter itself (product rule: speeds capped by the limiter)
     res = explain(open_study(DATA / "top_speed_limiter.toml"))
     (imp,) = res["impossible"]
     assert (imp["name"], imp["limit"], imp["bound"]) == ("top_speed_kmh", 120.0, "exact")
     assert res["relaxation"]["top_speed_kmh"] == 120.0
 
     # traction on grade, front drive: tan(theta) = (mu s - Crr) / (1 + mu h/L) with the largest
-    # front-axle share and the lowest Crr of the catalogue (design-notes section 4, reference-values
-    # section 9 for the load-transfer form); an upper bound on every design's gradeability
+    # front-axle share and the lowest Crr of the catalogue (load-transfer form of
+    # Gillespie ch. 2 / Wong ch. 3, from memory); an upper bound on every design's gradeability
     study = open_study(DATA / "gradeability_traction.toml")
     res = explain(study)
     (imp,) = res["impossible"]

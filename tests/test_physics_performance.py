@@ -1,17 +1,17 @@
 """Vehicle performance (acceleration time, top speeds, gradeability) against outside oracles.
 
-Oracles (reference-values.md section 12 lists them as usable outside references):
+Oracles (outside references: PyPI libraries, closed forms, textbook relations):
 - scipy.integrate.solve_ivp (DOP853) integrating the equation of motion in the TIME domain,
   m_eff dv/dt = min(F_w, F_trac) - F_res, with a terminal event at the target speed. The right-hand
   side is written here from first principles: the envelope as the min of its three branches
-  (design-notes §4), and the traction limit as the solution of F = mu N_driven(a) with
+  T(w) = min(T_pk, P_pk/w, P_pk (w_d/w)^k / w), and the traction limit as the solution of F = mu N_driven(a) with
   a = (F - F_res)/m_eff, solved with scipy.optimize.brentq (not the code's closed form).
-- closed forms of reference-values §11 ("computed here" there, each checked against scipy on the sheet):
+- closed forms (worked values computed from the formulas below, each cross-checked with scipy):
   constant force with quadratic drag, t = m/sqrt(F c) artanh(v sqrt(c/F)); constant power without
   resistance, t = m v^2/(2P); top speed of the cubic P/v = m g Crr + c v^2.
 - scipy.optimize.brentq and numpy.roots for top speeds and gradeability.
-- reference-values §9 example A for acceleration at the traction limit (Gillespie ch. 2 / Wong ch. 3
-  textbook form).
+- worked example A (computed from the Gillespie ch. 2 / Wong ch. 3 textbook form, not a published
+  answer) for acceleration at the traction limit.
 
 All vehicles are illustrative (a parcel-van-sized car, 1500 kg), not real products.
 """
@@ -38,12 +38,12 @@ from selector.physics.performance import (
 )
 from selector.units import G_N
 
-RPM = 2.0 * math.pi / 60.0  # rad/s per rev/min (reference-values §1, exact)
+RPM = 2.0 * math.pi / 60.0  # rad/s per rev/min (ISO 80000-3 omega = 2 pi n, exact)
 
 # Tolerances
 IVP_REL = 1e-6
-# ^ DOP853 at rtol 1e-11 reproduces the closed forms of §11 to ~1e-10 even across the envelope's kinks;
-#   design-notes §4 promises ~1e-10 for the code. 1e-6 is the brief's generous bound: far above both
+# ^ DOP853 at rtol 1e-11 reproduces the closed forms below to ~1e-10 even across the envelope's kinks;
+#   the code's Gauss-Legendre quadrature aims at ~1e-10. 1e-6 is a deliberately generous bound: far above both
 #   integration errors, far below any difference that could change a selection.
 CLOSED_REL = 1e-9
 # ^ closed forms are exact; the code's Gauss-Legendre quadrature is exact to ~1e-12 on these smooth
@@ -91,7 +91,7 @@ def build(p: dict):
 # ============================================================================ oracles (first principles)
 
 def envelope_torque(p: dict, w: float, continuous: bool = False, cut_at_max_speed: bool = True) -> float:
-    """Shaft torque: min of the torque, power and decline branches (design-notes §4)."""
+    """Shaft torque: min of the torque, power and decline branches, min(T_pk, P_pk/w, P_pk (w_d/w)^k / w)."""
     t_max = p["cont_torque_nm"] if continuous else p["torque_nm"]
     p_max = p["cont_power_w"] if continuous else p["power_w"]
     if cut_at_max_speed and w > p["max_speed_rad_s"]:
@@ -113,14 +113,14 @@ def road_load(p: dict, v: float) -> float:
 
 
 def effective_mass(p: dict) -> float:
-    """m + J_rotor (G/r)^2 eta + sum J_wheel / r^2 (eta-multiplied, reference-values §10)."""
+    """m + J_rotor (G/r)^2 eta + sum J_wheel / r^2 (eta-multiplied, Wong ch. 3, from memory)."""
     e = p["ratio"] / p["radius_m"]
     return p["mass_kg"] + p["rotor_inertia_kgm2"] * e * e * p["efficiency"] + p["wheel_inertia_total_kgm2"] / p[
         "radius_m"] ** 2
 
 
 def driven_normal_load(p: dict, accel: float) -> float:
-    """Driven-axle load on the level: static share +- m a h/L (design-notes §4, moments about a contact patch)."""
+    """Driven-axle load on the level: static share +- m a h/L (Gillespie ch. 2, moments about a contact patch)."""
     m, hl = p["mass_kg"], p["cg_height_m"] / p["wheelbase_m"]
     if p["rear_drive"]:
         return m * G_N * p["rear_share"] + m * accel * hl
@@ -214,7 +214,7 @@ IVP_CASES = {
     # then motor-limited again past the corner (two crossovers)
     "rear drive, traction binds mid-run": (params(torque_nm=152.2, road_friction=0.5, rotor_inertia_kgm2=0.0),
                                            V100),
-    # wheel inertia 4 x 1.0 kg m^2 (reference-values §10 wheels)
+    # wheel inertia 4 x 1.0 kg m^2 (equivalent mass sum J_wheel / r^2)
     "wheel inertia": (params(wheel_inertia_total_kgm2=4.0), V100),
     # gearing-limited vehicle, target exactly at the gearing limit w_max r/G (8000 rpm -> 29.79 m/s)
     "target at gearing limit": (params(decline_rad_s=8000 * RPM, max_speed_rad_s=8000 * RPM), 8000 * RPM / E9),
@@ -246,7 +246,7 @@ def resolve_target(p: dict, target):
 
 @pytest.mark.parametrize("name", list(IVP_CASES))
 def test_accel_time_against_solve_ivp(name):
-    # scipy.integrate.solve_ivp oracle (reference-values §12), relative agreement IVP_REL
+    # scipy.integrate.solve_ivp oracle, relative agreement IVP_REL
     p, target = IVP_CASES[name]
     target = resolve_target(p, target)
     expected = ivp_accel_time(p, target)
@@ -316,29 +316,29 @@ def constant_force_design(force_n=5000.0, q=0.398125, mass_kg=1500.0):
 
 
 def test_constant_force_quadratic_drag_closed_form():
-    # reference-values §11: m dv/dt = F - c v^2, t(v) = m/sqrt(F c) artanh(v sqrt(c/F));
+    # computed from the closed form of m dv/dt = F - c v^2, t(v) = m/sqrt(F c) artanh(v sqrt(c/F));
     # m = 1500, F = 5000 N, c = 0.5 * 1.225 * 0.65 = 0.398125: t(0 -> 100 km/h) = 8.510579 s
     m, f, c = 1500.0, 5000.0, 0.398125
     closed = m / math.sqrt(f * c) * math.atanh(V100 * math.sqrt(c / f))
-    assert closed == printed("8.510579")  # transcription check of the closed form against the sheet
+    assert closed == printed("8.510579")  # copy check: the closed form gives the printed value
     p = constant_force_design(f, c, m)
     assert float(launch_accel_mps2(*build(p))[0]) == pytest.approx(f / m, rel=1e-14)  # traction not binding
     assert float(accel_time_s(*build(p), V100)[0]) == pytest.approx(closed, rel=CLOSED_REL)
 
 
 def test_constant_force_terminal_speed():
-    # reference-values §11: terminal speed sqrt(F/c) = 112.066 m/s is the envelope/road-load crossing
+    # closed form: terminal speed sqrt(F/c) = 112.066 m/s is the envelope/road-load crossing
     p = constant_force_design()
     assert float(max_speed_mps(*build(p))[0]) == printed("112.066")
 
 
 def test_constant_power_no_resistance_closed_form():
-    # reference-values §11: constant power, no resistance, t = m v^2 / (2P) = 5.787037 s for P = 100 kW,
+    # computed from the closed form t = m v^2 / (2P) (constant power, no resistance): 5.787037 s for 100 kW,
     # m = 1500 kg, 0 -> 100 km/h. A real envelope starts with a constant-torque segment up to the corner
     # v_c = P/(T G/r): there a = T (G/r)/m, so t = m v_c/(T G/r) + m (v^2 - v_c^2)/(2P) = m v^2/(2P) + m P/(2 T^2)
     # with G/r = 1 (derived here). T = 1e6 N m -> v_c = 0.1 m/s, the extra term is 7.5e-5 s.
     m, p_w, t_nm = 1500.0, 100e3, 1e6
-    assert m * V100 ** 2 / (2 * p_w) == printed("5.787037")  # the sheet's value (leading term)
+    assert m * V100 ** 2 / (2 * p_w) == printed("5.787037")  # closed-form value (leading term)
     expected = m * V100 ** 2 / (2 * p_w) + m * p_w / (2 * t_nm ** 2)
     # No resistance at all; rear drive with mu h/L = 10 * 0.55/2.7 >= 1: the slip threshold is unlimited
     # (vehicle.traction_limited_accel_mps2), needed because the launch at T/m = 667 m/s^2 is unphysical.
@@ -350,7 +350,8 @@ def test_constant_power_no_resistance_closed_form():
 
 @pytest.mark.parametrize("rear_drive, accel, t100", [(True, "4.8033", "5.783"), (False, "4.1437", "6.704")])
 def test_accel_time_at_constant_traction_limit(rear_drive, accel, t100):
-    # reference-values §9 example A, "t 0-100 km/h at constant a": no resistance, strong motor, rotor
+    # worked example A (computed from the Gillespie ch. 2 textbook form), t 0-100 km/h at constant a:
+    # no resistance, strong motor, rotor
     # inertia 0 -> the whole run is at the textbook traction limit a = F/m, t = v/a
     p = params(torque_nm=5000.0, power_w=1e9, decline_rad_s=1e9, max_speed_rad_s=1e9, rotor_inertia_kgm2=0.0,
                crr=0.0, q_n_s2_m2=0.0, rear_share=1.20 / 2.70, cg_height_m=0.55, wheelbase_m=2.70,
@@ -362,7 +363,7 @@ def test_accel_time_at_constant_traction_limit(rear_drive, accel, t100):
 # ============================================================================ unreachable targets
 
 def test_accel_time_infinite_above_max_speed():
-    # design-notes §4: a target above the vehicle's maximum speed is unreachable (time inf);
+    # product rule: a target above the vehicle's maximum speed is unreachable (time inf);
     # max speed from the brentq oracle, target 0.1 % above it
     p = params(decline_rad_s=12000 * RPM)
     v_top = oracle_top_speed(p)
@@ -371,13 +372,13 @@ def test_accel_time_infinite_above_max_speed():
 
 
 def test_accel_time_infinite_above_gearing_limit():
-    # design-notes §4: above w_max r/G the motor gives nothing; 0.1 % above the gearing limit is unreachable
+    # envelope definition: above w_max r/G the motor gives nothing; 0.1 % above the gearing limit is unreachable
     p = params(decline_rad_s=8000 * RPM, max_speed_rad_s=8000 * RPM)
     assert np.isinf(accel_time_s(*build(p), 1.001 * 8000 * RPM / E9)[0])
 
 
 def test_accel_time_infinite_when_limiter_below_target():
-    # design-notes §4: the speed limiter caps the maximum speed; limiter 25 m/s, target 100 km/h
+    # product rule: the speed limiter caps the maximum speed; limiter 25 m/s, target 100 km/h
     p = params(speed_limit_mps=25.0)
     assert np.isinf(accel_time_s(*build(p), V100)[0])
 
@@ -397,7 +398,8 @@ def test_accel_time_infinite_when_traction_cannot_beat_drag():
 # ============================================================================ top speed
 
 def test_top_speed_cubic_reference_value():
-    # reference-values §11: P_wheel = 150 kW, m = 1500 kg, Crr = 0.010, CdA = 0.65, rho = 1.225 ->
+    # scipy.optimize.brentq on P/v = m g Crr + c v^2: P_wheel = 150 kW, m = 1500 kg, Crr = 0.010, CdA = 0.65,
+    # rho = 1.225 ->
     # v_max = 70.52061 m/s = 253.874 km/h. Realised with eta = 1 (P_wheel = P), corner speed 5 m/s and
     # no gearing cut below 1000 rad/s.
     p = params(torque_nm=150e3 / 5.0, power_w=150e3, decline_rad_s=1e3, max_speed_rad_s=1e3, ratio=1.0,
@@ -408,7 +410,7 @@ def test_top_speed_cubic_reference_value():
 
 
 def test_top_speed_cubic_against_numpy_roots():
-    # numpy.roots of c v^3 + F_rr v - P = 0 (reference-values §11/§12), real positive root
+    # numpy.roots of c v^3 + F_rr v - P = 0, real positive root
     p = params(torque_nm=150e3 / 5.0, power_w=150e3, decline_rad_s=1e3, max_speed_rad_s=1e3, ratio=1.0,
                radius_m=1.0, efficiency=1.0)
     roots = np.roots([p["q_n_s2_m2"], 0.0, p["mass_kg"] * G_N * p["crr"], -p["power_w"]])
@@ -418,7 +420,7 @@ def test_top_speed_cubic_against_numpy_roots():
 
 
 def test_road_load_power_reference_values():
-    # reference-values §11: road-load power of that vehicle 12.619 kW at 100 km/h, 24.059 kW at 130 km/h;
+    # computed from (m g Crr + c v^2) v: road-load power of that vehicle 12.619 kW at 100 km/h, 24.059 kW at 130 km/h;
     # the same vehicle whose P_wheel is exactly that power tops out at that speed (power branch, eta = 1)
     for v_kmh, kw in ((100.0, "12.619"), (130.0, "24.059")):
         v = v_kmh / 3.6
@@ -447,7 +449,7 @@ TOP_CASES = {
 
 @pytest.mark.parametrize("name", list(TOP_CASES))
 def test_envelope_road_crossing_against_brentq(name):
-    # scipy.optimize.brentq on wheel force = road load (reference-values §12), ROOT_REL
+    # scipy.optimize.brentq on wheel force = road load, ROOT_REL
     p = TOP_CASES[name]
     assert float(envelope_road_crossing_mps(*build(p))[0]) == pytest.approx(oracle_top_speed(p), rel=ROOT_REL)
 
@@ -472,7 +474,7 @@ def test_torque_limited_top_speed_closed_form():
 
 def test_decline_k1_top_speed_against_numpy_roots():
     # decline branch with k = 1: F = eta P w_d (r/G) / v^2, so q v^4 + m g Crr v^2 - eta P w_d r/G = 0
-    # (derived here from design-notes §4); numpy.roots, real positive root
+    # (derived here from the envelope's decline branch); numpy.roots, real positive root
     p = TOP_CASES["decline k=1"]
     c = p["efficiency"] * p["power_w"] * p["decline_rad_s"] / E9
     roots = np.roots([p["q_n_s2_m2"], 0.0, p["mass_kg"] * G_N * p["crr"], 0.0, -c])
@@ -494,14 +496,14 @@ def test_envelope_crossing_ignores_gearing_limit():
 
 
 def test_max_speed_limiter_limited():
-    # design-notes §4: min(gearing, envelope, limiter); limiter 30 m/s below both
+    # product rule: max speed = min(gearing, envelope, limiter); limiter 30 m/s below both
     p = params(speed_limit_mps=30.0)
     assert float(max_speed_mps(*build(p))[0]) == 30.0
 
 
 @pytest.mark.parametrize("k", [0.5, 1.0, 1.5])
 def test_sustained_top_speed_against_brentq(k):
-    # continuous envelope (150 N m / 50 kW) with the motor's decline speed and exponent (design-notes §4),
+    # continuous envelope (150 N m / 50 kW) with the motor's decline speed and exponent (product rule),
     # brentq on continuous wheel force = road load
     p = params(decline_rad_s=5000 * RPM, decline_exponent=k)
     v = oracle_top_speed(p, continuous=True)
@@ -518,7 +520,7 @@ def test_sustained_top_speed_power_limited_against_numpy_roots():
 
 
 def test_sustained_top_speed_capped_by_gearing_and_limiter():
-    # design-notes §4 conventions: sustained top speed is also capped by gearing and by the limiter
+    # product convention: sustained top speed is also capped by gearing and by the limiter
     gear = params(decline_rad_s=5000 * RPM, max_speed_rad_s=5000 * RPM)  # 18.6 m/s, below the cont. crossing
     assert oracle_top_speed(gear, continuous=True) > 5000 * RPM / E9
     assert float(sustained_top_speed_mps(*build(gear))[0]) == pytest.approx(5000 * RPM / E9, rel=1e-14)
@@ -535,7 +537,7 @@ def test_top_speeds_vectorised():
 # ============================================================================ gradeability
 
 def grade_oracle_motor(p: dict) -> float:
-    """brentq on theta: eta T G/r = m g (Crr cos(theta) + sin(theta)) (design-notes §4, crawl speed)."""
+    """brentq on theta: eta T G/r = m g (Crr cos(theta) + sin(theta)) (road load on a grade, crawl speed)."""
     f0 = p["efficiency"] * p["torque_nm"] * p["ratio"] / p["radius_m"]
     if f0 >= p["mass_kg"] * G_N * math.hypot(1.0, p["crr"]):
         return math.inf  # the road load m g (Crr cos + sin) never exceeds m g sqrt(1 + Crr^2)
@@ -585,7 +587,7 @@ def test_gradeability_traction_limited(rear_drive, mu):
 
 
 def test_gradeability_all_weight_on_driven_axle_equals_mu():
-    # reference-values §11: traction-limited grade with every wheel driven and no rolling resistance,
+    # closed form (statics): traction-limited grade with every wheel driven and no rolling resistance,
     # tan(theta) = mu -> mu = 0.9 gives 90 % (41.99 deg). Realised as all weight on the driven axle
     # (rear share 1) with h = 0, so no load moves: N_driven = m g cos(theta).
     p = params(torque_nm=5000.0, road_friction=0.9, rear_share=1.0, cg_height_m=0.0, crr=0.0)
@@ -595,7 +597,7 @@ def test_gradeability_all_weight_on_driven_axle_equals_mu():
 
 
 def test_gradeability_30pct_needs_the_worked_wheel_torque():
-    # reference-values §8 worked example: 1500 kg on 30 %, Crr 0.010 needs 4367.78 N, i.e. 1397.69 N m at
+    # computed from m g (Crr cos + sin): 1500 kg on 30 %, Crr 0.010 needs 4367.78 N, i.e. 1397.69 N m at
     # r = 0.32 m. A drive with exactly that wheel torque (G 1, eta 1, r 0.32) climbs 30 % (motor-limited).
     p = params(torque_nm=1397.69, ratio=1.0, efficiency=1.0, radius_m=0.32, road_friction=2.0, rear_share=0.9)
     assert float(gradeability_pct(*build(p))[0]) == pytest.approx(30.0, abs=5e-4)

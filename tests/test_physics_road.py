@@ -1,9 +1,9 @@
 """Road load (rolling resistance, grade, aerodynamic drag) against published and worked values.
 
-Sources: reference-values.md sections 6 (EU tyre label rolling-resistance points), 7 (drag) and 8
-(grade trigonometry and the 1500 kg / 30 % worked example). Those rows are "computed here" on the
-sheet from the named formula (standard trigonometry, F_d = 0.5 rho Cd A v^2, F = m g RRC/1000);
-they were computed independently of selector and are printed rounded.
+Sources: EU tyre label rolling-resistance classes (Reg. (EC) 1222/2009 Annex I), aerodynamic drag
+F_d = 0.5 rho Cd A v^2 (Gillespie ch. 4 / Wong ch. 3 form) and grade trigonometry. The worked values
+are computed from the named formula (standard trigonometry, F_d = 0.5 rho Cd A v^2,
+F = m g RRC/1000) independently of selector, with Python's math library, and are printed rounded.
 
 Tolerance: a value printed with d decimals is checked to half a unit in its last printed digit
 (`printed`), i.e. exactly the rounding of the table.
@@ -19,7 +19,7 @@ import pytest
 from selector.physics.road import aero_coefficient_n_s2_m2, grade_angle_rad, grade_pct_from_angle, road_load_n
 from selector.units import G_N, kmh_to_mps
 
-RHO_SEA_LEVEL = 1.225  # ISA sea-level density [kg/m^3] (reference-values §2 / §7 worked drag values)
+RHO_SEA_LEVEL = 1.225  # ISA sea-level density [kg/m^3] (ICAO Doc 7488; ambiance CONST)
 
 
 def printed(text: str):
@@ -30,7 +30,7 @@ def printed(text: str):
 
 # ------------------------------------------------------------------------- grade trigonometry
 
-# (grade %, theta deg, sin theta, cos theta) -- reference-values §8, standard trigonometry (computed here)
+# (grade %, theta deg, sin theta, cos theta) -- standard trigonometry, theta = atan(p) (computed, Python math)
 GRADE_ROWS = [
     (1, "0.5729", "0.01000", "0.99995"),
     (5, "2.8624", "0.04994", "0.99875"),
@@ -49,26 +49,26 @@ GRADE_ROWS = [
 
 @pytest.mark.parametrize("grade, deg, sin_t, cos_t", GRADE_ROWS)
 def test_grade_angle_degrees(grade, deg, sin_t, cos_t):
-    # reference-values §8 grade table, theta = atan(p) (computed here, Python math library)
+    # grade table above, theta = atan(p) (computed, Python math library)
     assert math.degrees(float(grade_angle_rad(grade))) == printed(deg)
 
 
 @pytest.mark.parametrize("grade, deg, sin_t, cos_t", GRADE_ROWS)
 def test_grade_angle_sine(grade, deg, sin_t, cos_t):
-    # reference-values §8 grade table, sin(theta)
+    # grade table above, sin(theta) (standard trigonometry)
     assert math.sin(float(grade_angle_rad(grade))) == printed(sin_t)
 
 
 @pytest.mark.parametrize("grade, deg, sin_t, cos_t", GRADE_ROWS)
 def test_grade_angle_cosine(grade, deg, sin_t, cos_t):
-    # reference-values §8 grade table, cos(theta)
+    # grade table above, cos(theta) (standard trigonometry)
     assert math.cos(float(grade_angle_rad(grade))) == printed(cos_t)
 
 
 @pytest.mark.parametrize("deg, grade", [(5, "8.749"), (10, "17.633"), (15, "26.795"), (20, "36.397"),
                                         (30, "57.735"), (45, "100")])
 def test_grade_from_angle(deg, grade):
-    # reference-values §8 "Inverse: 5 deg = 8.749 % ... 45 deg = 100 %" (standard trigonometry)
+    # inverse: 5 deg = 8.749 % ... 45 deg = 100 %, p = tan(theta) (standard trigonometry)
     assert float(grade_pct_from_angle(math.radians(deg))) == printed(grade)
 
 
@@ -81,23 +81,23 @@ def test_grade_angle_is_vectorised_and_inverts():
 # ------------------------------------------------------------------------- grade forces
 
 def test_worked_30pct_grade_force():
-    # reference-values §8 worked example: 1500 kg on 30 %: grade force m g sin(theta) = 4226.88 N
+    # computed from m g sin(theta): 1500 kg on 30 %: grade force = 4226.88 N
     assert float(road_load_n(1500.0, 0.0, 0.0, 0.0, 30.0)) == printed("4226.88")
 
 
 def test_worked_30pct_rolling_resistance():
-    # reference-values §8 worked example: Crr 0.010 on 30 %: Crr m g cos(theta) = 140.90 N
+    # computed from Crr m g cos(theta): Crr 0.010, 1500 kg on 30 %: 140.90 N
     rolling = float(road_load_n(1500.0, 0.010, 0.0, 0.0, 30.0) - road_load_n(1500.0, 0.0, 0.0, 0.0, 30.0))
     assert rolling == printed("140.90")
 
 
 def test_worked_30pct_total():
-    # reference-values §8 worked example: total 4367.78 N
+    # computed from m g (Crr cos + sin), 1500 kg, Crr 0.010, 30 %: total 4367.78 N
     assert float(road_load_n(1500.0, 0.010, 0.0, 0.0, 30.0)) == printed("4367.78")
 
 
 def test_worked_30pct_is_not_the_small_angle_shortcut():
-    # reference-values §8: the shortcut m g p gives 4413.0 N (overstates by +4.4 % at 30 %); the code
+    # computed: the small-angle shortcut m g p gives 4413.0 N (overstates by +4.4 % at 30 %); the code
     # must use sin(theta). Checked to the printed 0.1 percentage point.
     shortcut = 1500.0 * G_N * 0.30
     assert shortcut == printed("4413.0")
@@ -107,20 +107,20 @@ def test_worked_30pct_is_not_the_small_angle_shortcut():
 
 @pytest.mark.parametrize("grade, over_pct", [(10, "0.5"), (30, "4.4"), (100, "41")])
 def test_small_angle_overstatement(grade, over_pct):
-    # reference-values §8 "the small-angle shortcut m g p overstates the force: +0.5 % at 10 %, +4.4 % at
-    # 30 %, +41 % at 100 %" (standard trigonometry): p / sin(atan p) - 1
+    # the small-angle shortcut m g p overstates the force: +0.5 % at 10 %, +4.4 % at 30 %, +41 % at 100 %
+    # (standard trigonometry, computed): p / sin(atan p) - 1
     exact = float(road_load_n(1000.0, 0.0, 0.0, 0.0, grade))
     assert 100.0 * (1000.0 * G_N * grade / 100.0 / exact - 1.0) == printed(over_pct)
 
 
 @pytest.mark.parametrize("grade, force", [(10, "1463.7"), (20, "2884.9")])
 def test_grade_force_1500kg(grade, force):
-    # reference-values §8 "Grade force on 10 % is 1463.7 N; on 20 % it is 2884.9 N" (m = 1500 kg)
+    # computed from m g sin(atan p): grade force on 10 % is 1463.7 N; on 20 % it is 2884.9 N (m = 1500 kg)
     assert float(road_load_n(1500.0, 0.0, 0.0, 0.0, grade)) == printed(force)
 
 
 def test_level_road_has_no_grade_force():
-    # definition: theta = 0 -> sin = 0, cos = 1, so F = m g Crr exactly (reference-values §6 formula)
+    # definition: theta = 0 -> sin = 0, cos = 1, so F = m g Crr exactly (F = m g RRC/1000)
     assert float(road_load_n(1500.0, 0.010, 0.0, 0.0)) == pytest.approx(1500.0 * 9.80665 * 0.010, rel=1e-15)
 
 
@@ -128,20 +128,20 @@ def test_level_road_has_no_grade_force():
 
 @pytest.mark.parametrize("rrc, force", [(6.5, "95.61"), (9.0, "132.39"), (12.0, "176.52")])
 def test_eu_label_rolling_resistance_points(rrc, force):
-    # reference-values §6 test points, 1500 kg, F = m g RRC/1000 (RRC in N/kN, Reg. (EC) 1222/2009 and
+    # label class limits, 1500 kg, F = m g RRC/1000 (RRC in N/kN, Reg. (EC) 1222/2009 and
     # (EU) 2020/740 label classes; computed here)
     assert float(road_load_n(1500.0, rrc / 1000.0, 0.0, 0.0)) == printed(force)
 
 
 def test_rolling_resistance_independent_of_speed():
-    # reference-values §7: A (rolling) is the constant term of F = A + B v + C v^2; with q = 0 no speed term
+    # SAE J2263 / 40 CFR 1066.210: A (rolling) is the constant term of F = A + B v + C v^2; with q = 0 no speed term
     f = road_load_n(1500.0, 0.009, 0.0, np.array([0.0, 10.0, 50.0]))
     np.testing.assert_allclose(f, 1500.0 * G_N * 0.009, rtol=1e-15)
 
 
 # ------------------------------------------------------------------------- aerodynamic drag
 
-# (CdA m^2, v km/h, F_d N, P_d kW) -- reference-values §7 worked drag values, rho = 1.225 (computed here)
+# (CdA m^2, v km/h, F_d N, P_d kW) -- computed from F_d = 0.5 rho CdA v^2, P_d = F_d v, rho = 1.225
 DRAG_ROWS = [
     (0.60, 100.0, "283.56", "7.877"),
     (0.60, 200.0, "1134.26", "63.014"),
@@ -152,35 +152,35 @@ DRAG_ROWS = [
 
 @pytest.mark.parametrize("cda, v_kmh, force, power", DRAG_ROWS)
 def test_drag_force(cda, v_kmh, force, power):
-    # reference-values §7, F_d = 0.5 rho Cd A v^2 (Gillespie ch. 4 / Wong ch. 3 form), rolling resistance 0
+    # F_d = 0.5 rho Cd A v^2 (Gillespie ch. 4 / Wong ch. 3 form; drag table above), rolling resistance 0
     q = aero_coefficient_n_s2_m2(RHO_SEA_LEVEL, cda)
     assert float(road_load_n(1500.0, 0.0, q, kmh_to_mps(v_kmh))) == printed(force)
 
 
 @pytest.mark.parametrize("cda, v_kmh, force, power", DRAG_ROWS)
 def test_drag_power(cda, v_kmh, force, power):
-    # reference-values §7, P_d = F_d v, in kW
+    # P_d = F_d v, in kW (drag table above)
     v = kmh_to_mps(v_kmh)
     q = aero_coefficient_n_s2_m2(RHO_SEA_LEVEL, cda)
     assert float(road_load_n(1500.0, 0.0, q, v)) * v / 1000.0 == printed(power)
 
 
 def test_aero_coefficient_value():
-    # reference-values §11: c = 0.5 * 1.225 * 0.65 = 0.398125 N s^2/m^2 (exact decimal arithmetic)
+    # c = 0.5 * 1.225 * 0.65 = 0.398125 N s^2/m^2 (exact decimal arithmetic)
     assert float(aero_coefficient_n_s2_m2(1.225, 0.65)) == pytest.approx(0.398125, rel=1e-15)
 
 
 def test_drag_doubles_speed_quadruples_force():
-    # reference-values §7: doubling the speed multiplies drag force by 4 (F ~ v^2, exact)
+    # doubling the speed multiplies drag force by 4 (F ~ v^2, exact)
     q = aero_coefficient_n_s2_m2(RHO_SEA_LEVEL, 0.60)
     f1, f2 = road_load_n(1500.0, 0.0, q, np.array([25.0, 50.0]))
     assert f2 / f1 == pytest.approx(4.0, rel=1e-14)
 
 
 def test_drag_does_not_depend_on_grade_or_mass():
-    # definition (design-notes §4): F_res = m g (Crr cos + sin) + q v^2, the q v^2 term is separate
+    # definition: F_res = m g (Crr cos + sin) + q v^2, the q v^2 term is separate
     q = aero_coefficient_n_s2_m2(RHO_SEA_LEVEL, 0.70)
     v = kmh_to_mps(120.0)
     with_aero = road_load_n(np.array([900.0, 2500.0]), 0.012, q, v, 12.0)
     without = road_load_n(np.array([900.0, 2500.0]), 0.012, 0.0, v, 12.0)
-    np.testing.assert_allclose(with_aero - without, 476.39, atol=0.005)  # §7 row (0.70, 120 km/h)
+    np.testing.assert_allclose(with_aero - without, 476.39, atol=0.005)  # drag table row (0.70, 120 km/h)

@@ -1,16 +1,15 @@
 """Traction limit with load transfer, launch acceleration and effective mass.
 
 Sources:
-- reference-values.md section 9: textbook traction-limited tractive force with longitudinal load
-  transfer (Gillespie, Fundamentals of Vehicle Dynamics ch. 2; Wong, Theory of Ground Vehicles ch. 3;
-  the form is confirmed on the sheet via secondary course slides, the equation numbers are from
-  memory). Worked examples A and B are "computed here" on the sheet from those forms.
-- reference-values.md section 10: equivalent mass of rotating parts (eta-multiplied form confirmed via
-  a secondary formula sheet; the Wong / Gillespie attribution is from memory), worked example
-  "computed here".
-- reference-values.md section 11: wheel force 7125.0 N against the example A limit.
+- textbook traction-limited tractive force with longitudinal load transfer (Gillespie, Fundamentals
+  of Vehicle Dynamics ch. 2; Wong, Theory of Ground Vehicles ch. 3; the form is confirmed via
+  secondary course slides, the chapter and equation numbers are from memory). Worked examples A and B
+  are computed from those forms (not published answers).
+- equivalent mass of rotating parts (eta-multiplied form confirmed via a secondary formula sheet; the
+  Wong / Gillespie attribution is from memory), worked example computed from m_eq = J (G/r)^2 eta.
+- wheel force 7125.0 N (computed from F = T G eta / r) against the example A limit.
 
-The code's convention (design-notes §4, vehicle.py): the driven-axle normal load is
+The code's convention (vehicle.py): the driven-axle normal load is
 N = W_driven +- m a h/L with m (not m_eff) and a the actual acceleration; F = mu N. With rotor and
 wheel inertia 0 (m_eff = m) this is exactly the textbook model, so the textbook values apply.
 
@@ -41,8 +40,9 @@ def printed(text: str):
     return pytest.approx(float(text), rel=0.0, abs=0.5 * 10.0 ** (-decimals))
 
 
-# Worked example A (reference-values §9): m = 1500 kg, L = 2.70 m, b = 1.20 m (CG to FRONT axle),
-# c = 1.50 m (CG to rear axle), h = 0.55 m, mu = 0.9, g = 9.80665. Static rear share = b/L.
+# Worked example A (computed from the textbook forms below, not a published answer): m = 1500 kg,
+# L = 2.70 m, b = 1.20 m (CG to FRONT axle), c = 1.50 m (CG to rear axle), h = 0.55 m, mu = 0.9,
+# g = 9.80665. Static rear share = b/L.
 A = dict(m=1500.0, L=2.70, b=1.20, c=1.50, h=0.55, mu=0.9)
 
 
@@ -59,7 +59,7 @@ def textbook_fwd_n(m, L, b, c, h, mu, f_r=0.0, g=G_N):
 
 
 def test_textbook_forms_reproduce_example_a():
-    # transcription check of the two forms above against reference-values §9 example A
+    # copy check of the two forms above: they give the worked example A values
     assert textbook_rwd_n(**A) == printed("7204.9")
     assert textbook_fwd_n(**A) == printed("6215.5")
 
@@ -90,36 +90,36 @@ def limit_n(rear_drive, accel, mu=0.9, grade_pct=0.0, mass_kg=A["m"]):
 # --------------------------------------------------------------- static and transferred axle loads
 
 def test_example_a_static_front_axle_load():
-    # reference-values §9 example A: W_f = W c/L = 8172.2 N (mu = 1 turns mu N into N)
+    # example A (computed): W_f = W c/L = 8172.2 N (mu = 1 turns mu N into N)
     assert limit_n(False, 0.0, mu=1.0) == printed("8172.2")
 
 
 def test_example_a_static_rear_axle_load():
-    # reference-values §9 example A: W_r = W b/L = 6537.8 N
+    # example A (computed): W_r = W b/L = 6537.8 N
     assert limit_n(True, 0.0, mu=1.0) == printed("6537.8")
 
 
 def test_example_a_rear_load_at_rwd_limit():
-    # reference-values §9 example A: at the RWD limit (a = 4.8033 m/s^2) W_r = 8005.4 N
+    # example A (computed): at the RWD limit (a = 4.8033 m/s^2) W_r = 8005.4 N
     assert limit_n(True, 4.8033, mu=1.0) == printed("8005.4")
 
 
 # --------------------------------------------------------------- traction_force_limit_n at the fixed point
 
 def test_rwd_limit_is_fixed_point_of_axle_load_equation():
-    # reference-values §9 example A RWD: F = 7204.9 N; mu N_r(a = F/m) reproduces F ("self-check" row)
+    # example A RWD (textbook form, computed): F = 7204.9 N; mu N_r(a = F/m) reproduces F (self-check)
     f = textbook_rwd_n(**A)
     assert limit_n(True, f / A["m"]) == printed("7204.9")
 
 
 def test_fwd_limit_is_fixed_point_of_axle_load_equation():
-    # reference-values §9 example A FWD: F = 6215.5 N
+    # example A FWD (textbook form, computed): F = 6215.5 N
     f = textbook_fwd_n(**A)
     assert limit_n(False, f / A["m"]) == printed("6215.5")
 
 
 def test_rwd_limit_with_rolling_resistance_fixed_point():
-    # reference-values §9 variant f_r = 0.012: RWD F = 7165.3 N; the acceleration is the NET one,
+    # example A variant f_r = 0.012 (textbook form, computed): RWD F = 7165.3 N; the acceleration is the NET one,
     # a = (F - f_r W)/m, which is the code's "a = actual acceleration" convention
     f = textbook_rwd_n(**A, f_r=0.012)
     assert f == printed("7165.3")
@@ -127,14 +127,14 @@ def test_rwd_limit_with_rolling_resistance_fixed_point():
 
 
 def test_fwd_limit_with_rolling_resistance_fixed_point():
-    # reference-values §9 variant f_r = 0.012: FWD F = 6242.8 N
+    # example A variant f_r = 0.012 (textbook form, computed): FWD F = 6242.8 N
     f = textbook_fwd_n(**A, f_r=0.012)
     assert f == printed("6242.8")
     assert limit_n(False, (f - 0.012 * A["m"] * G_N) / A["m"]) == printed("6242.8")
 
 
 def test_wet_rwd_force_for_section_11_check():
-    # reference-values §11: "The same case on mu = 0.5 (3639.6 N) is traction-limited" (example A, RWD)
+    # textbook RWD form, computed: on mu = 0.5 the limit is 3639.6 N, so the case is traction-limited (example A)
     f = textbook_rwd_n(**{**A, "mu": 0.5})
     assert limit_n(True, f / A["m"], mu=0.5) == printed("3639.6")
 
@@ -160,49 +160,50 @@ def _launch(rear_drive, **kw):
 
 
 def test_launch_rwd_example_a():
-    # reference-values §9 example A RWD a = 4.8033 m/s^2 (rotor inertia 0, so m_eff = m)
+    # example A RWD a = F/m = 4.8033 m/s^2 (textbook form, computed) (rotor inertia 0, so m_eff = m)
     assert _launch(True) == printed("4.8033")
 
 
 def test_launch_fwd_example_a():
-    # reference-values §9 example A FWD a = 4.1437 m/s^2
+    # example A FWD a = F/m = 4.1437 m/s^2 (textbook form, computed)
     assert _launch(False) == printed("4.1437")
 
 
 def test_launch_rwd_with_rolling_resistance():
-    # reference-values §9 variant f_r = 0.012: RWD net a = 4.6592 m/s^2
+    # example A variant f_r = 0.012 (textbook form, computed): RWD net a = 4.6592 m/s^2
     assert _launch(True, crr=0.012) == printed("4.6592")
 
 
 def test_launch_fwd_with_rolling_resistance():
-    # reference-values §9 variant f_r = 0.012: FWD net a = 4.0442 m/s^2
+    # example A variant f_r = 0.012 (textbook form, computed): FWD net a = 4.0442 m/s^2
     assert _launch(False, crr=0.012) == printed("4.0442")
 
 
 def test_launch_rwd_wet():
-    # reference-values §9 variant mu = 0.5: RWD a = 2.4264 m/s^2
+    # example A variant mu = 0.5 (textbook form, computed): RWD a = 2.4264 m/s^2
     assert _launch(True, mu=0.5) == printed("2.4264")
 
 
 def test_launch_fwd_wet():
-    # reference-values §9 variant mu = 0.5: FWD a = 2.4723 m/s^2
+    # example A variant mu = 0.5 (textbook form, computed): FWD a = 2.4723 m/s^2
     assert _launch(False, mu=0.5) == printed("2.4723")
 
 
-# Worked example B (reference-values §9; problem data of a published course example via secondary
-# slides, answers computed on the sheet with g = 9.81): 1800 kg, L = 2.6 m, CG midway, h = 0.7 m, mu = 0.7.
+# Worked example B (problem data of a published course example via secondary slides; the answers are
+# computed here from the textbook forms with g = 9.81, not the slides' answers): 1800 kg, L = 2.6 m,
+# CG midway, h = 0.7 m, mu = 0.7.
 B = dict(m=1800.0, L=2.6, b=1.3, c=1.3, h=0.7, mu=0.7)
 
 
 def test_textbook_forms_reproduce_example_b_with_g_981():
-    # the sheet's numbers use g = 9.81: textbook form with g = 9.81, a = F/m
+    # the worked answers use g = 9.81: textbook form with g = 9.81, a = F/m
     assert textbook_fwd_n(**B, g=9.81) / B["m"] == printed("2.8890")
     assert textbook_rwd_n(**B, g=9.81) / B["m"] == printed("4.2309")
 
 
 @pytest.mark.parametrize("rear_drive, expected", [(False, "2.8890"), (True, "4.2309")])
 def test_launch_example_b(rear_drive, expected):
-    # reference-values §9 example B. With no rolling resistance every force is proportional to g, so
+    # example B (textbook form, computed). With no rolling resistance every force is proportional to g, so
     # a = mu g s / (1 -+ mu h/L) scales exactly with g: convert selector's g_n result to g = 9.81.
     d, b = make_design(mass_kg=B["m"], rear_share=0.5, cg_height_m=B["h"], wheelbase_m=B["L"],
                        road_friction=B["mu"], rear_drive=rear_drive)
@@ -210,24 +211,24 @@ def test_launch_example_b(rear_drive, expected):
 
 
 def test_launch_motor_limited_below_rwd_limit():
-    # reference-values §11: T = 300 N m, G = 8, eta = 0.95, r = 0.32 gives 7125.0 N, "just below the RWD
-    # traction limit of example A (7204.9 N), so the launch is not traction-limited": a = 7125.0 / 1500
+    # computed from F = T G eta / r: T = 300 N m, G = 8, eta = 0.95, r = 0.32 gives 7125.0 N, just below the
+    # RWD traction limit of example A (7204.9 N), so the launch is not traction-limited: a = 7125.0 / 1500
     d, b = example_a_design(True, torque_nm=300.0, ratio=8.0)
     assert float(launch_accel_mps2(d, b)[0]) == pytest.approx(7125.0 / 1500.0, rel=1e-12)
 
 
 def test_launch_traction_limited_on_wet():
-    # reference-values §11: "The same case on mu = 0.5 (3639.6 N) is traction-limited": a = 3639.6/1500
+    # textbook RWD form, computed: the same case on mu = 0.5 (3639.6 N) is traction-limited: a = 3639.6/1500
     d, b = example_a_design(True, mu=0.5, torque_nm=300.0, ratio=8.0)
     assert float(launch_accel_mps2(d, b)[0]) * A["m"] == printed("3639.6")
 
 
 def test_launch_traction_uses_m_not_m_eff_for_transfer():
-    # design-notes §4: transfer uses m a; acceleration a = (F - F_res)/m_eff. With rotor inertia the
+    # project convention: transfer uses m a; acceleration a = (F - F_res)/m_eff. With rotor inertia the
     # fixed point F = mu (W_r + m a h/L), a = F/m_eff gives a = mu W_r / (m_eff - mu m h/L) (derived
     # here from those two lines); rel 1e-12, exact algebra.
     d, b = example_a_design(True, rotor_inertia_kgm2=0.05)
-    m_eff = A["m"] + 0.05 * (9.0 / 0.32) ** 2 * 0.95  # eta-multiplied convention, reference-values §10
+    m_eff = A["m"] + 0.05 * (9.0 / 0.32) ** 2 * 0.95  # eta-multiplied convention (Wong ch. 3, from memory)
     expected = A["mu"] * A["m"] * G_N * A["b"] / A["L"] / (m_eff - A["mu"] * A["m"] * A["h"] / A["L"])
     assert float(launch_accel_mps2(d, b)[0]) == pytest.approx(expected, rel=1e-12)
 
@@ -240,7 +241,7 @@ def test_traction_unlimited_when_transfer_factor_reaches_one():
 
 
 def test_transfer_factor_sign_and_value():
-    # design-notes §4 / vehicle.py: kappa = +mu (m/m_eff) h/L rear, -... front (hand value 0.9*0.55/2.7)
+    # vehicle.py convention: kappa = +mu (m/m_eff) h/L rear, -... front (hand value 0.9*0.55/2.7)
     k = transfer_factor(0.9, 1500.0, 1500.0, 0.55, 2.7, np.array([True, False]))
     np.testing.assert_allclose(k, [0.9 * 0.55 / 2.7, -0.9 * 0.55 / 2.7], rtol=1e-14)
 
@@ -250,39 +251,39 @@ def test_driven_axle_share():
     np.testing.assert_allclose(driven_axle_share(0.4, np.array([True, False])), [0.4, 0.6], rtol=1e-15)
 
 
-# --------------------------------------------------------------- effective mass (reference-values §10)
+# --------------------------------------------- effective mass (m_eq = J (G/r)^2 eta + sum J_w / r^2, computed)
 # J_motor = 0.05 kg m^2, G = 9.0, r = 0.32 m, eta = 0.95, four wheels of 1.0 kg m^2, m = 1500 kg.
 E = 9.0 / 0.32
 
 
 def test_effective_mass_motor_term_is_eta_multiplied():
-    # reference-values §10 "motor term with x eta" 37.5732 kg: the code uses the eta-MULTIPLIED
+    # motor term with x eta, computed from J (G/r)^2 eta: 37.5732 kg; the code uses the eta-MULTIPLIED
     # convention m_eq = J (G/r)^2 eta (not /eta = 41.6324 kg, nor without eta = 39.5508 kg)
     assert float(effective_mass_kg(0.0, 0.05, E, 0.95)) == printed("37.5732")
 
 
 def test_effective_mass_motor_term_without_eta():
-    # reference-values §10 "motor term without eta" 39.5508 kg (eta = 1)
+    # motor term without eta, computed from J (G/r)^2: 39.5508 kg (eta = 1)
     assert float(effective_mass_kg(0.0, 0.05, E, 1.0)) == printed("39.5508")
 
 
 def test_effective_mass_wheel_term():
-    # reference-values §10 wheels 4 * 1.0 / 0.32^2 = 39.0625 kg (exact decimal)
+    # wheels sum J_w / r^2 = 4 * 1.0 / 0.32^2 = 39.0625 kg (exact decimal)
     assert float(effective_mass_kg(0.0, 0.0, E, 0.95, 4.0, 0.32)) == pytest.approx(39.0625, rel=1e-14)
 
 
 def test_effective_mass_total_and_mass_factor():
-    # reference-values §10 mass factor delta (motor term without eta) = 1.05241
+    # mass factor delta = 1 + m_eq/m (motor term without eta) = 1.05241 (computed)
     assert float(effective_mass_kg(1500.0, 0.05, E, 1.0, 4.0, 0.32)) / 1500.0 == printed("1.05241")
 
 
 def test_effective_mass_second_check():
-    # reference-values §10 second check: J = 0.04, G = 8.0, r = 0.32 -> exactly 25.0 kg (no eta)
+    # second check, J (G/r)^2: J = 0.04, G = 8.0, r = 0.32 -> exactly 25.0 kg (no eta)
     assert float(effective_mass_kg(0.0, 0.04, 8.0 / 0.32, 1.0)) == pytest.approx(25.0, rel=1e-14)
 
 
 def test_effective_mass_through_drive_and_body():
-    # same §10 worked example through performance.effective_mass: 1500 + 37.5732 + 39.0625 kg
+    # same worked example through performance.effective_mass: 1500 + 37.5732 + 39.0625 kg
     d, b = make_design(mass_kg=1500.0, rear_share=0.5, cg_height_m=0.5, wheelbase_m=2.7, road_friction=0.9,
                        rear_drive=True, rotor_inertia_kgm2=0.05, ratio=9.0, efficiency=0.95, radius_m=0.32)
     b = Body(**{**b.__dict__, "wheel_inertia_total_kgm2": np.array([4.0])})

@@ -61,7 +61,7 @@ def test_traction_curve_is_mu_times_driven_axle_load_at_its_own_acceleration(van
     veh = problem.vehicle
     f = d["traction_n"]
     a = (f - d["road_level_n"]) / m_eff  # the acceleration this force gives
-    # mu N_driven, N_rear = m g s_r + m a h/L, N_front = m g (1 - s_r) - m a h/L (reference-values section 9)
+    # mu N_driven, N_rear = m g s_r + m a h/L, N_front = m g (1 - s_r) - m a h/L (Gillespie ch. 2 load transfer)
     mu_n = traction_force_limit_n(problem.environment.road_friction, mass, m["rear_axle_share"][0],
                                   veh.cg_height_m, veh.wheelbase_m, axle == "rear", accel_mps2=a)
     assert np.all(np.isfinite(f))

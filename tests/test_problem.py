@@ -17,7 +17,7 @@ VALID = DATA / "valid"
 INVALID = sorted((DATA / "invalid" / "problems").glob("*.toml"))
 
 # ISA, ICAO Doc 7488: R = 287.05287 J/(kg K); p(1000 m geopotential) = 89874.6 Pa
-# (reference-values.md section 2, printed to 0.1 Pa)
+# (computed from the ISA troposphere formula, printed to 0.1 Pa; matches the ambiance package)
 R_AIR = 287.05287
 P_1000_PA = 89874.6
 
@@ -68,7 +68,7 @@ def test_valid_problem():
     assert v.mass_kg == 1800.0 and v.wheelbase_m == 2.7 and v.cg_height_m == 0.65
     assert v.drag_area_m2 == pytest.approx(0.38 * 2.5, rel=1e-12)  # Cd x A
     assert v.rear_axle_share == 0.5 and v.driven_axle == "rear" and v.tyre_count == 4
-    assert v.rolling_radius_factor == 0.97  # default (design-notes section 2)
+    assert v.rolling_radius_factor == 0.97  # project default (r_dyn 0.97-0.98 r0, Gillespie ch. 2, from memory)
     assert v.wheel_inertia_kgm2 == 0.8
     # altitude 1000 m with 25 degC: ISA pressure at 1000 m, ideal gas at 298.15 K
     assert p.environment.air_density_kg_m3 == pytest.approx(P_1000_PA / (R_AIR * 298.15), rel=2e-6)
@@ -85,7 +85,7 @@ def test_valid_problem():
 def test_defaults(tmp_path):
     p = load_problem(minimal(tmp_path))
     assert p.name == "study"  # file stem when no name is given
-    assert p.objective == "cost"  # design-notes section 4: no [objective] means cost
+    assert p.objective == "cost"  # project convention: no [objective] means cost
     assert p.environment.air_density_kg_m3 == pytest.approx(1.225, abs=5e-7)  # ISA sea level, ICAO Doc 7488
     assert p.requirements.top_speed_kmh is None
     assert p.procurement.avoid_suppliers == () and p.procurement.distinct is None
@@ -96,10 +96,10 @@ def test_defaults(tmp_path):
 @pytest.mark.parametrize(
     "env, rho",
     [
-        # ideal gas at 101325 Pa, R = 287.05287 (reference-values.md section 2)
+        # ideal gas rho = p/(R T) at 101325 Pa, R = 287.05287 (ICAO Doc 7488; computed here)
         ("temperature_c = 25\n", 1.18391),
         ("temperature_c = 0\n", 1.29227),
-        # ISA at geopotential altitude (reference-values.md section 2)
+        # ISA at geopotential altitude (ICAO Doc 7488 troposphere formula, computed here)
         ("altitude_m = 2000\n", 1.00649),
         ("altitude_m = 3000.0\n", 0.90912),
         ("air_density_kg_m3 = 1.17\n", 1.17),  # given directly (40 CFR 1066.310 reference value)
@@ -213,7 +213,7 @@ def test_temperature_range_and_density_with_temperature(tmp_path):
 
 
 def test_road_friction_defaults_to_dry_asphalt_with_a_warning(tmp_path):
-    # 0.8: dry asphalt/concrete peak friction 0.8-0.9 (Wong ch. 1, from memory; reference-values section 9)
+    # 0.8: dry asphalt/concrete peak friction 0.8-0.9 (Wong ch. 1, table of road adhesion, from memory)
     from selector.problem import ProblemWarning, load_problem
 
     text = (VALID / "problem.toml").read_text(encoding="utf-8").replace("road_friction = 0.7\n", "")

@@ -1,6 +1,7 @@
 """Tyre designation, geometry and rating tables against published values.
 
-Sources: ISO 4000-1 / UN ECE R30 as reproduced in /work/shared/reference-values.md sections 3-5.
+Sources: ISO 4000-1 / UN ECE R30 (size designation, diameter formula, speed-symbol and load-index
+tables), as reproduced on independent secondary tyre-information pages; status noted per table.
 """
 
 from __future__ import annotations
@@ -36,7 +37,7 @@ from selector.physics.tyres import (
     ],
 )
 def test_parse_accepted_forms(text, expected):
-    # ISO 4000-1 designation S/Ra R d (reference-values.md section 3); ZR per section 4 conventions
+    # ISO 4000-1 designation S/Ra R d; ZR (speed capability above 240 km/h) per UN ECE R30 conventions
     assert parse_tyre_size(text) == expected
 
 
@@ -66,11 +67,11 @@ def test_parse_rejects_non_text():
 
 # --------------------------------------------------------------------------------- geometry
 
-# Unloaded diameter D, reference-values.md section 3 (ISO 4000-1 / UN R30 formula D = d + 2 S Ra/100).
+# Unloaded diameter D (ISO 4000-1 / UN R30 formula D = d + 2 S Ra/100).
 # "exact" uses d = 25.4 mm x code; "r30" uses the whole-millimetre rim table of UN R30 (from memory).
 # The tolerance of 0.5 mm accepts either convention (they differ by at most 0.4 mm).
 DIAMETERS_MM = [
-    # size, D exact (mm), D with R30-rounded rim (mm)  -- reference-values.md section 3, computed there
+    # size, D exact (mm), D with R30-rounded rim (mm)  -- computed from D = d + 2 S Ra/100
     ("205/55 R16", 631.90, 631.50),
     ("225/45 R17", 634.30, 634.50),
     ("195/65 R15", 634.50, 634.50),
@@ -90,7 +91,7 @@ def test_unloaded_diameter_reference_sizes(size, d_exact_mm, d_r30_mm):
 
 
 def test_section_height_and_radius_205_55_r16():
-    # reference-values.md section 3: H = 112.75 mm, r0 = 315.95 mm (computed there with d = 25.4 x code)
+    # H = S Ra/100 = 112.75 mm, r0 = D/2 = 315.95 mm (computed with d = 25.4 x code)
     d_m = unloaded_diameter_m(205, 55, 16)
     assert (d_m - 16 * 0.0254) / 2 == pytest.approx(0.11275, abs=1e-9)
     assert d_m / 2 == pytest.approx(0.31595, abs=1e-9)
@@ -101,16 +102,16 @@ def test_section_height_and_radius_205_55_r16():
 def test_unloaded_diameter_is_vectorised():
     d = unloaded_diameter_m(np.array([205, 235]), np.array([55, 65]), np.array([16, 16]))
     assert d.shape == (2,)
-    # reference-values.md section 3 (exact rim convention)
+    # D = 25.4 d + 2 S Ra/100 (exact rim convention, computed)
     np.testing.assert_allclose(d, [0.6319, 0.7119], atol=1e-9)
 
 
 # ----------------------------------------------------------------------------- speed symbols
 
-# ISO 4000-1 / UN ECE R30 speed symbols, reference-values.md section 4 (confirmed via several secondary pages)
+# ISO 4000-1 / UN ECE R30 speed symbols (confirmed via several secondary tyre-information pages)
 SPEED_TABLE = {"L": 120, "M": 130, "N": 140, "P": 150, "Q": 160, "R": 170, "S": 180, "T": 190,
                "U": 200, "H": 210, "V": 240, "W": 270, "Y": 300}
-# Lower symbols, reference-values.md section 4: from memory, also on one secondary page
+# Lower symbols (ISO 4000-1 / UN ECE R30): from memory, also on one secondary page
 SPEED_TABLE_LOW = {"A1": 5, "A2": 10, "A3": 15, "A4": 20, "A5": 25, "A6": 30, "A7": 35, "A8": 40,
                    "B": 50, "C": 60, "D": 65, "E": 70, "F": 80, "G": 90, "J": 100, "K": 110}
 
@@ -138,7 +139,7 @@ def test_unknown_speed_symbol_raises(bad):
 
 # ------------------------------------------------------------------------------ load indices
 
-# ISO 4000-1 / UN ECE R30 Annex 4 load index table, transcribed from reference-values.md section 5
+# ISO 4000-1 / UN ECE R30 Annex 4 load index table (ETRTO), as reproduced on secondary pages
 # (LI 60-119 confirmed via two independent secondary tables; 120-130 via a table in pounds).
 _LI_COLUMNS = {
     60: [250, 257, 265, 272, 280, 290, 300, 307, 315, 325, 335, 345],
@@ -163,13 +164,13 @@ def test_load_index(li, kg):
 
 @pytest.mark.parametrize("li, kg", [(91, 615), (94, 670), (106, 950), (110, 1060), (112, 1120)])
 def test_load_index_single_points(li, kg):
-    # single published points on further secondary pages, reference-values.md section 5
+    # single published points on further secondary pages (ISO 4000-1 load index table)
     assert load_capacity_kg(li) == kg
 
 
 @pytest.mark.parametrize("li, lb", [(120, 3086), (130, 4189)])
 def test_load_index_against_pound_table(li, lb):
-    # secondary table in pounds (reference-values.md section 5); pint converts lb -> kg (1959 pound).
+    # secondary load-index table in pounds; pint converts lb -> kg (1959 pound).
     # The pound table is rounded to 1 lb (0.45 kg), the kg table to the R-series step: allow 1 kg.
     kg = pint.UnitRegistry().Quantity(lb, "lb").to("kg").magnitude
     assert load_capacity_kg(li) == pytest.approx(kg, abs=1.0)
@@ -177,7 +178,7 @@ def test_load_index_against_pound_table(li, lb):
 
 def test_load_capacity_vectorised():
     out = load_capacity_kg(np.array([[60, 91], [115, 130]]))
-    # ISO 4000-1 load index table (reference-values.md section 5)
+    # ISO 4000-1 / UN ECE R30 load index table
     np.testing.assert_array_equal(out, [[250.0, 615.0], [1215.0, 1900.0]])
     assert load_capacity_kg(91.0) == 615.0  # a whole-number float is accepted
 

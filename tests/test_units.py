@@ -1,11 +1,12 @@
 """Unit constants and conversions of `selector.units` against pint and the exact SI definitions.
 
-Sources: reference-values.md section 1 (unit definitions, confirmed there via pint 0.25.3 and the
-SI Brochure / NIST SP 811). pint is used here as an outside oracle: every expected value below is
-computed by pint from its own definitions file, not by selector.
+Sources: the exact unit definitions of the SI Brochure (9th ed.), NIST SP 811 App. B and the 1959
+international yard and pound agreement, as implemented by pint 0.25.3 (PyPI). pint is used here as an
+outside oracle: every expected value below is computed by pint from its own definitions file, not by
+selector.
 
-Tolerance: the definitions are exact, so conversions agree to a few ulp; ``rel=1e-12`` (the sheet's
-advice for exact unit definitions) leaves room only for floating-point rounding.
+Tolerance: the definitions are exact, so conversions agree to a few ulp; ``rel=1e-12`` (usual for
+exact unit definitions) leaves room only for floating-point rounding.
 """
 
 from __future__ import annotations
@@ -32,37 +33,37 @@ def _pint_factor(src: str, dst: str) -> float:
 
 
 def test_standard_gravity_matches_pint():
-    # pint `standard_gravity`; 3rd CGPM 1901 / NIST SP 811, g_n = 9.80665 m/s^2 exact (reference-values §1)
+    # pint `standard_gravity`; 3rd CGPM 1901 / NIST SP 811, g_n = 9.80665 m/s^2 exact
     assert units.G_N == pytest.approx(_pint_factor("standard_gravity", "m/s**2"), rel=EXACT)
 
 
 def test_standard_gravity_exact_value():
-    # 40 CFR 1066.210 "ag = 9.80665 m/s^2" (reference-values §1, confirmed via the regulation text)
+    # 40 CFR 1066.210 "ag = 9.80665 m/s^2" (regulation text); 3rd CGPM 1901
     assert units.G_N == 9.80665
 
 
 def test_inch_matches_pint():
-    # pint `inch` -> 25.4 mm; 1959 international yard and pound agreement (reference-values §1)
+    # pint `inch` -> 25.4 mm; 1959 international yard and pound agreement
     assert units.INCH_M == pytest.approx(_pint_factor("inch", "m"), rel=EXACT)
 
 
 def test_inch_exact_value():
-    # 1959 agreement: 1 in = 25.4 mm exactly (reference-values §1)
+    # 1959 international yard and pound agreement: 1 in = 25.4 mm exactly (NIST SP 811 App. B)
     assert units.INCH_M == pytest.approx(0.0254, rel=EXACT)
 
 
 def test_kmh_per_mps_matches_pint():
-    # pint `kph`/`km/h`; SI Brochure: hour = 3600 s, so 1 m/s = 3.6 km/h (reference-values §1)
+    # pint `kph`/`km/h`; SI Brochure: hour = 3600 s, so 1 m/s = 3.6 km/h (exact)
     assert units.KMH_PER_MPS == pytest.approx(_pint_factor("m/s", "km/h"), rel=EXACT)
 
 
 def test_rpm_to_rad_s_constant_matches_pint():
-    # pint `rpm` -> rad/s = 0.10471975511965977 (reference-values §1, "confirmed via pint")
+    # pint `rpm` -> rad/s = 0.10471975511965977 (pint 0.25.3 definitions)
     assert units.RPM_TO_RAD_S == pytest.approx(_pint_factor("rpm", "rad/s"), rel=EXACT)
 
 
 def test_rpm_to_rad_s_constant_is_two_pi_over_sixty():
-    # ISO 80000-3 omega = 2 pi n (reference-values §1; the clause number is from memory)
+    # ISO 80000-3 omega = 2 pi n (the clause number is from memory)
     assert units.RPM_TO_RAD_S == pytest.approx(0.10471975511965977, rel=EXACT)
 
 
@@ -73,25 +74,25 @@ SPEEDS_KMH = [0.0, 1.0, 50.0, 96.56064, 100.0, 180.9557, 253.874]
 
 @pytest.mark.parametrize("v_kmh", SPEEDS_KMH)
 def test_kmh_to_mps_matches_pint(v_kmh):
-    # pint km/h -> m/s (reference-values §1)
+    # pint km/h -> m/s (SI Brochure: hour = 3600 s)
     expected = float(Q_(v_kmh, "km/h").to("m/s").magnitude)
     assert units.kmh_to_mps(v_kmh) == pytest.approx(expected, rel=EXACT, abs=1e-300)
 
 
 @pytest.mark.parametrize("v_mps", [0.0, 1.0, 27.77777777777778, 50.2655, 70.52061])
 def test_mps_to_kmh_matches_pint(v_mps):
-    # pint m/s -> km/h (reference-values §1)
+    # pint m/s -> km/h (SI Brochure: hour = 3600 s)
     expected = float(Q_(v_mps, "m/s").to("km/h").magnitude)
     assert units.mps_to_kmh(v_mps) == pytest.approx(expected, rel=EXACT, abs=1e-300)
 
 
 def test_100_kmh_in_mps():
-    # 100 km/h = 27.777... m/s, SI Brochure hour = 3600 s (reference-values §1)
+    # 100 km/h = 27.777... m/s, SI Brochure hour = 3600 s (exact)
     assert units.kmh_to_mps(100.0) == pytest.approx(100.0 / 3.6, rel=EXACT)
 
 
 def test_60_mph_in_kmh_through_pint_and_selector():
-    # 60 mph = 96.56064 km/h exact (reference-values §1, "confirmed via pint"); mph itself is not
+    # 60 mph = 96.56064 km/h exact (NIST SP 811 App. B: 1 mph = 0.44704 m/s; via pint); mph itself is not
     # used by selector, so pint turns mph into m/s and selector turns m/s into km/h.
     v_mps = float(Q_(60.0, "mph").to("m/s").magnitude)
     assert units.mps_to_kmh(v_mps) == pytest.approx(96.56064, rel=EXACT)
@@ -99,19 +100,19 @@ def test_60_mph_in_kmh_through_pint_and_selector():
 
 @pytest.mark.parametrize("n_rpm", [0.0, 1.0, 1000.0, 3183.0988618379067, 12000.0, 16000.0])
 def test_rpm_to_rad_s_matches_pint(n_rpm):
-    # pint rpm -> rad/s (reference-values §1)
+    # pint rpm -> rad/s (ISO 80000-3 omega = 2 pi n)
     expected = float(Q_(n_rpm, "rpm").to("rad/s").magnitude)
     assert units.rpm_to_rad_s(n_rpm) == pytest.approx(expected, rel=EXACT, abs=1e-300)
 
 
 def test_1000_rpm_in_rad_s():
-    # 1000 rpm = 104.71975511965977 rad/s (reference-values §1, "confirmed via pint")
+    # 1000 rpm = 104.71975511965977 rad/s (ISO 80000-3 omega = 2 pi n; pint agrees)
     assert units.rpm_to_rad_s(1000.0) == pytest.approx(104.71975511965977, rel=EXACT)
 
 
 @pytest.mark.parametrize("w_rad_s", [0.0, 1.0, 104.71975511965977, 1256.6370614359173])
 def test_rad_s_to_rpm_matches_pint(w_rad_s):
-    # pint rad/s -> rpm (reference-values §1)
+    # pint rad/s -> rpm (ISO 80000-3 omega = 2 pi n)
     expected = float(Q_(w_rad_s, "rad/s").to("rpm").magnitude)
     assert units.rad_s_to_rpm(w_rad_s) == pytest.approx(expected, rel=EXACT, abs=1e-300)
 
@@ -125,5 +126,5 @@ def test_conversions_are_vectorised_and_round_trip():
 
 
 def test_pi_is_not_truncated():
-    # a truncated pi (3.1416, 3.14159) would show here at ~1e-6 .. 1e-5 relative (reference-values §1)
+    # a truncated pi (3.1416, 3.14159) would show here at ~1e-6 .. 1e-5 relative (math.pi, 2 pi rad per rev)
     assert units.rpm_to_rad_s(60.0) == pytest.approx(2.0 * math.pi, rel=EXACT)

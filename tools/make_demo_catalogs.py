@@ -327,7 +327,10 @@ TYRE_COLUMNS = [
 
 
 def check_motor(row: dict) -> None:
-    """Raise ValueError if a motor row breaks the catalogue rules (design notes section 2)."""
+    """Raise ValueError if a motor row breaks the catalogue rules.
+
+    All positive, cont <= peak, corner speed <= decline speed <= max speed.
+    """
     corner = _rpm(row["peak_power_kw"] * 1000.0 / row["peak_torque_nm"])
     decline = row["decline_speed_rpm"]
     ok = (

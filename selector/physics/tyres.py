@@ -43,7 +43,7 @@ LOAD_INDEX_KG: dict[int, float] = {60 + i: float(kg) for i, kg in enumerate(_LI_
 """Load index -> maximum load per tyre [kg] (ISO 4000-1 / UN ECE R30 Annex 4).
 
 Only load indices 60..130 are included: those are the values cross-checked for this project
-(reference-values.md section 5). Indices outside that range are rejected with a clear message.
+against independent published reproductions of the table. Indices outside that range are rejected with a clear message.
 """
 
 LOAD_INDEX_MIN = min(LOAD_INDEX_KG)

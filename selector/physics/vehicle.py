@@ -16,7 +16,7 @@ def effective_mass_kg(mass_kg, rotor_inertia_kgm2, gear_over_radius_1_m, efficie
     """Translational mass equivalent of the vehicle and its rotating parts.
 
     m_eff = m + J_rotor (G/r)^2 eta + sum(J_wheel) / r^2 (the eta-multiplied convention of the
-    handbooks; see reference-values section 10).
+    handbooks: Wong, Theory of Ground Vehicles ch. 3; Gillespie ch. 2, from memory).
 
     Parameters
     ----------

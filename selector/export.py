@@ -35,14 +35,15 @@ class Sheet:
     rows: list[list] = field(default_factory=list)
 
 
-def output_format(path, option: str = "--out") -> str:
-    """Format ("csv" | "xlsx") from the file extension, or an InputError naming the accepted ones."""
+def output_format(path, option: str = "--out", formats: dict | None = None) -> str:
+    """Format from the file extension (default: "csv" | "xlsx"), or an InputError naming the accepted ones."""
+    formats = FORMATS if formats is None else formats
     suffix = Path(path).suffix.lower()
-    if suffix not in FORMATS:
+    if suffix not in formats:
         got = f"extension {suffix!r}" if suffix else "no extension"
         raise InputError(f"{option} {path}: {got} is not a known output format; "
-                         f"name the file with one of {', '.join(FORMATS)}.")
-    return FORMATS[suffix]
+                         f"name the file with one of {', '.join(formats)}.")
+    return formats[suffix]
 
 
 def _same_file(a: Path, b: Path) -> bool:
@@ -54,7 +55,7 @@ def _same_file(a: Path, b: Path) -> bool:
     return a.resolve() == b.resolve()
 
 
-def check_output_path(path, protected=(), option: str = "--out") -> Path:
+def check_output_path(path, protected=(), option: str = "--out", formats: dict | None = None) -> Path:
     """Validate an output path before any work is done; return it as an absolute Path.
 
     Parameters
@@ -70,7 +71,7 @@ def check_output_path(path, protected=(), option: str = "--out") -> Path:
         one of the ``protected`` files.
     """
     p = Path(path).expanduser()
-    output_format(p, option)
+    output_format(p, option, formats)
     absolute = Path(os.path.abspath(p))
     for q in protected:
         if q is not None and _same_file(absolute, Path(q)):
@@ -93,14 +94,14 @@ def _new_file_mode() -> int:
     return 0o666 & ~mask
 
 
-def atomic_write(path, write, protected=(), option: str = "--out") -> Path:
+def atomic_write(path, write, protected=(), option: str = "--out", formats: dict | None = None) -> Path:
     """Write a file atomically: ``write(tmp_path)`` fills a temporary file that replaces ``path``.
 
     On any failure the temporary file is removed and the old file (if any) stays untouched;
     operating-system errors (permissions, missing folder, disk full...) become InputError.
     Returns the absolute path written.
     """
-    target = check_output_path(path, protected, option)
+    target = check_output_path(path, protected, option, formats)
     mode = stat.S_IMODE(target.stat().st_mode) if target.exists() else _new_file_mode()
     tmp = None
     try:

@@ -9,14 +9,13 @@ Every plotting function returns the `matplotlib.figure.Figure` it saved (tests r
 from __future__ import annotations
 
 import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
+from . import export
 
-FORMATS = ("png", "svg", "pdf")
+PLOT_FORMATS = {".png": "png", ".svg": "svg", ".pdf": "pdf"}
 """File formats a plot can be written in (the file name's suffix)."""
 
 SPEED_SAMPLES = 400
@@ -37,46 +36,14 @@ ACCEL_RUN_END = 0.98
 
 def check_output_path(path, option: str = "--plot") -> Path:
     """The output path, or an InputError when its folder is missing or its suffix unknown."""
-    p = Path(path)
-    suffix = p.suffix.lower().lstrip(".")
-    if suffix not in FORMATS:
-        raise InputError(f"{option} {path}: unknown file type {p.suffix or '(none)'!r}; give a file name ending in "
-                         f"{', '.join('.' + f for f in FORMATS)}.")
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"{option} {path}: folder {folder} does not exist. Create it or choose another path.")
-    return p
-
-
-def atomic_write(path, write, binary: bool = False) -> None:
-    """Write a file atomically: ``write(handle)`` into a temporary file beside it, then os.replace.
-
-    Parameters
-    ----------
-    path : target file
-    write : callable taking the open file handle
-    binary : open the temporary file in binary mode
-    """
-    path = Path(path)
-    folder = path.parent if str(path.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8", "newline": ""})) as fh:
-            write(fh)
-        os.replace(tmp, path)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
+    return export.check_output_path(path, option=option, formats=PLOT_FORMATS)
 
 
 def save_figure(fig, path) -> None:
     """Save a figure atomically in the format of the file name's suffix."""
-    p = check_output_path(path)
-    fmt = p.suffix.lower().lstrip(".")
-    atomic_write(p, lambda fh: fig.savefig(fh, format=fmt, dpi=120), binary=True)
+    fmt = export.output_format(path, "--plot", PLOT_FORMATS)
+    export.atomic_write(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=120), option="--plot",
+                        formats=PLOT_FORMATS)
 
 
 def _figure(nrows=1, ncols=1, size=(8.0, 5.0)):

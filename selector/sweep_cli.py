@@ -24,18 +24,24 @@ def setup(p):
 
 def handle(args) -> int:
     """Run the sweep, print it, optionally write CSV and plot."""
-    from .plots import atomic_write, check_output_path
+    from pathlib import Path
+
+    from .export import atomic_write
+    from .export import check_output_path as check_out
+    from .plots import check_output_path
     from .sweep import sweep, to_csv
 
+    csv_only = {".csv": "csv"}
     if args.plot:
         check_output_path(args.plot)
     if args.out:
-        _check_csv_path(args.out)
+        check_out(args.out, formats=csv_only)
     progress = args.format == "table" and sys.stderr.isatty()
     res = sweep(args.problem, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
     if args.out:
         text = to_csv(res)
-        atomic_write(args.out, lambda fh: fh.write(text))
+        atomic_write(args.out, lambda tmp: Path(tmp).write_text(text, encoding="utf-8", newline=""),
+                     formats=csv_only)
         res["csv"] = args.out
     if args.plot:
         from .plots import sweep_plot
@@ -47,19 +53,6 @@ def handle(args) -> int:
     else:
         print(render(res))
     return 0
-
-
-def _check_csv_path(path):
-    from pathlib import Path
-
-    from .errors import InputError
-
-    p = Path(path)
-    folder = p.parent if str(p.parent) else Path(".")
-    if not folder.is_dir():
-        raise InputError(f"--out {path}: folder {folder} does not exist. Create it or choose another path.")
-    if p.suffix.lower() != ".csv":
-        raise InputError(f"--out {path}: give a file name ending in .csv.")
 
 
 def render(res: dict) -> str:

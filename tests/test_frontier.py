@@ -151,4 +151,4 @@ def test_cli_table_and_bad_axis(tmp_path, capsys):
     assert "mass_kg [kg]" in out and "non-dominated" in out
     assert run(["frontier", str(s.problem_path), "--axis", "price"]) == 2
     assert run(["frontier", str(s.problem_path), "--plot", str(tmp_path / "x.jpg")]) == 2
-    assert "unknown file type" in capsys.readouterr().err
+    assert "not a known output format" in capsys.readouterr().err

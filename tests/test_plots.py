@@ -109,7 +109,7 @@ def test_plot_files_png_and_svg(van, tmp_path):
 
 def test_plot_bad_paths_and_cli(van, tmp_path, capsys):
     study, _, _ = van
-    with pytest.raises(InputError, match="unknown file type"):
+    with pytest.raises(InputError, match="not a known output format"):
         tractive_effort_plot(study, *DESIGN, tmp_path / "te.bmp")
     with pytest.raises(InputError, match="does not exist"):
         tractive_effort_plot(study, *DESIGN, tmp_path / "missing" / "te.png")

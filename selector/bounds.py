@@ -11,6 +11,7 @@ min_L t_i(L) as motor i's lower bound.
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -50,19 +51,60 @@ def log_gearing_range(parts: PartTables) -> tuple[float, float]:
     return float(lg.min() - lr.max()), float(lg.max() - lr.min())
 
 
-def _max_driven_share(parts: PartTables) -> np.ndarray:
-    """Largest static driven-axle share over reducers and tyres, per motor [-].
+@dataclass(frozen=True)
+class _Usable:
+    """Per-motor extremes over the parts a feasible design with that motor can use."""
+
+    has_reducer: np.ndarray
+    """Motor i has at least one reducer rated for its torque and speed."""
+    eta_max: np.ndarray
+    eta_min: np.ndarray
+    reducer_mass_min: np.ndarray
+    reducer_mass_max: np.ndarray
+    tyre_mass_min: float
+    tyre_mass_max: float
+    crr_min: float
+
+
+def _usable(parts: PartTables) -> _Usable:
+    """Reducers rated for each motor (the staircase rule), and tyres whose load index can carry
+    at least the lightest possible axle share (every feasible design uses such parts)."""
+    mo, re, ty = parts.motors, parts.reducers, parts.tyres
+    v = parts.problem.vehicle
+    ok = ((mo.torque_nm[:, None] <= re.max_torque_nm[None, :] * (1 + 1e-9))
+          & (mo.max_speed_rad_s[:, None] <= re.max_speed_rad_s[None, :] * (1 + 1e-9)))
+    has = ok.any(axis=1)
+    eta = np.where(ok, re.efficiency[None, :], np.nan)
+    mass = np.where(ok, re.mass_kg[None, :], np.nan)
+    with np.errstate(invalid="ignore"), warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN rows: motors without a reducer
+        eta_max, eta_min = np.nanmax(eta, axis=1), np.nanmin(eta, axis=1)
+        mr_min, mr_max = np.nanmin(mass, axis=1), np.nanmax(mass, axis=1)
+    # the heavier static axle carries at least max(s, 1 - s) of mass_kg (parts only add to it)
+    least_load = max(v.rear_axle_share, 1.0 - v.rear_axle_share) * v.mass_kg / (0.5 * v.tyre_count)
+    tyre_ok = ty.load_capacity_kg >= least_load * (1 - 1e-9)
+    if not tyre_ok.any():
+        tyre_ok = np.ones_like(tyre_ok)  # no tyre can work; keep the bounds defined (the model is infeasible)
+    fill = lambda a, x: np.where(has, a, x)  # noqa: E731
+    return _Usable(has_reducer=has, eta_max=fill(eta_max, re.efficiency.max()),
+                   eta_min=fill(eta_min, re.efficiency.min()), reducer_mass_min=fill(mr_min, re.mass_kg.min()),
+                   reducer_mass_max=fill(mr_max, re.mass_kg.max()), tyre_mass_min=float(ty.mass_kg[tyre_ok].min()),
+                   tyre_mass_max=float(ty.mass_kg[tyre_ok].max()), crr_min=float(ty.crr[tyre_ok].min()))
+
+
+def _max_driven_share(parts: PartTables, use: _Usable) -> np.ndarray:
+    """Largest static driven-axle share over usable reducers and tyres, per motor [-].
 
     The share is linear-fractional in (reducer mass, tyre mass), so its maximum over the box of
-    catalogue masses is at a vertex.
+    masses is at a vertex.
     """
     v = parts.problem.vehicle
     n = v.tyre_count
     share0 = v.rear_axle_share if parts.rear_drive else 1.0 - v.rear_axle_share
     mm = parts.motors.mass_kg
     best = np.full(mm.shape, -np.inf)
-    for mr in (parts.reducers.mass_kg.min(), parts.reducers.mass_kg.max()):
-        for mt in (parts.tyres.mass_kg.min(), parts.tyres.mass_kg.max()):
+    for mr in (use.reducer_mass_min, use.reducer_mass_max):
+        for mt in (use.tyre_mass_min, use.tyre_mass_max):
             driven = share0 * v.mass_kg + mm + mr + 0.5 * n * mt
             total = v.mass_kg + mm + mr + n * mt
             best = np.maximum(best, driven / total)
@@ -73,10 +115,13 @@ def _optimistic_designs(parts: PartTables, motors: np.ndarray, log_g: np.ndarray
     """Drive, Body and traction bound of optimistic designs (motor, L) (flattened pairs)."""
     p = parts.problem
     v, env = p.vehicle, p.environment
-    mo, re, ty = parts.motors, parts.reducers, parts.tyres
-    eta_max, eta_min = re.efficiency.max(), re.efficiency.min()
-    c_min = ty.crr.min()
-    m_min = v.mass_kg + mo.mass_kg[motors] + re.mass_kg.min() + v.tyre_count * ty.mass_kg.min()
+    mo = parts.motors
+    use = parts.__dict__.get("_usable")
+    if use is None:
+        use = parts.__dict__["_usable"] = _usable(parts)
+    eta_max, eta_min = use.eta_max[motors], use.eta_min[motors]
+    c_min = use.crr_min
+    m_min = v.mass_kg + mo.mass_kg[motors] + use.reducer_mass_min[motors] + v.tyre_count * use.tyre_mass_min
     drive = Drive(torque_nm=mo.torque_nm[motors], power_w=mo.power_w[motors],
                   cont_torque_nm=mo.cont_torque_nm[motors], cont_power_w=mo.cont_power_w[motors],
                   decline_rad_s=mo.decline_rad_s[motors], decline_exponent=mo.decline_exponent[motors],
@@ -89,8 +134,10 @@ def _optimistic_designs(parts: PartTables, motors: np.ndarray, log_g: np.ndarray
     hl = v.cg_height_m / v.wheelbase_m
     mu = env.road_friction
     den = 1.0 - mu * hl if parts.rear_drive else 1.0 + mu * hl
-    share = _max_driven_share(parts)[motors]
+    share = _max_driven_share(parts, use)[motors]
     cap = np.where(den > 0, (mu * G_N * share - G_N * c_min) / den if den > 0 else np.inf, np.inf)
+    # a motor no reducer is rated for has no feasible design: no finite time
+    cap = np.where(use.has_reducer[motors], cap, -np.inf)
     return drive, body, cap
 
 

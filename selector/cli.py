@@ -134,15 +134,14 @@ def _cmd_solve(args) -> int:
 
     study = open_study(args.problem)
     res = solve(study, time_limit_s=args.time_limit)
+    if res["status"] == "infeasible":
+        from .explain import diagnose
+
+        res["diagnosis"] = diagnose(study, res.get("reason"))
     if args.format == "json":
         _out(args, res)
     else:
-        diagnosis = None
-        if res["status"] == "infeasible":
-            from .explain import short_diagnosis
-
-            diagnosis = short_diagnosis(study)
-        print_search_result(res, diagnosis=diagnosis)
+        print_search_result(res, diagnosis=res.get("diagnosis", {}).get("summary"))
     return 0
 
 

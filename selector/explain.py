@@ -535,8 +535,9 @@ def _relaxation(parts: PartTables, en: Enumeration, pos: int) -> tuple[dict, lis
     return relax, rows
 
 
-def explain_infeasible(ctx: _Context, reason: str | None) -> dict:
-    """Impossibilities, conflicts, closest design and the verified relaxation."""
+def explain_infeasible(ctx: _Context, reason: str | None, max_conflict_size: int = 3) -> dict:
+    """Impossibilities, conflicts (up to ``max_conflict_size`` requirements), closest design and the
+    verified relaxation."""
     parts = ctx.parts
     allowed = ctx.study.allowed
     out = {"reason": reason, "impossible": impossibilities(parts, allowed), "conflicts": [], "closest": None,
@@ -562,7 +563,7 @@ def explain_infeasible(ctx: _Context, reason: str | None) -> dict:
         out["closest_note"] = ("no design passes the part-rating checks with a finite acceleration time to "
                                "accel_to_kmh (needed by the accel_time objective)")
         return out
-    out["conflicts"] = conflicts(ctx, en)
+    out["conflicts"] = conflicts(ctx, en, max_size=max_conflict_size)
     more, rows = _relaxation(eparts, en, pos)
     relax.update(more)
     i, j, k = (int(x) for x in en.keys[pos])
@@ -659,21 +660,11 @@ def infeasible_summary(inf: dict) -> list[str]:
     return out
 
 
-def short_diagnosis(study: Study) -> list[str]:
-    """A few lines for `selector solve` on an infeasible study: impossibilities and conflicts (singles, pairs)."""
-    parts = study.parts
-    ctx = _Context(study, parts.problem.objective)
-    lines = [f"impossible: {d['name']} = {_num(d['required'])} {d['unit']} exceeds "
-             f"{'' if d['bound'] == 'exact' else 'at most '}{_num(d['limit'])} {d['unit']}"
-             for d in impossibilities(parts, study.allowed)]
-    if any(len(a) == 0 for a in study.allowed.values()):
-        return lines + ["no parts left after the procurement filters"]
-    en = enumerate_shortfalls(parts, study.allowed, ctx.objective)
-    if en.keys.shape[0] == 0:
-        return lines + ["no design passes the part-rating checks (reducer torque/speed, tyre speed/load)"]
-    found = conflicts(ctx, en, max_size=2)
-    if found:
-        lines.append("cannot be met together: " + "; ".join(" + ".join(c) for c in found))
-    elif not lines:
-        lines.append("no single requirement or pair conflicts: three or more requirements conflict together")
-    return lines
+def diagnose(study: Study, reason: str | None = None, max_conflict_size: int = 2) -> dict:
+    """The infeasibility diagnosis `selector solve` attaches to an infeasible result: vehicle-level
+    impossibilities, conflicting requirements (singles and pairs by default), the closest design with
+    its shortfalls, the relaxation that makes it feasible (verified by a re-solve), and a summary."""
+    ctx = _Context(study, study.parts.problem.objective)
+    inf = explain_infeasible(ctx, reason, max_conflict_size=max_conflict_size)
+    inf["summary"] = infeasible_summary(inf)
+    return inf

@@ -290,7 +290,7 @@ def test_infeasible_cli_exit_code_zero_and_json(path, capsys):
     assert err == ""  # no progress bar in JSON mode, stdout stays clean JSON
 
 
-def test_solve_prints_short_diagnosis(capsys):
+def test_solve_prints_the_diagnosis(capsys):
     assert run(["solve", str(DATA / "budget_low.toml")]) == 0
     out, _ = capsys.readouterr()
     assert "cannot be met together: top_speed_kmh + budget" in out
@@ -321,3 +321,15 @@ def test_demo_problems_explain(path, capsys):
             assert p["saved"] >= 0 and set(p["design"]) == {"motor", "reducer", "tyre"}
         # active <=> dropping it changes the design or saves something
         assert r["active"] == (r["price"]["dropped"]["changes_design"] or r["price"]["dropped"]["saved"] > 0)
+
+
+def test_solve_json_carries_the_diagnosis_of_an_infeasible_study(capsys):
+    # budget_low: the cheapest design meeting top_speed_kmh costs more than the budget (checked against
+    # exhaustive enumeration in the infeasible-corpus test above); solve answers with the conflict and the fix
+    assert run(["solve", str(DATA / "budget_low.toml"), "--format", "json"]) == 0
+    res = json.loads(capsys.readouterr().out)
+    assert res["status"] == "infeasible" and res["designs"] == []
+    diag = res["diagnosis"]
+    assert ["top_speed_kmh", "budget"] in diag["conflicts"]
+    assert diag["closest"]["shortfalls"] and diag["relaxation_verified"] is True
+    assert set(diag["relaxation"]) <= {"top_speed_kmh", "budget"}

@@ -149,7 +149,8 @@ def optimistic_time_s(parts: PartTables, motors, log_g, target_mps) -> np.ndarra
     return accel_time_s(drive, body, target_mps, traction_accel_bound_mps2=cap, nodes=BOUND_NODES).reshape(shape)
 
 
-def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | None) -> AccelWindows:
+def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | None,
+                  motors=None) -> AccelWindows:
     """Window of L per motor where the optimistic time meets ``time_limit_s`` (None: finite time).
 
     t_i(L) is sampled on a grid over the catalogue's L range, then refined by nested grids
@@ -159,15 +160,17 @@ def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | No
     keeps the model a relaxation). Exact when the feasible set is an interval (t_i(L)
     quasi-convex, the usual case: time falls with L until the gearing limit bites); a feasible
     island narrower than the grid spacing away from the minimum could be missed (documented).
-    The optimistic minimum time is the smallest sample, lowered by `T_MIN_SAFETY`.
+    The optimistic minimum time is the smallest sample, lowered by `BOUND_SAFETY`. ``motors``
+    restricts the work to some motors (positions); the others get empty windows.
     """
-    n_m = parts.sizes[0]
-    rows = np.arange(n_m)
+    n_all = parts.sizes[0]
+    motors = np.arange(n_all) if motors is None else np.asarray(motors, dtype=np.int64)
+    rows = np.arange(motors.size)
     l_lo, l_hi = log_gearing_range(parts)
     pad = 1e-6
     grid = np.linspace(l_lo - pad, l_hi + pad, GRID_POINTS)
     limit = np.inf if time_limit_s is None else time_limit_s * (1 + BOUND_SAFETY)
-    t = optimistic_time_s(parts, rows[:, None], grid[None, :], target_mps)  # (n_m, G)
+    t = optimistic_time_s(parts, motors[:, None], grid[None, :], target_mps)  # (motors, G)
     ok = t <= limit
     any_ok = ok.any(axis=1)
     best = np.argmin(t, axis=1)
@@ -189,7 +192,7 @@ def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | No
     for _ in range(REFINE_LEVELS):
         pts = {k: a[:, None] + (b - a)[:, None] * frac for k, (a, b) in brackets.items()}
         allp = np.concatenate([pts["min"], pts["lo"], pts["hi"]], axis=1)
-        tt = optimistic_time_s(parts, rows[:, None], allp, target_mps)
+        tt = optimistic_time_s(parts, motors[:, None], allp, target_mps)
         t_min_pts, t_lo_pts, t_hi_pts = np.split(tt, 3, axis=1)
         # minimum
         k = np.argmin(t_min_pts, axis=1)
@@ -221,12 +224,14 @@ def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | No
     lo = np.where(ok_final, lo - pad, np.inf)
     hi = np.where(ok_final, hi + pad, -np.inf)
     # time often falls with L right up to the gearing limit L_gear = ln(w_max / V): sample it
-    l_gear = np.log(parts.motors.max_speed_rad_s / target_mps) * (1 - 1e-13)
+    l_gear = np.log(parts.motors.max_speed_rad_s[motors] / target_mps) * (1 - 1e-13)
     in_range = (l_gear >= grid[0]) & (l_gear <= grid[-1])
-    t_gear = optimistic_time_s(parts, rows, np.where(in_range, l_gear, grid[0]), target_mps)
+    t_gear = optimistic_time_s(parts, motors, np.where(in_range, l_gear, grid[0]), target_mps)
     t_best = np.where(in_range, np.minimum(t_best, t_gear), t_best)
     gear_only = in_range & (t_gear <= limit) & ~ok_final
     lo = np.where(gear_only, l_gear - step - pad, lo)
     hi = np.where(gear_only, l_gear + pad, hi)
     t_min = np.where(np.isfinite(t_best), t_best * (1 - BOUND_SAFETY), np.inf)
-    return AccelWindows(lo=lo, hi=hi, t_min_s=t_min)
+    full = AccelWindows(lo=np.full(n_all, np.inf), hi=np.full(n_all, -np.inf), t_min_s=np.full(n_all, np.inf))
+    full.lo[motors], full.hi[motors], full.t_min_s[motors] = lo, hi, t_min
+    return full

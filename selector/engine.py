@@ -17,9 +17,11 @@ import numpy as np
 
 from .bounds import accel_windows
 from .errors import SolverUnavailableError
-from .evaluate import order_best, screen, slice_indices, tie_tolerance
+from .evaluate import OBJECTIVE_METRIC, order_best, screen, slice_indices, tie_tolerance
 from .model import SelectionModel
 from .parts import PartTables
+from .physics.performance import accel_time_s
+from .requirements import passes
 from .study import Requirements
 from .units import kmh_to_mps
 
@@ -57,6 +59,95 @@ class SearchResult:
         return 0.0 if best == self.bound else abs(best - self.bound) / max(abs(best), 1e-12)
 
 
+class SliceCache:
+    """Exact evaluations of whole motor slices, shared by searches that differ only in the limits
+    ``budget``, ``max_mass_kg`` and ``accel_time_s`` (the frontier's epsilon steps).
+
+    Per evaluated motor it keeps the designs that meet every *other* requirement and check, with
+    their cost, mass and acceleration time; a search then applies its own limits to these exactly,
+    starts from them as incumbents and forbids those motors in the MILP at once.
+    """
+
+    VARYING = ("budget", "max_mass_kg", "accel_time_s")
+
+    def __init__(self):
+        self.key = None
+        self.entries: dict[int, dict] = {}
+
+    def _fixed(self, req: Requirements) -> Requirements:
+        return replace(req, **{k: None for k in self.VARYING})
+
+    def _key(self, parts: PartTables, req: Requirements, allowed: dict):
+        return (self._fixed(req), parts.speed_limit_mps,
+                *(None if allowed.get(k) is None else tuple(int(a) for a in allowed[k])
+                  for k in ("motors", "reducers", "tyres")))
+
+    def matches(self, parts: PartTables, req: Requirements, allowed: dict) -> bool:
+        """True when the cached slices apply to a search with these requirements and parts."""
+        return self._key(parts, req, allowed) == self.key
+
+    def bind(self, parts: PartTables, req: Requirements, allowed: dict):
+        """Reset the cache when the fixed requirements or the allowed parts differ from before."""
+        key = self._key(parts, req, allowed)
+        if key != self.key:
+            self.key, self.entries = key, {}
+
+    def slice(self, parts: PartTables, req: Requirements, i: int, reducers, tyres) -> dict:
+        """Designs of motor i meeting every requirement except the varying limits (computed once)."""
+        if i not in self.entries:
+            fixed = self._fixed(req)
+            fparts = replace(parts, problem=replace(parts.problem, requirements=fixed))
+            mi, rj, tk = slice_indices(parts, i, reducers, tyres)
+            ok, _ = screen(fparts, mi, rj, tk, "cost", need_accel=False)
+            mi, rj, tk = mi[ok], rj[ok], tk[ok]
+            t = np.full(mi.shape, np.inf)
+            if fixed.accel_to_kmh is not None and mi.size:
+                drive, body = parts.design(mi, rj, tk)
+                t = accel_time_s(drive, body, kmh_to_mps(fixed.accel_to_kmh))
+            self.entries[i] = {"keys": np.stack([mi, rj, tk], axis=1), "cost": parts.cost(mi, rj, tk),
+                               "mass_kg": parts.mass_kg(mi, rj, tk), "accel_time_s": t}
+        return self.entries[i]
+
+    @staticmethod
+    def select(entry: dict, req: Requirements, objective: str):
+        """(objective values, keys) of the entry's designs meeting the varying limits of ``req``."""
+        ok = np.ones(entry["keys"].shape[0], dtype=bool)
+        for name, metric in (("budget", "cost"), ("max_mass_kg", "mass_kg"), ("accel_time_s", "accel_time_s")):
+            limit = getattr(req, name)
+            if limit is not None:
+                ok &= passes("max", limit, entry[metric])
+        vals = entry[OBJECTIVE_METRIC[objective]][ok]
+        fin = np.isfinite(vals)
+        return vals[fin], entry["keys"][ok][fin]
+
+
+class SearchSession:
+    """State shared by a series of searches on one study that differ only in the limits
+    ``budget``, ``max_mass_kg`` and ``accel_time_s`` (the frontier's epsilon steps): the exact motor
+    slices (`SliceCache`) and, per objective, the built MILP with its loaded solver, whose limits
+    and windows are updated in place instead of rebuilding and reloading the model."""
+
+    def __init__(self):
+        self.slices = SliceCache()
+        self.models: dict = {}
+
+    def model_for(self, parts: PartTables, objective: str, req: Requirements, allowed: dict, windows,
+                  accel_target_kmh, build):
+        """(model, solver, reused) for this objective and these fixed requirements."""
+        key = (objective, self.slices._fixed(req), parts.speed_limit_mps,
+               tuple(k for k in SliceCache.VARYING if getattr(req, k) is not None), accel_target_kmh,
+               *(None if allowed.get(k) is None else tuple(int(a) for a in allowed[k])
+                 for k in ("motors", "reducers", "tyres")))
+        if key in self.models:
+            model, opt = self.models[key]
+            model.reset(req, windows)
+            return model, opt, True
+        model = build()
+        opt = _solver()
+        self.models[key] = (model, opt)
+        return model, opt, False
+
+
 def cached_accel_windows(parts: PartTables, target_kmh: float, limit_s: float | None):
     """`bounds.accel_windows`, memoised per part tables, target and limit (explain, frontier and
     sweeps re-solve many times with the same acceleration requirement)."""
@@ -81,7 +172,8 @@ def _solver():
 
 def search(parts: PartTables, objective: str | None = None, count: int = 1, per_motor: int | None = None,
            requirements: Requirements | None = None, allowed: dict | None = None,
-           time_limit_s: float | None = None, threads: int = 1) -> SearchResult:
+           time_limit_s: float | None = None, threads: int = 1,
+           session: SearchSession | None = None) -> SearchResult:
     """Find the ``count`` best designs exactly.
 
     Parameters
@@ -94,6 +186,8 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     allowed : {"motors"|"reducers"|"tyres": positions allowed} (procurement filters, exclusions)
     time_limit_s : wall-clock limit [s]; on expiry status is "time_limit" with the best so far
     threads : HiGHS threads [-]
+    session : state shared with earlier searches that differed only in budget, max_mass_kg or
+        accel_time_s (exact motor slices, built models); see `SearchSession`
     """
     t_start = time.perf_counter()
     problem = parts.problem
@@ -115,21 +209,53 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     accel_needed = req.accel_to_kmh is not None and (req.accel_time_s is not None or objective == "accel_time")
     t0 = time.perf_counter()
     if accel_needed:
-        windows = cached_accel_windows(parts, req.accel_to_kmh, req.accel_time_s)
-    model = SelectionModel(parts, objective, windows=windows,
-                           accel_target_kmh=req.accel_to_kmh if accel_needed else None,
-                           accel_limit_s=req.accel_time_s, allowed=allowed)
+        if (session is not None and req.accel_time_s is not None and session.slices.entries
+                and session.slices.matches(parts, req, allowed)):
+            # motors whose slices are known exactly are forbidden in the model: bound only the others
+            todo = np.setdiff1d(np.arange(parts.sizes[0]), np.fromiter(session.slices.entries, dtype=np.int64))
+            windows = accel_windows(parts, kmh_to_mps(req.accel_to_kmh), req.accel_time_s, motors=todo)
+        else:
+            windows = cached_accel_windows(parts, req.accel_to_kmh, req.accel_time_s)
+
+    def build():
+        return SelectionModel(parts, objective, windows=windows,
+                              accel_target_kmh=req.accel_to_kmh if accel_needed else None,
+                              accel_limit_s=req.accel_time_s, allowed=allowed)
+
+    if session is not None:
+        model, opt, _ = session.model_for(parts, objective, req, allowed, windows,
+                                          req.accel_to_kmh if accel_needed else None, build)
+    else:
+        model = build()
+        opt = None
     result.timings["build_s"] += time.perf_counter() - t0
     if model.infeasible_reason:
         result.reason = model.infeasible_reason
         return result
 
-    opt = _solver()
+    opt = opt or _solver()
     scale = model.objective_scale()
     per_slice = count if per_motor is None else min(count, per_motor)
     pool_vals, pool_keys = np.empty(0), np.empty((0, 3), dtype=np.int64)
     reducers, tyres = allowed.get("reducers"), allowed.get("tyres")
     from pyomo.contrib.solver.common.results import TerminationCondition as TC
+
+    def add_to_pool(vals, keys):
+        nonlocal pool_vals, pool_keys
+        if vals.size:
+            best = order_best(vals, keys, per_slice)
+            pool_vals = np.concatenate([pool_vals, vals[best]])
+            pool_keys = np.concatenate([pool_keys, keys[best]])
+
+    slice_cache = None if session is None else session.slices
+    if slice_cache is not None:
+        slice_cache.bind(parts, req, allowed)
+        motors_allowed = allowed.get("motors")
+        usable = None if motors_allowed is None else set(int(a) for a in motors_allowed)
+        for i in list(slice_cache.entries):
+            if usable is None or i in usable:
+                add_to_pool(*slice_cache.select(slice_cache.entries[i], req, objective))
+                model.exclude_motor(i)
 
     options = dict(SOLVER_OPTIONS, threads=threads)
     while True:
@@ -160,13 +286,12 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
         if tc == TC.maxTimeLimit:
             result.bound = None if res.objective_bound is None else res.objective_bound / scale
         t0 = time.perf_counter()
-        mi, rj, tk = slice_indices(parts, i, reducers, tyres)
-        ok, vals = screen(parts, mi, rj, tk, objective)
-        if ok.any():
-            keys = np.stack([mi[ok], rj[ok], tk[ok]], axis=1)
-            best = order_best(vals[ok], keys, per_slice)
-            pool_vals = np.concatenate([pool_vals, vals[ok][best]])
-            pool_keys = np.concatenate([pool_keys, keys[best]])
+        if slice_cache is not None:
+            add_to_pool(*slice_cache.select(slice_cache.slice(parts, req, i, reducers, tyres), req, objective))
+        else:
+            mi, rj, tk = slice_indices(parts, i, reducers, tyres)
+            ok, vals = screen(parts, mi, rj, tk, objective)
+            add_to_pool(vals[ok], np.stack([mi[ok], rj[ok], tk[ok]], axis=1))
         result.timings["verify_s"] += time.perf_counter() - t0
         model.exclude_motor(i)
         if tc == TC.maxTimeLimit:

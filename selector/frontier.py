@@ -28,7 +28,7 @@ from dataclasses import replace
 import numpy as np
 
 from .api import Study, header, records
-from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, search
+from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, SearchSession, search
 from .errors import InputError, SelectorError
 from .evaluate import evaluate
 from .report import clean
@@ -95,11 +95,12 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
     own_limit = getattr(req0, limit_key)
     t_cap = ANY_FINITE_TIME_S
     points, searches, t0 = [], 0, time.perf_counter()
+    session = SearchSession()  # slices and models shared by every search below (they differ only in limits)
     # Each loop adds one point with a strictly larger axis value and strictly smaller time,
     # so it ends after at most (number of designs) loops.
     while True:
         cheapest = search(parts, objective=objective, requirements=replace(base, accel_time_s=t_cap),
-                          allowed=study.allowed, time_limit_s=time_limit_s)
+                          allowed=study.allowed, time_limit_s=time_limit_s, session=session)
         searches += 1
         _check_status(cheapest, f"min {objective}")
         if cheapest.status == STATUS_INFEASIBLE:
@@ -109,7 +110,7 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
         if own_limit is not None:
             limit = min(limit, own_limit)
         fastest = search(parts, objective="accel_time", requirements=replace(base, **{limit_key: limit}),
-                         allowed=study.allowed, time_limit_s=time_limit_s)
+                         allowed=study.allowed, time_limit_s=time_limit_s, session=session)
         searches += 1
         _check_status(fastest, "min accel_time")
         if fastest.status == STATUS_INFEASIBLE:  # cannot happen: the cheapest design qualifies

@@ -207,6 +207,21 @@ class SelectionModel:
         """Model objective units per reported unit (cost: 1/1000, mass: 1/1000, time: 1)."""
         return 1e-3 if self.objective_name in ("cost", "mass") else 1.0
 
+    def reset(self, requirements, windows: AccelWindows | None):
+        """Reuse the model for another search: every motor allowed again, the objective cutoff
+        off, and the limits (budget, max_mass_kg) and acceleration windows of ``requirements``."""
+        self.req = requirements
+        for i in self.unit.I:
+            if not self.unit.x[i].fixed:
+                self.unit.x[i].setub(1)
+        self.m.cutoff.deactivate()
+        if hasattr(self.m, "budget_p"):
+            self.m.budget_p = requirements.budget / 1000.0
+        if hasattr(self.m, "max_mass_p"):
+            self.m.max_mass_p = requirements.max_mass_kg / 1000.0
+        if windows is not None:
+            self.set_windows(windows)
+
     def set_windows(self, windows: AccelWindows):
         """Apply per-motor L windows (and optimistic times for the accel_time objective)."""
         u = self.unit
@@ -351,12 +366,14 @@ def _accel(sm: SelectionModel):
 
 @family("max_mass", "max_mass_kg", "kg", "m <= max_mass (exact)")
 def _max_mass(sm: SelectionModel):
-    sm.m.max_mass = pyo.Constraint(expr=sm.m.mass <= sm.req.max_mass_kg / 1000.0 + SLACK_T)
+    sm.m.max_mass_p = pyo.Param(mutable=True, initialize=sm.req.max_mass_kg / 1000.0)
+    sm.m.max_mass = pyo.Constraint(expr=sm.m.mass <= sm.m.max_mass_p + SLACK_T)
 
 
 @family("budget", "budget", "currency", "motor + reducer + n tyre cost <= budget (exact)")
 def _budget(sm: SelectionModel):
-    sm.m.budget = pyo.Constraint(expr=sm.m.cost <= sm.req.budget / 1000.0 + SLACK_T)
+    sm.m.budget_p = pyo.Param(mutable=True, initialize=sm.req.budget / 1000.0)
+    sm.m.budget = pyo.Constraint(expr=sm.m.cost <= sm.m.budget_p + SLACK_T)
 
 
 @family("tyre_load", None, "kg", "(n/2) load_capacity_k >= each static axle mass (exact)")

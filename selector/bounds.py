@@ -18,6 +18,7 @@ import numpy as np
 
 from .parts import PartTables
 from .physics.performance import Body, Drive, accel_time_s
+from .requirements import REL_TOL
 from .units import G_N
 
 GRID_POINTS = 24
@@ -71,8 +72,8 @@ def _usable(parts: PartTables) -> _Usable:
     at least the lightest possible axle share (every feasible design uses such parts)."""
     mo, re, ty = parts.motors, parts.reducers, parts.tyres
     v = parts.problem.vehicle
-    ok = ((mo.torque_nm[:, None] <= re.max_torque_nm[None, :] * (1 + 1e-9))
-          & (mo.max_speed_rad_s[:, None] <= re.max_speed_rad_s[None, :] * (1 + 1e-9)))
+    ok = ((mo.torque_nm[:, None] <= re.max_torque_nm[None, :] * (1 + 2 * REL_TOL))
+          & (mo.max_speed_rad_s[:, None] <= re.max_speed_rad_s[None, :] * (1 + 2 * REL_TOL)))
     has = ok.any(axis=1)
     eta = np.where(ok, re.efficiency[None, :], np.nan)
     mass = np.where(ok, re.mass_kg[None, :], np.nan)
@@ -82,7 +83,7 @@ def _usable(parts: PartTables) -> _Usable:
         mr_min, mr_max = np.nanmin(mass, axis=1), np.nanmax(mass, axis=1)
     # the heavier static axle carries at least max(s, 1 - s) of mass_kg (parts only add to it)
     least_load = max(v.rear_axle_share, 1.0 - v.rear_axle_share) * v.mass_kg / (0.5 * v.tyre_count)
-    tyre_ok = ty.load_capacity_kg >= least_load * (1 - 1e-9)
+    tyre_ok = ty.load_capacity_kg >= least_load * (1 - 2 * REL_TOL)
     if not tyre_ok.any():
         tyre_ok = np.ones_like(tyre_ok)  # no tyre can work; keep the bounds defined (the model is infeasible)
     fill = lambda a, x: np.where(has, a, x)  # noqa: E731
@@ -116,9 +117,9 @@ def _optimistic_designs(parts: PartTables, motors: np.ndarray, log_g: np.ndarray
     p = parts.problem
     v, env = p.vehicle, p.environment
     mo = parts.motors
-    use = parts.__dict__.get("_usable")
+    use = parts.cache.get("usable")
     if use is None:
-        use = parts.__dict__["_usable"] = _usable(parts)
+        use = parts.cache["usable"] = _usable(parts)
     eta_max, eta_min = use.eta_max[motors], use.eta_min[motors]
     c_min = use.crr_min
     m_min = v.mass_kg + mo.mass_kg[motors] + use.reducer_mass_min[motors] + v.tyre_count * use.tyre_mass_min

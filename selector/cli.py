@@ -8,13 +8,14 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import traceback
 import warnings
 
 from . import __version__
 from .cli_args import add_common, positive_float
-from .errors import InputError, SelectorError, SolverUnavailableError
+from .errors import InputError, SelectorError
 from .report import CAUTION, dumps, fmt, parts_table, performance_table, requirement_table, table
 
 
@@ -25,7 +26,6 @@ class _Parser(argparse.ArgumentParser):
         raise InputError(f"{self.prog}: {message}. See '{self.prog} --help'.")
 
 
-_common = add_common
 
 
 def _out(args, text_or_obj):
@@ -38,7 +38,7 @@ def _out(args, text_or_obj):
 # ----------------------------------------------------------------------------- check
 
 def _setup_check(p):
-    _common(p)
+    add_common(p)
 
 
 def _cmd_check(args) -> int:
@@ -63,7 +63,7 @@ def _cmd_check(args) -> int:
 # ----------------------------------------------------------------------------- simulate
 
 def _setup_simulate(p):
-    _common(p)
+    add_common(p)
     p.add_argument("--motor", required=True, help="motor part id")
     p.add_argument("--reducer", required=True, help="reducer part id (one ratio variant)")
     p.add_argument("--tyre", required=True, help="tyre part id")
@@ -98,7 +98,7 @@ def _cmd_simulate(args) -> int:
 # ----------------------------------------------------------------------------- solve
 
 def _setup_solve(p):
-    _common(p)
+    add_common(p)
     p.add_argument("--time-limit", type=positive_float, metavar="SECONDS", help="wall-clock limit of the search")
 
 
@@ -135,15 +135,24 @@ def _cmd_solve(args) -> int:
     study = open_study(args.problem)
     res = solve(study, time_limit_s=args.time_limit)
     if res["status"] == "infeasible":
-        from .explain import diagnose
+        combos = res["search"]["combinations"]
+        if args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
+            from .explain import diagnose
 
-        res["diagnosis"] = diagnose(study, res.get("reason"))
+            res["diagnosis"] = diagnose(study, res.get("reason"))
+        else:  # the closest-design search enumerates the catalogue: leave it to `selector explain`
+            res["diagnosis"] = {"summary": [f"diagnosis skipped ({combos:,} combinations"
+                                            f"{' and a time limit' if args.time_limit else ''}): "
+                                            "run `selector explain` for it"]}
     if args.format == "json":
         _out(args, res)
     else:
         print_search_result(res, diagnosis=res.get("diagnosis", {}).get("summary"))
     return 0
 
+
+DIAGNOSE_MAX_COMBINATIONS = 2_000_000
+"""solve diagnoses an infeasible study (an exhaustive closest-design search) up to this size [-]."""
 
 COMMANDS = {
     "check": (_setup_check, _cmd_check, "validate a problem file and its catalogues"),
@@ -181,37 +190,41 @@ def run(argv=None) -> int:
     """Run the CLI; returns the exit code (0 ok, 2 bad input, 1 internal error)."""
     argv = list(sys.argv[1:] if argv is None else argv)
     verbose = "--verbose" in argv
-    try:
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            parser = build_parser()
-            args = parser.parse_args(argv)
-            if not args.command:
-                parser.print_help()
-                return 2
-            code = COMMANDS[args.command][1](args)
-        for w in caught:
-            if issubclass(w.category, UserWarning):
-                print(f"warning: {w.message}", file=sys.stderr)
-        return code
-    except InputError as exc:
-        print(f"error: {exc}", file=sys.stderr)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            return _dispatch(argv)
+        except InputError as exc:
+            print(f"error: {exc}", file=sys.stderr)
+            return 2
+        except SelectorError as exc:  # solver missing or broken, verification failure
+            print(f"error: {exc}", file=sys.stderr)
+            return 1
+        except KeyboardInterrupt:
+            print("interrupted", file=sys.stderr)
+            return 130
+        except BrokenPipeError:  # output piped into a reader that stopped early (e.g. `| head`)
+            sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - silence the interpreter's final flush
+            return 0
+        except Exception as exc:  # noqa: BLE001 - last resort: an internal error is a bug
+            if verbose:
+                traceback.print_exc()
+            print(f"internal error: {type(exc).__name__}: {exc}. This is a bug in selector; rerun with --verbose "
+                  "and report the output.", file=sys.stderr)
+            return 1
+        finally:  # warnings are shown on every path, also before an error
+            for w in caught:
+                if issubclass(w.category, UserWarning):
+                    print(f"warning: {w.message}", file=sys.stderr)
+
+
+def _dispatch(argv) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not args.command:
+        parser.print_help()
         return 2
-    except SolverUnavailableError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        return 1
-    except SelectorError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        return 1
-    except KeyboardInterrupt:
-        print("interrupted", file=sys.stderr)
-        return 130
-    except Exception as exc:  # noqa: BLE001 - last resort: an internal error is a bug
-        if verbose:
-            traceback.print_exc()
-        print(f"internal error: {type(exc).__name__}: {exc}. This is a bug in selector; rerun with --verbose "
-              "and report the output.", file=sys.stderr)
-        return 1
+    return COMMANDS[args.command][1](args)
 
 
 def main() -> None:

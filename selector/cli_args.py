@@ -39,3 +39,4 @@ def add_common(p) -> None:
     """The problem file and --format, taken by every command."""
     p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
+    p.add_argument("--verbose", action="store_true", help="show tracebacks of internal errors")

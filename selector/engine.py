@@ -16,7 +16,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from .bounds import accel_windows
-from .errors import SolverUnavailableError
+from .errors import InputError, SolverUnavailableError
 from .evaluate import OBJECTIVE_METRIC, order_best, screen, slice_indices, tie_tolerance
 from .model import SelectionModel
 from .parts import PartTables
@@ -81,7 +81,7 @@ class SliceCache:
         return replace(req, **{k: None for k in self.VARYING})
 
     def _key(self, parts: PartTables, req: Requirements, allowed: dict):
-        return (self._fixed(req), parts.speed_limit_mps,
+        return (id(parts.cache), self._fixed(req), parts.speed_limit_mps,
                 *(None if allowed.get(k) is None else tuple(int(a) for a in allowed[k])
                   for k in ("motors", "reducers", "tyres")))
 
@@ -137,10 +137,8 @@ class SearchSession:
     def model_for(self, parts: PartTables, objective: str, req: Requirements, allowed: dict, windows,
                   accel_target_kmh, build):
         """(model, solver, reused) for this objective and these fixed requirements."""
-        key = (objective, self.slices._fixed(req), parts.speed_limit_mps,
-               tuple(k for k in SliceCache.VARYING if getattr(req, k) is not None), accel_target_kmh,
-               *(None if allowed.get(k) is None else tuple(int(a) for a in allowed[k])
-                 for k in ("motors", "reducers", "tyres")))
+        key = (objective, self.slices._key(parts, req, allowed),
+               tuple(k for k in SliceCache.VARYING if getattr(req, k) is not None), accel_target_kmh)
         if key in self.models:
             model, opt = self.models[key]
             model.reset(req, windows)
@@ -154,7 +152,7 @@ class SearchSession:
 def cached_accel_windows(parts: PartTables, target_kmh: float, limit_s: float | None):
     """`bounds.accel_windows`, memoised per part tables, target and limit (explain, frontier and
     sweeps re-solve many times with the same acceleration requirement)."""
-    cache = parts.__dict__.setdefault("_window_cache", {})
+    cache = parts.cache.setdefault("windows", {})
     key = (float(target_kmh), None if limit_s is None else float(limit_s), parts.speed_limit_mps)
     if key not in cache:
         cache[key] = accel_windows(parts, kmh_to_mps(target_kmh), limit_s)
@@ -196,12 +194,11 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     problem = parts.problem
     objective = objective or problem.objective
     req = requirements or problem.requirements
-    if req is not problem.requirements:
-        cache = parts.__dict__.setdefault("_window_cache", {})
-        lim = req.speed_limiter_kmh
-        parts = replace(parts, problem=replace(problem, requirements=req),
-                        speed_limit_mps=float("inf") if lim is None else float(kmh_to_mps(lim)))
-        parts.__dict__["_window_cache"] = cache
+    if objective not in OBJECTIVE_METRIC:
+        raise InputError(f"objective {objective!r}: unknown; use one of {', '.join(OBJECTIVE_METRIC)}")
+    if objective == "accel_time" and req.accel_to_kmh is None:
+        raise InputError("objective accel_time needs [requirements] accel_to_kmh (the target speed of the run)")
+    parts = parts.with_requirements(req)
     result = SearchResult(status=STATUS_INFEASIBLE, objective=objective)
     allowed = allowed or {}
     if any(a is not None and len(a) == 0 for a in allowed.values()):
@@ -328,6 +325,9 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
                       for b in order]
     if result.status == STATUS_OPTIMAL:
         result.bound = result.designs[0][0]
+    elif result.designs and result.bound is not None:
+        # the MILP bound covers only the motors not yet evaluated; evaluated ones are known exactly
+        result.bound = min(result.bound, result.designs[0][0])
     elif result.status == STATUS_INFEASIBLE:
         result.reason = result.reason or "no design in the catalogues meets every requirement"
     return result

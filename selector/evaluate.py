@@ -17,9 +17,6 @@ from .units import kmh_to_mps, mps_to_kmh, rad_s_to_rpm
 OBJECTIVE_METRIC = {"cost": "cost", "mass": "mass_kg", "accel_time": "accel_time_s"}
 """Metric minimised by each objective."""
 
-PERFORMANCE_KEYS = ("max_speed_kmh", "sustained_top_speed_kmh", "gradeability_pct", "launch_accel_mps2",
-                    "accel_time_s")
-
 
 def _idx(a):
     return np.atleast_1d(np.asarray(a, dtype=np.int64))

@@ -65,10 +65,8 @@ ACTIVE_RULE = ("re-solve without the requirement: the optimal design changes, or
 # ----------------------------------------------------------------------------- small helpers
 
 def with_requirements(parts: PartTables, req: Requirements) -> PartTables:
-    """The same part tables with other requirements (the speed limiter must stay the same)."""
-    if req is parts.problem.requirements:
-        return parts
-    return dataclasses.replace(parts, problem=dataclasses.replace(parts.problem, requirements=req))
+    """The same part tables with other requirements (see `PartTables.with_requirements`)."""
+    return parts.with_requirements(req)
 
 
 def dropped(req: Requirements, name: str) -> Requirements:
@@ -122,7 +120,8 @@ class _Context:
     def metric_of(self, design, req: Requirements, metric: str) -> float:
         """One metric of one design evaluated under ``req`` (accel target from ``req``)."""
         _, i, j, k = design
-        return float(evaluate(with_requirements(self.parts, req), [i], [j], [k])[metric][0])
+        return float(evaluate(with_requirements(self.parts, req), [i], [j], [k],
+                              accel=metric == "accel_time_s")[metric][0])
 
     def record(self, design, req: Requirements) -> dict:
         """Verified record of ``design`` under ``req`` (raises if the design fails ``req``)."""
@@ -472,7 +471,7 @@ def closest_design(parts: PartTables, en: Enumeration, objective: str):
 
 # ----------------------------------------------------------------------------- conflicts
 
-def conflicts(ctx: _Context, en: Enumeration, max_size: int = 3) -> list[list[str]]:
+def conflicts(ctx: _Context, en: Enumeration, max_size: int = 3, base: Requirements | None = None) -> list[list[str]]:
     """Minimal sets of stated requirements that no rating-passing design meets together.
 
     Singles, then pairs, then triples; a set is tested only when none of its subsets conflicts.
@@ -482,7 +481,8 @@ def conflicts(ctx: _Context, en: Enumeration, max_size: int = 3) -> list[list[st
     names = en.names
     found: list[tuple] = []
     masks = np.unique(en.fail) if en.fail.size else np.empty(0, dtype=np.int64)
-    base = ctx.parts.problem.requirements
+    # the requirements the enumeration used (accel_to_kmh may be lowered to the limiter)
+    base = ctx.parts.problem.requirements if base is None else base
     for size in range(1, min(max_size, len(names)) + 1):
         for combo in itertools.combinations(range(len(names)), size):
             if any(set(f) <= set(combo) for f in found):
@@ -525,13 +525,18 @@ def _relaxation(parts: PartTables, en: Enumeration, pos: int) -> tuple[dict, lis
         if r.name == "accel_time_s" and not math.isfinite(achieved):
             # this design cannot reach the target speed at all: lower the target below its maximum speed
             target = float(math.floor(0.98 * float(m["max_speed_kmh"][0])))
+            if target <= 0:  # the design cannot move: no acceleration target helps, drop the limit
+                relax["accel_time_s"] = None
+                continue
             t = float(evaluate(with_requirements(parts, dataclasses.replace(req, accel_to_kmh=target)),
                                [i], [j], [k])["accel_time_s"][0])
             relax["accel_to_kmh"] = target
             if math.isfinite(t) and t > required:
                 relax["accel_time_s"] = _round_safe(t, "max")
         else:
-            relax[r.name] = _round_safe(achieved, r.sense)
+            value = _round_safe(achieved, r.sense)
+            # a design that cannot even start (zero or negative grade or launch): drop the requirement
+            relax[r.name] = value if math.isfinite(value) and value > 0 else None
     return relax, rows
 
 
@@ -563,7 +568,7 @@ def explain_infeasible(ctx: _Context, reason: str | None, max_conflict_size: int
         out["closest_note"] = ("no design passes the part-rating checks with a finite acceleration time to "
                                "accel_to_kmh (needed by the accel_time objective)")
         return out
-    out["conflicts"] = conflicts(ctx, en, max_size=max_conflict_size)
+    out["conflicts"] = conflicts(ctx, en, max_size=max_conflict_size, base=eparts.problem.requirements)
     more, rows = _relaxation(eparts, en, pos)
     relax.update(more)
     i, j, k = (int(x) for x in en.keys[pos])

@@ -27,12 +27,13 @@ import pyomo.environ as pyo
 
 from .bounds import AccelWindows, log_gearing_range
 from .parts import PartTables
+from .requirements import REL_TOL
 from .units import G_N, kmh_to_mps
 
 SLACK_LOG = 1e-7
 """Slack added to every log-space row [-] (floating-point safety; keeps the model a relaxation)."""
-SLACK_T = 1e-7
-"""Slack added to every row in tonnes or thousands [-]."""
+SLACK_T = 1e-6
+"""Slack added to every row in tonnes or thousands [-] (limits also get 2 REL_TOL relative)."""
 LSE_TANGENTS = (-9.0, -7.0, -6.0, -5.0, -4.5, -4.0, -3.5, -3.0, -2.5, -2.0, -1.5, -1.0, 0.0, 1.0)
 """Points d = Y - X where the log-sum-exp ln(e^X + e^Y) is under-estimated by tangents [-]."""
 
@@ -90,10 +91,10 @@ class SelectionModel:
 
     def __init__(self, parts: PartTables, objective: str, windows: AccelWindows | None = None,
                  accel_target_kmh: float | None = None, accel_limit_s: float | None = None,
-                 requirements=None, allowed=None):
+                 allowed=None):
         self.parts = parts
         self.objective_name = objective
-        self.req = parts.problem.requirements if requirements is None else requirements
+        self.req = parts.problem.requirements
         self.accel_target_kmh = accel_target_kmh
         self.accel_limit_s = accel_limit_s
         self.windows = windows
@@ -211,6 +212,8 @@ class SelectionModel:
         """Reuse the model for another search: every motor allowed again, the objective cutoff
         off, and the limits (budget, max_mass_kg) and acceleration windows of ``requirements``."""
         self.req = requirements
+        self.accel_limit_s = requirements.accel_time_s
+        self.windows = windows
         for i in self.unit.I:
             if not self.unit.x[i].fixed:
                 self.unit.x[i].setub(1)
@@ -367,13 +370,13 @@ def _accel(sm: SelectionModel):
 @family("max_mass", "max_mass_kg", "kg", "m <= max_mass (exact)")
 def _max_mass(sm: SelectionModel):
     sm.m.max_mass_p = pyo.Param(mutable=True, initialize=sm.req.max_mass_kg / 1000.0)
-    sm.m.max_mass = pyo.Constraint(expr=sm.m.mass <= sm.m.max_mass_p + SLACK_T)
+    sm.m.max_mass = pyo.Constraint(expr=sm.m.mass <= sm.m.max_mass_p * (1 + 2 * REL_TOL) + SLACK_T)
 
 
 @family("budget", "budget", "currency", "motor + reducer + n tyre cost <= budget (exact)")
 def _budget(sm: SelectionModel):
     sm.m.budget_p = pyo.Param(mutable=True, initialize=sm.req.budget / 1000.0)
-    sm.m.budget = pyo.Constraint(expr=sm.m.cost <= sm.m.budget_p + SLACK_T)
+    sm.m.budget = pyo.Constraint(expr=sm.m.cost <= sm.m.budget_p * (1 + 2 * REL_TOL) + SLACK_T)
 
 
 @family("tyre_load", None, "kg", "(n/2) load_capacity_k >= each static axle mass (exact)")
@@ -391,7 +394,7 @@ def _staircase(sm: SelectionModel, name: str, need: np.ndarray, rating: np.ndarr
     blk = pyo.Block()
     setattr(sm.m, name, blk)
     blk.rows = pyo.ConstraintList()
-    tol = 1e-9
+    tol = 2 * REL_TOL
     for tau in np.unique(rating):
         motors = np.nonzero(need > tau * (1 + tol))[0]
         if motors.size == 0:

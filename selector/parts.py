@@ -7,7 +7,7 @@ which are sorted by part id, so index order is the tie-break order.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -80,6 +80,9 @@ class PartTables:
     tyres: TyreArrays
     q_n_s2_m2: float
     speed_limit_mps: float
+    cache: dict = field(default_factory=dict, compare=False, repr=False)
+    """Derived data memoised by the optimiser (acceleration windows, usable parts); shared by the
+    copies `with_requirements` makes, whose catalogues and vehicle are the same."""
 
     @classmethod
     def build(cls, problem: Problem, catalogs: Catalogs) -> "PartTables":
@@ -108,6 +111,14 @@ class PartTables:
                    q_n_s2_m2=float(aero_coefficient_n_s2_m2(problem.environment.air_density_kg_m3,
                                                            problem.vehicle.drag_area_m2)),
                    speed_limit_mps=float(kmh_to_mps(lim)) if lim is not None else float("inf"))
+
+    def with_requirements(self, req) -> "PartTables":
+        """The same tables under other requirements (speed limit recomputed, `cache` shared)."""
+        if req is self.problem.requirements:
+            return self
+        lim = req.speed_limiter_kmh
+        return replace(self, problem=replace(self.problem, requirements=req),
+                       speed_limit_mps=float("inf") if lim is None else float(kmh_to_mps(lim)))
 
     @property
     def sizes(self) -> tuple[int, int, int]:

@@ -94,10 +94,6 @@ def _even_tyres(v):
     return None if v >= 2 and v % 2 == 0 else "must be an even number >= 2 (tyres split evenly between two axles)"
 
 
-def _non_empty(v):
-    return None if v.strip() else "must not be empty"
-
-
 _REQ = "optional requirement; absent = not required"
 
 TABLES: dict[str, dict[str, Key]] = {
@@ -144,7 +140,8 @@ TABLES: dict[str, dict[str, Key]] = {
     "procurement": {k.name: k for k in (
         Key("distinct", "str", False, "", _one_of(DISTINCT), '"motor", "reducer" or "tyre"'),
         Key("avoid_suppliers", "str list", False, "", None, "suppliers to leave out"),
-        Key("max_lead_time_weeks", "number", False, "weeks", _positive, "longest acceptable lead time"),
+        Key("max_lead_time_weeks", "number", False, "weeks", _non_negative,
+            "longest acceptable lead time (0 = in stock only)"),
     )},
 }
 """Allowed keys per table of the problem file."""
@@ -407,8 +404,9 @@ def load_study(path) -> tuple[Problem, Catalogs]:
         known = set()
         for df in (catalogs.motors, catalogs.reducers, catalogs.tyres):
             known.update(df["supplier"])
+        known_folded = {k.strip().casefold() for k in known}
         for s in avoid:
-            if s not in known:
+            if s.strip().casefold() not in known_folded:  # the filter matches names ignoring case
                 hit = difflib.get_close_matches(s, sorted(known), n=1, cutoff=0.6)
                 did = f' Did you mean "{hit[0]}"?' if hit else ""
                 warnings.warn(f"{path} [procurement] avoid_suppliers: supplier \"{s}\" is in none of the "

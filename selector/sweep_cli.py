@@ -32,16 +32,21 @@ def handle(args) -> int:
     from .sweep import sweep, to_csv
 
     csv_only = {".csv": "csv"}
+    protected = ()
     if args.plot:
         check_output_path(args.plot)
     if args.out:
-        check_out(args.out, formats=csv_only)
+        from .problem import load_problem
+
+        problem = load_problem(args.problem)
+        protected = (problem.path, *problem.catalog_paths.values())  # never overwrite an input
+        check_out(args.out, protected, formats=csv_only)
     progress = args.format == "table" and sys.stderr.isatty()
     res = sweep(args.problem, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
     if args.out:
         text = to_csv(res)
         atomic_write(args.out, lambda tmp: Path(tmp).write_text(text, encoding="utf-8", newline=""),
-                     formats=csv_only)
+                     protected, formats=csv_only)
         res["csv"] = args.out
     if args.plot:
         from .plots import sweep_plot

@@ -419,7 +419,7 @@ def test_top_speed_cubic_against_numpy_roots():
     assert float(max_speed_mps(*build(p))[0]) == pytest.approx(real[0], rel=1e-9)  # np.roots ~1e-12 here
 
 
-def test_road_load_power_reference_values():
+def test_road_load_power_and_top_speed_round_trip():
     # computed from (m g Crr + c v^2) v: road-load power of that vehicle 12.619 kW at 100 km/h, 24.059 kW at 130 km/h;
     # the same vehicle whose P_wheel is exactly that power tops out at that speed (power branch, eta = 1)
     for v_kmh, kw in ((100.0, "12.619"), (130.0, "24.059")):

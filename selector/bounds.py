@@ -93,23 +93,44 @@ def _usable(parts: PartTables) -> _Usable:
                    tyre_mass_max=float(ty.mass_kg[tyre_ok].max()), crr_min=float(ty.crr[tyre_ok].min()))
 
 
-def _max_driven_share(parts: PartTables, use: _Usable) -> np.ndarray:
-    """Largest static driven-axle share over usable reducers and tyres, per motor [-].
+def max_driven_share(parts: PartTables, motor_mass_kg, reducer_mass_kg, tyre_mass_kg) -> np.ndarray:
+    """Largest static driven-axle share per motor mass, over ranges of reducer and tyre masses [-].
 
-    The share is linear-fractional in (reducer mass, tyre mass), so its maximum over the box of
-    masses is at a vertex.
+    The share is linear-fractional in (reducer mass, tyre mass), so its maximum over the box
+    [min, max] x [min, max] of the given masses is at a vertex.
+
+    Parameters
+    ----------
+    motor_mass_kg : motor masses [kg] (array: one result each)
+    reducer_mass_kg, tyre_mass_kg : (lowest, highest) masses, scalars or per-motor arrays [kg]
     """
     v = parts.problem.vehicle
     n = v.tyre_count
     share0 = v.rear_axle_share if parts.rear_drive else 1.0 - v.rear_axle_share
-    mm = parts.motors.mass_kg
+    mm = np.asarray(motor_mass_kg, dtype=float)
     best = np.full(mm.shape, -np.inf)
-    for mr in (use.reducer_mass_min, use.reducer_mass_max):
-        for mt in (use.tyre_mass_min, use.tyre_mass_max):
+    for mr in reducer_mass_kg:
+        for mt in tyre_mass_kg:
             driven = share0 * v.mass_kg + mm + mr + 0.5 * n * mt
-            total = v.mass_kg + mm + mr + n * mt
-            best = np.maximum(best, driven / total)
+            best = np.maximum(best, driven / (v.mass_kg + mm + mr + n * mt))
     return best
+
+
+def traction_tan_bound(parts: PartTables, driven_share, crr):
+    """tan(theta) = (mu s - Crr) / (1 -+ mu h/L): the steepest grade the driven axle can climb, and
+    (times g) the largest launch acceleration it can transmit with m_eff >= m [-].
+
+    Rear drive takes the minus sign. When 1 - mu h/L <= 0 the axle is not traction-limited in
+    this bound: +inf (an upper bound in every case, which is all its users need).
+    """
+    p = parts.problem
+    mu = p.environment.road_friction
+    hl = p.vehicle.cg_height_m / p.vehicle.wheelbase_m
+    den = 1.0 - mu * hl if parts.rear_drive else 1.0 + mu * hl
+    num = mu * np.asarray(driven_share, dtype=float) - crr
+    if den > 0:
+        return num / den
+    return np.full(num.shape, np.inf) if num.shape else np.inf
 
 
 def _optimistic_designs(parts: PartTables, motors: np.ndarray, log_g: np.ndarray):
@@ -132,11 +153,10 @@ def _optimistic_designs(parts: PartTables, motors: np.ndarray, log_g: np.ndarray
     body = Body(mass_kg=m_min, rear_share=0.5, crr=c_min, q_n_s2_m2=parts.q_n_s2_m2,
                 road_friction=env.road_friction, cg_height_m=v.cg_height_m, wheelbase_m=v.wheelbase_m,
                 rear_drive=parts.rear_drive, wheel_inertia_total_kgm2=0.0, speed_limit_mps=parts.speed_limit_mps)
-    hl = v.cg_height_m / v.wheelbase_m
-    mu = env.road_friction
-    den = 1.0 - mu * hl if parts.rear_drive else 1.0 + mu * hl
-    share = _max_driven_share(parts, use)[motors]
-    cap = np.where(den > 0, (mu * G_N * share - G_N * c_min) / den if den > 0 else np.inf, np.inf)
+    share = max_driven_share(parts, mo.mass_kg[motors],
+                             (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
+                             (use.tyre_mass_min, use.tyre_mass_max))
+    cap = G_N * traction_tan_bound(parts, share, c_min)
     # a motor no reducer is rated for has no feasible design: no finite time
     cap = np.where(use.has_reducer[motors], cap, -np.inf)
     return drive, body, cap

@@ -37,6 +37,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .api import OBJECTIVE_UNITS as UNITS
+from .bounds import max_driven_share, traction_tan_bound
 from .api import Study, header, objective_dict, records
 from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, SearchResult, search
 from .evaluate import OBJECTIVE_METRIC, evaluate, feasible, order_best, slice_indices, tie_tolerance
@@ -277,23 +278,6 @@ def _summary(rows, driving, rec, objective, step_pct) -> list[str]:
 
 # ----------------------------------------------------------------------------- impossibilities
 
-def _driven_share_bounds(parts: PartTables, allowed: dict) -> float:
-    """Largest static driven-axle share over the allowed parts [-] (a vertex of the mass box)."""
-    v = parts.problem.vehicle
-    n = v.tyre_count
-    share0 = v.rear_axle_share if parts.rear_drive else 1.0 - v.rear_axle_share
-    mm = parts.motors.mass_kg[allowed["motors"]]
-    mr = parts.reducers.mass_kg[allowed["reducers"]]
-    mt = parts.tyres.mass_kg[allowed["tyres"]]
-    best = -np.inf
-    for a in (mm.min(), mm.max()):
-        for b in (mr.min(), mr.max()):
-            for c in (mt.min(), mt.max()):
-                driven = share0 * v.mass_kg + a + b + 0.5 * n * c
-                best = max(best, driven / (v.mass_kg + a + b + n * c))
-    return float(best)
-
-
 def traction_limits(parts: PartTables, allowed: dict) -> dict:
     """Upper bounds on launch acceleration [m/s^2] and gradeability [%] that no part can exceed.
 
@@ -302,14 +286,12 @@ def traction_limits(parts: PartTables, allowed: dict) -> dict:
     catalogue and the lowest Crr. Gradeability: tan(theta) = (mu s - Crr) / (1 -+ mu h/L), same
     s and Crr. Rear drive takes the minus sign; infinite when 1 - mu h/L <= 0.
     """
-    p = parts.problem
-    mu = p.environment.road_friction
-    hl = p.vehicle.cg_height_m / p.vehicle.wheelbase_m
-    s = _driven_share_bounds(parts, allowed)
+    mr = parts.reducers.mass_kg[allowed["reducers"]]
+    mt = parts.tyres.mass_kg[allowed["tyres"]]
+    s = float(max_driven_share(parts, parts.motors.mass_kg[allowed["motors"]], (mr.min(), mr.max()),
+                               (mt.min(), mt.max())).max())
     crr = float(parts.tyres.crr[allowed["tyres"]].min())
-    den = 1.0 - mu * hl if parts.rear_drive else 1.0 + mu * hl
-    num = mu * s - crr
-    tan = num / den if den > 0 else (math.inf if num >= 0 else 0.0)
+    tan = float(traction_tan_bound(parts, s, crr))
     return {"launch_accel_mps2": tan * G_N, "gradeability_pct": 100.0 * tan, "driven_share": s, "crr": crr}
 
 

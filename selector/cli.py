@@ -102,12 +102,8 @@ def _setup_solve(p):
     p.add_argument("--time-limit", type=positive_float, metavar="SECONDS", help="wall-clock limit of the search")
 
 
-def print_search_result(res: dict, title: str = "best design", diagnosis: list[str] | None = None) -> None:
-    """Terminal rendering of a solve/shortlist result (``diagnosis``: short lines for infeasible studies)."""
-    print(f"{res['problem']}")
-    obj = res["objective"]
-    print(f"status: {res['status']}   objective: minimise {obj['minimize']} [{obj['unit']}]"
-          f"   value: {fmt(obj['value'])}   bound: {fmt(res.get('bound'))}")
+def print_search_summary(res: dict, diagnosis: list[str] | None = None) -> None:
+    """The search line, procurement filters and, for an infeasible study, the diagnosis lines."""
     s = res["search"]
     print(f"searched {s['combinations']:,} combinations exactly: {s['iterations']} MILP solves, "
           f"build {s['build_s']:.2f} s, solve {s['solve_s']:.2f} s, verify {s['verify_s']:.2f} s")
@@ -118,6 +114,15 @@ def print_search_result(res: dict, title: str = "best design", diagnosis: list[s
         for line in diagnosis or []:
             print(f"  {line}")
         print("run `selector explain` for the closest design and the relaxation that fixes it.")
+
+
+def print_search_result(res: dict, title: str = "best design", diagnosis: list[str] | None = None) -> None:
+    """Terminal rendering of a solve/shortlist result (``diagnosis``: short lines for infeasible studies)."""
+    print(f"{res['problem']}")
+    obj = res["objective"]
+    print(f"status: {res['status']}   objective: minimise {obj['minimize']} [{obj['unit']}]"
+          f"   value: {fmt(obj['value'])}   bound: {fmt(res.get('bound'))}")
+    print_search_summary(res, diagnosis)
     for n, d in enumerate(res["designs"], 1):
         print(f"\n{title if len(res['designs']) == 1 else f'design {n}'}: {d['motor']} + {d['reducer']} + {d['tyre']}"
               f"   cost {fmt(d['cost'])}   mass {fmt(d['mass_kg'])} kg")

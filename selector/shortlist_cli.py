@@ -28,18 +28,13 @@ def print_shortlist(res: dict) -> None:
     """Terminal rendering of a shortlist result."""
     o = res["options"]
     obj = res["objective"]
-    s = res["search"]
     print(res["problem"])
     print(f"status: {res['status']}   objective: minimise {obj['minimize']} [{obj['unit']}]   "
           f"designs: {o['found']} of {o['count']} requested")
     print(f"distinct: {o['distinct_rule']}")
-    print(f"searched {s['combinations']:,} combinations: {s['iterations']} MILP solves, build {s['build_s']:.2f} s, "
-          f"solve {s['solve_s']:.2f} s, verify {s['verify_s']:.2f} s")
-    for note in s.get("procurement_filters", []):
-        print(f"procurement filter: {note}")
-    if res["status"] == "infeasible":
-        print(f"\nno design meets every requirement: {res.get('reason')}")
-        print("run `selector explain` for the closest design and the relaxation that fixes it.")
+    from .cli import print_search_summary
+
+    print_search_summary(res)
     if o["found"] < o["count"] and res["status"] == "optimal" and res["bom"]:
         print(f"only {o['found']} designs meet every requirement under this rule and these filters.")
     if res["bom"]:

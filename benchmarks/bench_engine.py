@@ -37,9 +37,9 @@ def _child(kind: str, sizes, objective: str, seed: int) -> dict:
     sys.path.insert(0, HERE)
     from synthetic import synthetic_study
 
-    from selector.engine import search
-    from selector.evaluate import enumerate_designs
-    from selector.parts import PartTables
+    from selector.engine.evaluate import enumerate_designs
+    from selector.engine.parts import PartTables
+    from selector.engine.search import search
 
     problem, catalogs = synthetic_study(*sizes, seed=seed, objective=objective)
     parts = PartTables.build(problem, catalogs)

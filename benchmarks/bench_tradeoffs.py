@@ -37,7 +37,7 @@ def _study(size: str, seed: int):
     from synthetic import synthetic_study
 
     from selector.api import Study
-    from selector.parts import PartTables
+    from selector.engine.parts import PartTables
 
     problem, catalogs = synthetic_study(*SIZES[size], seed=seed, objective="cost")
     parts = PartTables.build(problem, catalogs)
@@ -47,7 +47,7 @@ def _study(size: str, seed: int):
 
 def frontier_by_enumeration(parts) -> list[tuple[float, float]]:
     """(cost, time) of the non-dominated designs: evaluate all designs, then a Pareto filter."""
-    from selector.evaluate import screen, slice_indices
+    from selector.engine.evaluate import screen, slice_indices
 
     p = parts.problem
     parts = dataclasses.replace(parts, problem=dataclasses.replace(
@@ -69,7 +69,7 @@ def frontier_by_enumeration(parts) -> list[tuple[float, float]]:
 
 
 def bench_frontier(size: str, seed: int) -> None:
-    from selector.frontier import trace
+    from selector.studies.frontier import trace
 
     study, _ = _study(size, seed)
     n = int(np.prod(study.parts.sizes))
@@ -89,7 +89,7 @@ def bench_frontier(size: str, seed: int) -> None:
 
 
 def bench_sweep(points: int, workers: int | None) -> None:
-    from selector.sweep import sweep
+    from selector.studies.sweep import sweep
 
     problem = os.path.join(ROOT, "problems", "parcel_van.toml")
     vary = [f"vehicle.mass_kg=2200:2700:{points}"]

@@ -11,8 +11,12 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from selector.physics.tyres import load_capacity_kg, speed_rating_kmh, unloaded_diameter_m
-from selector.study import Catalogs, Environment, Problem, Requirements, Vehicle
+from selector.inputs import Catalogs, Environment, Problem, Requirements, Vehicle
+from selector.physics.tyres import (
+    load_capacity_kg,
+    speed_rating_kmh,
+    unloaded_diameter_m,
+)
 
 SYMBOLS = np.array(["Q", "R", "S", "T", "H", "V", "W", "Y"])
 

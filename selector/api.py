@@ -13,15 +13,15 @@ from pathlib import Path
 
 import numpy as np
 
-from . import __version__
-from .engine import STATUS_INFEASIBLE, SearchResult, search
-from .errors import InputError
-from .evaluate import OBJECTIVE_METRIC, evaluate
-from .parts import PartTables
-from .problem import load_study
-from .report import CAUTION, BINDING_RULE, clean, design_record
-from .study import Procurement
-from .verify import verify_designs
+from selector import __version__
+from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate
+from selector.engine.parts import PartTables
+from selector.engine.search import STATUS_INFEASIBLE, SearchResult, search
+from selector.engine.verify import verify_designs
+from selector.errors import InputError
+from selector.inputs import Procurement
+from selector.io.problem import load_study
+from selector.records import BINDING_RULE, CAUTION, clean, design_record
 
 OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s"}
 

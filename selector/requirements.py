@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .study import Problem
+from selector.inputs import Problem
 
 REL_TOL = 1e-9
 """Relative tolerance of every pass/fail decision [-] (one place for the verifier and the search)."""

@@ -40,12 +40,12 @@ from pathlib import Path
 
 import numpy as np
 
-from selector import evaluate
-from selector.parts import PartTables
+from selector.engine import evaluate
+from selector.engine.parts import PartTables
+from selector.inputs import Catalogs, Problem
+from selector.io.problem import load_study
+from selector.io.schema import columns
 from selector.physics.tyres import LOAD_INDEX_KG, SPEED_SYMBOL_KMH
-from selector.problem import load_study
-from selector.schema import columns
-from selector.study import Catalogs, Problem
 from selector.units import RPM_TO_RAD_S
 
 OBJECTIVE_WEIGHTS = {"cost": 1 / 3, "mass": 1 / 3, "accel_time": 1 / 3}

@@ -9,10 +9,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from selector.catalog import CatalogWarning, load_catalog, load_catalogs
 from selector.errors import InputError
-from selector.schema import SCHEMA, columns, schema_markdown
-from selector.study import Catalogs
+from selector.inputs import Catalogs
+from selector.io.catalog import CatalogWarning, load_catalog, load_catalogs
+from selector.io.schema import SCHEMA, columns, schema_markdown
 
 DATA = Path(__file__).parent / "data"
 VALID = DATA / "valid"

@@ -11,7 +11,7 @@ import pytest
 
 from selector.api import open_study
 from selector.cli import run
-from selector.evaluate import enumerate_designs
+from selector.engine.evaluate import enumerate_designs
 
 PROBLEMS = sorted((Path(__file__).parent.parent / "problems").glob("*.toml"))
 PERF_KEYS = {"max_speed_kmh", "sustained_top_speed_kmh", "gradeability_pct", "launch_accel_mps2", "accel_time_s"}

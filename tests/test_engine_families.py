@@ -25,10 +25,19 @@ Common data (unless a test says otherwise):
 from __future__ import annotations
 
 import pytest
-from generators import HAND_ENVIRONMENT, HAND_VEHICLE, motor_row, part_ids, reducer_row, tyre_row, write_and_load
+from generators import (
+    HAND_ENVIRONMENT,
+    HAND_VEHICLE,
+    motor_row,
+    part_ids,
+    reducer_row,
+    tyre_row,
+    write_and_load,
+)
 
-from selector import engine, evaluate
-from selector.evaluate import check_results
+from selector.engine import evaluate
+from selector.engine import search as engine
+from selector.engine.evaluate import check_results
 
 VEHICLE, ENVIRONMENT = HAND_VEHICLE, HAND_ENVIRONMENT
 motor, reducer, tyre = motor_row, reducer_row, tyre_row

@@ -30,7 +30,8 @@ import numpy as np
 import pytest
 from generators import part_ids, random_study
 
-from selector import engine, evaluate
+from selector.engine import evaluate
+from selector.engine import search as engine
 from selector.requirements import REL_TOL
 
 BATCHES = 4

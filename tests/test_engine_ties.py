@@ -14,7 +14,8 @@ from generators import motor_row as motor
 from generators import reducer_row as reducer
 from generators import tyre_row as tyre
 
-from selector import engine, evaluate
+from selector.engine import evaluate
+from selector.engine import search as engine
 
 
 def load(tmp_path, motors, reducers, tyres, requirements=None, objective="cost"):

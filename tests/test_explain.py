@@ -21,10 +21,10 @@ import pytest
 
 from selector.api import open_study
 from selector.cli import run
-from selector.evaluate import enumerate_designs, evaluate, feasible
-from selector.explain import explain, with_requirements
+from selector.engine.evaluate import enumerate_designs, evaluate, feasible
+from selector.inputs import Requirements
 from selector.requirements import BY_NAME, CHECK_LIMIT_METRIC, CHECKS, passes, stated
-from selector.study import Requirements
+from selector.studies.explain import explain, with_requirements
 
 DATA = Path(__file__).parent / "data" / "infeasible"
 INFEASIBLE = sorted(DATA.glob("*.toml"))

@@ -12,11 +12,11 @@ from pathlib import Path
 import openpyxl
 import pandas as pd
 import pytest
-
 from generators import random_study
-from selector import export
+
 from selector.cli import run
 from selector.errors import InputError
+from selector.io import export
 
 SHEET = export.Sheet("BOM", ["rank", "part", "supplier", "unit_cost", "note"],
                      [[1, "M-1", "Volta Drives", 1250.5, None], [2, "M-2", "Ampère Werke", 990.0, "=1+1"]])

@@ -13,14 +13,14 @@ import math
 
 import numpy as np
 import pytest
-
 from generators import random_study
-from selector import evaluate
+
 from selector.api import Study, open_study
 from selector.cli import run
+from selector.engine import evaluate
+from selector.engine.parts import PartTables
 from selector.errors import InputError
-from selector.frontier import frontier, trace
-from selector.parts import PartTables
+from selector.studies.frontier import frontier, trace
 
 SIZES = ((3, 6), (3, 5), (3, 5))
 # Seeds whose random studies give frontiers of 0 to 7 points (found by running the oracle once).
@@ -125,7 +125,7 @@ def test_missing_accel_to_kmh_is_a_clear_input_error(capsys):
 def test_cli_json_and_plot_data_match(tmp_path, capsys):
     import matplotlib.image
 
-    from selector.plots import frontier_plot
+    from selector.io.plots import frontier_plot
 
     s, _ = _study(100, tmp_path)
     png = tmp_path / "frontier.png"

@@ -16,7 +16,12 @@ import math
 import numpy as np
 import pytest
 
-from selector.physics.road import aero_coefficient_n_s2_m2, grade_angle_rad, grade_pct_from_angle, road_load_n
+from selector.physics.road import (
+    aero_coefficient_n_s2_m2,
+    grade_angle_rad,
+    grade_pct_from_angle,
+    road_load_n,
+)
 from selector.units import G_N, kmh_to_mps
 
 RHO_SEA_LEVEL = 1.225  # ISA sea-level density [kg/m^3] (ICAO Doc 7488; ambiance CONST)

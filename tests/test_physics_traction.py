@@ -23,7 +23,13 @@ import math
 import numpy as np
 import pytest
 
-from selector.physics.performance import Body, Drive, broadcast, effective_mass, launch_accel_mps2
+from selector.physics.performance import (
+    Body,
+    Drive,
+    broadcast,
+    effective_mass,
+    launch_accel_mps2,
+)
 from selector.physics.vehicle import (
     driven_axle_share,
     effective_mass_kg,

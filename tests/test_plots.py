@@ -9,10 +9,10 @@ import pytest
 
 from selector.api import find_part, open_study
 from selector.cli import run
+from selector.engine.evaluate import evaluate
 from selector.errors import InputError
-from selector.evaluate import evaluate
+from selector.io.plots import tractive_effort_data, tractive_effort_plot
 from selector.physics.vehicle import traction_force_limit_n
-from selector.plots import tractive_effort_data, tractive_effort_plot
 from selector.units import G_N
 
 VAN = "problems/parcel_van.toml"
@@ -48,8 +48,8 @@ def test_peak_force_at_low_speed_is_eta_torque_ratio_over_radius(van):
 def test_traction_curve_is_mu_times_driven_axle_load_at_its_own_acceleration(van, axle):
     import dataclasses
 
-    from selector.parts import PartTables
-    from selector.problem import load_study
+    from selector.engine.parts import PartTables
+    from selector.io.problem import load_study
 
     study, (i, j, k), _ = van
     problem, catalogs = load_study(VAN)

@@ -7,10 +7,10 @@ from pathlib import Path
 
 import pytest
 
-from selector.catalog import CatalogWarning
 from selector.errors import InputError
-from selector.problem import ProblemWarning, load_problem, load_study
-from selector.study import Catalogs, Problem
+from selector.inputs import Catalogs, Problem
+from selector.io.catalog import CatalogWarning
+from selector.io.problem import ProblemWarning, load_problem, load_study
 
 DATA = Path(__file__).parent / "data"
 VALID = DATA / "valid"
@@ -214,7 +214,7 @@ def test_temperature_range_and_density_with_temperature(tmp_path):
 
 def test_road_friction_defaults_to_dry_asphalt_with_a_warning(tmp_path):
     # 0.8: dry asphalt/concrete peak friction 0.8-0.9 (Wong ch. 1, table of road adhesion, from memory)
-    from selector.problem import ProblemWarning, load_problem
+    from selector.io.problem import ProblemWarning, load_problem
 
     text = (VALID / "problem.toml").read_text(encoding="utf-8").replace("road_friction = 0.7\n", "")
     for name in ("motors", "reducers", "tyres"):

@@ -17,14 +17,14 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-
 from generators import random_study
-from selector import shortlist as sl
+
+from selector.studies import shortlist as sl
 from selector.api import open_study
 from selector.cli import run
+from selector.engine.evaluate import enumerate_designs, order_best
 from selector.errors import InputError
-from selector.evaluate import enumerate_designs, order_best
-from selector.report import CAUTION
+from selector.records import CAUTION
 
 PROBLEMS = sorted((Path(__file__).parent.parent / "problems").glob("*.toml"))
 SEEDS = range(10)

@@ -9,14 +9,21 @@ import math
 
 import numpy as np
 import pytest
-
 from generators import random_study
-from selector import evaluate
+
 from selector.cli import run
+from selector.engine import evaluate
+from selector.engine.parts import PartTables
 from selector.errors import InputError
-from selector.parts import PartTables
-from selector.problem import load_study
-from selector.sweep import apply_overrides, grid, parse_vary, sweep, sweep_point, to_csv
+from selector.io.problem import load_study
+from selector.studies.sweep import (
+    apply_overrides,
+    grid,
+    parse_vary,
+    sweep,
+    sweep_point,
+    to_csv,
+)
 
 VAN = "problems/parcel_van.toml"
 
@@ -144,7 +151,7 @@ def test_dask_cluster_gives_identical_rows(van_local):
 
 
 def test_unreachable_scheduler_is_a_clear_error(capsys, monkeypatch):
-    monkeypatch.setattr("selector.sweep.DASK_CONNECT_TIMEOUT_S", 1)
+    monkeypatch.setattr("selector.studies.sweep.DASK_CONNECT_TIMEOUT_S", 1)
     code = run(["sweep", VAN, "--vary", "vehicle.mass_kg=2400:2400:1", "--scheduler", "tcp://127.0.0.1:9"])
     assert code == 2
     assert "cannot connect to a Dask scheduler" in capsys.readouterr().err
@@ -153,7 +160,7 @@ def test_unreachable_scheduler_is_a_clear_error(capsys, monkeypatch):
 def test_cli_json_csv_and_plot(tmp_path, capsys):
     import matplotlib.image
 
-    from selector.plots import sweep_plot
+    from selector.io.plots import sweep_plot
 
     out_csv, png = tmp_path / "sweep.csv", tmp_path / "sweep.png"
     code = run(["sweep", VAN, "--vary", "requirements.top_speed_kmh=125:135:3", "--workers", "1",

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..units import G_N
+from selector.units import G_N
 
 ISA_T0_K = 288.15
 """Sea-level temperature [K] (ICAO Doc 7488)."""

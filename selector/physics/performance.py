@@ -11,9 +11,14 @@ from dataclasses import dataclass, fields
 
 import numpy as np
 
-from ..units import G_N
-from .motor import wheel_force_n
-from .vehicle import driven_axle_share, effective_mass_kg, traction_limited_accel_mps2, transfer_factor
+from selector.physics.motor import wheel_force_n
+from selector.physics.vehicle import (
+    driven_axle_share,
+    effective_mass_kg,
+    traction_limited_accel_mps2,
+    transfer_factor,
+)
+from selector.units import G_N
 
 # Gauss-Legendre nodes and weights on [-1, 1] for each smooth piece of the acceleration integral.
 _GL_NODES = 20

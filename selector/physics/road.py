@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..units import G_N
+from selector.units import G_N
 
 
 def grade_angle_rad(grade_pct):

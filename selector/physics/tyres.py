@@ -17,7 +17,7 @@ import re
 
 import numpy as np
 
-from ..units import INCH_M
+from selector.units import INCH_M
 
 SPEED_SYMBOL_KMH: dict[str, float] = {
     **{f"A{i}": 5.0 * i for i in range(1, 9)},  # A1 5 km/h ... A8 40 km/h

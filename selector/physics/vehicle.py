@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..units import G_N
+from selector.units import G_N
 
 
 def effective_mass_kg(mass_kg, rotor_inertia_kgm2, gear_over_radius_1_m, efficiency,

@@ -25,10 +25,10 @@ from typing import Callable
 import numpy as np
 import pyomo.environ as pyo
 
-from .bounds import AccelWindows, log_gearing_range
-from .parts import PartTables
-from .requirements import REL_TOL
-from .units import G_N, kmh_to_mps
+from selector.engine.bounds import AccelWindows, log_gearing_range
+from selector.engine.parts import PartTables
+from selector.requirements import REL_TOL
+from selector.units import G_N, kmh_to_mps
 
 SLACK_LOG = 1e-7
 """Slack added to every log-space row [-] (floating-point safety; keeps the model a relaxation)."""

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from .cli_args import add_common
-from .report import CAUTION, dumps, fmt, table
+from selector.cli.args import add_common
+from selector.records import CAUTION, dumps, fmt, table
 
 HELP = "exact cost (or mass) versus acceleration-time frontier"
 
@@ -18,16 +18,16 @@ def setup(p):
 
 def handle(args) -> int:
     """Trace the frontier, print it, optionally plot it."""
-    from .api import open_study
-    from .frontier import frontier
+    from selector.api import open_study
+    from selector.studies.frontier import frontier
 
     if args.plot:
-        from .plots import check_output_path
+        from selector.io.plots import check_output_path
 
         check_output_path(args.plot)
     res = frontier(open_study(args.problem), axis=args.axis)
     if args.plot:
-        from .plots import frontier_plot
+        from selector.io.plots import frontier_plot
 
         frontier_plot(res, args.plot)
         res["plot"] = args.plot

@@ -15,15 +15,21 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .bounds import accel_windows
-from .errors import InputError, SolverUnavailableError
-from .evaluate import OBJECTIVE_METRIC, order_best, screen, slice_indices, tie_tolerance
-from .model import SelectionModel
-from .parts import PartTables
-from .physics.performance import accel_time_s
-from .requirements import passes
-from .study import Requirements
-from .units import kmh_to_mps
+from selector.engine.bounds import accel_windows
+from selector.engine.evaluate import (
+    OBJECTIVE_METRIC,
+    order_best,
+    screen,
+    slice_indices,
+    tie_tolerance,
+)
+from selector.engine.model import SelectionModel
+from selector.engine.parts import PartTables
+from selector.errors import InputError, SolverUnavailableError
+from selector.inputs import Requirements
+from selector.physics.performance import accel_time_s
+from selector.requirements import passes
+from selector.units import kmh_to_mps
 
 BATCH_EXTRA = 3
 """accel_time objective: motors evaluated exactly per MILP solve besides the one it proposes [-]."""

@@ -11,8 +11,14 @@ import math
 
 import numpy as np
 
-from .parts import PartTables
-from .requirements import CHECK_LIMIT_METRIC, CHECKS, margin_fraction, passes, stated
+from selector.engine.parts import PartTables
+from selector.requirements import (
+    CHECK_LIMIT_METRIC,
+    CHECKS,
+    margin_fraction,
+    passes,
+    stated,
+)
 
 CAUTION = ("Caution: figures are estimates from catalogue data. Confirm ratings with the suppliers, "
            "thermal derating, braking and tyre regulations before ordering; defer to local codes, "

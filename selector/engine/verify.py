@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .evaluate import OBJECTIVE_METRIC, check_results, evaluate
-from .parts import PartTables
+from selector.engine.evaluate import OBJECTIVE_METRIC, check_results, evaluate
+from selector.engine.parts import PartTables
 
 
 class VerificationError(RuntimeError):

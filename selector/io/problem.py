@@ -28,10 +28,21 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
-from .catalog import load_catalogs
-from .errors import InputError
-from .physics.atmosphere import ISA_MAX_ALTITUDE_M, ISA_MIN_ALTITUDE_M, isa_density_kg_m3
-from .study import Catalogs, Environment, Problem, Procurement, Requirements, Vehicle
+from selector.errors import InputError
+from selector.inputs import (
+    Catalogs,
+    Environment,
+    Problem,
+    Procurement,
+    Requirements,
+    Vehicle,
+)
+from selector.io.catalog import load_catalogs
+from selector.physics.atmosphere import (
+    ISA_MAX_ALTITUDE_M,
+    ISA_MIN_ALTITUDE_M,
+    isa_density_kg_m3,
+)
 
 __all__ = ["ProblemWarning", "load_problem", "load_study"]
 

@@ -7,8 +7,8 @@ from __future__ import annotations
 
 import argparse
 
-from .cli_args import add_common
-from .report import CAUTION, dumps, fmt, parts_table, table
+from selector.cli.args import add_common
+from selector.records import CAUTION, dumps, fmt, parts_table, table
 
 
 def _pct(text):
@@ -22,7 +22,7 @@ def _pct(text):
 
 
 def _setup(p):
-    from .explain import NEAR_MISS_PCT, STEP_PCT
+    from selector.studies.explain import NEAR_MISS_PCT, STEP_PCT
 
     add_common(p)
     p.add_argument("--step", type=_pct, default=STEP_PCT, metavar="PCT",
@@ -109,8 +109,8 @@ def render_infeasible(res: dict) -> str:
 
 
 def _cmd(args) -> int:
-    from .api import open_study
-    from .explain import explain
+    from selector.api import open_study
+    from selector.studies.explain import explain
 
     res = explain(open_study(args.problem), step_pct=args.step, near_miss_pct=args.near_miss,
                   progress=args.format != "json")

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 import sys
 
-from .cli_args import add_common, positive_int
-from .report import CAUTION, dumps, fmt, table
+from selector.cli.args import add_common, positive_int
+from selector.records import CAUTION, dumps, fmt, table
 
 HELP = "re-solve exactly over a grid of problem values (parameter sweep)"
 
@@ -26,17 +26,17 @@ def handle(args) -> int:
     """Run the sweep, print it, optionally write CSV and plot."""
     from pathlib import Path
 
-    from .export import atomic_write
-    from .export import check_output_path as check_out
-    from .plots import check_output_path
-    from .sweep import sweep, to_csv
+    from selector.io.export import atomic_write
+    from selector.io.export import check_output_path as check_out
+    from selector.io.plots import check_output_path
+    from selector.studies.sweep import sweep, to_csv
 
     csv_only = {".csv": "csv"}
     protected = ()
     if args.plot:
         check_output_path(args.plot)
     if args.out:
-        from .problem import load_problem
+        from selector.io.problem import load_problem
 
         problem = load_problem(args.problem)
         protected = (problem.path, *problem.catalog_paths.values())  # never overwrite an input
@@ -49,7 +49,7 @@ def handle(args) -> int:
                      protected, formats=csv_only)
         res["csv"] = args.out
     if args.plot:
-        from .plots import sweep_plot
+        from selector.io.plots import sweep_plot
 
         sweep_plot(res, args.plot)
         res["plot"] = args.plot

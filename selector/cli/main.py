@@ -13,10 +13,18 @@ import sys
 import traceback
 import warnings
 
-from . import __version__
-from .cli_args import add_common, positive_float
-from .errors import InputError, SelectorError
-from .report import CAUTION, dumps, fmt, parts_table, performance_table, requirement_table, table
+from selector import __version__
+from selector.cli.args import add_common, positive_float
+from selector.errors import InputError, SelectorError
+from selector.records import (
+    CAUTION,
+    dumps,
+    fmt,
+    parts_table,
+    performance_table,
+    requirement_table,
+    table,
+)
 
 
 class _Parser(argparse.ArgumentParser):
@@ -42,7 +50,7 @@ def _setup_check(p):
 
 
 def _cmd_check(args) -> int:
-    from .api import open_study, problem_summary
+    from selector.api import open_study, problem_summary
 
     s = problem_summary(open_study(args.problem))
     if args.format == "json":
@@ -71,12 +79,12 @@ def _setup_simulate(p):
 
 
 def _cmd_simulate(args) -> int:
-    from .api import open_study, simulate
+    from selector.api import open_study, simulate
 
     study = open_study(args.problem)
     res = simulate(study, args.motor, args.reducer, args.tyre)
     if getattr(args, "plot", None):
-        from .plots import tractive_effort_plot
+        from selector.io.plots import tractive_effort_plot
 
         tractive_effort_plot(study, args.motor, args.reducer, args.tyre, args.plot)
         res["plot"] = args.plot
@@ -135,14 +143,14 @@ def print_search_result(res: dict, title: str = "best design", diagnosis: list[s
 
 
 def _cmd_solve(args) -> int:
-    from .api import open_study, solve
+    from selector.api import open_study, solve
 
     study = open_study(args.problem)
     res = solve(study, time_limit_s=args.time_limit)
     if res["status"] == "infeasible":
         combos = res["search"]["combinations"]
         if args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
-            from .explain import diagnose
+            from selector.studies.explain import diagnose
 
             res["diagnosis"] = diagnose(study, res.get("reason"))
         else:  # the closest-design search enumerates the catalogue: leave it to `selector explain`
@@ -168,14 +176,10 @@ COMMANDS = {
 
 
 def _register_optional():
+    import importlib
+
     for mod in ("explain", "frontier", "sweep", "shortlist"):
-        try:
-            module = __import__(f"selector.{mod}_cli", fromlist=["register"])
-        except ModuleNotFoundError as exc:
-            if exc.name != f"selector.{mod}_cli":
-                raise
-            continue
-        module.register(COMMANDS)
+        importlib.import_module(f"selector.cli.{mod}").register(COMMANDS)
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -29,8 +29,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import InputError
-from .study import Catalogs, Problem
+from selector.errors import InputError
+from selector.inputs import Catalogs, Problem
 
 SWEEPABLE: dict[str, tuple[str, str]] = {
     # key: (unit, what)
@@ -120,7 +120,7 @@ def check_key(key: str) -> None:
 
 def _check_value(key: str, value: float) -> str | None:
     """The problem-file rule a value breaks, or None."""
-    from .problem import TABLES
+    from selector.io.problem import TABLES
 
     table, name = key.split(".", 1)
     spec = TABLES[table][name]
@@ -163,7 +163,7 @@ def apply_overrides(problem: Problem, overrides: dict) -> Problem:
     ISA (`physics.atmosphere.isa_density_kg_m3`); the other key of the pair, when not given,
     is ISA standard (altitude 0, ISA temperature at the altitude).
     """
-    from .physics.atmosphere import isa_density_kg_m3
+    from selector.physics.atmosphere import isa_density_kg_m3
 
     tables = {"vehicle": {}, "environment": {}, "requirements": {}, "procurement": {}}
     for key, value in overrides.items():
@@ -216,7 +216,7 @@ def _catalog_key(problem: Problem) -> tuple:
 def _catalogs_for(problem: Problem) -> Catalogs:
     key = _catalog_key(problem)
     if key not in _CATALOGS:
-        from .catalog import load_catalogs
+        from selector.io.catalog import load_catalogs
 
         _CATALOGS[key] = load_catalogs(problem.catalog_paths)
     return _CATALOGS[key]
@@ -242,13 +242,13 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
     motor, reducer, tyre, cost, mass_kg, accel_time_s (None where not applicable), and reason
     (infeasible points).
     """
-    from .api import procurement_filter, records
-    from .engine import STATUS_OPTIMAL, search
-    from .parts import PartTables
-    from .report import clean
+    from selector.api import procurement_filter, records
+    from selector.engine.parts import PartTables
+    from selector.engine.search import STATUS_OPTIMAL, search
+    from selector.records import clean
 
     if not isinstance(problem, Problem):
-        from .problem import load_problem
+        from selector.io.problem import load_problem
 
         problem = load_problem(problem)
     if catalogs is None:
@@ -365,9 +365,9 @@ def sweep(problem_path, vary: list[str], workers: int | None = None, scheduler: 
     """
     import warnings
 
-    from .api import OBJECTIVE_UNITS, header
-    from .parts import PartTables
-    from .problem import load_study
+    from selector.api import OBJECTIVE_UNITS, header
+    from selector.engine.parts import PartTables
+    from selector.io.problem import load_study
 
     varies = [parse_vary(v) for v in vary]
     with warnings.catch_warnings():

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from .cli_args import add_common, number, positive_int
-from .report import CAUTION, dumps, fmt, table
+from selector.cli.args import add_common, number, positive_int
+from selector.records import CAUTION, dumps, fmt, table
 
 
 def setup(p) -> None:
@@ -32,7 +32,7 @@ def print_shortlist(res: dict) -> None:
     print(f"status: {res['status']}   objective: minimise {obj['minimize']} [{obj['unit']}]   "
           f"designs: {o['found']} of {o['count']} requested")
     print(f"distinct: {o['distinct_rule']}")
-    from .cli import print_search_summary
+    from selector.cli.main import print_search_summary
 
     print_search_summary(res)
     if o["found"] < o["count"] and res["status"] == "optimal" and res["bom"]:
@@ -57,8 +57,13 @@ def print_shortlist(res: dict) -> None:
 
 def run_shortlist(args) -> int:
     """Handler of ``selector shortlist``."""
-    from .export import check_output_path
-    from .shortlist import open_shortlist_study, shortlist, shortlist_inputs, write_shortlist
+    from selector.io.export import check_output_path
+    from selector.studies.shortlist import (
+        open_shortlist_study,
+        shortlist,
+        shortlist_inputs,
+        write_shortlist,
+    )
 
     study = open_shortlist_study(args.problem, args.avoid_supplier, args.max_lead_time_weeks)
     if args.out:

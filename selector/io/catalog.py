@@ -22,8 +22,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from .errors import InputError
-from .physics.tyres import (
+from selector.errors import InputError
+from selector.inputs import Catalogs
+from selector.io.schema import DERIVED_COLUMNS, KINDS, SOURCE_ROW, Column, columns
+from selector.physics.tyres import (
     LOAD_INDEX_KG,
     LOAD_INDEX_MAX,
     LOAD_INDEX_MIN,
@@ -33,9 +35,7 @@ from .physics.tyres import (
     speed_rating_kmh,
     unloaded_diameter_m,
 )
-from .schema import DERIVED_COLUMNS, KINDS, SOURCE_ROW, Column, columns
-from .study import Catalogs
-from .units import RPM_TO_RAD_S
+from selector.units import RPM_TO_RAD_S
 
 __all__ = ["CatalogWarning", "load_catalog", "load_catalogs"]
 

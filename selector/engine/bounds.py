@@ -16,10 +16,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .parts import PartTables
-from .physics.performance import Body, Drive, accel_time_s
-from .requirements import REL_TOL
-from .units import G_N
+from selector.engine.parts import PartTables
+from selector.physics.performance import Body, Drive, accel_time_s
+from selector.requirements import REL_TOL
+from selector.units import G_N
 
 GRID_POINTS = 24
 """Grid of L values on which t_i(L) is sampled before refinement [-]."""

@@ -27,12 +27,17 @@ from dataclasses import replace
 
 import numpy as np
 
-from .api import Study, header, records
-from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, SearchSession, search
-from .errors import InputError, SelectorError
-from .evaluate import evaluate
-from .report import clean
-from .requirements import REL_TOL, passes
+from selector.api import Study, header, records
+from selector.engine.evaluate import evaluate
+from selector.engine.search import (
+    STATUS_INFEASIBLE,
+    STATUS_OPTIMAL,
+    SearchSession,
+    search,
+)
+from selector.errors import InputError, SelectorError
+from selector.records import clean
+from selector.requirements import REL_TOL, passes
 
 AXES = {
     # axis: (objective, requirement limiting it, design-record key, label, unit)

@@ -26,13 +26,19 @@ from datetime import date
 
 import numpy as np
 
-from .api import Study, open_study, result_dict
-from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, STATUS_TIME_LIMIT, SearchResult, search
-from .errors import InputError
-from .evaluate import order_best, tie_tolerance
-from .export import Sheet, output_format, write_csv, write_xlsx
-from .report import CAUTION, clean
-from .study import Procurement
+from selector.api import Study, open_study, result_dict
+from selector.engine.evaluate import order_best, tie_tolerance
+from selector.engine.search import (
+    STATUS_INFEASIBLE,
+    STATUS_OPTIMAL,
+    STATUS_TIME_LIMIT,
+    SearchResult,
+    search,
+)
+from selector.errors import InputError
+from selector.inputs import Procurement
+from selector.io.export import Sheet, output_format, write_csv, write_xlsx
+from selector.records import CAUTION, clean
 
 DISTINCT_CHOICES = ("motor", "reducer", "tyre")
 DISTINCT_RULES = {

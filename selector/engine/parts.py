@@ -11,10 +11,10 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 
-from .physics.performance import Body, Drive
-from .physics.road import aero_coefficient_n_s2_m2
-from .study import Catalogs, Problem
-from .units import kmh_to_mps, rpm_to_rad_s
+from selector.inputs import Catalogs, Problem
+from selector.physics.performance import Body, Drive
+from selector.physics.road import aero_coefficient_n_s2_m2
+from selector.units import kmh_to_mps, rpm_to_rad_s
 
 
 def _f(frame, col):

@@ -9,10 +9,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .parts import PartTables
-from .physics import performance as perf
-from .requirements import CHECK_LIMIT_METRIC, CHECKS, REL_TOL, passes, stated
-from .units import kmh_to_mps, mps_to_kmh, rad_s_to_rpm
+from selector.engine.parts import PartTables
+from selector.physics import performance as perf
+from selector.requirements import CHECK_LIMIT_METRIC, CHECKS, REL_TOL, passes, stated
+from selector.units import kmh_to_mps, mps_to_kmh, rad_s_to_rpm
 
 OBJECTIVE_METRIC = {"cost": "cost", "mass": "mass_kg", "accel_time": "accel_time_s"}
 """Metric minimised by each objective."""

@@ -36,18 +36,38 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .api import OBJECTIVE_UNITS as UNITS
-from .bounds import max_driven_share, traction_tan_bound
-from .api import Study, header, objective_dict, records
-from .engine import STATUS_INFEASIBLE, STATUS_OPTIMAL, SearchResult, search
-from .evaluate import OBJECTIVE_METRIC, evaluate, feasible, order_best, slice_indices, tie_tolerance
-from .parts import PartTables
-from .physics import performance as perf
-from .report import BINDING_RULE, clean, design_record
-from .requirements import BY_NAME, CHECK_LIMIT_METRIC, CHECKS, REL_TOL, margin_fraction, passes, stated
-from .study import Requirements
-from .verify import verify_designs
-from .units import G_N, kmh_to_mps
+from selector.api import OBJECTIVE_UNITS as UNITS
+from selector.api import Study, header, objective_dict, records
+from selector.engine.bounds import max_driven_share, traction_tan_bound
+from selector.engine.evaluate import (
+    OBJECTIVE_METRIC,
+    evaluate,
+    feasible,
+    order_best,
+    slice_indices,
+    tie_tolerance,
+)
+from selector.engine.parts import PartTables
+from selector.engine.search import (
+    STATUS_INFEASIBLE,
+    STATUS_OPTIMAL,
+    SearchResult,
+    search,
+)
+from selector.engine.verify import verify_designs
+from selector.inputs import Requirements
+from selector.physics import performance as perf
+from selector.records import BINDING_RULE, clean, design_record
+from selector.requirements import (
+    BY_NAME,
+    CHECK_LIMIT_METRIC,
+    CHECKS,
+    REL_TOL,
+    margin_fraction,
+    passes,
+    stated,
+)
+from selector.units import G_N, kmh_to_mps
 
 STEP_PCT = 5.0
 """Default loosening step for the price of a requirement [%]."""
@@ -596,8 +616,8 @@ def explain(study: Study, step_pct: float = STEP_PCT, near_miss_pct: float = NEA
         "step_pct": step_pct, "near_miss_pct": near_miss_pct,
         "definitions": {"binding": f"margin-based, as in solve: {BINDING_RULE} %",
                         "active": ACTIVE_RULE,
-                        "price": f"objective saved when the requirement is dropped, or loosened by step_pct "
-                                 f"(min requirements x (1 - step), max requirements x (1 + step))",
+                        "price": "objective saved when the requirement is dropped, or loosened by step_pct "
+                                 "(min requirements x (1 - step), max requirements x (1 + step))",
                         "near_miss": "the optimum with one requirement loosened by near_miss_pct, when it beats "
                                      "the optimum (it misses only that requirement)",
                         "closest": "elastic search: least sum over requirements of max(0, -margin_fraction), "

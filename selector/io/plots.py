@@ -8,12 +8,11 @@ Every plotting function returns the `matplotlib.figure.Figure` it saved (tests r
 
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import numpy as np
 
-from . import export
+from selector.io import export
 
 PLOT_FORMATS = {".png": "png", ".svg": "svg", ".pdf": "pdf"}
 """File formats a plot can be written in (the file name's suffix)."""
@@ -69,9 +68,9 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
     speed, computed by `physics.performance.accel_time_s`, so the last point is the reported
     accel_time_s), accel_target_mps.
     """
-    from .physics import performance as perf
-    from .physics.road import road_load_n
-    from .units import kmh_to_mps
+    from selector.physics import performance as perf
+    from selector.physics.road import road_load_n
+    from selector.units import kmh_to_mps
 
     drive, body = perf.broadcast(*parts.design(np.array([i]), np.array([j]), np.array([k])))
     p = parts.problem
@@ -124,8 +123,8 @@ def tractive_effort_plot(study, motor_id: str, reducer_id: str, tyre_id: str, pa
     -------
     matplotlib.figure.Figure
     """
-    from .api import find_part
-    from .units import mps_to_kmh
+    from selector.api import find_part
+    from selector.units import mps_to_kmh
 
     check_output_path(path)
     parts = study.parts

@@ -20,7 +20,7 @@ import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .errors import InputError
+from selector.errors import InputError
 
 FORMATS = {".csv": "csv", ".xlsx": "xlsx"}
 """File extension (lower case) -> format name."""

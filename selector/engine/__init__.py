@@ -1,0 +1,1 @@
+"""The exact selection engine: part tables, evaluation, bounds, model, search, verification."""

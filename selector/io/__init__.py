@@ -1,0 +1,1 @@
+"""Loaders (catalogues, problem files) and writers (CSV/XLSX, plots)."""

@@ -1,0 +1,1 @@
+"""Studies built on the engine: explain, frontier, sweep, shortlist."""

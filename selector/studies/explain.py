@@ -56,7 +56,7 @@ from selector.engine.search import (
 )
 from selector.engine.verify import verify_designs
 from selector.inputs import Requirements
-from selector.physics import performance as perf
+from selector.physics import accel_run
 from selector.records import BINDING_RULE, clean, design_record
 from selector.requirements import (
     BY_NAME,
@@ -417,8 +417,8 @@ def enumerate_shortfalls(parts: PartTables, allowed: dict, objective: str, progr
 
 
 def _accel_times(parts: PartTables, keys: np.ndarray, target_kmh: float) -> np.ndarray:
-    drive, body = parts.design(keys[:, 0], keys[:, 1], keys[:, 2])
-    return perf.accel_time_s(drive, body, kmh_to_mps(target_kmh))
+    axles, body = parts.design(parts.single_keys(keys[:, 0], keys[:, 1], keys[:, 2]))
+    return accel_run.accel_time_s(axles, body, kmh_to_mps(target_kmh))
 
 
 def closest_design(parts: PartTables, en: Enumeration, objective: str):

@@ -36,6 +36,8 @@ from selector.units import kmh_to_mps
 
 CELLS = 32
 """L cells per motor for the refined acceleration bound [-]."""
+SUBCELLS = 8
+"""Sub-cells per cell when a motor's block is evaluated [-]."""
 REFINE_BATCH = 64
 """Motors whose acceleration bound is refined together [-]."""
 FIRST_CHUNK = 256
@@ -53,6 +55,9 @@ class _Class:
     l_sorted: np.ndarray
     cost: RangeMin
     mass: RangeMin
+    crr: RangeMin
+    neg_eta: RangeMin
+    """-(best gear efficiency), so that its range minimum is the best efficiency's negative."""
 
 
 @dataclass
@@ -68,6 +73,8 @@ class PairTable:
     multi: np.ndarray
     cost: np.ndarray
     mass: np.ndarray
+    crr: np.ndarray
+    eta: np.ndarray
     classes: list
     multi_pairs: np.ndarray
 
@@ -86,6 +93,8 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
     multi = re.n_gears[j] > 1
     cost = re.cost[j] + n * ty.cost[k]
     mass = re.mass_kg[j] + n * ty.mass_kg[k]
+    crr = ty.crr[k]
+    eta = np.nanmax(re.efficiencies[j], axis=1)
     classes = []
     single = np.nonzero(~multi)[0]
     if single.size:
@@ -96,8 +105,9 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
             members = single[inv == c]
             order = members[np.argsort(l_first[members], kind="stable")]
             classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order],
-                                  RangeMin(cost[order]), RangeMin(mass[order])))
-    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, classes, np.nonzero(multi)[0])
+                                  RangeMin(cost[order]), RangeMin(mass[order]), RangeMin(crr[order]),
+                                  RangeMin(-eta[order])))
+    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, classes, np.nonzero(multi)[0])
 
 
 class SingleAxleSearch:
@@ -187,8 +197,9 @@ class SingleAxleSearch:
         if mo.size:
             vals = getattr(self.pairs, attr)[self.pairs.multi_pairs]
             best = np.minimum(best, np.where(mo, vals[None, :], np.inf).min(axis=1))
-        own = self.parts.motors.cost if attr == "cost" else self.parts.motors.mass_kg
-        return own[self.motors] + best
+        if attr == "cost":
+            return self.parts.motors.cost[self.motors] + best
+        return self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[self.motors] + best
 
     def hull(self, m_pos):
         """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
@@ -209,9 +220,42 @@ class SingleAxleSearch:
         """Certified acceleration-time bound of motors m_pos over L hulls [l_a, l_b] (broadcast) [s]."""
         return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], l_a, l_b, self.target)
 
-    def cell_edges(self):
+    def cell_edges(self, cells: int = CELLS):
         lo, hi = self.l_range
-        return np.linspace(lo - 1e-9, hi + 1e-9, CELLS + 1)
+        return np.linspace(lo - 1e-9, hi + 1e-9, cells + 1)
+
+    def cell_bounds(self, m_pos, lo_c, hi_c) -> np.ndarray:
+        """Certified time bound of each motor's single-speed designs in each L cell [lo_c, hi_c] [s].
+
+        ``lo_c``, ``hi_c``: (C,) or (m, C). Each cell's bound uses the lightest pair mass, the best
+        gearbox efficiency and the lowest rolling resistance among the motor's admissible pairs in
+        the cell (range-minimum queries); inf for cells without such pairs.
+        """
+        lo_c = np.broadcast_to(lo_c, (m_pos.size,) + np.shape(lo_c)[-1:])
+        hi_c = np.broadcast_to(hi_c, lo_c.shape)
+        shape = lo_c.shape
+        occupied = np.zeros(shape, dtype=bool)
+        mass = np.full(shape, np.inf)
+        crr = np.full(shape, np.inf)
+        eta = np.full(shape, np.inf)  # minimum of -eta
+        for c, a, b in self._single_ranges(m_pos):
+            ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[:, None])
+            ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[:, None])
+            has = ib > ia
+            if not has.any():
+                continue
+            occupied |= has
+            mass = np.minimum(mass, c.mass.query(ia, np.where(has, ib, ia)))
+            crr = np.minimum(crr, c.crr.query(ia, np.where(has, ib, ia)))
+            eta = np.minimum(eta, c.neg_eta.query(ia, np.where(has, ib, ia)))
+        out = np.full(shape, np.inf)
+        if occupied.any():
+            r, col = np.nonzero(occupied)
+            mi = self.motors[m_pos[r]]
+            m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[mi] + mass[r, col]
+            out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
+                                               mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
+        return out
 
     def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
         """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.
@@ -222,14 +266,7 @@ class SingleAxleSearch:
         no feasible design.
         """
         edges = self.cell_edges()
-        lo_c, hi_c = edges[:-1], edges[1:]
-        occupied = np.zeros((m_pos.size, CELLS), dtype=bool)
-        for c, a, b in self._single_ranges(m_pos):
-            ia = np.searchsorted(c.l_sorted, lo_c, side="left")
-            ib = np.searchsorted(c.l_sorted, hi_c, side="right")
-            occupied |= (np.minimum(ib[None, :], b[:, None]) > np.maximum(ia[None, :], a[:, None]))
-        t = self.time_bound(m_pos[:, None], lo_c[None, :], hi_c[None, :])
-        t = np.where(occupied, t, np.inf)
+        t = self.cell_bounds(m_pos, edges[:-1], edges[1:])
         multi = np.full(m_pos.size, np.inf)
         mo = self._multi_ok(m_pos)
         if mo.size and mo.any():
@@ -254,38 +291,47 @@ class SingleAxleSearch:
 
     # ------------------------------------------------------------------ one block
     def evaluate_motor(self, pos: int, cell_lb=None):
-        """Evaluate motor ``pos``'s admissible designs exactly, best pair bound first, until provably done."""
+        """Evaluate motor ``pos``'s admissible designs exactly, best pair bound first, until provably done.
+
+        Pairs are ordered by a lower bound of their objective (cost and mass: exact; time: the bound
+        of their L cell, or of their gear hull for a multi-speed pair) and evaluated in growing chunks;
+        within a chunk, the point bound of each pair (`time_bound` at its own L) drops the pairs that
+        cannot meet accel_time_s or beat the pool, before `evaluate.screen` decides the rest.
+        """
         parts, p = self.parts, self.pairs
         i = int(self.motors[pos])
         cand = self.candidates(pos)
         if cand.size == 0:
             return
+        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
         if self.accel:
-            edges = self.cell_edges()
-            if cell_lb is not None and self.req.accel_time_s is not None:
-                cell = np.clip(np.searchsorted(edges, p.l_first[cand], side="right") - 1, 0, CELLS - 1)
-                single = ~p.multi[cand]
-                limit = self.req.accel_time_s * (1 + 2 * REL_TOL)
-                cand = cand[~single | (cell_lb[cell] <= limit)]
-            # pair-level bound: the point L (single speed) or the gear hull (multi-speed)
-            t_lb = self.time_bound(np.full(cand.size, pos), p.l_tall[cand], p.l_first[cand])
-            if self.req.accel_time_s is not None:
-                keep = t_lb <= self.req.accel_time_s * (1 + 2 * REL_TOL)
-                cand, t_lb = cand[keep], t_lb[keep]
-            else:
-                keep = np.isfinite(t_lb)
-                cand, t_lb = cand[keep], t_lb[keep]
+            # sub-cell bounds: SUBCELLS per cell of the refinement grid, only where the cell can count
+            fine = self.cell_edges(CELLS * SUBCELLS)
+            sub = np.clip(np.searchsorted(fine, p.l_first[cand], side="right") - 1, 0, CELLS * SUBCELLS - 1)
+            multi = p.multi[cand]
+            used = np.unique(sub[~multi])
+            t_sub = np.full(CELLS * SUBCELLS, np.inf)
+            if used.size:
+                if cell_lb is not None:
+                    used = used[cell_lb[used // SUBCELLS] <= limit]
+                if used.size:
+                    t_sub[used] = self.cell_bounds(np.array([pos]), fine[used], fine[used + 1])[0]
+            t_cell = np.where(multi, 0.0, t_sub[sub])
+            if multi.any():
+                mc = np.nonzero(multi)[0]
+                t_cell[mc] = self.time_bound(np.full(mc.size, pos), p.l_tall[cand[mc]], p.l_first[cand[mc]])
+            keep = t_cell <= limit
+            cand, t_cell = cand[keep], t_cell[keep]
         if cand.size == 0:
             return
         if self.objective == "cost":
             key_val = parts.motors.cost[i] + p.cost[cand]
         elif self.objective == "mass":
-            key_val = parts.motors.mass_kg[i] + p.mass[cand]
+            key_val = parts.problem.vehicle.mass_kg + parts.motors.mass_kg[i] + p.mass[cand]
         else:
-            key_val = t_lb
+            key_val = t_cell
         order = np.lexsort((p.k[cand], p.j[cand], key_val))
         cand, key_val = cand[order], key_val[order]
-        keys = parts.single_keys(i, p.j[cand], p.k[cand])
         found_v, found_k = [], []
         start, size = 0, FIRST_CHUNK
         while start < cand.size:
@@ -293,19 +339,30 @@ class SingleAxleSearch:
             kth = self.kth()
             if nxt > kth + tie_tolerance(kth):
                 break
+            slice_kth = np.inf
             if found_v:
                 fv = np.concatenate(found_v)
                 if fv.size >= self.per_slice:
                     fk = np.concatenate(found_k)
-                    last = fv[order_best(fv, fk, self.per_slice)[-1]]
-                    if nxt > last + tie_tolerance(last):
+                    slice_kth = float(fv[order_best(fv, fk, self.per_slice)[-1]])
+                    if nxt > slice_kth + tie_tolerance(slice_kth):
                         break
             stop = min(cand.size, start + size)
-            ok, obj = screen(parts, keys[start:stop], objective=self.objective)
-            self.stats["evaluated"] += stop - start
-            if ok.any():
-                found_v.append(obj[ok])
-                found_k.append(keys[start:stop][ok])
+            chunk = cand[start:stop]
+            if self.objective == "accel_time":
+                # the chunk's key values are not sorted beyond their cell bound: keep those that can still count
+                ok_chunk = key_val[start:stop] <= min(kth, slice_kth) * (1 + 4 * REL_TOL)
+                chunk = chunk[ok_chunk]
+            cutoff = None
+            if self.objective == "accel_time" and np.isfinite(min(kth, slice_kth)):
+                cutoff = min(kth, slice_kth) * (1 + 4 * REL_TOL)
+            if chunk.size:
+                keys = parts.single_keys(i, p.j[chunk], p.k[chunk])
+                ok, obj = screen(parts, keys, objective=self.objective, accel_cutoff=cutoff)
+                self.stats["evaluated"] += chunk.size
+                if ok.any():
+                    found_v.append(obj[ok])
+                    found_k.append(keys[ok])
             start, size = stop, size * 2
         if found_v:
             self._add(np.concatenate(found_v), np.concatenate(found_k))

@@ -174,14 +174,6 @@ def traction_tan_bound(parts: PartTables, driven_share, crr):
     return np.full(num.shape, np.inf) if num.shape else np.inf
 
 
-def traction_accel_cap_mps2(parts: PartTables, use: Usable, motors) -> np.ndarray:
-    """Largest traction-limited acceleration any single-unit design with each motor can have [m/s^2]."""
-    share = max_driven_share(parts, parts.motors.mass_kg[motors],
-                             (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
-                             (use.tyre_mass_min, use.tyre_mass_max))
-    return G_N * traction_tan_bound(parts, share, use.crr_min)
-
-
 # ------------------------------------------------------------------------------------------ windows
 
 def power_window(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, shaft_power_w):
@@ -279,40 +271,58 @@ def riemann_speeds(target_mps, nodes: int = RIEMANN_NODES):
 
 
 def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2,
-                      eta_max, eta_min, mass_min_kg, crr_min, q_n_s2_m2, traction_cap_mps2, l_a, l_b, target_mps,
-                      nodes: int = RIEMANN_NODES):
-    """Certified lower bound of the 0-to-target time over every design in the block [s].
+                      eta_max, eta_min, mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max,
+                      hl, transfer_sign, l_a, l_b, target_mps, nodes: int = RIEMANN_NODES):
+    """Certified lower bound of the 0-to-target time over every single-unit design in the block [s].
 
-    Block: a motor (envelope arrays), gears with L = ln(G/r) in [l_a, l_b], gearbox efficiency at most
-    ``eta_max`` (at least ``eta_min``), vehicle mass at least ``mass_min_kg``, rolling resistance at
-    least ``crr_min``, traction-limited acceleration at most ``traction_cap_mps2``. All arguments
-    broadcast to one shape (blocks); see the module docstring for the proof. inf when no design of
-    the block can reach the target.
+    Block: a motor (envelope arrays), gears with L = ln(G/r) in [l_a, l_b], gearbox efficiency in
+    [eta_min, eta_max], vehicle mass in [mass_min_kg, mass_max_kg], rolling resistance at least
+    ``crr_min``, static driven-axle share at most ``driven_share_max``, ``hl`` = h/L and
+    ``transfer_sign`` +1 for rear drive, -1 for front drive. All arguments broadcast to one shape
+    (blocks); see the module docstring for the proof. The traction-limited acceleration per unit
+    mass, (g (mu s - Crr) - q v^2/m) / (1 + J eta e^{2L}/m - sign mu h/L), is bounded above by taking
+    s, Crr, m, eta and L at their extremes. inf when no design of the block can reach the target.
     """
     args = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (
         torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2, eta_max, eta_min,
-        mass_min_kg, crr_min, q_n_s2_m2, traction_cap_mps2, l_a, l_b, target_mps)))
-    t_, p_, wd, k, wm, j, e_hi, e_lo, m, c, q, cap, la, lb, vt = (a[..., None] for a in args)
+        mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max, hl, transfer_sign, l_a, l_b,
+        target_mps)))
+    t_, p_, wd, k, wm, j, e_hi, e_lo, m, m_hi, c, q, mu, s_max, hl_, sg, la, lb, vt = (a[..., None] for a in args)
     v, dv = riemann_speeds(args[-1], nodes)
     vv = np.concatenate([v, args[-1][..., None]], axis=-1)  # the target itself: a_up(V) > 0 is necessary
     ea, eb = np.exp(la), np.exp(lb)
     torque = envelope_torque_nm(vv * ea, t_, p_, wd, k, wm)
     f_up = e_hi * eb * torque
     f_res = m * G_N * c + q * vv * vv
-    m_eff = m + j * e_lo * ea * ea
-    a_up = np.minimum((f_up - f_res) / m_eff, cap)
+    dj = j * e_lo * ea * ea
+    m_eff = m + dj
+    with np.errstate(divide="ignore", invalid="ignore"):
+        den = 1.0 + dj / m_hi - sg * mu * hl_
+        a_trac = np.where(den > 0, (G_N * (mu * s_max - c) - q * vv * vv / m_hi) / den, np.inf)
+        a_up = np.minimum((f_up - f_res) / m_eff, a_trac)
     reach = (a_up > 0).all(axis=-1)
     with np.errstate(divide="ignore", invalid="ignore"):
         t = (dv / a_up[..., :-1]).sum(axis=-1)
     return np.where(reach, t, np.inf)
 
 
-def motor_time_bound_s(parts: PartTables, use: Usable, motors, l_a, l_b, target_mps, nodes: int = RIEMANN_NODES):
-    """`optimistic_time_s` of single-unit designs with ``motors`` and gears in [l_a, l_b] (broadcast) [s]."""
+def motor_time_bound_s(parts: PartTables, use: Usable, motors, l_a, l_b, target_mps, mass_min_kg=None, eta_max=None,
+                       crr_min=None, nodes: int = RIEMANN_NODES):
+    """`optimistic_time_s` of single-unit designs with ``motors`` and gears in [l_a, l_b] (broadcast) [s].
+
+    ``mass_min_kg``, ``eta_max``, ``crr_min`` (optional, broadcast): tighter extremes over the
+    block's designs than the motor's usable parts give (e.g. over the pairs in an L cell).
+    """
     mo = parts.motors
+    p = parts.problem
     motors = np.asarray(motors, dtype=np.int64)
+    share = max_driven_share(parts, mo.mass_kg[motors], (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
+                             (use.tyre_mass_min, use.tyre_mass_max))
+    m_lo = lightest_mass_kg(parts, use, motors) if mass_min_kg is None else mass_min_kg
     return optimistic_time_s(mo.torque_nm[motors], mo.power_w[motors], mo.decline_rad_s[motors],
                              mo.decline_exponent[motors], mo.max_speed_rad_s[motors], mo.rotor_inertia_kgm2[motors],
-                             use.eta_max[motors], use.eta_min[motors], lightest_mass_kg(parts, use, motors),
-                             use.crr_min, parts.q_n_s2_m2, traction_accel_cap_mps2(parts, use, motors), l_a, l_b,
-                             target_mps, nodes)
+                             use.eta_max[motors] if eta_max is None else eta_max, use.eta_min[motors], m_lo,
+                             heaviest_mass_kg(parts, use, motors), use.crr_min if crr_min is None else crr_min,
+                             parts.q_n_s2_m2, p.environment.road_friction, share,
+                             p.vehicle.cg_height_m / p.vehicle.wheelbase_m, 1.0 if parts.rear_drive else -1.0,
+                             l_a, l_b, target_mps, nodes)

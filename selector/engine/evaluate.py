@@ -134,12 +134,18 @@ def feasible(parts: PartTables, metrics: dict, objective: str | None = None) -> 
     return ok
 
 
-def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", need_accel: bool | None = None):
+def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", need_accel: bool | None = None,
+           accel_cutoff: float | None = None):
     """Feasibility and objective of many designs, computing expensive metrics only for survivors.
 
     Same decisions as `evaluate` + `feasible`, staged: mass, cost, ratings and the static tyre
     load first, then speeds, grade, launch and the speed-dependent tyre checks, then the
-    acceleration run. Returns (feasible[n], objective[n]) with the objective +inf where infeasible.
+    acceleration run. Single-speed designs first get a proved bracket of their time
+    (`accel_run.time_bracket`): a design whose lower bound already fails ``accel_time_s`` fails,
+    one whose upper bound meets it passes without the exact integration (unless the objective is
+    the time itself). With the accel_time objective, ``accel_cutoff`` [s] drops designs whose lower
+    bound exceeds it (they cannot improve on a known design; reported as not feasible here).
+    Returns (feasible[n], objective[n]) with the objective +inf where infeasible.
     """
     keys = as_keys(parts, keys, rj, tk)
     p = parts.problem
@@ -173,7 +179,25 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
         t = np.full(sel.size, np.inf)
         if idx.size:
             axles, body = parts.design(keys[sel][idx])
-            t[idx] = accel_run.accel_time_s(axles, body, kmh_to_mps(req.accel_to_kmh))
+            target = kmh_to_mps(req.accel_to_kmh)
+            lo, hi = accel_run.time_bracket(axles, body, target)
+            exact = np.isfinite(lo)
+            limit = req.accel_time_s
+            tol = 1 + 2 * REL_TOL
+            if limit is not None:
+                exact &= lo <= limit * tol
+            if objective == "accel_time":
+                if accel_cutoff is not None:
+                    exact &= lo <= accel_cutoff * tol
+            elif limit is not None:
+                sure = exact & (hi <= limit)
+                t[idx[sure]] = hi[sure]  # an upper bound that meets the limit: feasible, no exact time needed
+                exact &= ~sure
+            rows = np.nonzero(exact)[0]
+            if rows.size:
+                from selector.physics.drivetrain import take_axles, take_fields
+
+                t[idx[rows]] = accel_run.accel_time_s(take_axles(axles, rows), take_fields(body, rows), target)
         m["accel_time_s"] = t
         if req.accel_time_s is not None:
             sub_ok &= passes("max", req.accel_time_s, t)

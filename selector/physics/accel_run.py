@@ -119,21 +119,19 @@ def _take_state(st: _State, rows) -> _State:
                   st.on_front[rows], st.on_rear[rows], st.m_eff[rows])
 
 
-def _combos(st: _State, v):
-    """Acceleration of each traction combination at speeds v (n, s): array (4, n, s) [m/s^2]."""
+def state_accel(st: _State, v, labels: bool = False):
+    """Acceleration at speeds v (n, s) [m/s^2]; with ``labels`` also the limiting combination's index."""
     col = lambda a: np.asarray(a)[:, None]  # noqa: E731
     b, ax = st.body, st.axles
     f_res = col(b.mass_kg) * G_N * col(b.crr) + col(b.q_n_s2_m2) * v * v
-    f_f = np.where(col(st.on_front), unit_force_n(ax.front, ax.radius_m, st.g_front, v), 0.0)
-    f_r = np.where(col(st.on_rear), unit_force_n(ax.rear, ax.radius_m, st.g_rear, v), 0.0)
+    zero = np.zeros(())
+    f_f = np.where(col(st.on_front), unit_force_n(ax.front, ax.radius_m, st.g_front, v), 0.0) \
+        if np.any(st.on_front) else zero
+    f_r = np.where(col(st.on_rear), unit_force_n(ax.rear, ax.radius_m, st.g_rear, v), 0.0) \
+        if np.any(st.on_rear) else zero
     return combination_accels(f_f, f_r, col(st.on_front), col(st.on_rear), f_res, col(b.mass_kg), col(st.m_eff),
-                              col(b.rear_share), col(b.road_friction), col(b.cg_height_m), col(b.wheelbase_m))
-
-
-def state_accel(st: _State, v):
-    """(acceleration, index of the limiting combination) at speeds v (n, s) [m/s^2]."""
-    c = _combos(st, v)
-    return c.min(axis=0), c.argmin(axis=0)
+                              col(b.rear_share), col(b.road_friction), col(b.cg_height_m), col(b.wheelbase_m),
+                              labels=labels)
 
 
 def _unit_breaks(st: _State, v_lo, v_hi):
@@ -158,7 +156,7 @@ def _crossings(st: _State, lo, hi, v_end):
     col = lambda a: a[:, None]  # noqa: E731
     frac = np.linspace(0.0, 1.0, CROSS_SAMPLES)[None, :]
     vs = col(lo) + (col(hi) - col(lo)) * frac
-    acc, lab = state_accel(st, vs)
+    acc, lab = state_accel(st, vs, labels=True)
     change = (lab[:, 1:] != lab[:, :-1]) & np.isfinite(acc[:, 1:]) & np.isfinite(acc[:, :-1])
     has = change.any(axis=1) & (hi > lo)
     first = np.argmax(change, axis=1)
@@ -174,7 +172,7 @@ def _crossings(st: _State, lo, hi, v_end):
             lab_a = lab[rows, idx[rows]]
             for _ in range(BISECT_STEPS):
                 mid = 0.5 * (a + b)
-                _, lm = state_accel(sub, mid[:, None])
+                _, lm = state_accel(sub, mid[:, None], labels=True)
                 same = lm[:, 0] == lab_a
                 a = np.where(same, mid, a)
                 b = np.where(same, b, mid)
@@ -193,7 +191,7 @@ def _integrate_pieces(st: _State, edges):
         a, b = edges[:, i], edges[:, i + 1]
         half = 0.5 * (b - a)
         v = col(0.5 * (a + b)) + col(half) * gl_x[None, :]
-        acc, _ = state_accel(st, v)
+        acc = state_accel(st, v)
         width_pos = half > 0
         bad = width_pos & (acc <= 0).any(axis=1)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -209,7 +207,7 @@ def pole_distance_mps(st: _State, v_end, a_end):
     inf where the acceleration does not fall at v_end.
     """
     eps = 1e-6
-    a_before, _ = state_accel(st, (v_end * (1.0 - eps))[:, None])
+    a_before = state_accel(st, (v_end * (1.0 - eps))[:, None])
     slope = (a_end - a_before[:, 0]) / np.maximum(v_end * eps, 1e-300)
     with np.errstate(divide="ignore", invalid="ignore"):
         d = np.where(slope < 0, a_end / -slope, np.inf)
@@ -219,8 +217,7 @@ def pole_distance_mps(st: _State, v_end, a_end):
 def integrate_segment(st: _State, v_lo, v_hi):
     """Time to accelerate from v_lo to v_hi in a fixed gear state [s] (inf if a <= 0 on the way)."""
     n = v_lo.shape[0]
-    a_end, _ = state_accel(st, v_hi[:, None])
-    a_end = a_end[:, 0]
+    a_end = state_accel(st, v_hi[:, None])[:, 0]
     ok = a_end > 0
     base = [v_lo] + _unit_breaks(st, v_lo, v_hi) + [v_hi]
     base = np.sort(np.stack(base, axis=1), axis=1)
@@ -258,8 +255,8 @@ def _shift_point(st: _State, which: str, v_lo, v_hi):
     col = lambda a: a[:, None]  # noqa: E731
 
     def holds(s1, s2, v):
-        a1, _ = state_accel(s1, v)
-        a2, _ = state_accel(s2, v)
+        a1 = state_accel(s1, v)
+        a2 = state_accel(s2, v)
         return a2 >= a1 - SHIFT_TIE * np.abs(a1)
 
     frac = np.linspace(0.0, 1.0, SHIFT_SAMPLES)[None, :]
@@ -331,8 +328,7 @@ def _shift_phase(st: _State, which: str, v_start, target):
         hit = np.full(rows.size, np.inf)
 
         def f(x):
-            a, _ = state_accel(sub, np.maximum(x, 0.0)[:, None])
-            a = a[:, 0]
+            a = state_accel(sub, np.maximum(x, 0.0)[:, None])[:, 0]
             return np.where((x <= 0) & (a < 0), 0.0, a)
 
         for _ in range(SHIFT_RK_STEPS):
@@ -438,3 +434,40 @@ def _run_chunk(axles: Axles, body, target, res: RunResult, out_rows):
 def accel_time_s(axles: Axles, body, target_mps, chunk: int = 20000) -> np.ndarray:
     """Time from rest to ``target_mps`` on the level [s] (inf when unreachable). See `accel_run`."""
     return accel_run(axles, body, target_mps, chunk).time_s
+
+
+BRACKET_NODES = 48
+"""Speed nodes of `time_bracket` [-]."""
+
+
+def time_bracket(axles: Axles, body, target_mps, nodes: int = BRACKET_NODES):
+    """Proved lower and upper bounds of the 0-to-target time of single-speed designs [s].
+
+    With every unit single-speed there is one gear state, and a(v) is non-increasing in v (each
+    axle's force is non-increasing, road load increasing, every traction combination decreasing), so
+    1/a is non-decreasing and the left and right Riemann sums of dv/a over any partition of [0, V]
+    bracket the exact integral. Both are inf when the target cannot be reached (a <= 0 at a node, or
+    the target above the gearing limit or the limiter). Designs with a multi-speed unit get (0, inf).
+    """
+    n = axles.n
+    target = np.broadcast_to(np.asarray(target_mps, dtype=float), (n,))
+    lo = np.zeros(n)
+    hi = np.full(n, np.inf)
+    single = (axles.front.n_gears <= 1) & (axles.rear.n_gears <= 1)
+    rows = np.nonzero(single)[0]
+    if rows.size == 0:
+        return lo, hi
+    ax, bd = take_axles(axles, rows), take_fields(body, rows)
+    st = _state(ax, bd, np.zeros(rows.size, dtype=np.int64), np.zeros(rows.size, dtype=np.int64))
+    v_t = target[rows]
+    s = 1.0 - (1.0 - np.arange(nodes + 1) / nodes) ** 2
+    v = v_t[:, None] * s[None, :]
+    a = state_accel(st, v)
+    dv = np.diff(v, axis=1)
+    reach = (a > 0).all(axis=1) & (v_t <= speed_cap_mps(ax) * (1 + 1e-12)) & (v_t <= bd.speed_limit_mps)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t_lo = (dv / a[:, :-1]).sum(axis=1)
+        t_hi = (dv / a[:, 1:]).sum(axis=1)
+    lo[rows] = np.where(reach, t_lo, np.inf)
+    hi[rows] = np.where(reach, t_hi, np.inf)
+    return lo, hi

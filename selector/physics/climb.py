@@ -103,6 +103,5 @@ def launch_accel_mps2(axles: Axles, body) -> np.ndarray:
                                     z.astype(np.int64))
     f_f, f_r = crawl_forces_n(axles)
     f_res = body.mass_kg * G_N * body.crr
-    a = combination_accels(f_f, f_r, axles.front.present, axles.rear.present, f_res, body.mass_kg, m_eff,
-                           body.rear_share, body.road_friction, body.cg_height_m, body.wheelbase_m)
-    return a.min(axis=0)
+    return combination_accels(f_f, f_r, axles.front.present, axles.rear.present, f_res, body.mass_kg, m_eff,
+                              body.rear_share, body.road_friction, body.cg_height_m, body.wheelbase_m)

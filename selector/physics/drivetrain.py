@@ -232,18 +232,21 @@ def axle_weights_n(mass_kg, rear_share):
 
 
 def combination_accels(f_front, f_rear, front_present, rear_present, f_res, mass_kg, m_eff, rear_share, road_friction,
-                       cg_height_m, wheelbase_m):
-    """Acceleration bound of each traction combination (front, rear) at the given forces [m/s^2].
+                       cg_height_m, wheelbase_m, labels: bool = False):
+    """Acceleration of the best torque split: the minimum over traction combinations [m/s^2].
 
-    Returns an array of shape (4, ...) in the order of `COMBINATIONS` ("MM", "TM", "MT", "TT"); a
-    combination that needs a traction limit on an absent axle, or whose denominator
-    (1 - sum kappa) m_eff is <= 0, is +inf (it sets no bound). Arguments broadcast together:
-    forces and road load [N], masses [kg], share [-], mu [-], lengths [m].
+    Combinations in the order of `COMBINATIONS` ("MM", "TM", "MT", "TT"): both axles motor-limited;
+    front traction-limited, rear motor-limited; and so on. A combination that needs a traction limit
+    on an absent axle, or whose denominator (1 - sum kappa) m_eff is <= 0, sets no bound. Arguments
+    broadcast together: forces and road load [N], masses [kg], share [-], mu [-], lengths [m];
+    ``front_present``/``rear_present`` are bool arrays or Python bools.
+
+    Returns the acceleration, and with ``labels`` also the index of the limiting combination (the
+    first one on ties).
     """
+    any_f, any_r = bool(np.any(front_present)), bool(np.any(rear_present))
     w_f, w_r = axle_weights_n(mass_kg, rear_share)
     k_r = transfer_factor(road_friction, mass_kg, m_eff, cg_height_m, wheelbase_m, True)
-    k_f = -k_r
-    shape = np.broadcast_shapes(np.shape(f_front), np.shape(f_rear), np.shape(f_res), np.shape(m_eff))
 
     def bound(num, kappa):
         denom = (1.0 - kappa) * m_eff
@@ -252,12 +255,20 @@ def combination_accels(f_front, f_rear, front_present, rear_present, f_res, mass
         return np.where(denom > 0, a, np.inf)
 
     with np.errstate(invalid="ignore"):
-        mm = ((f_front + f_rear) - f_res) / m_eff
-        tm = bound((road_friction * w_f + f_rear) - f_res, k_f)
-        mt = bound((f_front + road_friction * w_r) - f_res, k_r)
-        tt = bound((road_friction * w_f + road_friction * w_r) - f_res, k_f + k_r)
-    fp = np.broadcast_to(front_present, shape) if np.ndim(front_present) else front_present
-    rp = np.broadcast_to(rear_present, shape) if np.ndim(rear_present) else rear_present
-    out = np.stack([np.broadcast_to(mm, shape), np.where(fp, tm, np.inf), np.where(rp, mt, np.inf),
-                    np.where(fp & rp, tt, np.inf)])
-    return out
+        best = ((f_front + f_rear) - f_res) / m_eff
+    lab = np.zeros(np.shape(best), dtype=np.int8) if labels else None
+    combos = []
+    if any_f:
+        combos.append((1, front_present, lambda: bound((road_friction * w_f + f_rear) - f_res, -k_r)))
+    if any_r:
+        combos.append((2, rear_present, lambda: bound((f_front + road_friction * w_r) - f_res, k_r)))
+    if any_f and any_r:
+        combos.append((3, np.logical_and(front_present, rear_present),
+                       lambda: bound((road_friction * w_f + road_friction * w_r) - f_res, -k_r + k_r)))
+    for idx, valid, fn in combos:
+        with np.errstate(invalid="ignore"):
+            a = np.where(valid, fn(), np.inf)
+        if labels:
+            lab = np.where(a < best, np.int8(idx), lab)
+        best = np.minimum(best, a)
+    return (best, lab) if labels else best

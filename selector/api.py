@@ -10,18 +10,21 @@ import difflib
 import warnings
 from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from selector import __version__
 from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate
 from selector.engine.parts import PartTables
-from selector.engine.search import STATUS_INFEASIBLE, SearchResult, search
 from selector.engine.verify import verify_designs
 from selector.errors import InputError
 from selector.inputs import Procurement
 from selector.io.problem import load_study
 from selector.records import BINDING_RULE, CAUTION, clean, design_record
+
+if TYPE_CHECKING:
+    from selector.engine.search import SearchResult
 
 OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s"}
 
@@ -106,6 +109,8 @@ def objective_dict(objective: str, designs) -> dict:
 
 def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> dict:
     """The JSON contract for a search result (solve / shortlist)."""
+    from selector.engine.search import STATUS_INFEASIBLE  # loaded already: ``res`` came from it
+
     parts = study.parts
     out = header(parts)
     out.update({
@@ -127,6 +132,8 @@ def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> d
 
 def solve(study: Study, count: int = 1, time_limit_s: float | None = None, objective: str | None = None) -> dict:
     """Best design(s) of a study, verified, as the JSON-ready result."""
+    from selector.engine.search import search  # the solver stack: imported only when a study is solved
+
     res = search(study.parts, objective=objective, count=count, allowed=study.allowed, time_limit_s=time_limit_s)
     return result_dict(study, res)
 

@@ -9,6 +9,7 @@ import argparse
 
 from selector.cli.args import add_common
 from selector.records import CAUTION, dumps, fmt, parts_table, table
+from selector.studies.defaults import NEAR_MISS_PCT, STEP_PCT
 
 
 def _pct(text):
@@ -22,8 +23,6 @@ def _pct(text):
 
 
 def _setup(p):
-    from selector.studies.explain import NEAR_MISS_PCT, STEP_PCT
-
     add_common(p)
     p.add_argument("--step", type=_pct, default=STEP_PCT, metavar="PCT",
                    help=f"loosening step for the price of each requirement [%%] (default {STEP_PCT:g})")

@@ -67,12 +67,9 @@ from selector.requirements import (
     passes,
     stated,
 )
+from selector.studies.defaults import NEAR_MISS_PCT, STEP_PCT
 from selector.units import G_N, kmh_to_mps
 
-STEP_PCT = 5.0
-"""Default loosening step for the price of a requirement [%]."""
-NEAR_MISS_PCT = 3.0
-"""Default largest miss of a near-miss design [%]."""
 INF_SHORTFALL = 1e6
 """Normalised shortfall counted for an infinite acceleration time (target unreachable) [-]."""
 PROGRESS_MIN_COMBINATIONS = 200_000

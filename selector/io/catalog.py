@@ -401,42 +401,67 @@ def _check_text(c: Column, raw: str, loc: str):
     return raw, None
 
 
+def distinct_numbers(*values, digits=None) -> list[str]:
+    """The numbers of one comparison message, each with enough significant digits to show how they compare.
+
+    Each value gets at least ``digits[n]`` significant digits (default 6, as ``:g``), and all get
+    more, together, until the printed numbers are ordered as the values are (e.g. a corner speed
+    of 3493.05 rpm against decline_speed_rpm = 3493.1 prints "3493.05", not "3493").
+    """
+    mins = digits or (6,) * len(values)
+    values = [float(x) for x in values]
+    for d in range(1, 18):
+        shown = [f"{x:.{max(d, m)}g}" for x, m in zip(values, mins)]
+        back = [float(t) for t in shown]
+        if all((back[a] > back[b]) == (values[a] > values[b]) and (back[a] < back[b]) == (values[a] < values[b])
+               for a in range(len(values)) for b in range(a)):
+            return shown
+    return [repr(x) for x in values]
+
+
 def _check_row(kind: str, v: dict, loc: str):
     """Cross-column rules and plausibility warnings for one row whose cells are all valid."""
     errors, odd = [], []
     if kind == "motors":
         for cont, peak, unit in (("cont_torque_nm", "peak_torque_nm", "N m"), ("cont_power_kw", "peak_power_kw", "kW")):
             if v[cont] > v[peak] * (1 + _REL_TOL):
-                errors.append(f"{loc}: {cont} = {v[cont]:g} is above {peak} = {v[peak]:g}; must be <= {peak} "
+                a, b = distinct_numbers(v[cont], v[peak])
+                errors.append(f"{loc}: {cont} = {a} is above {peak} = {b}; must be <= {peak} "
                               f"[{unit}]. Check both values against the datasheet.")
         n_max = v["max_speed_rpm"]
         n_dec = v["decline_speed_rpm"]
         corner = v["peak_power_kw"] * 1000.0 / v["peak_torque_nm"] / RPM_TO_RAD_S
         if n_dec is not None and n_dec > n_max * (1 + _REL_TOL):
-            errors.append(f"{loc}: decline_speed_rpm = {n_dec:g} is above max_speed_rpm = {n_max:g}; must be "
+            a, b = distinct_numbers(n_dec, n_max)
+            errors.append(f"{loc}: decline_speed_rpm = {a} is above max_speed_rpm = {b}; must be "
                           "<= max_speed_rpm [rpm]. Fix one of the two values (leave decline_speed_rpm empty "
                           "for constant power up to max speed).")
         else:
             limit, what = (n_dec, "decline_speed_rpm") if n_dec is not None else (
                 n_max, "max_speed_rpm (decline_speed_rpm is empty, so it equals max_speed_rpm)")
             if corner > limit * (1 + _REL_TOL):
-                errors.append(f"{loc}: corner speed = {corner:.0f} rpm (peak_power_kw x 1000 / peak_torque_nm "
+                # the computed corner speed in whole rpm unless more digits are needed to tell it from the limit
+                a, b = distinct_numbers(corner, limit, digits=(len(f"{corner:.0f}"), 6))
+                errors.append(f"{loc}: corner speed = {a} rpm (peak_power_kw x 1000 / peak_torque_nm "
                               f"with peak_power_kw = {v['peak_power_kw']:g}, peak_torque_nm = "
-                              f"{v['peak_torque_nm']:g}) is above {what} = {limit:g}; must be <= "
+                              f"{v['peak_torque_nm']:g}) is above {what} = {b}; must be <= "
                               f"{what.split(' ')[0]} [rpm]. Check the three values against the datasheet.")
         if v["mass_kg"] > MOTOR_MASS_WARN_KG:
-            odd.append(f"{loc}: mass_kg = {v['mass_kg']:g}; above {MOTOR_MASS_WARN_KG:g} kg, unusual for a "
+            a, b = distinct_numbers(v["mass_kg"], MOTOR_MASS_WARN_KG)
+            odd.append(f"{loc}: mass_kg = {a}; above {b} kg, unusual for a "
                        "traction motor. Check the value and its unit (kg).")
     elif kind == "reducers":
         eff = v["efficiency_pct"]
         if eff < EFFICIENCY_WARN_PCT:
             hint = (" It looks like a fraction; efficiency_pct is in percent (96 means 96 %)." if eff <= 1
                     else " Check the value.")
-            odd.append(f"{loc}: efficiency_pct = {eff:g}; below {EFFICIENCY_WARN_PCT:g} %, unusual for a "
+            a, b = distinct_numbers(eff, EFFICIENCY_WARN_PCT)
+            odd.append(f"{loc}: efficiency_pct = {a}; below {b} %, unusual for a "
                        f"reducer.{hint}")
         lo, hi = RATIO_WARN
         if not lo <= v["ratio"] <= hi:
-            odd.append(f"{loc}: ratio = {v['ratio']:g}; outside {lo:g}..{hi:g}, unusual for a single-speed "
+            a, b, c = distinct_numbers(v["ratio"], lo, hi)
+            odd.append(f"{loc}: ratio = {a}; outside {b}..{c}, unusual for a single-speed "
                        "traction reducer. Check the value (ratio = motor speed / wheel speed).")
     elif kind == "tyres":
         rr = v["rr_coefficient_n_per_kn"]
@@ -444,7 +469,8 @@ def _check_row(kind: str, v: dict, loc: str):
         if not lo <= rr <= hi:
             hint = (" It looks like a dimensionless Crr; the column is in N/kN (Crr x 1000, e.g. 8.5)."
                     if rr < 0.1 else " Check the value (EU tyre label classes span about 6.5..12 N/kN).")
-            odd.append(f"{loc}: rr_coefficient_n_per_kn = {rr:g}; outside {lo:g}..{hi:g} N/kN.{hint}")
+            a, b, c = distinct_numbers(rr, lo, hi)
+            odd.append(f"{loc}: rr_coefficient_n_per_kn = {a}; outside {b}..{c} N/kN.{hint}")
     return errors, odd
 
 

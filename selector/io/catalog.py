@@ -15,6 +15,7 @@ import csv
 import difflib
 import io
 import math
+import os
 import re
 import warnings
 from pathlib import Path
@@ -24,6 +25,7 @@ import pandas as pd
 
 from selector.errors import InputError
 from selector.inputs import Catalogs
+from selector.io.efficiency_map import load_efficiency_map
 from selector.io.schema import DERIVED_COLUMNS, KINDS, SOURCE_ROW, Column, columns
 from selector.physics.tyres import (
     LOAD_INDEX_KG,
@@ -35,12 +37,21 @@ from selector.physics.tyres import (
     speed_rating_kmh,
     unloaded_diameter_m,
 )
+from selector.physics.losses import peak_efficiency
 from selector.units import RPM_TO_RAD_S
 
-__all__ = ["CatalogWarning", "load_catalog", "load_catalogs"]
+__all__ = ["LOSS_COLUMNS", "CatalogWarning", "load_catalog", "load_catalogs", "motor_loss_models"]
+
+LOSS_COLUMNS = ("loss_copper_w_per_nm2", "loss_iron_nm", "loss_windage_w_s3", "loss_constant_w")
+"""Motor columns of the polynomial loss model (all four or none)."""
+MAP_COLUMN = "efficiency_map"
+"""Motor column naming an efficiency-map CSV."""
+MAP_GRID_COLUMN = "efficiency_map_grid"
+"""Derived motor column holding the loaded map (`selector.physics.losses.EfficiencyGrid` or None)."""
 
 # Plausibility bounds for warnings (common practice, no published source).
 MOTOR_MASS_WARN_KG = 500.0
+PEAK_EFFICIENCY_WARN_PCT = (80.0, 99.0)
 EFFICIENCY_WARN_PCT = 80.0
 RR_WARN_N_PER_KN = (4.0, 20.0)
 RATIO_WARN = (1.0, 30.0)
@@ -138,6 +149,25 @@ def load_catalogs(paths: dict) -> Catalogs:
         raise InputError(f"{len(messages)} catalogue files have errors (listed below).\n" + "\n".join(messages))
     return Catalogs(motors=frames["motors"], reducers=frames["reducers"], tyres=frames["tyres"],
                     paths={k: Path(paths[k]) for k in KINDS})
+
+
+def motor_loss_models(motors: pd.DataFrame) -> np.ndarray:
+    """Which loss model each motor row has for energy studies.
+
+    Parameters
+    ----------
+    motors : pandas.DataFrame
+        A motors catalogue as returned by `load_catalog`.
+
+    Returns
+    -------
+    numpy.ndarray of str, shape (rows,)
+        ``"map"`` (an efficiency map; it takes precedence), ``"polynomial"`` (the four loss
+        columns) or ``"none"`` (the motor cannot be used in an energy study).
+    """
+    has_map = motors[MAP_GRID_COLUMN].notna().to_numpy()
+    has_poly = np.all([motors[c].notna().to_numpy() for c in LOSS_COLUMNS], axis=0)
+    return np.where(has_map, "map", np.where(has_poly, "polynomial", "none"))
 
 
 # --------------------------------------------------------------------------------------------
@@ -317,8 +347,38 @@ def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
         lines.append(line)
     if errors:
         raise InputError(_report(disp, kind, errors))
+    grids = None
+    if kind == "motors":
+        grids = _load_efficiency_maps(typed, lines, path, disp, errors)
+        if errors:
+            raise InputError(_report(disp, kind, errors))
 
-    return _frame(kind, schema, typed, extra_vals, lines), errors, odd
+    return _frame(kind, schema, typed, extra_vals, lines, grids), errors, odd
+
+
+def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, errors: list[str]) -> list:
+    """Load the efficiency map of every motor row that names one (each file once); collect errors."""
+    grids: list = []
+    loaded: dict[Path, object] = {}
+    for line, part, given in zip(lines, typed["part"], typed[MAP_COLUMN]):
+        if not given:
+            grids.append(None)
+            continue
+        target = Path(os.path.normpath(path.parent / given))
+        if target not in loaded:
+            try:
+                loaded[target] = load_efficiency_map(target, disp=str(target))
+            except InputError as exc:
+                loaded[target] = exc
+        got = loaded[target]
+        if isinstance(got, InputError):
+            detail = str(got).replace("\n", "\n    ")
+            errors.append(f"{_loc(disp, line, part or '')}: {MAP_COLUMN} = \"{given}\" cannot be used "
+                          f"(paths are relative to the catalogue file): {detail}")
+            grids.append(None)
+        else:
+            grids.append(got)
+    return grids
 
 
 def _loc(disp: str, line: int, part: str) -> str:
@@ -446,6 +506,24 @@ def _check_row(kind: str, v: dict, loc: str):
                               f"with peak_power_kw = {v['peak_power_kw']:g}, peak_torque_nm = "
                               f"{v['peak_torque_nm']:g}) is above {what} = {b}; must be <= "
                               f"{what.split(' ')[0]} [rpm]. Check the three values against the datasheet.")
+        loss_given = [c for c in LOSS_COLUMNS if v[c] is not None]
+        if loss_given and len(loss_given) < len(LOSS_COLUMNS):
+            missing = [c for c in LOSS_COLUMNS if v[c] is None]
+            errors.append(f"{loc}: loss-model columns {', '.join(missing)} are empty but "
+                          f"{', '.join(loss_given)} {'is' if len(loss_given) == 1 else 'are'} given; give all "
+                          f"four ({', '.join(LOSS_COLUMNS)}) or none. Write 0 for a loss the datasheet "
+                          "leaves out.")
+        elif loss_given:
+            peak = 100.0 * peak_efficiency(
+                v["loss_copper_w_per_nm2"], v["loss_iron_nm"], v["loss_windage_w_s3"], v["loss_constant_w"],
+                v["peak_torque_nm"], v["peak_power_kw"] * 1000.0,
+                (v["decline_speed_rpm"] or n_max) * RPM_TO_RAD_S, v["decline_exponent"] or 1.0,
+                n_max * RPM_TO_RAD_S, n_speed=60, n_torque=60)
+            lo, hi = PEAK_EFFICIENCY_WARN_PCT
+            if not lo <= peak <= hi:
+                odd.append(f"{loc}: the loss model gives a peak efficiency of {peak:.1f} % under the torque "
+                           f"envelope; outside {lo:g}..{hi:g} %, unusual for a traction motor. Check the loss "
+                           "coefficients and their units (T in N m, w in rad/s, losses in W).")
         if v["mass_kg"] > MOTOR_MASS_WARN_KG:
             a, b = distinct_numbers(v["mass_kg"], MOTOR_MASS_WARN_KG)
             odd.append(f"{loc}: mass_kg = {a}; above {b} kg, unusual for a "
@@ -478,7 +556,7 @@ def _check_row(kind: str, v: dict, loc: str):
 # typed frame
 
 
-def _frame(kind, schema, typed, extra_vals, lines) -> pd.DataFrame:
+def _frame(kind, schema, typed, extra_vals, lines, grids=None) -> pd.DataFrame:
     data = {}
     for c in schema:
         vals = typed[c.name]
@@ -495,6 +573,8 @@ def _frame(kind, schema, typed, extra_vals, lines) -> pd.DataFrame:
         data["decline_exponent"] = np.where(np.isnan(k), 1.0, k)
     for h, vals in extra_vals.items():
         data[h] = pd.array(vals, dtype=object)
+    if kind == "motors":
+        data[MAP_GRID_COLUMN] = pd.array(grids if grids is not None else [None] * len(lines), dtype=object)
     data[SOURCE_ROW] = np.array(lines, dtype=np.int64)
     df = pd.DataFrame(data)
     if kind == "tyres":

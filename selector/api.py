@@ -10,18 +10,21 @@ import difflib
 import warnings
 from dataclasses import dataclass, replace
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from selector import __version__
-from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate
+from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, feasible
 from selector.engine.parts import PartTables
-from selector.engine.search import STATUS_INFEASIBLE, SearchResult, search
 from selector.engine.verify import verify_designs
 from selector.errors import InputError
 from selector.inputs import Procurement
 from selector.io.problem import load_study
-from selector.records import BINDING_RULE, CAUTION, clean, design_record
+from selector.records import BINDING_RULE, CAUTION, clean, design_record, fmt
+
+if TYPE_CHECKING:
+    from selector.engine.search import SearchResult
 
 OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s"}
 
@@ -106,6 +109,8 @@ def objective_dict(objective: str, designs) -> dict:
 
 def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> dict:
     """The JSON contract for a search result (solve / shortlist)."""
+    from selector.engine.search import STATUS_INFEASIBLE  # loaded already: ``res`` came from it
+
     parts = study.parts
     out = header(parts)
     out.update({
@@ -127,6 +132,8 @@ def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> d
 
 def solve(study: Study, count: int = 1, time_limit_s: float | None = None, objective: str | None = None) -> dict:
     """Best design(s) of a study, verified, as the JSON-ready result."""
+    from selector.engine.search import search  # the solver stack: imported only when a study is solved
+
     res = search(study.parts, objective=objective, count=count, allowed=study.allowed, time_limit_s=time_limit_s)
     return result_dict(study, res)
 
@@ -141,7 +148,9 @@ def simulate(study: Study, motor: str, reducer: str, tyre: str) -> dict:
                find_part(parts, "tyre", tyre))
     metrics = evaluate(parts, [i], [j], [k])
     rec = design_record(parts, i, j, k, metrics, 0)
-    rec["feasible"] = all(r["met"] for r in rec["requirements"] + rec["checks"])
+    objective = parts.problem.objective
+    rec["feasible"] = bool(feasible(parts, metrics, objective)[0])  # the definition solve and explain use
+    rec["unmet"] = unmet(parts, rec, metrics)
     out = header(parts)
     out.update(rec)  # motor, reducer, tyre, cost, mass_kg, performance, requirements, checks, ... at the top
     out["design"] = rec
@@ -149,6 +158,23 @@ def simulate(study: Study, motor: str, reducer: str, tyre: str) -> dict:
                       "effective_mass_kg": clean(metrics["effective_mass_kg"][0]),
                       "gear_over_radius_1_m": clean(metrics["gear_over_radius_1_m"][0]),
                       "air_density_kg_m3": clean(parts.problem.environment.air_density_kg_m3)}
+    return out
+
+
+def unmet(parts: PartTables, rec: dict, metrics: dict) -> list[dict]:
+    """Why a design is infeasible: [{name, why}] for each failed requirement or part-rating check, and
+    ``accel_to_kmh`` when the accel_time objective's target is never reached (infinite time)."""
+    out = []
+    for r in rec["requirements"] + rec["checks"]:
+        if not r["met"]:
+            got = ("never reaches accel_to_kmh" if r["name"] == "accel_time_s" and r["achieved"] is None
+                   else f"achieved {fmt(r['achieved'])} {r['unit']}")
+            out.append({"name": r["name"], "why": f"{got}; required {r['sense']} {fmt(r['required'])} {r['unit']}"})
+    objective = parts.problem.objective
+    if not np.isfinite(metrics[OBJECTIVE_METRIC[objective]][0]) and objective == "accel_time":
+        out.append({"name": "accel_to_kmh",
+                    "why": (f"never reaches accel_to_kmh = {fmt(parts.problem.requirements.accel_to_kmh)} km/h "
+                            "(infinite time); the accel_time objective counts such a design infeasible")})
     return out
 
 

@@ -83,6 +83,37 @@ class DriveOptions:
 
 
 @dataclass(frozen=True)
+class Energy:
+    """Energy study settings (problem file table [energy]); a problem without the table has none.
+
+    Defaults are common practice (no published source) and are documented in `selector.io.problem`.
+    """
+
+    cycle: str
+    """Built-in cycle name (e.g. "wltc_class3b") or the path of a cycle CSV (relative to the working
+    directory, resolved from the problem file's folder)."""
+    range_km: float | None = None
+    """Range the battery must cover on the cycle [km]; None = energy per km only, no battery sizing."""
+    specific_energy_wh_per_kg: float | None = None
+    """Pack-level specific energy [Wh/kg] (required with range_km)."""
+    cost_per_kwh: float | None = None
+    """Battery price [currency/kWh] (required with range_km)."""
+    usable_fraction: float = 0.9
+    """Usable share of the battery's nominal energy [-]."""
+    inverter_efficiency_pct: float = 97.0
+    """Inverter efficiency, both directions [%]."""
+    auxiliary_w: float = 300.0
+    """Auxiliary load drawn at all times [W]."""
+    regen_max_kw: float | None = None
+    """Cap on the regenerated shaft power of all motors [kW]; None = motor envelope only; 0 = no
+    regeneration."""
+    regen_min_speed_kmh: float = 5.0
+    """No regeneration below this speed [km/h]."""
+    cycle_data: object = field(default=None, compare=False, repr=False)
+    """The loaded cycle (`selector.io.cycles.Cycle`), validated by the problem loader."""
+
+
+@dataclass(frozen=True)
 class Problem:
     """One study as stated in a problem file (TOML)."""
 
@@ -96,6 +127,8 @@ class Problem:
     objective: str = "cost"
     """"cost", "mass" or "accel_time"."""
     procurement: Procurement = field(default_factory=Procurement)
+    energy: Energy | None = None
+    """Energy study settings ([energy] table); None when the problem has no energy study."""
     drive: DriveOptions = field(default_factory=DriveOptions)
 
     @property

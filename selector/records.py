@@ -8,17 +8,14 @@ from __future__ import annotations
 
 import json
 import math
+import numbers
+from typing import TYPE_CHECKING
 
-import numpy as np
+if TYPE_CHECKING:
+    from selector.engine.parts import PartTables
 
-from selector.engine.parts import PartTables
-from selector.requirements import (
-    CHECK_LIMIT_METRIC,
-    CHECKS,
-    margin_fraction,
-    passes,
-    stated,
-)
+# No numpy, pandas or engine import at module level: the command line imports this module to print
+# its tables, also for `selector --help`; the record builders below import what they need.
 
 CAUTION = ("Caution: figures are estimates from catalogue data. Confirm ratings with the suppliers, "
            "thermal derating, braking and tyre regulations before ordering; defer to local codes, "
@@ -46,6 +43,8 @@ def clean(x):
 
 def requirement_rows(parts: PartTables, metrics: dict, pos: int = 0) -> list[dict]:
     """Required / achieved / margin / binding of every stated requirement for design ``pos``."""
+    from selector.requirements import margin_fraction, passes, stated
+
     rows = []
     for r, required in stated(parts.problem):
         achieved = float(metrics[r.metric][pos])
@@ -64,6 +63,8 @@ def requirement_rows(parts: PartTables, metrics: dict, pos: int = 0) -> list[dic
 
 def check_rows(parts: PartTables, metrics: dict, pos: int = 0) -> list[dict]:
     """Part-rating checks: demand (achieved) against the part's rating (required)."""
+    from selector.requirements import CHECK_LIMIT_METRIC, CHECKS, margin_fraction, passes
+
     rows = []
     for c in CHECKS:
         limit = float(metrics[CHECK_LIMIT_METRIC[c.name]][pos])
@@ -118,7 +119,7 @@ def fmt(x, digits=4) -> str:
         return "-"
     if isinstance(x, bool):
         return "yes" if x else "no"
-    if isinstance(x, (int, np.integer)):
+    if isinstance(x, numbers.Integral):  # int and numpy's integer types
         return str(x)
     x = float(x)
     if math.isinf(x):

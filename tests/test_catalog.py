@@ -20,6 +20,7 @@ INVALID = sorted((DATA / "invalid" / "catalogs").glob("*.csv"))
 
 MOTORS_HEADER = ("part,supplier,peak_torque_nm,peak_power_kw,max_speed_rpm,cont_torque_nm,cont_power_kw,"
                  "decline_speed_rpm,decline_exponent,mass_kg,rotor_inertia_kgm2,unit_cost,lead_time_weeks")
+MOTORS_ENERGY_COLUMNS = "loss_copper_w_per_nm2,loss_iron_nm,loss_windage_w_s3,loss_constant_w,efficiency_map"
 REDUCERS_REQUIRED = ("part,supplier,ratio,efficiency_pct,max_input_torque_nm,max_input_speed_rpm,mass_kg,"
                      "unit_cost,lead_time_weeks")
 REDUCERS_HEADER = REDUCERS_REQUIRED + ",ratio_2,ratio_3,efficiency_2_pct,efficiency_3_pct,shift_time_s"
@@ -46,11 +47,12 @@ def write(tmp_path: Path, name: str, text: str, **kw) -> Path:
 
 def test_schema_columns_match_the_documented_formats():
     # exact column lists of the catalogue formats documented in README.md
-    assert [c.name for c in SCHEMA["motors"]] == MOTORS_HEADER.split(",")
+    assert [c.name for c in SCHEMA["motors"]] == MOTORS_HEADER.split(",") + MOTORS_ENERGY_COLUMNS.split(",")
     assert [c.name for c in SCHEMA["reducers"]] == REDUCERS_HEADER.split(",")
     assert [c.name for c in SCHEMA["tyres"]] == TYRES_HEADER.split(",")
     optional = {c.name: c.default for c in SCHEMA["motors"] if not c.required}
-    assert optional == {"decline_speed_rpm": "max_speed_rpm", "decline_exponent": 1.0}
+    assert optional == {"decline_speed_rpm": "max_speed_rpm", "decline_exponent": 1.0,
+                        **{name: None for name in MOTORS_ENERGY_COLUMNS.split(",")}}
     for kind in SCHEMA:
         for c in columns(kind):
             assert c.type in ("float", "int", "str") and c.unit and c.rule and c.description

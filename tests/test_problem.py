@@ -224,3 +224,38 @@ def test_road_friction_defaults_to_dry_asphalt_with_a_warning(tmp_path):
     with pytest.warns(ProblemWarning, match="road_friction not given; assuming 0.8"):
         p = load_problem(path)
     assert p.environment.road_friction == 0.8
+
+
+# ------------------------------------------------------------------------------ [energy]
+
+
+def test_no_energy_table_means_no_energy_study(tmp_path):
+    assert load_problem(minimal(tmp_path)).energy is None
+
+
+def test_energy_table_defaults_and_builtin_cycle(tmp_path):
+    p = load_problem(minimal(tmp_path, '\n[energy]\ncycle = "WLTC_class3b"\n'))
+    e = p.energy
+    assert e.cycle == "wltc_class3b" and e.cycle_data.name == "wltc_class3b"
+    assert e.range_km is None and e.specific_energy_wh_per_kg is None and e.cost_per_kwh is None
+    # project defaults (common practice, no published source), documented in selector.io.problem.ENERGY_DEFAULTS
+    assert (e.usable_fraction, e.inverter_efficiency_pct, e.auxiliary_w) == (0.9, 97.0, 300.0)
+    assert e.regen_min_speed_kmh == 5.0
+    assert e.regen_max_kw is None
+
+
+def test_energy_table_all_keys_and_a_user_cycle(tmp_path):
+    (tmp_path / "loop.csv").write_text("# my loop (illustrative)\ntime_s,speed_kmh\n0,0\n1,10\n2,0\n",
+                                       encoding="utf-8")
+    text = ('\n[energy]\ncycle = "loop.csv"\nrange_km = 220\nspecific_energy_wh_per_kg = 155\ncost_per_kwh = 130\n'
+            'usable_fraction = 0.92\ninverter_efficiency_pct = 96.5\nauxiliary_w = 450\nregen_max_kw = 0\n'
+            'regen_min_speed_kmh = 8\n')
+    e = load_problem(minimal(tmp_path, text)).energy
+    assert Path(e.cycle) == tmp_path / "loop.csv" and e.cycle_data.duration_s == 2.0
+    assert (e.range_km, e.specific_energy_wh_per_kg, e.cost_per_kwh, e.usable_fraction) == (220.0, 155.0, 130.0, 0.92)
+    assert (e.inverter_efficiency_pct, e.auxiliary_w, e.regen_max_kw, e.regen_min_speed_kmh) == (96.5, 450.0, 0.0, 8.0)
+
+
+def test_battery_keys_without_range_warn(tmp_path):
+    with pytest.warns(ProblemWarning, match="specific_energy_wh_per_kg given without range_km: no battery is sized"):
+        load_problem(minimal(tmp_path, '\n[energy]\ncycle = "udds"\nspecific_energy_wh_per_kg = 150\n'))

@@ -40,6 +40,23 @@ Tyres
     of Reg. (EU) 2020/740), prices and lead times.  Mass follows the
     section width x outer diameter, +25 % for C-type construction.
 
+Motor losses (for energy studies)
+    Every motor gets the four coefficients of the polynomial loss model
+    P_loss = k_c T^2 + k_i w + k_w w^3 + C0 (Larminie and Lowry, Electric
+    Vehicle Technology Explained, 2nd ed., 2012), drawn from a second
+    generator seeded with (seed, 1) so the other columns are unchanged.  At a
+    reference point (1.5 x corner speed, at most 60 % of the maximum speed;
+    35-50 % of the envelope torque) copper loss is half the loss and iron,
+    windage and constant losses share the other half; all four are then
+    scaled together until the peak efficiency under the torque envelope hits
+    a target drawn per supplier (90-96 %: industrial and induction motors
+    lower, hairpin and axial-flux PMSMs higher).  Three motors (one each
+    from KM, LA and TE) also get an efficiency map, ``catalogs/maps/<part>.csv``:
+    a 17 x 13 grid over 0..max speed and 0..peak torque computed from that
+    motor's loss model with perturbed coefficients (standing in for a
+    measurement), efficiency 0 at zero speed or torque.  Invented and
+    illustrative, like everything else here.
+
 The CSVs are the product; this script documents how they were made.
 """
 
@@ -48,9 +65,16 @@ from __future__ import annotations
 import argparse
 import csv
 import math
+import sys
 from pathlib import Path
 
 import numpy as np
+
+try:
+    from selector.physics.losses import peak_efficiency
+except ImportError:  # run from a checkout without installing
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+    from selector.physics.losses import peak_efficiency
 
 SEED = 20240611
 
@@ -158,6 +182,107 @@ def make_motors(rng: np.random.Generator) -> list[dict]:
         seen.add(part)
         row["part"] = part
     return rows
+
+
+# ------------------------------------------------------------------- motor losses
+# target peak efficiency range [%] per motor supplier prefix
+PEAK_EFFICIENCY_PCT = {"HD": (94.0, 96.0), "KM": (95.0, 96.0), "BI": (90.0, 92.5), "LA": (94.5, 96.0),
+                       "TE": (91.0, 93.5), "QM": (92.5, 94.5)}
+LOSS_COLUMNS = ["loss_copper_w_per_nm2", "loss_iron_nm", "loss_windage_w_s3", "loss_constant_w"]
+MAP_SUPPLIERS = ("KM", "LA", "TE")
+MAP_SPEEDS, MAP_TORQUES = 17, 13
+
+
+def _sig(x: float, digits: int = 4) -> float:
+    """Round to significant digits."""
+    return float(f"{x:.{digits - 1}e}")
+
+
+def _envelope(row: dict) -> tuple[float, float, float, float, float]:
+    """(T [N m], P [W], decline [rad/s], exponent, max speed [rad/s]) of a motor row."""
+    w_max = row["max_speed_rpm"] * math.pi / 30
+    dec, expo = row["decline_speed_rpm"], row["decline_exponent"]
+    return (float(row["peak_torque_nm"]), row["peak_power_kw"] * 1e3, w_max if dec == "" else dec * math.pi / 30,
+            1.0 if expo == "" else expo, w_max)
+
+
+def _loss_coefficients(row: dict, rng: np.random.Generator) -> tuple[list[float], float]:
+    """Loss coefficients of one motor hitting a drawn peak efficiency; returns (coefficients, peak)."""
+    t_pk, p_pk, dec, expo, w_max = _envelope(row)
+    lo, hi = PEAK_EFFICIENCY_PCT[row["part"][:2]]
+    target = rng.uniform(lo, hi) / 100.0
+    w_ref = min(1.5 * p_pk / t_pk, 0.6 * w_max)
+    t_ref = rng.uniform(0.35, 0.5) * min(t_pk, p_pk / w_ref)
+    p_ref = t_ref * w_ref
+    loss = p_ref * (1.0 / target - 1.0)
+    iron, windage = rng.uniform(0.55, 0.7), rng.uniform(0.1, 0.25)
+    const = 1.0 - iron - windage
+    base = [0.5 * loss / t_ref**2, 0.5 * loss * iron / w_ref, 0.5 * loss * windage / w_ref**3, 0.5 * loss * const]
+
+    def peak(k: float) -> float:
+        return peak_efficiency(*[k * b for b in base], t_pk, p_pk, dec, expo, w_max, n_speed=80, n_torque=80)
+
+    k_lo, k_hi = 1e-3, 1e3  # peak(k) falls as k grows
+    for _ in range(80):
+        k = math.sqrt(k_lo * k_hi)
+        if peak(k) > target:
+            k_lo = k
+        else:
+            k_hi = k
+    coef = [_sig(k_lo * b) for b in base]
+    return coef, peak_efficiency(*coef, t_pk, p_pk, dec, expo, w_max, n_speed=80, n_torque=80)
+
+
+def add_motor_losses(motors: list[dict], rng: np.random.Generator) -> None:
+    """Add the loss-model columns (and an empty efficiency_map) to every motor row, in place."""
+    for row in motors:
+        coef, peak = _loss_coefficients(row, rng)
+        lo, hi = PEAK_EFFICIENCY_PCT[row["part"][:2]]
+        if not (lo - 0.1) / 100 <= peak <= (hi + 0.1) / 100:
+            raise ValueError(f"loss model of {row['part']} gives peak efficiency {peak:.4f}, outside {lo}-{hi} %")
+        row.update(zip(LOSS_COLUMNS, coef))
+        row["efficiency_map"] = ""
+
+
+def make_maps(motors: list[dict], rng: np.random.Generator) -> dict[str, list[list]]:
+    """Invented efficiency maps for one motor of each supplier in MAP_SUPPLIERS (the median power).
+
+    Returns {part: rows of (speed_rpm, torque_nm, efficiency_pct)} and sets each chosen row's
+    efficiency_map to ``maps/<part>.csv``.
+    """
+    maps = {}
+    for prefix in MAP_SUPPLIERS:
+        rows = sorted((r for r in motors if r["part"].startswith(prefix)), key=lambda r: r["peak_power_kw"])
+        row = rows[len(rows) // 2]
+        k_c, k_i, k_w, c0 = (row[c] * rng.uniform(0.9, 1.1) for c in LOSS_COLUMNS)
+        speeds = np.linspace(0.0, row["max_speed_rpm"], MAP_SPEEDS)
+        torques = np.linspace(0.0, row["peak_torque_nm"], MAP_TORQUES)
+        table = []
+        for n in speeds:
+            w = n * math.pi / 30
+            for t in torques:
+                p = t * w
+                eta = 0.0 if p == 0 else p / (p + k_c * t * t + k_i * w + k_w * w**3 + c0)
+                table.append([int(round(n)), round(float(t), 2), round(100 * eta, 1)])
+        maps[row["part"]] = table
+        row["efficiency_map"] = f"maps/{row['part']}.csv"
+    return maps
+
+
+MAP_NOTE = [
+    "# Invented, illustrative efficiency map of the demo motor {part} (not measured data).",
+    "# Generated by tools/make_demo_catalogs.py; efficiency_pct over speed_rpm x torque_nm (full grid).",
+]
+
+
+def write_map(path: Path, part: str, table: list[list]) -> None:
+    """Write one efficiency-map CSV."""
+    with path.open("w", newline="", encoding="utf-8") as fh:
+        for line in MAP_NOTE:
+            fh.write(line.format(part=part) + "\n")
+        writer = csv.writer(fh, lineterminator="\n")
+        writer.writerow(["speed_rpm", "torque_nm", "efficiency_pct"])
+        writer.writerows(table)
 
 
 # ------------------------------------------------------------------------- reducers
@@ -314,7 +439,7 @@ def make_tyres(rng: np.random.Generator) -> list[dict]:
 MOTOR_COLUMNS = [
     "part", "supplier", "peak_torque_nm", "peak_power_kw", "max_speed_rpm", "cont_torque_nm",
     "cont_power_kw", "decline_speed_rpm", "decline_exponent", "mass_kg", "rotor_inertia_kgm2",
-    "unit_cost", "lead_time_weeks", "notes",
+    "unit_cost", "lead_time_weeks", *LOSS_COLUMNS, "efficiency_map", "notes",
 ]
 REDUCER_COLUMNS = [
     "part", "supplier", "ratio", "efficiency_pct", "max_input_torque_nm", "max_input_speed_rpm",
@@ -367,11 +492,18 @@ def main(argv: list[str] | None = None) -> int:
         check_motor(row)
     reducers = make_reducers(rng)
     tyres = make_tyres(rng)
+    loss_rng = np.random.default_rng((args.seed, 1))  # separate stream: the other columns stay unchanged
+    add_motor_losses(motors, loss_rng)
+    maps = make_maps(motors, loss_rng)
     args.out.mkdir(parents=True, exist_ok=True)
+    (args.out / "maps").mkdir(exist_ok=True)
+    for part, table in maps.items():
+        write_map(args.out / "maps" / f"{part}.csv", part, table)
     write_csv(args.out / "motors.csv", MOTOR_COLUMNS, motors)
     write_csv(args.out / "reducers.csv", REDUCER_COLUMNS, reducers)
     write_csv(args.out / "tyres.csv", TYRE_COLUMNS, tyres)
-    print(f"wrote {len(motors)} motors, {len(reducers)} reducers, {len(tyres)} tyres to {args.out}")
+    print(f"wrote {len(motors)} motors, {len(reducers)} reducers, {len(tyres)} tyres and {len(maps)} efficiency "
+          f"maps to {args.out}")
     return 0
 
 

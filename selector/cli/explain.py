@@ -9,6 +9,7 @@ import argparse
 
 from selector.cli.args import add_common
 from selector.records import CAUTION, dumps, fmt, parts_table, table
+from selector.studies.defaults import NEAR_MISS_PCT, STEP_PCT
 
 
 def _pct(text):
@@ -22,13 +23,15 @@ def _pct(text):
 
 
 def _setup(p):
-    from selector.studies.explain import NEAR_MISS_PCT, STEP_PCT
-
     add_common(p)
     p.add_argument("--step", type=_pct, default=STEP_PCT, metavar="PCT",
                    help=f"loosening step for the price of each requirement [%%] (default {STEP_PCT:g})")
     p.add_argument("--near-miss", type=_pct, default=NEAR_MISS_PCT, metavar="PCT",
                    help=f"largest miss of a near-miss design [%%] (default {NEAR_MISS_PCT:g})")
+
+
+def _relax(relax: dict) -> str:
+    return ", ".join(f"{k} = {'dropped' if v is None else fmt(v)}" for k, v in relax.items())
 
 
 def _ids(d) -> str:
@@ -91,19 +94,28 @@ def render_infeasible(res: dict) -> str:
     else:
         lines.append(f"Closest design (least sum of normalised shortfalls): {_ids(c)}")
         lines.append(table(["requirement", "sense", "required", "achieved", "unit", "shortfall", "shortfall %"],
-                           [[r["name"] + (f" (to {fmt(r['accel_to_kmh'])} km/h)" if "accel_to_kmh" in r else ""),
+                           [[r["name"] + (f" (to {fmt(r['accel_to_kmh'])} km/h)"
+                                          if r["name"] == "accel_time_s" else ""),
                              r["sense"], fmt(r["required"]), fmt(r["achieved"]), r["unit"],
                              fmt(r["shortfall"]), fmt(r["shortfall_pct"], 3)] for r in c["shortfalls"]],
                            "llrrlrr"))
+        for r in c["shortfalls"]:
+            if "reach_kmh" in r and not r["met"] and (r["name"] == "accel_to_kmh" or r["achieved"] is None):
+                lines.append(f"{r['name']}: never reaches {fmt(r['accel_to_kmh'])} km/h; its acceleration run ends at "
+                             f"{fmt(r['reach_kmh'])} km/h ({r['reach_limit']} limit)")
         lines.append("")
-        relax = ", ".join(f"{k} = {fmt(v)}" for k, v in res["relaxation"].items())
-        verdict = ("confirmed: a re-solve with these values is feasible" if res["relaxation_verified"]
-                   else "NOT confirmed by a re-solve")
-        lines.append(f"Relax {relax}  ({verdict})")
-        if res.get("relaxed_optimum"):
+        if res["relaxation_verified"]:
+            lines.append(f"Relax {_relax(res['relaxation'])}  (confirmed: a re-solve with these values is feasible)")
             o = res["relaxed_optimum"]
             lines.append(f"optimum with the relaxed requirements: {_ids(o)}   "
                          f"{res['objective']['minimize']} {fmt(o['objective'])} {res['objective']['unit']}")
+        else:
+            note = res.get("relaxation_note") or "no confirmed relaxation"
+            lines.append(note[0].upper() + note[1:])
+        others = [o for o in res.get("relaxation_options", []) if o["relaxation"] != res["relaxation"]]
+        for o in others:
+            verdict = "also confirmed by a re-solve" if o["verified"] else "NOT confirmed by a re-solve"
+            lines.append(f"{'or relax' if o['verified'] else 'tried'} {_relax(o['relaxation'])}  ({verdict})")
     lines += ["", "Summary"] + [f"- {s}" for s in res["summary"]]
     return "\n".join(lines)
 

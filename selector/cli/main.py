@@ -97,6 +97,8 @@ def _cmd_simulate(args) -> int:
     print(parts_table(d) + "\n")
     print(performance_table(d) + "\n")
     print(requirement_table(d))
+    for u in d["unmet"]:
+        print(f"not met: {u['name']}: {u['why']}")
     if getattr(args, "plot", None):
         print(f"\nplot written to {args.plot}")
     print("\n" + CAUTION)

@@ -15,6 +15,7 @@ import csv
 import difflib
 import io
 import math
+import os
 import re
 import warnings
 from pathlib import Path
@@ -24,6 +25,7 @@ import pandas as pd
 
 from selector.errors import InputError
 from selector.inputs import Catalogs
+from selector.io.efficiency_map import load_efficiency_map
 from selector.io.schema import DERIVED_COLUMNS, KINDS, SOURCE_ROW, Column, columns
 from selector.physics.tyres import (
     LOAD_INDEX_KG,
@@ -35,12 +37,21 @@ from selector.physics.tyres import (
     speed_rating_kmh,
     unloaded_diameter_m,
 )
+from selector.physics.losses import peak_efficiency
 from selector.units import RPM_TO_RAD_S
 
-__all__ = ["CatalogWarning", "load_catalog", "load_catalogs"]
+__all__ = ["LOSS_COLUMNS", "CatalogWarning", "load_catalog", "load_catalogs", "motor_loss_models"]
+
+LOSS_COLUMNS = ("loss_copper_w_per_nm2", "loss_iron_nm", "loss_windage_w_s3", "loss_constant_w")
+"""Motor columns of the polynomial loss model (all four or none)."""
+MAP_COLUMN = "efficiency_map"
+"""Motor column naming an efficiency-map CSV."""
+MAP_GRID_COLUMN = "efficiency_map_grid"
+"""Derived motor column holding the loaded map (`selector.physics.losses.EfficiencyGrid` or None)."""
 
 # Plausibility bounds for warnings (common practice, no published source).
 MOTOR_MASS_WARN_KG = 500.0
+PEAK_EFFICIENCY_WARN_PCT = (80.0, 99.0)
 EFFICIENCY_WARN_PCT = 80.0
 RR_WARN_N_PER_KN = (4.0, 20.0)
 RATIO_WARN = (1.0, 30.0)
@@ -139,6 +150,25 @@ def load_catalogs(paths: dict) -> Catalogs:
         raise InputError(f"{len(messages)} catalogue files have errors (listed below).\n" + "\n".join(messages))
     return Catalogs(motors=frames["motors"], reducers=frames["reducers"], tyres=frames["tyres"],
                     paths={k: Path(paths[k]) for k in KINDS})
+
+
+def motor_loss_models(motors: pd.DataFrame) -> np.ndarray:
+    """Which loss model each motor row has for energy studies.
+
+    Parameters
+    ----------
+    motors : pandas.DataFrame
+        A motors catalogue as returned by `load_catalog`.
+
+    Returns
+    -------
+    numpy.ndarray of str, shape (rows,)
+        ``"map"`` (an efficiency map; it takes precedence), ``"polynomial"`` (the four loss
+        columns) or ``"none"`` (the motor cannot be used in an energy study).
+    """
+    has_map = motors[MAP_GRID_COLUMN].notna().to_numpy()
+    has_poly = np.all([motors[c].notna().to_numpy() for c in LOSS_COLUMNS], axis=0)
+    return np.where(has_map, "map", np.where(has_poly, "polynomial", "none"))
 
 
 # --------------------------------------------------------------------------------------------
@@ -318,8 +348,38 @@ def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
         lines.append(line)
     if errors:
         raise InputError(_report(disp, kind, errors))
+    grids = None
+    if kind == "motors":
+        grids = _load_efficiency_maps(typed, lines, path, disp, errors)
+        if errors:
+            raise InputError(_report(disp, kind, errors))
 
-    return _frame(kind, schema, typed, extra_vals, lines), errors, odd
+    return _frame(kind, schema, typed, extra_vals, lines, grids), errors, odd
+
+
+def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, errors: list[str]) -> list:
+    """Load the efficiency map of every motor row that names one (each file once); collect errors."""
+    grids: list = []
+    loaded: dict[Path, object] = {}
+    for line, part, given in zip(lines, typed["part"], typed[MAP_COLUMN]):
+        if not given:
+            grids.append(None)
+            continue
+        target = Path(os.path.normpath(path.parent / given))
+        if target not in loaded:
+            try:
+                loaded[target] = load_efficiency_map(target, disp=str(target))
+            except InputError as exc:
+                loaded[target] = exc
+        got = loaded[target]
+        if isinstance(got, InputError):
+            detail = str(got).replace("\n", "\n    ")
+            errors.append(f"{_loc(disp, line, part or '')}: {MAP_COLUMN} = \"{given}\" cannot be used "
+                          f"(paths are relative to the catalogue file): {detail}")
+            grids.append(None)
+        else:
+            grids.append(got)
+    return grids
 
 
 def _loc(disp: str, line: int, part: str) -> str:
@@ -402,42 +462,85 @@ def _check_text(c: Column, raw: str, loc: str):
     return raw, None
 
 
+def distinct_numbers(*values, digits=None) -> list[str]:
+    """The numbers of one comparison message, each with enough significant digits to show how they compare.
+
+    Each value gets at least ``digits[n]`` significant digits (default 6, as ``:g``), and all get
+    more, together, until the printed numbers are ordered as the values are (e.g. a corner speed
+    of 3493.05 rpm against decline_speed_rpm = 3493.1 prints "3493.05", not "3493").
+    """
+    mins = digits or (6,) * len(values)
+    values = [float(x) for x in values]
+    for d in range(1, 18):
+        shown = [f"{x:.{max(d, m)}g}" for x, m in zip(values, mins)]
+        back = [float(t) for t in shown]
+        if all((back[a] > back[b]) == (values[a] > values[b]) and (back[a] < back[b]) == (values[a] < values[b])
+               for a in range(len(values)) for b in range(a)):
+            return shown
+    return [repr(x) for x in values]
+
+
 def _check_row(kind: str, v: dict, loc: str):
     """Cross-column rules and plausibility warnings for one row whose cells are all valid."""
     errors, odd = [], []
     if kind == "motors":
         for cont, peak, unit in (("cont_torque_nm", "peak_torque_nm", "N m"), ("cont_power_kw", "peak_power_kw", "kW")):
             if v[cont] > v[peak] * (1 + _REL_TOL):
-                errors.append(f"{loc}: {cont} = {v[cont]:g} is above {peak} = {v[peak]:g}; must be <= {peak} "
+                a, b = distinct_numbers(v[cont], v[peak])
+                errors.append(f"{loc}: {cont} = {a} is above {peak} = {b}; must be <= {peak} "
                               f"[{unit}]. Check both values against the datasheet.")
         n_max = v["max_speed_rpm"]
         n_dec = v["decline_speed_rpm"]
         corner = v["peak_power_kw"] * 1000.0 / v["peak_torque_nm"] / RPM_TO_RAD_S
         if n_dec is not None and n_dec > n_max * (1 + _REL_TOL):
-            errors.append(f"{loc}: decline_speed_rpm = {n_dec:g} is above max_speed_rpm = {n_max:g}; must be "
+            a, b = distinct_numbers(n_dec, n_max)
+            errors.append(f"{loc}: decline_speed_rpm = {a} is above max_speed_rpm = {b}; must be "
                           "<= max_speed_rpm [rpm]. Fix one of the two values (leave decline_speed_rpm empty "
                           "for constant power up to max speed).")
         else:
             limit, what = (n_dec, "decline_speed_rpm") if n_dec is not None else (
                 n_max, "max_speed_rpm (decline_speed_rpm is empty, so it equals max_speed_rpm)")
             if corner > limit * (1 + _REL_TOL):
-                errors.append(f"{loc}: corner speed = {corner:.0f} rpm (peak_power_kw x 1000 / peak_torque_nm "
+                # the computed corner speed in whole rpm unless more digits are needed to tell it from the limit
+                a, b = distinct_numbers(corner, limit, digits=(len(f"{corner:.0f}"), 6))
+                errors.append(f"{loc}: corner speed = {a} rpm (peak_power_kw x 1000 / peak_torque_nm "
                               f"with peak_power_kw = {v['peak_power_kw']:g}, peak_torque_nm = "
-                              f"{v['peak_torque_nm']:g}) is above {what} = {limit:g}; must be <= "
+                              f"{v['peak_torque_nm']:g}) is above {what} = {b}; must be <= "
                               f"{what.split(' ')[0]} [rpm]. Check the three values against the datasheet.")
+        loss_given = [c for c in LOSS_COLUMNS if v[c] is not None]
+        if loss_given and len(loss_given) < len(LOSS_COLUMNS):
+            missing = [c for c in LOSS_COLUMNS if v[c] is None]
+            errors.append(f"{loc}: loss-model columns {', '.join(missing)} are empty but "
+                          f"{', '.join(loss_given)} {'is' if len(loss_given) == 1 else 'are'} given; give all "
+                          f"four ({', '.join(LOSS_COLUMNS)}) or none. Write 0 for a loss the datasheet "
+                          "leaves out.")
+        elif loss_given:
+            peak = 100.0 * peak_efficiency(
+                v["loss_copper_w_per_nm2"], v["loss_iron_nm"], v["loss_windage_w_s3"], v["loss_constant_w"],
+                v["peak_torque_nm"], v["peak_power_kw"] * 1000.0,
+                (v["decline_speed_rpm"] or n_max) * RPM_TO_RAD_S, v["decline_exponent"] or 1.0,
+                n_max * RPM_TO_RAD_S, n_speed=60, n_torque=60)
+            lo, hi = PEAK_EFFICIENCY_WARN_PCT
+            if not lo <= peak <= hi:
+                odd.append(f"{loc}: the loss model gives a peak efficiency of {peak:.1f} % under the torque "
+                           f"envelope; outside {lo:g}..{hi:g} %, unusual for a traction motor. Check the loss "
+                           "coefficients and their units (T in N m, w in rad/s, losses in W).")
         if v["mass_kg"] > MOTOR_MASS_WARN_KG:
-            odd.append(f"{loc}: mass_kg = {v['mass_kg']:g}; above {MOTOR_MASS_WARN_KG:g} kg, unusual for a "
+            a, b = distinct_numbers(v["mass_kg"], MOTOR_MASS_WARN_KG)
+            odd.append(f"{loc}: mass_kg = {a}; above {b} kg, unusual for a "
                        "traction motor. Check the value and its unit (kg).")
     elif kind == "reducers":
         eff = v["efficiency_pct"]
         if eff < EFFICIENCY_WARN_PCT:
             hint = (" It looks like a fraction; efficiency_pct is in percent (96 means 96 %)." if eff <= 1
                     else " Check the value.")
-            odd.append(f"{loc}: efficiency_pct = {eff:g}; below {EFFICIENCY_WARN_PCT:g} %, unusual for a "
+            a, b = distinct_numbers(eff, EFFICIENCY_WARN_PCT)
+            odd.append(f"{loc}: efficiency_pct = {a}; below {b} %, unusual for a "
                        f"reducer.{hint}")
         lo, hi = RATIO_WARN
         if not lo <= v["ratio"] <= hi:
-            odd.append(f"{loc}: ratio = {v['ratio']:g}; outside {lo:g}..{hi:g}, unusual for a single-speed "
+            a, b, c = distinct_numbers(v["ratio"], lo, hi)
+            odd.append(f"{loc}: ratio = {a}; outside {b}..{c}, unusual for a single-speed "
                        "traction reducer. Check the value (ratio = motor speed / wheel speed).")
         gear_errors, gear_odd = _check_gears(v, loc)
         errors += gear_errors
@@ -448,7 +551,8 @@ def _check_row(kind: str, v: dict, loc: str):
         if not lo <= rr <= hi:
             hint = (" It looks like a dimensionless Crr; the column is in N/kN (Crr x 1000, e.g. 8.5)."
                     if rr < 0.1 else " Check the value (EU tyre label classes span about 6.5..12 N/kN).")
-            odd.append(f"{loc}: rr_coefficient_n_per_kn = {rr:g}; outside {lo:g}..{hi:g} N/kN.{hint}")
+            a, b, c = distinct_numbers(rr, lo, hi)
+            odd.append(f"{loc}: rr_coefficient_n_per_kn = {a}; outside {b}..{c} N/kN.{hint}")
     return errors, odd
 
 
@@ -486,7 +590,7 @@ def _check_gears(v: dict, loc: str):
 # typed frame
 
 
-def _frame(kind, schema, typed, extra_vals, lines) -> pd.DataFrame:
+def _frame(kind, schema, typed, extra_vals, lines, grids=None) -> pd.DataFrame:
     data = {}
     for c in schema:
         vals = typed[c.name]
@@ -509,6 +613,8 @@ def _frame(kind, schema, typed, extra_vals, lines) -> pd.DataFrame:
         data["shift_time_s"] = np.where(np.isnan(st), 0.0, st)
     for h, vals in extra_vals.items():
         data[h] = pd.array(vals, dtype=object)
+    if kind == "motors":
+        data[MAP_GRID_COLUMN] = pd.array(grids if grids is not None else [None] * len(lines), dtype=object)
     data[SOURCE_ROW] = np.array(lines, dtype=np.int64)
     df = pd.DataFrame(data)
     if kind == "tyres":

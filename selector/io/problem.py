@@ -14,6 +14,9 @@ Choices made here (documented for users):
   none of them = ISA sea level, 1.225 kg/m^3.
 - Drag: ``drag_area_m2``, or ``drag_coefficient`` together with ``frontal_area_m2``.
 - Catalogue paths are relative to the problem file.
+- ``[energy]`` (optional; an energy study): ``cycle`` is required (a built-in cycle name or a cycle
+  CSV relative to the problem file, loaded and validated here); ``range_km`` needs
+  ``specific_energy_wh_per_kg`` and ``cost_per_kwh``; the other keys default to `ENERGY_DEFAULTS`.
 """
 
 from __future__ import annotations
@@ -24,7 +27,7 @@ import os
 import re
 import tomllib
 import warnings
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from pathlib import Path
 from typing import Callable
 
@@ -32,6 +35,7 @@ from selector.errors import InputError
 from selector.inputs import (
     Catalogs,
     DriveOptions,
+    Energy,
     Environment,
     Problem,
     Procurement,
@@ -39,6 +43,7 @@ from selector.inputs import (
     Vehicle,
 )
 from selector.io.catalog import load_catalogs
+from selector.io.cycles import BUILTIN_CYCLES, load_cycle
 from selector.physics.atmosphere import (
     ISA_MAX_ALTITUDE_M,
     ISA_MIN_ALTITUDE_M,
@@ -53,6 +58,14 @@ DRIVEN_AXLES = ("rear", "front", "both")
 ROLLING_RADIUS_FACTOR_RANGE = (0.9, 1.0)
 ROAD_FRICTION_MAX = 2.0          # common practice, no published source: road tyres stay well below
 TEMPERATURE_RANGE_C = (-70.0, 60.0)  # common practice, no published source: road-vehicle climates
+ENERGY_DEFAULTS = {f.name: f.default for f in fields(Energy)
+                   if f.name in ("usable_fraction", "inverter_efficiency_pct", "auxiliary_w", "regen_min_speed_kmh")}
+"""Defaults of the optional [energy] keys (from `selector.inputs.Energy`; common practice, no
+published source): 90 % of the nominal pack energy usable, a 97 % traction inverter, 300 W of
+auxiliary load (controls, lights, pumps; no cabin climate), no regeneration below 5 km/h.
+``regen_max_kw`` absent = limited by the motor envelope only. ``cycle`` has no default (a slow
+vehicle cannot follow a fast cycle); ``specific_energy_wh_per_kg`` and ``cost_per_kwh`` have none
+(they decide the battery) and are required with ``range_km``."""
 
 
 class ProblemWarning(UserWarning):
@@ -160,6 +173,25 @@ TABLES: dict[str, dict[str, Key]] = {
         Key("same_unit", "bool", False, "", None, "the same motor and reducer part on both axles"),
         Key("front_motors", "str list", False, "", None, "motor part ids or suppliers allowed on the front axle"),
         Key("rear_motors", "str list", False, "", None, "motor part ids or suppliers allowed on the rear axle"),
+    )},
+    "energy": {k.name: k for k in (
+        Key("cycle", "str", True, "", None,
+            "built-in driving cycle (" + ", ".join(BUILTIN_CYCLES) + ") or a cycle CSV relative to this file"),
+        Key("range_km", "number", False, "km", _positive, "range the battery must cover on the cycle"),
+        Key("specific_energy_wh_per_kg", "number", False, "Wh/kg", _positive,
+            "pack-level specific energy (required with range_km)"),
+        Key("cost_per_kwh", "number", False, "currency/kWh", _non_negative,
+            "battery price per kWh (required with range_km)"),
+        Key("usable_fraction", "number", False, "", _between(0.0, 1.0, lo_open=True),
+            f"usable share of the battery energy, default {ENERGY_DEFAULTS['usable_fraction']:g}"),
+        Key("inverter_efficiency_pct", "number", False, "%", _between(0.0, 100.0, lo_open=True),
+            f"inverter efficiency, default {ENERGY_DEFAULTS['inverter_efficiency_pct']:g}"),
+        Key("auxiliary_w", "number", False, "W", _non_negative,
+            f"auxiliary load at all times, default {ENERGY_DEFAULTS['auxiliary_w']:g}"),
+        Key("regen_max_kw", "number", False, "kW", _non_negative,
+            "cap on regenerated motor power (absent = motor envelope only, 0 = no regeneration)"),
+        Key("regen_min_speed_kmh", "number", False, "km/h", _non_negative,
+            f"no regeneration below this speed, default {ENERGY_DEFAULTS['regen_min_speed_kmh']:g}"),
     )},
 }
 """Allowed keys per table of the problem file."""
@@ -386,6 +418,7 @@ def load_problem(path) -> Problem:
     procurement = Procurement(**proc)
     drive = _drive(col, values["drive"], data, vehicle)
     catalog_paths = _catalog_paths(col, path, values["catalogs"])
+    energy = _energy(col, path, values["energy"], data)
 
     if col.errors:
         n = len(col.errors)
@@ -395,7 +428,7 @@ def load_problem(path) -> Problem:
         warnings.warn(note, ProblemWarning, stacklevel=2)
     return Problem(name=name, path=path, catalog_paths=catalog_paths, vehicle=vehicle, drive=drive,
                    environment=environment, requirements=requirements, objective=objective,
-                   procurement=procurement)
+                   procurement=procurement, energy=energy)
 
 
 def load_study(path) -> tuple[Problem, Catalogs]:
@@ -538,6 +571,36 @@ def _objective(col: _Collector, v: dict, data: dict) -> str:
         col.add(f"{col.where('objective', 'minimize')} minimize = \"accel_time\" needs [requirements] "
                 "accel_to_kmh (the target speed of the acceleration run). Add it [km/h].")
     return minimize
+
+
+def _energy(col: _Collector, path: Path, v: dict, data: dict) -> Energy | None:
+    raw = data.get("energy")
+    if not isinstance(raw, dict):
+        return None
+    if "range_km" in raw:
+        for key in ("specific_energy_wh_per_kg", "cost_per_kwh"):
+            if key not in raw:
+                unit = TABLES["energy"][key].unit
+                col.add(f"{col.where('energy', 'range_km')} range_km is given without {key}; sizing the battery "
+                        f"for a range needs it. Add {key} [{unit}].")
+    elif "specific_energy_wh_per_kg" in raw or "cost_per_kwh" in raw:
+        given = [k for k in ("specific_energy_wh_per_kg", "cost_per_kwh") if k in raw]
+        col.notes.append(f"{col.where('energy', given[0])} {' and '.join(given)} given without range_km: no "
+                         "battery is sized, so they are not used. Add range_km to size the battery.")
+    if "cycle" not in v:
+        return None
+    given = v["cycle"]
+    try:
+        cycle = load_cycle(given, base_dir=path.parent)
+    except InputError as exc:
+        detail = str(exc).replace("\n", "\n    ")
+        col.add(f"{col.where('energy', 'cycle')} cycle = {_toml_repr(given)}: {detail}")
+        return None
+    if any(k not in v for k in raw if k in TABLES["energy"]):
+        return None
+    name = given.strip().lower() if given.strip().lower() in BUILTIN_CYCLES else os.path.normpath(cycle.path)
+    values = {k: float(x) for k, x in v.items() if k != "cycle"}
+    return Energy(cycle=name, cycle_data=cycle, **values)
 
 
 def _catalog_paths(col: _Collector, path: Path, v: dict) -> dict[str, Path]:

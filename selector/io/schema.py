@@ -12,7 +12,9 @@ Rules understood by the loader (`Column.rule`):
 - ``"unique, non-empty"``: non-blank text, unique within the file (the part id);
 - ``"ISO metric size"``: e.g. ``205/55R16`` (see `selector.physics.tyres.parse_tyre_size`);
 - ``"ISO speed symbol"``: a key of `SPEED_SYMBOL_KMH`;
-- ``"load index 60..130"``: a whole number that is a key of `LOAD_INDEX_KG`.
+- ``"load index 60..130"``: a whole number that is a key of `LOAD_INDEX_KG`;
+- ``"CSV file"``: text naming a file relative to the catalogue, loaded by the catalogue loader
+  (``efficiency_map``: `selector.io.efficiency_map`).
 """
 
 from __future__ import annotations
@@ -52,6 +54,24 @@ _COST = Column("unit_cost", "float", "currency", True, None, ">= 0",
 _LEAD = Column("lead_time_weeks", "float", "weeks", True, None, ">= 0",
                "Delivery lead time (0 = in stock).")
 
+_MOTOR_LOSS_COLUMNS = (
+    Column("loss_copper_w_per_nm2", "float", "W/(N m)^2", False, None, ">= 0",
+           "Copper-loss coefficient k_c of the motor loss model P_loss = k_c T^2 + k_i w + k_w w^3 + C0 "
+           "(T in N m, w in rad/s; Larminie and Lowry, Electric Vehicle Technology Explained, 2nd ed., 2012), "
+           "for energy studies. Give all four loss_* columns or none (empty = no loss model)."),
+    Column("loss_iron_nm", "float", "N m", False, None, ">= 0",
+           "Iron-loss coefficient k_i of the loss model (W per rad/s = N m)."),
+    Column("loss_windage_w_s3", "float", "W s^3", False, None, ">= 0",
+           "Windage-loss coefficient k_w of the loss model (W per (rad/s)^3 = W s^3)."),
+    Column("loss_constant_w", "float", "W", False, None, ">= 0", "Constant loss C0 of the loss model."),
+    Column("efficiency_map", "str", "-", False, None, "CSV file",
+           "Measured efficiency map: path of a CSV file, relative to this catalogue, with columns speed_rpm, "
+           "torque_nm, efficiency_pct on a rectangular grid; read with bilinear interpolation, never "
+           "extrapolated (points outside it are errors of the design). Takes precedence over the loss "
+           "columns; empty = none."),
+)
+"""Optional motor columns for energy studies (loss model and efficiency map)."""
+
 SCHEMA: dict[str, tuple[Column, ...]] = {
     "motors": (
         _PART,
@@ -72,6 +92,7 @@ SCHEMA: dict[str, tuple[Column, ...]] = {
         Column("rotor_inertia_kgm2", "float", "kg m^2", True, None, "> 0", "Rotor polar moment of inertia."),
         _COST,
         _LEAD,
+        *_MOTOR_LOSS_COLUMNS,
     ),
     "reducers": (
         _PART,
@@ -114,7 +135,11 @@ SCHEMA: dict[str, tuple[Column, ...]] = {
 """Canonical columns per catalogue kind, in file order."""
 
 DERIVED_COLUMNS: dict[str, tuple[Column, ...]] = {
-    "motors": (),
+    "motors": (
+        Column("efficiency_map_grid", "object", "-", False, None, "derived",
+               "The efficiency map named by efficiency_map, loaded and validated "
+               "(`selector.physics.losses.EfficiencyGrid`; speeds in rad/s); empty when none."),
+    ),
     "reducers": (),
     "tyres": (
         Column("diameter_m", "float", "m", False, None, "derived",

@@ -56,7 +56,9 @@ from selector.engine.search import (
 )
 from selector.engine.verify import verify_designs
 from selector.inputs import Requirements
+from selector.io.catalog import distinct_numbers
 from selector.physics import accel_run
+from selector.physics import performance as perf
 from selector.records import BINDING_RULE, clean, design_record
 from selector.requirements import (
     BY_NAME,
@@ -67,18 +69,22 @@ from selector.requirements import (
     passes,
     stated,
 )
-from selector.units import G_N, kmh_to_mps
+from selector.studies.defaults import NEAR_MISS_PCT, STEP_PCT
+from selector.units import G_N, kmh_to_mps, mps_to_kmh
 
-STEP_PCT = 5.0
-"""Default loosening step for the price of a requirement [%]."""
-NEAR_MISS_PCT = 3.0
-"""Default largest miss of a near-miss design [%]."""
 INF_SHORTFALL = 1e6
 """Normalised shortfall counted for an infinite acceleration time (target unreachable) [-]."""
 PROGRESS_MIN_COMBINATIONS = 200_000
 """Show a progress bar (stderr, table output only) for enumerations above this size [-]."""
 ACCEL_BATCH = 4096
 """Designs per batch of lazily computed acceleration times in the elastic search [-]."""
+REACH_FRACTION = 0.95
+"""A target speed lowered below a design's reach speed is set to at most this share of it, away from
+the asymptote where the acceleration time grows without bound [-]."""
+BISECT_STEPS = 40
+"""Bisection steps for the speed a design reaches within a time limit (2^-40 of the bracket) [-]."""
+FURTHER_PCT = 1.0
+"""When no candidate relaxation is confirmed, the first one is tried once more, this much looser [%]."""
 ACTIVE_RULE = ("re-solve without the requirement: the optimal design changes, or the objective improves "
                "by more than 1e-9 relative")
 
@@ -130,10 +136,11 @@ class _Context:
     def parts(self) -> PartTables:
         return self.study.parts
 
-    def search(self, req: Requirements) -> SearchResult:
-        """Exact optimum under ``req`` (counted and timed)."""
+    def search(self, req: Requirements, objective: str | None = None) -> SearchResult:
+        """Exact optimum under ``req`` (counted and timed); ``objective`` defaults to the study's."""
         t0 = time.perf_counter()
-        res = search(self.parts, objective=self.objective, count=1, requirements=req, allowed=self.study.allowed)
+        res = search(self.parts, objective=objective or self.objective, count=1, requirements=req,
+                     allowed=self.study.allowed)
         self.searches += 1
         self.search_s += time.perf_counter() - t0
         return res
@@ -324,10 +331,11 @@ def impossibilities(parts: PartTables, allowed: dict) -> list[dict]:
         for name in ("top_speed_kmh", "accel_to_kmh"):
             value = getattr(req, name)
             if value is not None and value > lim * (1 + REL_TOL):
+                shown = distinct_numbers(value, lim, digits=(4, 4))
                 what = "sustained top speed" if name == "top_speed_kmh" else "acceleration target speed"
                 out.append({"name": name, "required": clean(value), "limit": clean(lim), "unit": "km/h",
                             "bound": "exact",
-                            "why": f"the {what} {_num(value)} km/h is above speed_limiter_kmh = {_num(lim)} km/h; "
+                            "why": f"the {what} {shown[0]} km/h is above speed_limiter_kmh = {shown[1]} km/h; "
                                    "the limiter caps every design"})
     if all(len(a) for a in allowed.values()):
         t = traction_limits(parts, allowed)
@@ -421,14 +429,57 @@ def _accel_times(parts: PartTables, keys: np.ndarray, target_kmh: float) -> np.n
     return accel_run.accel_time_s(axles, body, kmh_to_mps(target_kmh))
 
 
+REACH_LIMITS = ("gearing", "motor", "traction", "limiter")
+"""What ends an acceleration run, in `reach_speed_kmh`'s order."""
+
+
+def reach_speed_kmh(parts: PartTables, keys: np.ndarray) -> tuple[np.ndarray, list[str]]:
+    """Highest speed each design's acceleration run approaches [km/h], and what limits it.
+
+    The run's net acceleration min(a_motor, a_traction) falls with speed (the wheel force falls,
+    the road load rises), so the run ends at the first of: the gearing limit w_max r / G; the
+    speed where the peak envelope's wheel force meets the level road load
+    (`performance.envelope_road_crossing_mps`, "motor"); the speed where the driven axle's static
+    grip meets it, mu W_driven = m g Crr + q v^2, i.e. v = sqrt((mu W_driven - m g Crr) / q)
+    ("traction": no load transfer at zero acceleration; unlimited for a rear drive whose
+    (1 - kappa) <= 0 transmits any force); the speed limiter. Every target below this speed is
+    reached in finite time (`performance.accel_time_s`), no target above it is, nor one at it
+    unless the gearing limit or the limiter ends the run (0: the vehicle cannot move off).
+
+    Parameters
+    ----------
+    parts : part tables with the study's vehicle and environment
+    keys : (n, 3) motor, reducer, tyre positions [-]
+
+    Returns
+    -------
+    (speeds [km/h], limits: one of `REACH_LIMITS` per design)
+    """
+    keys = np.atleast_2d(np.asarray(keys, dtype=np.int64))
+    drive, body = perf.broadcast(*parts.single_drive(keys[:, 0], keys[:, 1], keys[:, 2]))
+    m_eff = perf.effective_mass(drive, body)
+    grip_n = body.road_friction * perf.driven_weight_n(body) - perf.level_road_load(body, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        v_trac = np.sqrt(np.maximum(grip_n, 0.0) / body.q_n_s2_m2)
+    v_trac = np.where((1.0 - perf.kappa(drive, body, m_eff)) * m_eff > 0, v_trac, np.inf)
+    speeds = np.stack([perf.gearing_speed_limit_mps(drive), perf.envelope_road_crossing_mps(drive, body),
+                       v_trac, np.broadcast_to(body.speed_limit_mps, v_trac.shape)], axis=1)
+    v = speeds.min(axis=1)
+    return mps_to_kmh(v), [REACH_LIMITS[n] for n in np.argmin(speeds, axis=1)]
+
+
 def closest_design(parts: PartTables, en: Enumeration, objective: str):
     """Position in ``en`` of the design with the least total normalised shortfall, exactly.
 
-    Acceleration times are computed lazily: designs are taken in order of their shortfall without
-    the acceleration term (a lower bound of the total) until that bound exceeds the best total.
-    Ties (1e-9) are broken by the objective, then by part-id order. Returns (position, total) or
-    (None, None) when no design passes the part-rating checks (and, for the accel_time objective,
-    has a finite time).
+    The total is the same whatever the objective: an acceleration target a design never reaches
+    counts `INF_SHORTFALL`, once, whether it comes from a stated ``accel_time_s`` or from the
+    accel_time objective (which needs ``accel_to_kmh`` reached: a design with an infinite time is
+    infeasible under it). Acceleration times are computed lazily: designs are taken in order of
+    their shortfall without the acceleration term (a lower bound of the total) until that bound
+    exceeds the best total. Ties (1e-9) among designs that never reach the target go to the
+    highest speed reached (`reach_speed_kmh`); then ties are broken by the objective, then by
+    part-id order. Returns (position, total), or (None, None) when ``en`` is empty (no design
+    passes the part-rating checks).
     """
     if en.keys.shape[0] == 0:
         return None, None
@@ -437,6 +488,7 @@ def closest_design(parts: PartTables, en: Enumeration, objective: str):
     need_accel = a_col is not None or objective == "accel_time"
     base = np.nansum(en.short, axis=1)
     total = base.copy()
+    times = np.full(base.shape, np.nan)
     if need_accel:
         order = np.lexsort((en.keys[:, 2], en.keys[:, 1], en.keys[:, 0], base))
         total[:] = np.inf
@@ -446,6 +498,7 @@ def closest_design(parts: PartTables, en: Enumeration, objective: str):
             if base[idx[0]] > best + 1e-9 * max(best, 1.0):
                 break
             t = _accel_times(parts, en.keys[idx], req.accel_to_kmh)
+            times[idx] = t
             tot = base[idx].copy()
             if a_col is not None:
                 frac = margin_fraction("max", req.accel_time_s, t)
@@ -455,9 +508,10 @@ def closest_design(parts: PartTables, en: Enumeration, objective: str):
                 en.short[idx, a_col] = sh
                 en.fail[idx] |= np.where(good, 0, 1 << a_col).astype(np.int64)
                 tot += sh
+            elif objective == "accel_time":  # the objective's own requirement: reach accel_to_kmh
+                tot += np.where(np.isfinite(t), 0.0, INF_SHORTFALL)
             if objective == "accel_time":
                 en.objective[idx] = t
-                tot = np.where(np.isfinite(t), tot, np.inf)
             total[idx] = tot
             best = min(best, float(tot.min()))
     finite = np.isfinite(total)
@@ -465,6 +519,10 @@ def closest_design(parts: PartTables, en: Enumeration, objective: str):
         return None, None
     best = float(total[finite].min())
     tied = np.nonzero(finite & (total <= best + 1e-9 * max(best, 1.0)))[0]
+    if need_accel and tied.size > 1 and not np.isfinite(times[tied]).any():
+        reach, _ = reach_speed_kmh(parts, en.keys[tied])
+        top = float(reach.max())
+        tied = tied[reach >= top - tie_tolerance(top)]
     obj = np.where(np.isfinite(en.objective[tied]), en.objective[tied], np.inf)
     pick = tied[order_best(obj, en.keys[tied], 1)] if np.isfinite(obj).any() else tied[:1]
     pos = int(pick[0]) if np.size(pick) else int(tied[0])
@@ -478,13 +536,21 @@ def conflicts(ctx: _Context, en: Enumeration, max_size: int = 3, base: Requireme
 
     Singles, then pairs, then triples; a set is tested only when none of its subsets conflicts.
     Sets without acceleration (and a non-accel objective) are decided exactly from the
-    enumeration's fail masks; sets involving acceleration by an exact search.
+    enumeration's fail masks; sets involving acceleration by an exact search. When acceleration
+    matters (accel_time_s stated, or the accel_time objective, which needs accel_to_kmh reached),
+    the target alone is tested first: when no design reaches accel_to_kmh at all,
+    ``[["accel_to_kmh"]]`` is the only minimal set, whatever the objective.
     """
     names = en.names
     found: list[tuple] = []
     masks = np.unique(en.fail) if en.fail.size else np.empty(0, dtype=np.int64)
     # the requirements the enumeration used (accel_to_kmh may be lowered to the limiter)
     base = ctx.parts.problem.requirements if base is None else base
+    if ctx.objective == "accel_time" or "accel_time_s" in names:
+        # the accel_time objective's feasible set is exactly "reaches accel_to_kmh"
+        only = Requirements(**{k: getattr(base, k) for k in ("accel_to_kmh", "speed_limiter_kmh")})
+        if ctx.search(only, objective="accel_time").status == STATUS_INFEASIBLE:
+            return [["accel_to_kmh"]]
     for size in range(1, min(max_size, len(names)) + 1):
         for combo in itertools.combinations(range(len(names)), size):
             if any(set(f) <= set(combo) for f in found):
@@ -502,16 +568,126 @@ def conflicts(ctx: _Context, en: Enumeration, max_size: int = 3, base: Requireme
     return [[names[n] for n in f] for f in found]
 
 
-def _relaxation(parts: PartTables, en: Enumeration, pos: int) -> tuple[dict, list]:
-    """Relaxed requirement values that make the closest design feasible, and its shortfall rows.
+def _sense(name: str) -> str:
+    """Sense of a relaxable key: accel_to_kmh is a target speed, loosened by lowering it ("min")."""
+    return "min" if name == "accel_to_kmh" else BY_NAME[name].sense
+
+
+def loosens(req: Requirements, relax: dict) -> bool:
+    """True when every entry of ``relax`` loosens a stated value of ``req``.
+
+    "min" requirements and accel_to_kmh must go down (and stay > 0), "max" requirements up;
+    None drops a stated requirement (never accel_to_kmh, which the acceleration run needs). An
+    empty ``relax`` loosens nothing.
+    """
+    if not relax:
+        return False
+    for name, value in relax.items():
+        old = getattr(req, name)
+        if old is None:
+            return False
+        if value is None:
+            if name == "accel_to_kmh":
+                return False
+            continue
+        if not (math.isfinite(value) and value > 0):
+            return False
+        if not (value < old if _sense(name) == "min" else value > old):
+            return False
+    return True
+
+
+def _further(relax: dict, pct: float) -> dict:
+    """``relax`` with every value moved ``pct`` percent further in its loosening direction."""
+    out = {}
+    for name, value in relax.items():
+        out[name] = None if value is None else _round_safe(
+            value * (1.0 - pct / 100.0 if _sense(name) == "min" else 1.0 + pct / 100.0), _sense(name))
+    return out
+
+
+def _time_to(parts: PartTables, ijk, target_kmh: float) -> float:
+    """Acceleration time of one design from rest to ``target_kmh`` [s] (inf when never reached)."""
+    return float(_accel_times(parts, np.asarray([ijk], dtype=np.int64), target_kmh)[0])
+
+
+def _speed_within(parts: PartTables, ijk, limit_s: float, hi_kmh: float) -> float:
+    """Highest target speed in (0, ``hi_kmh``) the design reaches within ``limit_s`` [km/h].
+
+    Bisection (the time grows with the target speed); the returned speed is always one the design
+    reaches in time (the lower end of the bracket).
+    """
+    lo, hi = 0.0, float(hi_kmh)
+    for _ in range(BISECT_STEPS):
+        mid = 0.5 * (lo + hi)
+        if bool(passes("max", limit_s, _time_to(parts, ijk, mid))):
+            lo = mid
+        else:
+            hi = mid
+    return lo
+
+
+def _accel_candidates(parts: PartTables, ijk, objective: str) -> tuple[list[dict], dict]:
+    """Loosenings of the acceleration requirement that design ``ijk`` meets, preferred first.
+
+    Computed from what the design achieves with traction: a design that reaches accel_to_kmh too
+    slowly gets accel_time_s raised to its time, or accel_to_kmh lowered to the speed it reaches
+    within accel_time_s; a design that never reaches accel_to_kmh (`reach_speed_kmh` at or below
+    it) gets accel_to_kmh lowered to the speed it reaches within accel_time_s, or to
+    `REACH_FRACTION` of its reach speed with accel_time_s raised to its time there (only the
+    lowered target under the accel_time objective without accel_time_s). A design that cannot
+    move gets accel_time_s dropped (cost and mass objectives) or nothing. Returns ([{}] when
+    nothing is missed, or the candidates) and the facts {time_s, reach_kmh, reach_limit}.
+    """
+    req = parts.problem.requirements
+    target, limit = req.accel_to_kmh, req.accel_time_s
+    reach, why = reach_speed_kmh(parts, np.asarray([ijk], dtype=np.int64))
+    t = _time_to(parts, ijk, target)
+    facts = {"time_s": t, "reach_kmh": float(reach[0]), "reach_limit": why[0]}
+    if math.isfinite(t) and (limit is None or bool(passes("max", limit, t))):
+        return [{}], facts
+    out = []
+    if math.isfinite(t):  # reaches the target, too slowly
+        out.append({"accel_time_s": _round_safe(t, "max")})
+        v = _round_safe(_speed_within(parts, ijk, limit, target), "min")
+        if v > 0:
+            out.append({"accel_to_kmh": v})
+        return out, facts
+    hi = min(facts["reach_kmh"], target)  # never reaches the target: lower it below the reach speed
+    if not hi > 0:
+        return ([{"accel_time_s": None}] if limit is not None and objective != "accel_time" else []), facts
+    if limit is not None:
+        v = _round_safe(_speed_within(parts, ijk, limit, hi), "min")
+        if v > 0:
+            out.append({"accel_to_kmh": v})
+    v = _round_safe(REACH_FRACTION * hi, "min")
+    t_v = _time_to(parts, ijk, v) if v > 0 else math.inf
+    if math.isfinite(t_v):
+        if limit is None:
+            out.append({"accel_to_kmh": v})
+        elif not bool(passes("max", limit, t_v)):
+            out.append({"accel_to_kmh": v, "accel_time_s": _round_safe(t_v, "max")})
+    return out, facts
+
+
+def _relaxation(parts: PartTables, en: Enumeration, pos: int, objective: str) -> tuple[list[dict], list, dict]:
+    """Candidate relaxations that make the closest design feasible (preferred first), its shortfall
+    rows, and the facts of its acceleration run (see `_accel_candidates`).
 
     ``parts`` carries the requirements the elastic search used (the stated ones, with an
-    acceleration target above the speed limiter already lowered to the limiter).
+    acceleration target above the speed limiter already lowered to the limiter). Every value moves
+    in its loosening direction only; a requirement the design misses outside acceleration is
+    relaxed to what the design achieves (rounded to 4 significant digits on the safe side), or
+    dropped when the design cannot even start (zero or negative grade or launch).
     """
     req = parts.problem.requirements
     i, j, k = (int(x) for x in en.keys[pos])
     m = evaluate(parts, [i], [j], [k])
-    relax, rows = {}, []
+    accel = req.accel_time_s is not None or objective == "accel_time"
+    alts, facts = _accel_candidates(parts, (i, j, k), objective) if accel else ([{}], {})
+    accel_row = {} if not facts else {"accel_to_kmh": clean(req.accel_to_kmh), "reach_kmh": clean(facts["reach_kmh"]),
+                                      "reach_limit": facts["reach_limit"]}
+    common, rows = {}, []
     for r, required in stated(parts.problem):
         achieved = float(m[r.metric][0])
         ok = bool(passes(r.sense, required, achieved))
@@ -521,74 +697,109 @@ def _relaxation(parts: PartTables, en: Enumeration, pos: int) -> tuple[dict, lis
                      "shortfall": 0.0 if ok else clean(abs(achieved - required)),
                      "shortfall_pct": 0.0 if ok else clean(-100.0 * frac), "met": ok})
         if r.name == "accel_time_s":
-            rows[-1]["accel_to_kmh"] = clean(req.accel_to_kmh)
-        if ok:
+            rows[-1].update(accel_row)
+        if ok or r.name == "accel_time_s":
             continue
-        if r.name == "accel_time_s" and not math.isfinite(achieved):
-            # this design cannot reach the target speed at all: lower the target below its maximum speed
-            target = float(math.floor(0.98 * float(m["max_speed_kmh"][0])))
-            if target <= 0:  # the design cannot move: no acceleration target helps, drop the limit
-                relax["accel_time_s"] = None
-                continue
-            t = float(evaluate(with_requirements(parts, dataclasses.replace(req, accel_to_kmh=target)),
-                               [i], [j], [k])["accel_time_s"][0])
-            relax["accel_to_kmh"] = target
-            if math.isfinite(t) and t > required:
-                relax["accel_time_s"] = _round_safe(t, "max")
-        else:
-            value = _round_safe(achieved, r.sense)
-            # a design that cannot even start (zero or negative grade or launch): drop the requirement
-            relax[r.name] = value if math.isfinite(value) and value > 0 else None
-    return relax, rows
+        value = _round_safe(achieved, r.sense)
+        common[r.name] = value if math.isfinite(value) and value > 0 else None
+    if objective == "accel_time" and req.accel_time_s is None:
+        # the objective's own requirement: the run must reach accel_to_kmh (infinite time: infeasible)
+        ok = math.isfinite(facts["time_s"])
+        gap = max(req.accel_to_kmh - facts["reach_kmh"], 0.0)
+        rows.append({"name": "accel_to_kmh", "required": clean(req.accel_to_kmh), "achieved": clean(facts["reach_kmh"]),
+                     "unit": "km/h", "sense": "at least", "shortfall": 0.0 if ok else clean(gap),
+                     "shortfall_pct": 0.0 if ok else clean(100.0 * gap / req.accel_to_kmh), "met": ok, **accel_row})
+    return [{**common, **a} for a in alts], rows, facts
+
+
+def _try_relaxation(ctx: _Context, relax: dict) -> dict:
+    """Re-solve the study with ``relax`` applied: {relaxation, verified, relaxed_optimum}."""
+    req = dataclasses.replace(ctx.parts.problem.requirements, **relax)
+    res = ctx.search(req)
+    opt = None
+    if res.status == STATUS_OPTIMAL and res.designs:
+        r2 = ctx.record(res.designs[0], req)
+        opt = {"motor": r2["motor"], "reducer": r2["reducer"], "tyre": r2["tyre"],
+               "objective": clean(res.designs[0][0])}
+    return {"relaxation": dict(relax), "verified": opt is not None, "relaxed_optimum": opt}
+
+
+def _no_relaxation_note(options: list, facts: dict, objective: str) -> str:
+    """Why `relaxation` is empty for an infeasible study with a closest design."""
+    if options:
+        return (f"no confirmed relaxation: none of the {len(options)} relaxations tried (relaxation_options) made a "
+                "re-solve feasible; the closest design is shown instead")
+    if facts and not facts["reach_kmh"] > 0:
+        need = ("the accel_time objective needs accel_to_kmh reached" if objective == "accel_time"
+                else "the acceleration requirement cannot be met")
+        return (f"no confirmed relaxation: the closest design cannot move off the line ({facts['reach_limit']} limit: "
+                f"it reaches 0 km/h), so no acceleration target is reached and {need}; "
+                "the closest design is shown instead")
+    return ("no confirmed relaxation: no loosening of the stated values makes the closest design feasible; "
+            "the closest design is shown instead")
+
+
+def _without_closest(out: dict) -> dict:
+    """An infeasible diagnosis that has no closest design: no relaxation, said explicitly."""
+    out["relaxation_verified"] = False
+    out["relaxation_note"] = f"no confirmed relaxation: {out['closest_note']}"
+    return out
 
 
 def explain_infeasible(ctx: _Context, reason: str | None, max_conflict_size: int = 3) -> dict:
     """Impossibilities, conflicts (up to ``max_conflict_size`` requirements), closest design and the
-    verified relaxation."""
+    relaxation confirmed by a re-solve (or, when none is confirmed, an explicit note)."""
     parts = ctx.parts
     allowed = ctx.study.allowed
     out = {"reason": reason, "impossible": impossibilities(parts, allowed), "conflicts": [], "closest": None,
-           "relaxation": {}, "relaxation_verified": None, "relaxed_optimum": None}
+           "relaxation": {}, "relaxation_verified": None, "relaxed_optimum": None, "relaxation_options": [],
+           "relaxation_note": None}
     if any(len(a) == 0 for a in allowed.values()):
         out["closest_note"] = ("no parts left after the procurement filters: relax avoid_suppliers or "
                                "max_lead_time_weeks")
-        return out
-    relax = {}
+        return _without_closest(out)
+    first = {}
     req0 = parts.problem.requirements
     eparts = parts
     if any(d["name"] == "accel_to_kmh" for d in out["impossible"]):
         # no design reaches a target above the limiter: search with the target lowered to the limiter
-        relax["accel_to_kmh"] = float(req0.speed_limiter_kmh)
+        first["accel_to_kmh"] = float(req0.speed_limiter_kmh)
         eparts = with_requirements(parts, dataclasses.replace(req0, accel_to_kmh=req0.speed_limiter_kmh))
     en = enumerate_shortfalls(eparts, allowed, ctx.objective, progress=ctx.progress)
     if en.keys.shape[0] == 0:
         out["closest_note"] = ("no design passes the part-rating checks (reducer torque and speed, tyre speed "
                                "symbol and load): no relaxation of the requirements helps; add parts")
-        return out
+        return _without_closest(out)
     pos, total = closest_design(eparts, en, ctx.objective)
-    if pos is None:
-        out["closest_note"] = ("no design passes the part-rating checks with a finite acceleration time to "
-                               "accel_to_kmh (needed by the accel_time objective)")
-        return out
     out["conflicts"] = conflicts(ctx, en, max_size=max_conflict_size, base=eparts.problem.requirements)
-    more, rows = _relaxation(eparts, en, pos)
-    relax.update(more)
+    cands, rows, facts = _relaxation(eparts, en, pos, ctx.objective)
+    tried = []
+    for c in ({**first, **c} for c in cands):
+        if loosens(req0, c) and c not in tried:
+            tried.append(c)
+    options = [_try_relaxation(ctx, c) for c in tried]
+    if tried and not any(o["verified"] for o in options):  # search a little further, once
+        more = _further(tried[0], FURTHER_PCT)
+        if loosens(req0, more) and more not in tried:
+            options.append(_try_relaxation(ctx, more))
+    chosen = next((o for o in options if o["verified"]), None)
     i, j, k = (int(x) for x in en.keys[pos])
     metrics = verify_designs(eparts, [(math.nan, i, j, k)], ctx.objective, expect_feasible=False)
     rec = design_record(eparts, i, j, k, metrics)  # against the stated requirements: shows the misses
-    relaxed_req = dataclasses.replace(req0, **relax)
-    relaxed_parts = with_requirements(parts, relaxed_req)
-    ok = bool(feasible(relaxed_parts, evaluate(relaxed_parts, [i], [j], [k]), ctx.objective)[0])
+    ok = False
+    if chosen is not None:
+        relaxed_parts = with_requirements(parts, dataclasses.replace(req0, **chosen["relaxation"]))
+        ok = bool(feasible(relaxed_parts, evaluate(relaxed_parts, [i], [j], [k]), ctx.objective)[0])
     out["closest"] = {"motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"],
                       "total_shortfall": clean(total), "feasible_when_relaxed": ok, "shortfalls": rows,
                       "record": rec}
-    out["relaxation"] = relax
-    res = ctx.search(relaxed_req)
-    out["relaxation_verified"] = res.status == STATUS_OPTIMAL
-    if res.designs:
-        r2 = ctx.record(res.designs[0], relaxed_req)
-        out["relaxed_optimum"] = {"motor": r2["motor"], "reducer": r2["reducer"], "tyre": r2["tyre"],
-                                  "objective": clean(res.designs[0][0])}
+    out["relaxation_options"] = options
+    out["relaxation_verified"] = chosen is not None
+    if chosen is not None:
+        out["relaxation"] = chosen["relaxation"]
+        out["relaxed_optimum"] = chosen["relaxed_optimum"]
+    else:
+        out["relaxation_note"] = _no_relaxation_note(options, facts, ctx.objective)
     return out
 
 
@@ -621,10 +832,16 @@ def explain(study: Study, step_pct: float = STEP_PCT, near_miss_pct: float = NEA
                         "near_miss": "the optimum with one requirement loosened by near_miss_pct, when it beats "
                                      "the optimum (it misses only that requirement)",
                         "closest": "elastic search: least sum over requirements of max(0, -margin_fraction), "
-                                   "part-rating checks hard, infinite acceleration time counted as 1e6"},
+                                   "part-rating checks hard, an acceleration target never reached counted as 1e6 "
+                                   "(also under the accel_time objective, which needs it reached); ties among "
+                                   "such designs go to the highest speed reached, then the objective",
+                        "relaxation": "every value loosened only (min requirements and accel_to_kmh lowered, max "
+                                      "requirements raised, or dropped), computed from what the closest design "
+                                      "achieves with traction, and confirmed by a re-solve; empty when none is "
+                                      "confirmed"},
         "design": None, "requirements": [], "driving_requirements": [], "near_misses": [], "summary": [],
         "impossible": [], "conflicts": [], "closest": None, "relaxation": {}, "relaxation_verified": None,
-        "relaxed_optimum": None,
+        "relaxed_optimum": None, "relaxation_options": [], "relaxation_note": None,
     })
     if res.status == STATUS_OPTIMAL and res.designs:
         out.update(explain_feasible(ctx, res.designs[0], step_pct, near_miss_pct))
@@ -644,8 +861,9 @@ def infeasible_summary(inf: dict) -> list[str]:
     """Plain sentences for an infeasible study."""
     out = []
     for d in inf["impossible"]:
-        out.append(f"impossible: {d['name']} = {_num(d['required'])} {d['unit']}; "
-                   f"{'limit' if d['bound'] == 'exact' else 'at most'} {_num(d['limit'])} {d['unit']} ({d['why']})")
+        req, lim = distinct_numbers(d["required"], d["limit"], digits=(4, 4))
+        out.append(f"impossible: {d['name']} = {req} {d['unit']}; "
+                   f"{'limit' if d['bound'] == 'exact' else 'at most'} {lim} {d['unit']} ({d['why']})")
     if inf["conflicts"]:
         out.append("cannot be met together: " + "; ".join(" + ".join(c) for c in inf["conflicts"]))
     elif inf.get("closest") is not None:
@@ -654,17 +872,33 @@ def infeasible_summary(inf: dict) -> list[str]:
         out.append(inf["closest_note"])
     if inf.get("closest"):
         c = inf["closest"]
-        misses = [f"{r['name']} {_num(r['achieved'])} vs {_num(r['required'])} {r['unit']} "
-                  f"({_num(r['shortfall_pct'])} % short)" for r in c["shortfalls"] if not r["met"]]
+        misses = [_miss(r) for r in c["shortfalls"] if not r["met"]]
         if misses:
             out.append(f"closest design {c['motor']} + {c['reducer']} + {c['tyre']} misses " + "; ".join(misses))
         else:
             out.append(f"closest design {c['motor']} + {c['reducer']} + {c['tyre']} meets every stated value once "
                        "the vehicle-level impossibilities are relaxed")
-        relax = ", ".join(f"{k} = {_num(v)}" for k, v in inf["relaxation"].items())
-        out.append(f"relax to {relax}: " + ("a re-solve confirms the study becomes feasible"
-                                            if inf["relaxation_verified"] else "NOT confirmed by a re-solve"))
+        if inf["relaxation_verified"]:
+            out.append(f"relax to {_relax_text(inf['relaxation'])}: a re-solve confirms the study becomes feasible")
+            for o in inf.get("relaxation_options", []):
+                if o["verified"] and o["relaxation"] != inf["relaxation"]:
+                    out.append(f"or relax to {_relax_text(o['relaxation'])}: also confirmed by a re-solve")
+        else:
+            out.append(inf.get("relaxation_note") or "no confirmed relaxation")
     return out
+
+
+def _relax_text(relax: dict) -> str:
+    return ", ".join(f"{k} = {'dropped' if v is None else _num(v)}" for k, v in relax.items())
+
+
+def _miss(r: dict) -> str:
+    """One shortfall row as text; an acceleration target never reached says how far the run gets."""
+    if "reach_kmh" in r and (r["name"] == "accel_to_kmh" or r["achieved"] is None):
+        return (f"{r['name']}: never reaches {_num(r['accel_to_kmh'])} km/h (its acceleration run ends at "
+                f"{_num(r['reach_kmh'])} km/h, {r['reach_limit']} limit)")
+    return (f"{r['name']} {_num(r['achieved'])} vs {_num(r['required'])} {r['unit']} "
+            f"({_num(r['shortfall_pct'])} % short)")
 
 
 def diagnose(study: Study, reason: str | None = None, max_conflict_size: int = 2) -> dict:

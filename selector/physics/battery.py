@@ -1,0 +1,265 @@
+"""Battery sized for a range, with the mass spiral (more battery, more mass, more energy per km).
+
+Notation: R range [km], c(m) consumption at the battery [Wh/km] as a function of the battery mass
+m [kg], sigma specific energy of the pack [Wh/kg], u usable fraction of its energy [-]. A battery
+of energy E [Wh] weighs m = E / sigma and covers the range when
+
+    u E >= R c(E / sigma).
+
+Closed form when consumption is linear in battery mass, c = c0 + c1 m (c0: consumption of the
+vehicle without battery, c1: its growth per kg)::
+
+    E = R c0 / (u - R c1 / sigma),       which exists only for R < u sigma / c1
+
+(derived by solving u E = R (c0 + c1 E / sigma) for E). At R >= u sigma / c1 every added kWh
+carries itself less far than the range: no battery reaches this range.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = [
+    "BatterySizing",
+    "battery_cost",
+    "battery_energy_linear_wh",
+    "battery_mass_kg",
+    "max_range_linear_km",
+    "size_battery",
+]
+
+
+def battery_mass_kg(energy_wh, specific_energy_wh_per_kg):
+    """Battery mass from its energy, m = E / sigma.
+
+    Parameters
+    ----------
+    energy_wh : array_like
+        Battery (nominal, total) energy [Wh].
+    specific_energy_wh_per_kg : array_like
+        Pack-level specific energy [Wh/kg].
+
+    Returns
+    -------
+    ndarray
+        Mass [kg].
+    """
+    return np.asarray(energy_wh, dtype=float) / specific_energy_wh_per_kg
+
+
+def battery_cost(energy_wh, cost_per_kwh):
+    """Battery cost, kWh x cost per kWh.
+
+    Parameters
+    ----------
+    energy_wh : array_like
+        Battery energy [Wh].
+    cost_per_kwh : array_like
+        Price per kWh [currency/kWh].
+
+    Returns
+    -------
+    ndarray
+        Cost [currency].
+    """
+    return np.asarray(energy_wh, dtype=float) / 1000.0 * cost_per_kwh
+
+
+def max_range_linear_km(c1_wh_per_km_kg, specific_energy_wh_per_kg, usable_fraction):
+    """Asymptotic range limit of the mass spiral for linear consumption, R_max = u sigma / c1.
+
+    Parameters
+    ----------
+    c1_wh_per_km_kg : array_like
+        Growth of consumption per kg of battery [Wh/(km kg)].
+    specific_energy_wh_per_kg : array_like
+        Specific energy sigma [Wh/kg].
+    usable_fraction : array_like
+        Usable fraction u [-].
+
+    Returns
+    -------
+    ndarray
+        Range no battery reaches [km] (inf when c1 <= 0).
+    """
+    c1 = np.asarray(c1_wh_per_km_kg, dtype=float)
+    with np.errstate(divide="ignore"):
+        return np.where(c1 > 0, usable_fraction * specific_energy_wh_per_kg / np.where(c1 > 0, c1, 1.0), np.inf)
+
+
+def battery_energy_linear_wh(range_km, c0_wh_per_km, c1_wh_per_km_kg, specific_energy_wh_per_kg, usable_fraction):
+    """Battery energy for a range when consumption is linear in battery mass (closed form).
+
+    E = R c0 / (u - R c1 / sigma) for R < u sigma / c1; NaN where no battery reaches the range.
+
+    Parameters
+    ----------
+    range_km : array_like
+        Range R [km].
+    c0_wh_per_km : array_like
+        Consumption at the battery of the vehicle without battery (m = 0) [Wh/km].
+    c1_wh_per_km_kg : array_like
+        Consumption growth per kg of battery [Wh/(km kg)], >= 0.
+    specific_energy_wh_per_kg : array_like
+        Specific energy sigma [Wh/kg].
+    usable_fraction : array_like
+        Usable fraction u, in (0, 1] [-].
+
+    Returns
+    -------
+    ndarray
+        Battery energy E [Wh]; NaN where R >= u sigma / c1 (no solution).
+    """
+    r = np.asarray(range_km, dtype=float)
+    denom = usable_fraction - r * np.asarray(c1_wh_per_km_kg, dtype=float) / specific_energy_wh_per_kg
+    with np.errstate(divide="ignore", invalid="ignore"):
+        e = r * np.asarray(c0_wh_per_km, dtype=float) / denom
+    return np.where(denom > 0, e, np.nan)
+
+
+@dataclass(frozen=True, eq=False)
+class BatterySizing:
+    """Battery of n designs sized for a range (arrays of shape (n,)).
+
+    Attributes
+    ----------
+    found : ndarray of bool
+        True where a battery within the search limit covers the range.
+    energy_wh : ndarray
+        Battery energy [Wh]; NaN where not found.
+    mass_kg : ndarray
+        Battery mass [kg]; NaN where not found.
+    consumption_wh_per_km : ndarray
+        Consumption with that battery [Wh/km]; NaN where not found.
+    evaluations : int
+        Calls of the consumption function [-].
+    """
+
+    found: np.ndarray
+    energy_wh: np.ndarray
+    mass_kg: np.ndarray
+    consumption_wh_per_km: np.ndarray
+    evaluations: int
+
+
+def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fraction, n, max_battery_kg,
+                 rtol=1e-9, max_iter=200) -> BatterySizing:
+    """Smallest battery that covers a range, for any consumption non-decreasing in battery mass.
+
+    Finds, per design, the smallest battery mass m in [0, max_battery_kg] with
+    g(m) = u sigma m - R c(m) >= 0. The root is bracketed by a geometric scan from the linear
+    estimate (c from m = 0 and m = 1 % of the limit), then narrowed by the Illinois variant of
+    regula falsi (a bracketing method: it keeps g(lo) < 0 <= g(hi), so it cannot diverge) until
+    hi - lo <= rtol hi or the surplus g(hi) <= rtol u sigma hi (the battery is then at most about
+    rtol too large); the answer is hi, a battery that covers the range. The scan finds the
+    smallest root when g crosses zero once between scan points, which holds for consumption
+    linear or convex in mass. Designs whose g stays < 0 up to the limit are reported not found.
+
+    Parameters
+    ----------
+    consumption : callable
+        ``consumption(battery_mass_kg, index) -> wh_per_km``: for the designs ``index`` (int array)
+        with the battery masses given (same shape) [kg], their consumption at the battery
+        [Wh/km] (NaN or inf = cannot drive: treated as not covering the range).
+    range_km : float or array_like
+        Range R [km].
+    specific_energy_wh_per_kg : float or array_like
+        Specific energy sigma [Wh/kg].
+    usable_fraction : float or array_like
+        Usable fraction u [-].
+    n : int
+        Number of designs.
+    max_battery_kg : float or array_like
+        Largest battery considered [kg].
+    rtol : float
+        Relative width of the final bracket [-].
+    max_iter : int
+        Iteration limit of the narrowing phase [-].
+
+    Returns
+    -------
+    BatterySizing
+    """
+    rng = np.broadcast_to(np.asarray(range_km, dtype=float), (n,))
+    sigma = np.broadcast_to(np.asarray(specific_energy_wh_per_kg, dtype=float), (n,))
+    u = np.broadcast_to(np.asarray(usable_fraction, dtype=float), (n,))
+    m_max = np.broadcast_to(np.asarray(max_battery_kg, dtype=float), (n,)).copy()
+    calls = 0
+
+    def g(m, idx):
+        nonlocal calls
+        calls += 1
+        c = np.asarray(consumption(m, idx), dtype=float)
+        val = u[idx] * sigma[idx] * m - rng[idx] * c
+        return np.where(np.isfinite(val), val, -np.inf), c
+
+    all_idx = np.arange(n)
+    lo = np.zeros(n)
+    g_lo, c_lo = g(lo, all_idx)
+    hi = np.full(n, np.nan)
+    g_hi = np.full(n, np.nan)
+    c_hi = np.full(n, np.nan)
+    # m = 0 already covers the range (zero consumption)
+    done0 = g_lo >= 0
+    hi[done0], g_hi[done0], c_hi[done0] = 0.0, g_lo[done0], c_lo[done0]
+    # linear estimate from m = 0 and a probe, then a geometric scan upward
+    probe = 0.01 * m_max
+    g_p, c_p = g(probe, all_idx)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = (g_p - g_lo) / probe
+        est = np.where(slope > 0, -g_lo / slope, m_max)
+    start = np.clip(np.where(np.isfinite(est), est, m_max), probe, m_max)
+    # the probe may already cover the range: bracket [0, probe]
+    p_ok = ~done0 & (g_p >= 0)
+    hi[p_ok], g_hi[p_ok], c_hi[p_ok] = probe[p_ok], g_p[p_ok], c_p[p_ok]
+    lo_p = ~done0 & ~p_ok & np.isfinite(g_p)
+    lo[lo_p], g_lo[lo_p] = probe[lo_p], g_p[lo_p]
+    m = start.copy()
+    active = ~done0 & ~p_ok
+    while active.any():
+        idx = np.flatnonzero(active)
+        gm, cm = g(m[idx], idx)
+        ok = gm >= 0
+        hi[idx[ok]], g_hi[idx[ok]], c_hi[idx[ok]] = m[idx[ok]], gm[ok], cm[ok]
+        below = idx[~ok]
+        lo[below], g_lo[below] = m[below], gm[~ok]
+        at_max = m[below] >= m_max[below]
+        active[idx[ok]] = False
+        active[below[at_max]] = False
+        grow = below[~at_max]
+        m[grow] = np.minimum(m[grow] * 1.6, m_max[grow])
+    found = np.isfinite(hi)
+    # Illinois regula falsi on [lo, hi]
+    side = np.zeros(n, dtype=np.int8)
+    def wide(i):
+        return (hi[i] - lo[i] > rtol * hi[i]) & (g_hi[i] > rtol * u[i] * sigma[i] * hi[i])
+
+    narrow = found.copy()
+    narrow[found] = wide(np.flatnonzero(found))
+    it = 0
+    while narrow.any() and it < max_iter:
+        it += 1
+        idx = np.flatnonzero(narrow)
+        a, b, ga, gb = lo[idx], hi[idx], g_lo[idx], g_hi[idx]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            x = b - gb * (b - a) / (gb - ga)
+        x = np.where(np.isfinite(x), x, 0.5 * (a + b))
+        # keep a step of at least rtol / 2 of hi from either end, so that a root sitting on one end (to
+        # rounding) still closes the bracket to rtol
+        step = 0.5 * rtol * b
+        x = np.where(b - a > 2.0 * step, np.clip(x, a + step, b - step), x)
+        gx, cx = g(x, idx)
+        up = gx >= 0
+        i_up, i_dn = idx[up], idx[~up]
+        hi[i_up], g_hi[i_up], c_hi[i_up] = x[up], gx[up], cx[up]
+        lo[i_dn], g_lo[i_dn] = x[~up], gx[~up]
+        # Illinois: halve the stale end's value when the same end moves twice
+        g_lo[i_up[side[i_up] == 1]] *= 0.5
+        g_hi[i_dn[side[i_dn] == -1]] *= 0.5
+        side[i_up], side[i_dn] = 1, -1
+        narrow[idx] = wide(idx)
+    mass = np.where(found, hi, np.nan)
+    return BatterySizing(found=found, energy_wh=mass * sigma, mass_kg=mass,
+                         consumption_wh_per_km=np.where(found, c_hi, np.nan), evaluations=calls)

@@ -1,0 +1,6 @@
+"""Default settings of the studies, importable without the engine (the command line shows them in --help)."""
+
+STEP_PCT = 5.0
+"""Default loosening step of explain's price of a requirement [%]."""
+NEAR_MISS_PCT = 3.0
+"""Default largest miss of explain's near-miss designs [%]."""

@@ -1,0 +1,128 @@
+"""Efficiency-map files and the motor loss columns of the catalogue (selector.io.efficiency_map, catalog)."""
+
+from __future__ import annotations
+
+import math
+import warnings
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from selector.errors import InputError
+from selector.io.catalog import CatalogWarning, load_catalog, motor_loss_models
+from selector.io.efficiency_map import load_efficiency_map
+from selector.physics.losses import peak_efficiency
+from selector.units import RPM_TO_RAD_S
+
+DATA = Path(__file__).parent / "data"
+ENERGY = DATA / "energy"
+DEMO = Path(__file__).parents[1] / "catalogs"
+
+
+def write(tmp_path: Path, text: str, name: str = "map.csv") -> Path:
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def test_valid_map_any_row_and_column_order():
+    g = load_efficiency_map(ENERGY / "maps" / "m_map.csv")
+    # 0, 6000, 12000 rpm in rad/s (x 2 pi / 60); torques 0, 100, 200 N m; efficiencies as fractions
+    np.testing.assert_allclose(g.speed_rad_s, [0.0, 6000 * RPM_TO_RAD_S, 12000 * RPM_TO_RAD_S])
+    np.testing.assert_array_equal(g.torque_nm, [0.0, 100.0, 200.0])
+    np.testing.assert_allclose(g.efficiency, [[0, 0, 0], [0, 0.94, 0.92], [0, 0.80, 0.90]])
+    assert g.mirrored and g.name == str(ENERGY / "maps" / "m_map.csv")
+
+
+@pytest.mark.parametrize("text, expected", [
+    ("speed_rpm,torque,efficiency_pct\n", 'unknown column "torque" (did you mean "torque_nm"?)'),
+    ("speed_rpm,efficiency_pct\n0,0\n", 'column "torque_nm" is missing'),
+    ("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n0,1,0\n1,0,0\n1,1,90\n1,1,91\n",
+     "line 6: the point speed_rpm = 1, torque_nm = 1 is also on line 5; each grid point must appear once"),
+    ("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n0,1,0\n", "1 distinct speed and 2 distinct torques; a map needs "
+     "at least 2 of each"),
+    ("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n0,1,0.5\n1,0,0.5\n1,1,0.9\n", "they look like fractions"),
+    ("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n0,1,0\n1,0,0\n1,1,90,5\n", "line 5: 4 cells but the header has 3 "
+     "columns. Fix the row (numbers take a decimal point, not a decimal comma)."),
+    ("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n0,1,0\n1,0,0\n1,1,inf\n", "line 5: efficiency_pct = inf; must be "
+     "a finite number [%]"),
+    ("# only comments\n", "no header row"),
+])
+def test_map_errors(tmp_path, text, expected):
+    p = write(tmp_path, text)
+    msg = str(pytest.raises(InputError, load_efficiency_map, p).value)
+    assert expected in msg
+    assert msg.startswith(str(p))
+
+
+def test_negative_torques_make_a_two_sided_map(tmp_path):
+    p = write(tmp_path, "speed_rpm,torque_nm,efficiency_pct\n0,-10,0\n0,10,0\n100,-10,85\n100,10,90\n")
+    assert not load_efficiency_map(p).mirrored
+
+
+# ------------------------------------------------------------------------------ catalogue
+
+
+def test_catalogue_loads_maps_relative_to_itself_and_reports_loss_models():
+    df = load_catalog("motors", ENERGY / "motors.csv").set_index("part")
+    assert df.loc["M-MAP", "efficiency_map"] == "maps/m_map.csv"
+    grid = df.loc["M-MAP", "efficiency_map_grid"]
+    assert grid.efficiency.shape == (3, 3)
+    assert df.loc["M-POLY", "efficiency_map_grid"] is None
+    assert df.loc["M-POLY", "loss_copper_w_per_nm2"] == 0.05 and df.loc["M-POLY", "loss_constant_w"] == 300.0
+    assert math.isnan(df.loc["M-NONE", "loss_iron_nm"])
+    kinds = dict(zip(df.index, motor_loss_models(df.reset_index())))
+    assert kinds == {"M-MAP": "map", "M-NONE": "none", "M-POLY": "polynomial"}
+
+
+def test_catalogue_without_the_new_columns_has_no_loss_models():
+    df = load_catalog("motors", DATA / "valid" / "motors.csv")
+    assert list(motor_loss_models(df)) == ["none"] * 3
+    assert df["efficiency_map_grid"].isna().all()
+
+
+def test_implausible_loss_model_warns(tmp_path):
+    head = (ENERGY / "motors.csv").read_text(encoding="utf-8").splitlines()[3]
+    # k_c = 50 W/(N m)^2 (a unit slip): at any speed the best torque sqrt(L0 / k_c) is a few N m, so the
+    # peak efficiency is about 71 % (by hand at 12000 rpm = 1256.6 rad/s: L0 = 1325 W, T = 5.15 N m,
+    # eta = 6.47 / (6.47 + 2 x 1.325) kW = 0.709)
+    p = write(tmp_path, head + "\nM-BAD,Volta Drives,200,60,12000,100,35,,,40,0.02,1500,6,50,0.5,2e-7,300,\n",
+              "motors.csv")
+    with pytest.warns(CatalogWarning, match=r"line 2 \(part \"M-BAD\"\): the loss model gives a peak efficiency "
+                                            r"of \d+\.\d % under the torque envelope; outside 80..99 %"):
+        load_catalog("motors", p)
+
+
+def test_map_shared_by_two_motors_is_read_once_and_errors_name_each_motor(tmp_path):
+    head = (ENERGY / "motors.csv").read_text(encoding="utf-8").splitlines()[3]
+    (tmp_path / "bad.csv").write_text("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n", encoding="utf-8")
+    p = write(tmp_path, head + "\nM-1,V,200,60,12000,100,35,,,40,0.02,1500,6,,,,,bad.csv"
+                               "\nM-2,V,200,60,12000,100,35,,,40,0.02,1500,6,,,,,bad.csv\n", "motors.csv")
+    msg = str(pytest.raises(InputError, load_catalog, "motors", p).value)
+    assert 'line 2 (part "M-1"): efficiency_map = "bad.csv" cannot be used' in msg
+    assert 'line 3 (part "M-2"): efficiency_map = "bad.csv" cannot be used' in msg
+
+
+# ------------------------------------------------------------------------------ demo data
+
+
+def test_demo_motors_have_plausible_loss_models_and_maps():
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        df = load_catalog("motors", DEMO / "motors.csv")
+    kinds = motor_loss_models(df)
+    assert set(kinds) == {"polynomial", "map"} and list(kinds).count("map") == 3
+    for r in df.itertuples():
+        # invented demo data: peak efficiency 90-96 % (common practice for traction motors, no published source)
+        peak = peak_efficiency(r.loss_copper_w_per_nm2, r.loss_iron_nm, r.loss_windage_w_s3, r.loss_constant_w,
+                               r.peak_torque_nm, r.peak_power_kw * 1e3, r.decline_speed_rpm * RPM_TO_RAD_S,
+                               r.decline_exponent, r.max_speed_rpm * RPM_TO_RAD_S)
+        assert 0.90 <= peak <= 0.961, (r.part, peak)
+        g = r.efficiency_map_grid
+        if g is not None:  # the map covers the whole envelope
+            assert g.speed_rad_s[0] == 0.0 and g.speed_rad_s[-1] == pytest.approx(r.max_speed_rpm * RPM_TO_RAD_S)
+            assert g.torque_nm[0] == 0.0 and g.torque_nm[-1] == pytest.approx(r.peak_torque_nm)
+            assert 0.90 <= g.efficiency.max() <= 0.965
+        assert "illustrative" in (DEMO / "maps" / f"{r.part}.csv").read_text(encoding="utf-8").splitlines()[0] \
+            if g is not None else True

@@ -252,7 +252,7 @@ def unit_options(parts: PartTables, axle: str, motors=None, reducers=None) -> np
     n_m, n_r, _ = parts.sizes
     mi = np.arange(n_m) if motors is None else np.asarray(motors, dtype=np.int64)
     rj = np.arange(n_r) if reducers is None else np.asarray(reducers, dtype=np.int64)
-    allowed = parts.cache.get(("axle_motors", axle))
+    allowed = parts.axle_motors.get(axle)
     if allowed is not None:
         mi = mi[np.isin(mi, allowed)]
     mm, rr = np.meshgrid(mi, rj, indexing="ij")
@@ -338,7 +338,7 @@ def _axle_allowed(parts: PartTables, keys) -> np.ndarray:
     """True where each unit's motor is allowed on its axle ([drive] front_motors / rear_motors)."""
     ok = np.ones(keys.shape[0], dtype=bool)
     for axle in ("front", "rear"):
-        allowed = parts.cache.get(("axle_motors", axle))
+        allowed = parts.axle_motors.get(axle)
         if allowed is not None:
             m_col, _ = AXLE_COLUMNS[axle]
             ok &= np.isin(keys[:, m_col], allowed) | (keys[:, m_col] < 0)

@@ -118,6 +118,33 @@ def _reducer_arrays(r) -> ReducerArrays:
         mass_kg=_f(r, "mass_kg"), cost=_f(r, "unit_cost"), lead_time_weeks=_f(r, "lead_time_weeks"))
 
 
+def _axle_motors(problem: Problem, motors: MotorArrays) -> dict:
+    """Motor positions allowed per axle from [drive] front_motors / rear_motors (part ids or supplier
+    names, suppliers matched ignoring case); an entry naming no motor is an InputError."""
+    import difflib
+
+    from selector.errors import InputError
+
+    out = {}
+    ids = [str(x) for x in motors.part]
+    for axle, names in (("front", problem.drive.front_motors), ("rear", problem.drive.rear_motors)):
+        if names is None:
+            continue
+        keep = np.zeros(len(ids), dtype=bool)
+        for name in names:
+            hit = (motors.part == name) | np.array([s.strip().casefold() == name.strip().casefold()
+                                                    for s in motors.supplier], dtype=bool)
+            if not hit.any():
+                close = difflib.get_close_matches(name, ids + sorted({str(s) for s in motors.supplier}), n=2)
+                did = f" Did you mean {', '.join(repr(c) for c in close)}?" if close else ""
+                where = f"{problem.path}: " if problem.path else ""
+                raise InputError(f"{where}[drive] {axle}_motors: {name!r} is neither a motor part id nor a supplier "
+                                 f"of the motor catalogue.{did} Fix the list.")
+            keep |= hit
+        out[axle] = np.nonzero(keep)[0]
+    return out
+
+
 @dataclass(frozen=True)
 class PartTables:
     """Everything the physics needs about a study, as arrays and scalars."""
@@ -128,6 +155,9 @@ class PartTables:
     tyres: TyreArrays
     q_n_s2_m2: float
     speed_limit_mps: float
+    axle_motors: dict = field(default_factory=dict)
+    """{"front"|"rear": positions of the motors allowed on that axle} from [drive] front_motors /
+    rear_motors (absent key: every motor)."""
     cache: dict = field(default_factory=dict, compare=False, repr=False)
     """Derived data memoised by the optimiser (bounds, usable parts); shared by the copies
     `with_requirements` makes, whose catalogues and vehicle are the same."""
@@ -154,7 +184,8 @@ class PartTables:
         return cls(problem=problem, motors=motors, reducers=_reducer_arrays(r), tyres=tyres,
                    q_n_s2_m2=float(aero_coefficient_n_s2_m2(problem.environment.air_density_kg_m3,
                                                            problem.vehicle.drag_area_m2)),
-                   speed_limit_mps=float(kmh_to_mps(lim)) if lim is not None else float("inf"))
+                   speed_limit_mps=float(kmh_to_mps(lim)) if lim is not None else float("inf"),
+                   axle_motors=_axle_motors(problem, motors))
 
     def with_requirements(self, req) -> "PartTables":
         """The same tables under other requirements (speed limit recomputed, `cache` shared)."""

@@ -27,7 +27,7 @@ class Vehicle:
     rear_axle_share: float
     """Static share of mass_kg carried by the rear axle [-], in (0, 1)."""
     driven_axle: str
-    """"rear" or "front"."""
+    """"rear", "front" or "both" (one drive unit per axle)."""
     tyre_count: int
     """Number of tyres (even), split evenly between the two axles [-]."""
     rolling_radius_factor: float = 0.97
@@ -68,6 +68,18 @@ class Procurement:
     """"motor", "reducer", "tyre" or None."""
     avoid_suppliers: tuple[str, ...] = ()
     max_lead_time_weeks: float | None = None
+
+
+@dataclass(frozen=True)
+class DriveOptions:
+    """Options of a two-unit layout (problem file table [drive], with driven_axle = "both")."""
+
+    same_unit: bool = False
+    """True: the same motor and reducer part on both axles (one purchase line, quantity 2)."""
+    front_motors: tuple[str, ...] | None = None
+    """Motor part ids or supplier names allowed on the front axle (None: all)."""
+    rear_motors: tuple[str, ...] | None = None
+    """Motor part ids or supplier names allowed on the rear axle (None: all)."""
 
 
 @dataclass(frozen=True)
@@ -117,6 +129,13 @@ class Problem:
     procurement: Procurement = field(default_factory=Procurement)
     energy: Energy | None = None
     """Energy study settings ([energy] table); None when the problem has no energy study."""
+    drive: DriveOptions = field(default_factory=DriveOptions)
+
+    @property
+    def axles(self) -> tuple[str, ...]:
+        """The axles that carry a drive unit: ("rear",), ("front",) or ("front", "rear")."""
+        a = self.vehicle.driven_axle
+        return ("front", "rear") if a == "both" else (a,)
 
 
 @dataclass(frozen=True)

@@ -30,6 +30,8 @@ class Requirement:
     sense: str
     """"min": achieved >= required; "max": achieved <= required."""
     description: str
+    per_axle: bool = False
+    """Part-rating checks only: checked once per drive unit (metrics keyed ``metric@axle`` in two-unit studies)."""
 
 
 REQUIREMENTS: tuple[Requirement, ...] = (
@@ -47,13 +49,14 @@ REQUIREMENTS: tuple[Requirement, ...] = (
 
 CHECKS: tuple[Requirement, ...] = (
     Requirement("reducer_torque_nm", "motor_peak_torque_nm", "N m", "max",
-                "motor peak torque within the reducer's input torque rating"),
+                "motor peak torque within the reducer's input torque rating (every gear)", per_axle=True),
     Requirement("reducer_speed_rpm", "motor_max_speed_rpm", "rpm", "max",
-                "motor maximum speed within the reducer's input speed rating"),
+                "motor maximum speed within the reducer's input speed rating (every gear)", per_axle=True),
     Requirement("tyre_speed_kmh", "max_speed_kmh", "km/h", "max",
                 "vehicle maximum speed within the tyre's speed symbol"),
     Requirement("tyre_load_kg", "tyre_load_kg", "kg", "max",
-                "each tyre's share of the heavier static axle load within its load index"),
+                "each tyre's share of the heavier static axle load within its load index, reduced above "
+                "210 km/h for V, W and Y tyres (UN R30) at the vehicle's maximum speed"),
 )
 CHECK_LIMIT_METRIC = {
     "reducer_torque_nm": "reducer_max_torque_nm",
@@ -64,6 +67,22 @@ CHECK_LIMIT_METRIC = {
 """For each check, the metric holding the part's rating (the 'required' side)."""
 
 BY_NAME = {r.name: r for r in REQUIREMENTS + CHECKS}
+
+
+def check_rows(axles: tuple[str, ...]):
+    """(check, axle, limit metric key, demand metric key) of every part-rating check of a study.
+
+    ``axles``: the axles that carry a unit. With one unit the per-axle checks use plain metric
+    keys and ``axle`` None (the single-axle contract); with two, keys ``metric@axle``.
+    """
+    out = []
+    for c in CHECKS:
+        if c.per_axle and len(axles) > 1:
+            for a in axles:
+                out.append((c, a, f"{CHECK_LIMIT_METRIC[c.name]}@{a}", f"{c.metric}@{a}"))
+        else:
+            out.append((c, None, CHECK_LIMIT_METRIC[c.name], c.metric))
+    return out
 
 
 def stated(problem: Problem) -> list[tuple[Requirement, float]]:

@@ -136,6 +136,28 @@ def random_motors(rng, n: int) -> list[dict]:
     return _duplicate_some(rng, rows, "M")
 
 
+def add_gears(rng, rows: list[dict], share: float) -> list[dict]:
+    """Make about ``share`` of the reducer rows two- or three-speed gearboxes (steps 1.2..2.6)."""
+    out = []
+    for r in rows:
+        r = dict(r)
+        if rng.random() < share:
+            g1 = float(r["ratio"])
+            g2 = g1 / rng.uniform(1.2, 2.6)
+            r["ratio_2"] = f"{g2:.3f}"
+            if rng.random() < 0.4:
+                r["ratio_3"] = f"{g2 / rng.uniform(1.2, 2.2):.3f}"
+                if rng.random() < 0.5:
+                    r["efficiency_3_pct"] = f"{rng.uniform(90.0, 98.5):.1f}"
+            if rng.random() < 0.5:
+                r["efficiency_2_pct"] = f"{rng.uniform(90.0, 98.5):.1f}"
+            r["shift_time_s"] = f"{rng.choice([0.0, rng.uniform(0.1, 0.6)]):.3f}"
+            r["mass_kg"] = f"{float(r['mass_kg']) + rng.uniform(4, 15):.1f}"
+            r["unit_cost"] = str(int(r["unit_cost"]) + int(rng.integers(20, 90)) * 10)
+        out.append(r)
+    return out
+
+
 def random_reducers(rng, n: int, motors: list[dict]) -> list[dict]:
     """Rows of a reducers.csv; ratings drawn around the motors' needs so some pairs are incompatible."""
     t_med = float(np.median([float(m["peak_torque_nm"]) for m in motors]))
@@ -255,11 +277,13 @@ def _toml_value(v) -> str:
 
 
 def write_problem(path: Path, name: str, vehicle: dict, environment: dict, requirements: dict,
-                  objective: str, what: str = "hand-made") -> None:
+                  objective: str, what: str = "hand-made", drive: dict | None = None) -> None:
     """Write a problem TOML naming motors.csv, reducers.csv and tyres.csv beside it."""
     lines = [HEADER_COMMENT.format(what=what), f"name = {_toml_value(name)}", "", "[catalogs]",
              'motors = "motors.csv"', 'reducers = "reducers.csv"', 'tyres = "tyres.csv"', "", "[vehicle]"]
     lines += [f"{k} = {_toml_value(x)}" for k, x in vehicle.items()]
+    if drive:
+        lines += ["", "[drive]"] + [f"{k} = {_toml_value(x)}" for k, x in drive.items()]
     lines += ["", "[environment]"] + [f"{k} = {_toml_value(x)}" for k, x in environment.items()]
     if requirements:
         lines += ["", "[requirements]"] + [f"{k} = {_toml_value(x)}" for k, x in requirements.items()]
@@ -306,6 +330,22 @@ def _all_triples(parts: PartTables):
     return mi.ravel(), rj.ravel(), tk.ravel()
 
 
+def _all_keys(parts: PartTables) -> np.ndarray:
+    """Key rows of every two-unit design of a study (every front unit, rear unit and tyre; the
+    same unit on both axles with same_unit)."""
+    n_m, n_r, n_t = parts.sizes
+    mm, rr = np.meshgrid(np.arange(n_m), np.arange(n_r), indexing="ij")
+    units = np.stack([mm.ravel(), rr.ravel()], axis=1)
+    if parts.problem.drive.same_unit:
+        u, t = np.meshgrid(np.arange(units.shape[0]), np.arange(n_t), indexing="ij")
+        f = r = units[u.ravel()]
+        tk = t.ravel()
+    else:
+        a, b, t = np.meshgrid(np.arange(units.shape[0]), np.arange(units.shape[0]), np.arange(n_t), indexing="ij")
+        f, r, tk = units[a.ravel()], units[b.ravel()], t.ravel()
+    return np.stack([f[:, 0], f[:, 1], r[:, 0], r[:, 1], tk], axis=1)
+
+
 def _compatible(parts: PartTables, metrics: dict) -> np.ndarray:
     """Designs passing the reducer-rating and tyre-load checks (the mechanically possible ones)."""
     res = evaluate.check_results(parts, metrics)
@@ -316,7 +356,8 @@ def _compatible(parts: PartTables, metrics: dict) -> np.ndarray:
 # ------------------------------------------------------------------------------------------ studies
 
 def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | None = None,
-                 objective_weights: dict | None = None, requirement_share: dict | float | None = None) -> Study:
+                 objective_weights: dict | None = None, requirement_share: dict | float | None = None,
+                 layout: str = "single", gearbox_share: float = 0.0) -> Study:
     """Generate, write and load one random study.
 
     Parameters
@@ -328,6 +369,9 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     objective_weights : {objective: probability} (default `OBJECTIVE_WEIGHTS`)
     requirement_share : probability that each requirement family is stated, one number for all or
         {key: probability} (default `REQUIREMENT_SHARE`) [-]
+    layout : "single" (front or rear drive, drawn), "both" (a unit on each axle) or "same" (both
+        axles, same_unit = true)
+    gearbox_share : share of reducer rows made two- or three-speed gearboxes [-]
 
     Returns
     -------
@@ -341,6 +385,13 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     environment = random_environment(rng)
     motors = random_motors(rng, counts[0])
     reducers = random_reducers(rng, counts[1], motors)
+    if gearbox_share > 0:
+        reducers = add_gears(np.random.default_rng([seed, 13]), reducers, gearbox_share)
+    drive = None
+    if layout != "single":
+        vehicle["driven_axle"] = "both"
+        if layout == "same":
+            drive = {"same_unit": True}
     # a rough tyre load (heavier static axle with ~100 kg of drive parts) to centre the load indices
     axle_share = max(vehicle["rear_axle_share"], 1 - vehicle["rear_axle_share"])
     tyre_load = (axle_share * vehicle["mass_kg"] + 100.0) / (vehicle["tyre_count"] / 2)
@@ -360,10 +411,13 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     # calibration: load the catalogues with the requirement-free problem, enumerate every design
     path = directory / "problem.toml"
     name = f"Random study {seed} (invented data)"
-    write_problem(path, name, vehicle, environment, {}, "cost", f"seed {seed}")
+    write_problem(path, name, vehicle, environment, {}, "cost", f"seed {seed}", drive)
     base, catalogs = load_study(path)
     parts = PartTables.build(base, catalogs)
     mi, rj, tk = _all_triples(parts)
+    if layout != "single":
+        mi = _all_keys(parts)
+        rj = tk = None
     met = evaluate.evaluate(parts, mi, rj, tk, accel=False)
     pool = _compatible(parts, met)
     req: dict = {}
@@ -399,7 +453,7 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
             req[key] = level
         levels[key] = kind
 
-    write_problem(path, name, vehicle, environment, req, objective, f"seed {seed}")
+    write_problem(path, name, vehicle, environment, req, objective, f"seed {seed}", drive)
     problem, catalogs = load_study(path)
     return Study(seed=seed, problem_path=path, problem=problem, catalogs=catalogs,
                  parts=PartTables.build(problem, catalogs), levels=levels)

@@ -21,8 +21,9 @@ INVALID = sorted((DATA / "invalid" / "catalogs").glob("*.csv"))
 MOTORS_HEADER = ("part,supplier,peak_torque_nm,peak_power_kw,max_speed_rpm,cont_torque_nm,cont_power_kw,"
                  "decline_speed_rpm,decline_exponent,mass_kg,rotor_inertia_kgm2,unit_cost,lead_time_weeks")
 MOTORS_ENERGY_COLUMNS = "loss_copper_w_per_nm2,loss_iron_nm,loss_windage_w_s3,loss_constant_w,efficiency_map"
-REDUCERS_HEADER = ("part,supplier,ratio,efficiency_pct,max_input_torque_nm,max_input_speed_rpm,mass_kg,"
-                   "unit_cost,lead_time_weeks")
+REDUCERS_REQUIRED = ("part,supplier,ratio,efficiency_pct,max_input_torque_nm,max_input_speed_rpm,mass_kg,"
+                     "unit_cost,lead_time_weeks")
+REDUCERS_HEADER = REDUCERS_REQUIRED + ",ratio_2,ratio_3,efficiency_2_pct,efficiency_3_pct,shift_time_s"
 TYRES_HEADER = "part,supplier,size,load_index,speed_symbol,rr_coefficient_n_per_kn,mass_kg,unit_cost,lead_time_weeks"
 
 
@@ -127,7 +128,7 @@ def test_load_catalogs_returns_study_catalogs():
 
 
 def test_bom_crlf_quoted_newline_and_short_rows(tmp_path):
-    text = ("# illustrative\r\n" + REDUCERS_HEADER + ",notes\r\n"
+    text = ("# illustrative\r\n" + REDUCERS_REQUIRED + ",notes\r\n"
             'R-1,Geartech,8,97,300,14000,14,620,5,"two\r\nlines"\r\n'
             "R-2,Geartech,9,97,300,14000,14,620,5\r\n")  # short row: notes cell missing
     p = write(tmp_path, "reducers.csv", text, encoding="utf-8-sig", newline="")

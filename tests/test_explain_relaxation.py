@@ -70,7 +70,7 @@ def all_designs(parts):
 
 def run_end_kmh(parts, i, j, k, steps=60):
     """Highest target speed with a finite acceleration time, by bisection on the integrator's verdict."""
-    drive, body = parts.design(i, j, k)
+    drive, body = parts.single_drive(i, j, k)
     lo = np.zeros(np.size(i))
     hi = np.full(np.size(i), 400.0)
     for _ in range(steps):
@@ -142,7 +142,7 @@ def test_ice_relaxation_lowers_the_target_and_is_confirmed(tmp_path, capsys):
     relax = res["relaxation"]
     assert set(relax) == {"accel_to_kmh"}
     i, j, k = (a[pos] for a in ids)
-    drive, body = parts.design([i], [j], [k])
+    drive, body = parts.single_drive([i], [j], [k])
     v = relax["accel_to_kmh"]
     assert perf.accel_time_s(drive, body, kmh_to_mps(v))[0] <= 12.0
     assert perf.accel_time_s(drive, body, kmh_to_mps(v * 1.001))[0] > 12.0

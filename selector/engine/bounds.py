@@ -1,12 +1,31 @@
-"""Per-motor optimistic acceleration bounds used by the optimiser.
+"""Certified bounds used to prune the search: every bound here is proved, none is sampled.
 
-Acceleration time is not linearised. Instead, for each motor, an *optimistic* time t_i(L) is
-computed as a function of L = ln(G/r) only: lightest mass with that motor, best reducer
-efficiency for the force, least rotor inertia, lowest rolling resistance, and a traction bound
-from the largest driven-axle share any reducer/tyre gives with that motor. Every real design
-with motor i and log-gearing L takes at least t_i(L). The optimiser then bounds L by the
-widest window where t_i(L) meets the target, and (for the accel_time objective) uses
-min_L t_i(L) as motor i's lower bound.
+Log-gearing. A design's gearing is described by L = ln(G/r) of its gears; a single-speed design has
+one L, a multi-speed design the interval [L_tallest, L_first] of its gears (its "L-hull").
+
+Requirement windows (`requirement_window`): necessary conditions a motor's designs must meet,
+written as an interval of L, with the vehicle mass taken at its lightest, the rolling resistance at
+its lowest and the gearbox efficiency at its best over the parts the motor can use, so every
+feasible design lies inside the window:
+
+- a required sustained speed V: the continuous shaft power P_c(w) = w T_c(w) at w = V e^L must cover
+  V F_res(V) / eta (the gearing limit is the upper end of the envelope's domain);
+- the acceleration target V_a: the same with the peak envelope (a(V_a) > 0 is needed to reach it);
+- gradeability (first gear): eta T_pk e^L >= m g (Crr cos + sin);
+- launch (first gear): eta T e^L - a J eta e^{2L} >= m (a + g Crr) (quadratic in e^L).
+
+Acceleration time (`optimistic_time_s`). For every design of a motor whose gears lie in an L-hull
+[L_a, L_b] and every speed v, the net acceleration is at most
+
+    a_up(v) = min( (eta_max e^{L_b} T(v e^{L_a}) - F_res_min(v)) / (m_min + J eta_min e^{2 L_a}),  a_traction_max )
+
+because T is non-increasing in shaft speed, e^L <= e^{L_b}, m_eff >= m_min + J eta_min e^{2 L_a}, and
+the traction-limited acceleration is at most the driven axle's bound (`traction_tan_bound`). a_up is
+non-increasing in v (force non-increasing, road load increasing), so 1/a_up is non-decreasing and
+the LEFT Riemann sum sum_k (v_{k+1} - v_k) / a_up(v_k) is a lower bound of integral dv / a_up, hence
+of every such design's time (shifts only add time). No quadrature error enters: the bound is exact
+arithmetic on a proved inequality. Where a_up <= 0 below the target (or at it), no design of the
+block reaches the target: the bound is +inf, which is then exact.
 """
 
 from __future__ import annotations
@@ -17,81 +36,103 @@ from dataclasses import dataclass
 import numpy as np
 
 from selector.engine.parts import PartTables
-from selector.physics.performance import Body, Drive, accel_time_s
+from selector.physics.motor import envelope_torque_nm
 from selector.requirements import REL_TOL
-from selector.units import G_N
+from selector.units import G_N, kmh_to_mps
 
-GRID_POINTS = 24
-"""Grid of L values on which t_i(L) is sampled before refinement [-]."""
-SUB_POINTS = 8
-"""Samples per refinement bracket [-]."""
-REFINE_LEVELS = 3
-"""Nested refinement levels (each shrinks a bracket by (SUB_POINTS - 1) / 2) [-]."""
-BOUND_NODES = 12
-"""Gauss-Legendre nodes per piece for optimistic times (max relative error seen ~3e-4, on
-near-singular runs; covered by `BOUND_SAFETY`) [-]."""
-BOUND_SAFETY = 1e-3
-"""Relative safety on optimistic times: windows admit t <= limit (1 + this), minima are lowered
-by this factor [-]. Covers quadrature error and sampling of a smooth minimum; the common kinked
-minimum (time falling until the gearing limit) is sampled exactly at L_gear."""
+RIEMANN_NODES = 48
+"""Speed nodes of the certified Riemann lower bound of the acceleration time [-]."""
 
 
 @dataclass(frozen=True)
-class AccelWindows:
-    """Per motor: L window [lo, hi] (lo > hi when empty) and the optimistic minimum time [s]."""
+class Usable:
+    """Per-motor extremes over the parts a feasible design with that motor can use (SI)."""
 
-    lo: np.ndarray
-    hi: np.ndarray
-    t_min_s: np.ndarray
-
-
-def log_gearing_range(parts: PartTables) -> tuple[float, float]:
-    """Smallest and largest L = ln(G/r) over the catalogue [ln(1/m)]."""
-    lg = np.log(parts.reducers.ratio)
-    lr = np.log(parts.tyres.radius_m)
-    return float(lg.min() - lr.max()), float(lg.max() - lr.min())
-
-
-@dataclass(frozen=True)
-class _Usable:
-    """Per-motor extremes over the parts a feasible design with that motor can use."""
-
+    compatible: np.ndarray
+    """(n_motors, n_reducers) bool: reducer rated for the motor's torque and speed, and allowed."""
     has_reducer: np.ndarray
-    """Motor i has at least one reducer rated for its torque and speed."""
     eta_max: np.ndarray
     eta_min: np.ndarray
     reducer_mass_min: np.ndarray
     reducer_mass_max: np.ndarray
+    tyres: np.ndarray
+    """Positions of the tyres that can carry at least the lightest possible axle share (and are allowed)."""
     tyre_mass_min: float
     tyre_mass_max: float
     crr_min: float
+    radius_min: float
+    radius_max: float
 
 
-def _usable(parts: PartTables) -> _Usable:
-    """Reducers rated for each motor (the staircase rule), and tyres whose load index can carry
-    at least the lightest possible axle share (every feasible design uses such parts)."""
-    mo, re, ty = parts.motors, parts.reducers, parts.tyres
+def compatible_matrix(parts: PartTables, motors=None, reducers=None) -> np.ndarray:
+    """(motors, reducers) bool: the reducer's input ratings cover the motor's peak torque and max speed."""
+    mo, re = parts.motors, parts.reducers
+    mi = np.arange(len(mo.part)) if motors is None else np.asarray(motors)
+    rj = np.arange(len(re.part)) if reducers is None else np.asarray(reducers)
+    tol = 1 + 2 * REL_TOL
+    return ((mo.torque_nm[mi][:, None] <= re.max_torque_nm[rj][None, :] * tol)
+            & (mo.max_speed_rad_s[mi][:, None] <= re.max_speed_rad_s[rj][None, :] * tol))
+
+
+def least_tyre_load_kg(parts: PartTables) -> float:
+    """Smallest possible per-tyre share of the heavier static axle (parts only add to it) [kg]."""
     v = parts.problem.vehicle
-    ok = ((mo.torque_nm[:, None] <= re.max_torque_nm[None, :] * (1 + 2 * REL_TOL))
-          & (mo.max_speed_rad_s[:, None] <= re.max_speed_rad_s[None, :] * (1 + 2 * REL_TOL)))
+    return max(v.rear_axle_share, 1.0 - v.rear_axle_share) * v.mass_kg / (0.5 * v.tyre_count)
+
+
+def usable(parts: PartTables, allowed: dict | None = None) -> Usable:
+    """Usable parts per motor: reducers rated for it (the staircase rule) among the allowed ones, and
+    the allowed tyres whose load index can carry the lightest possible axle share."""
+    allowed = allowed or {}
+    re, ty = parts.reducers, parts.tyres
+    n_r, n_t = len(re.part), len(ty.part)
+    r_ok = np.zeros(n_r, dtype=bool)
+    r_ok[np.arange(n_r) if allowed.get("reducers") is None else np.asarray(allowed["reducers"], dtype=np.int64)] = True
+    ok = compatible_matrix(parts) & r_ok[None, :]
     has = ok.any(axis=1)
-    eta = np.where(ok, re.efficiency[None, :], np.nan)
-    mass = np.where(ok, re.mass_kg[None, :], np.nan)
+    eta_best = np.nanmax(re.efficiencies, axis=1)
+    eta_worst = np.nanmin(re.efficiencies, axis=1)
     with np.errstate(invalid="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN rows: motors without a reducer
-        eta_max, eta_min = np.nanmax(eta, axis=1), np.nanmin(eta, axis=1)
-        mr_min, mr_max = np.nanmin(mass, axis=1), np.nanmax(mass, axis=1)
-    # the heavier static axle carries at least max(s, 1 - s) of mass_kg (parts only add to it)
-    least_load = max(v.rear_axle_share, 1.0 - v.rear_axle_share) * v.mass_kg / (0.5 * v.tyre_count)
-    tyre_ok = ty.load_capacity_kg >= least_load * (1 - 2 * REL_TOL)
-    if not tyre_ok.any():
-        tyre_ok = np.ones_like(tyre_ok)  # no tyre can work; keep the bounds defined (the model is infeasible)
+        eta_max = np.nanmax(np.where(ok, eta_best[None, :], np.nan), axis=1)
+        eta_min = np.nanmin(np.where(ok, eta_worst[None, :], np.nan), axis=1)
+        mr_min = np.nanmin(np.where(ok, re.mass_kg[None, :], np.nan), axis=1)
+        mr_max = np.nanmax(np.where(ok, re.mass_kg[None, :], np.nan), axis=1)
+    t_ok = np.zeros(n_t, dtype=bool)
+    t_ok[np.arange(n_t) if allowed.get("tyres") is None else np.asarray(allowed["tyres"], dtype=np.int64)] = True
+    t_ok &= ty.load_capacity_kg >= least_tyre_load_kg(parts) * (1 - 2 * REL_TOL)
+    tyres = np.nonzero(t_ok)[0]
+    pick = tyres if tyres.size else np.arange(n_t)  # no tyre can work: keep bounds defined (nothing is feasible)
     fill = lambda a, x: np.where(has, a, x)  # noqa: E731
-    return _Usable(has_reducer=has, eta_max=fill(eta_max, re.efficiency.max()),
-                   eta_min=fill(eta_min, re.efficiency.min()), reducer_mass_min=fill(mr_min, re.mass_kg.min()),
-                   reducer_mass_max=fill(mr_max, re.mass_kg.max()), tyre_mass_min=float(ty.mass_kg[tyre_ok].min()),
-                   tyre_mass_max=float(ty.mass_kg[tyre_ok].max()), crr_min=float(ty.crr[tyre_ok].min()))
+    return Usable(compatible=ok, has_reducer=has & bool(tyres.size), eta_max=fill(eta_max, 1.0),
+                  eta_min=fill(eta_min, 1.0), reducer_mass_min=fill(mr_min, 0.0), reducer_mass_max=fill(mr_max, 0.0),
+                  tyres=tyres, tyre_mass_min=float(ty.mass_kg[pick].min()), tyre_mass_max=float(ty.mass_kg[pick].max()),
+                  crr_min=float(ty.crr[pick].min()), radius_min=float(ty.radius_m[pick].min()),
+                  radius_max=float(ty.radius_m[pick].max()))
 
+
+def cached_usable(parts: PartTables, allowed: dict | None) -> Usable:
+    """`usable`, memoised per part tables and allowed parts."""
+    key = ("usable",) + tuple(None if (allowed or {}).get(k) is None else tuple(int(a) for a in allowed[k])
+                              for k in ("reducers", "tyres"))
+    if key not in parts.cache:
+        parts.cache[key] = usable(parts, allowed)
+    return parts.cache[key]
+
+
+def lightest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
+    """Lightest vehicle mass of any design with each motor (single unit) [kg]."""
+    v = parts.problem.vehicle
+    return v.mass_kg + parts.motors.mass_kg[motors] + use.reducer_mass_min[motors] + v.tyre_count * use.tyre_mass_min
+
+
+def heaviest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
+    """Heaviest vehicle mass of any design with each motor (single unit) [kg]."""
+    v = parts.problem.vehicle
+    return v.mass_kg + parts.motors.mass_kg[motors] + use.reducer_mass_max[motors] + v.tyre_count * use.tyre_mass_max
+
+
+# ------------------------------------------------------------------------------------------ traction
 
 def max_driven_share(parts: PartTables, motor_mass_kg, reducer_mass_kg, tyre_mass_kg) -> np.ndarray:
     """Largest static driven-axle share per motor mass, over ranges of reducer and tyre masses [-].
@@ -133,126 +174,155 @@ def traction_tan_bound(parts: PartTables, driven_share, crr):
     return np.full(num.shape, np.inf) if num.shape else np.inf
 
 
-def _optimistic_designs(parts: PartTables, motors: np.ndarray, log_g: np.ndarray):
-    """Drive, Body and traction bound of optimistic designs (motor, L) (flattened pairs)."""
-    p = parts.problem
-    v, env = p.vehicle, p.environment
+# ------------------------------------------------------------------------------------------ windows
+
+def power_window(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, shaft_power_w):
+    """Shaft speeds where the envelope's power w T(w) reaches ``shaft_power_w``: [w_lo, w_hi] [rad/s].
+
+    P(w) = min(T w, P, P (w_d/w)^k) up to w_max rises, stays flat, then declines, so the set is an
+    interval: w >= X/T, and w <= min(w_max, w_d (P/X)^(1/k)) (empty, lo > hi, when X > P).
+    """
+    x = np.asarray(shaft_power_w, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        lo = x / torque_nm
+        hi = np.minimum(max_speed_rad_s, decline_rad_s * np.power(power_w / x, 1.0 / decline_exponent))
+    hi = np.where(x <= power_w * (1 + 2 * REL_TOL), hi, -np.inf)
+    return lo, hi
+
+
+def requirement_window(parts: PartTables, use: Usable, motors, req, first_gear: bool,
+                       accel_target_kmh: float | None = None):
+    """Necessary L = ln(G/r) window [lo, hi] per motor from the requirements (see module docstring).
+
+    ``first_gear`` True: the window of the first gear (gradeability, launch); False: the window some
+    gear must lie in to reach the required sustained speed and ``accel_target_kmh`` (the acceleration
+    run's target, when the run matters to the search).
+    """
     mo = parts.motors
-    use = parts.cache.get("usable")
-    if use is None:
-        use = parts.cache["usable"] = _usable(parts)
-    eta_max, eta_min = use.eta_max[motors], use.eta_min[motors]
-    c_min = use.crr_min
-    m_min = v.mass_kg + mo.mass_kg[motors] + use.reducer_mass_min[motors] + v.tyre_count * use.tyre_mass_min
-    drive = Drive(torque_nm=mo.torque_nm[motors], power_w=mo.power_w[motors],
-                  cont_torque_nm=mo.cont_torque_nm[motors], cont_power_w=mo.cont_power_w[motors],
-                  decline_rad_s=mo.decline_rad_s[motors], decline_exponent=mo.decline_exponent[motors],
-                  max_speed_rad_s=mo.max_speed_rad_s[motors],
-                  rotor_inertia_kgm2=mo.rotor_inertia_kgm2[motors] * eta_min / eta_max,
-                  ratio=np.exp(log_g), efficiency=eta_max, radius_m=1.0)
-    body = Body(mass_kg=m_min, rear_share=0.5, crr=c_min, q_n_s2_m2=parts.q_n_s2_m2,
-                road_friction=env.road_friction, cg_height_m=v.cg_height_m, wheelbase_m=v.wheelbase_m,
-                rear_drive=parts.rear_drive, wheel_inertia_total_kgm2=0.0, speed_limit_mps=parts.speed_limit_mps)
-    share = max_driven_share(parts, mo.mass_kg[motors],
+    motors = np.asarray(motors, dtype=np.int64)
+    m_lo = lightest_mass_kg(parts, use, motors)
+    eta = use.eta_max[motors]
+    c = use.crr_min
+    q = parts.q_n_s2_m2
+    lo = np.full(motors.shape, -np.inf)
+    hi = np.full(motors.shape, np.inf)
+    tol = 1 + 4 * REL_TOL
+    if not first_gear:
+        for v_kmh, cont in ((req.top_speed_kmh, True), (accel_target_kmh, False)):
+            if v_kmh is None:
+                continue
+            v = kmh_to_mps(v_kmh)
+            need = v * (m_lo * G_N * c + q * v * v) / eta / tol
+            w_lo, w_hi = power_window(mo.cont_torque_nm[motors] if cont else mo.torque_nm[motors],
+                                      mo.cont_power_w[motors] if cont else mo.power_w[motors],
+                                      mo.decline_rad_s[motors], mo.decline_exponent[motors],
+                                      mo.max_speed_rad_s[motors] * tol, need)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                lo = np.maximum(lo, np.log(w_lo / v))
+                hi = np.minimum(hi, np.where(w_hi > 0, np.log(np.maximum(w_hi, 1e-300) / v), -np.inf))
+        return lo, hi
+    if req.gradeability_pct is not None:
+        th = np.arctan(req.gradeability_pct / 100.0)
+        need = m_lo * G_N * (c * np.cos(th) + np.sin(th)) / tol
+        lo = np.maximum(lo, np.log(need / (eta * mo.torque_nm[motors])))
+    if req.launch_accel_mps2 is not None:
+        a = req.launch_accel_mps2
+        j_eta = mo.rotor_inertia_kgm2[motors] * use.eta_min[motors]
+        b = eta * mo.torque_nm[motors]
+        cc = m_lo * (a + G_N * c) / tol
+        # a J eta x^2 - eta T x + m (a + g Crr) <= 0, x = e^L
+        disc = b * b - 4.0 * a * j_eta * cc
+        with np.errstate(divide="ignore", invalid="ignore"):
+            sq = np.sqrt(np.maximum(disc, 0.0))
+            x1 = np.where(j_eta > 0, (2.0 * cc) / (b + sq), cc / b)  # the smaller root, stable form
+            x2 = np.where(j_eta > 0, (b + sq) / (2.0 * a * j_eta), np.inf)
+        x1 = np.where(disc >= 0, x1, np.inf)
+        x2 = np.where(disc >= 0, x2, -np.inf)
+        with np.errstate(divide="ignore"):
+            lo = np.maximum(lo, np.log(x1))
+            hi = np.minimum(hi, np.where(x2 > 0, np.log(np.maximum(x2, 1e-300)), -np.inf))
+    return lo, hi
+
+
+def traction_feasible(parts: PartTables, use: Usable, motors, req) -> np.ndarray:
+    """False for motors with which no design can meet gradeability or launch by traction alone."""
+    motors = np.asarray(motors, dtype=np.int64)
+    ok = use.has_reducer[motors].copy()
+    if req.gradeability_pct is None and req.launch_accel_mps2 is None:
+        return ok
+    share = max_driven_share(parts, parts.motors.mass_kg[motors],
                              (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
                              (use.tyre_mass_min, use.tyre_mass_max))
-    cap = G_N * traction_tan_bound(parts, share, c_min)
-    # a motor no reducer is rated for has no feasible design: no finite time
-    cap = np.where(use.has_reducer[motors], cap, -np.inf)
-    return drive, body, cap
+    tan = traction_tan_bound(parts, share, use.crr_min)
+    if req.gradeability_pct is not None:
+        ok &= 100.0 * tan >= req.gradeability_pct * (1 - 4 * REL_TOL)
+    if req.launch_accel_mps2 is not None:
+        ok &= G_N * tan >= req.launch_accel_mps2 * (1 - 4 * REL_TOL)
+    return ok
 
 
-def optimistic_time_s(parts: PartTables, motors, log_g, target_mps) -> np.ndarray:
-    """Optimistic 0-to-target time of motor(s) ``motors`` at log-gearing ``log_g`` [s] (lower bound)."""
-    motors, log_g = np.broadcast_arrays(np.asarray(motors, dtype=np.int64), np.asarray(log_g, dtype=float))
-    shape = motors.shape
-    drive, body, cap = _optimistic_designs(parts, motors.ravel(), log_g.ravel())
-    return accel_time_s(drive, body, target_mps, traction_accel_bound_mps2=cap, nodes=BOUND_NODES).reshape(shape)
+# ------------------------------------------------------------------------------------------ acceleration
+
+def riemann_speeds(target_mps, nodes: int = RIEMANN_NODES):
+    """Left nodes v_k and widths of a partition of [0, V], graded towards V (1/a grows there) [m/s]."""
+    s = 1.0 - (1.0 - np.arange(nodes + 1) / nodes) ** 2
+    v = np.asarray(target_mps, dtype=float)[..., None] * s
+    return v[..., :-1], np.diff(v, axis=-1)
 
 
-def accel_windows(parts: PartTables, target_mps: float, time_limit_s: float | None,
-                  motors=None) -> AccelWindows:
-    """Window of L per motor where the optimistic time meets ``time_limit_s`` (None: finite time).
+def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2,
+                      eta_max, eta_min, mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max,
+                      hl, transfer_sign, l_a, l_b, target_mps, nodes: int = RIEMANN_NODES):
+    """Certified lower bound of the 0-to-target time over every single-unit design in the block [s].
 
-    t_i(L) is sampled on a grid over the catalogue's L range, then refined by nested grids
-    around the minimum and around both edges of the feasible set (each level shrinks the bracket
-    to two sub-steps). The window is the hull of every sampled point that meets the limit,
-    widened to the nearest sampled point that does not (so it only errs on the wide side, which
-    keeps the model a relaxation). Exact when the feasible set is an interval (t_i(L)
-    quasi-convex, the usual case: time falls with L until the gearing limit bites); a feasible
-    island narrower than the grid spacing away from the minimum could be missed (documented).
-    The optimistic minimum time is the smallest sample, lowered by `BOUND_SAFETY`. ``motors``
-    restricts the work to some motors (positions); the others get empty windows.
+    Block: a motor (envelope arrays), gears with L = ln(G/r) in [l_a, l_b], gearbox efficiency in
+    [eta_min, eta_max], vehicle mass in [mass_min_kg, mass_max_kg], rolling resistance at least
+    ``crr_min``, static driven-axle share at most ``driven_share_max``, ``hl`` = h/L and
+    ``transfer_sign`` +1 for rear drive, -1 for front drive. All arguments broadcast to one shape
+    (blocks); see the module docstring for the proof. The traction-limited acceleration per unit
+    mass, (g (mu s - Crr) - q v^2/m) / (1 + J eta e^{2L}/m - sign mu h/L), is bounded above by taking
+    s, Crr, m, eta and L at their extremes. inf when no design of the block can reach the target.
     """
-    n_all = parts.sizes[0]
-    motors = np.arange(n_all) if motors is None else np.asarray(motors, dtype=np.int64)
-    rows = np.arange(motors.size)
-    l_lo, l_hi = log_gearing_range(parts)
-    pad = 1e-6
-    grid = np.linspace(l_lo - pad, l_hi + pad, GRID_POINTS)
-    limit = np.inf if time_limit_s is None else time_limit_s * (1 + BOUND_SAFETY)
-    t = optimistic_time_s(parts, motors[:, None], grid[None, :], target_mps)  # (motors, G)
-    ok = t <= limit
-    any_ok = ok.any(axis=1)
-    best = np.argmin(t, axis=1)
-    t_best = t[rows, best]
-    # brackets [a, b] to refine: around the minimum, and across each edge of the feasible set
-    first = np.argmax(ok, axis=1)
-    last = GRID_POINTS - 1 - np.argmax(ok[:, ::-1], axis=1)
-    step = grid[1] - grid[0]
-    lo = np.where(any_ok, grid[first] - step, np.inf)   # widened to the neighbouring sample
-    hi = np.where(any_ok, grid[last] + step, -np.inf)
-    brackets = {
-        "min": (grid[np.maximum(best - 1, 0)], grid[np.minimum(best + 1, GRID_POINTS - 1)]),
-        "lo": (np.maximum(grid[first] - step, grid[0]), grid[first]),
-        "hi": (grid[last], np.minimum(grid[last] + step, grid[-1])),
-    }
-    min_bracket0 = brackets["min"]
-    grid_ok = any_ok.copy()
-    frac = np.linspace(0.0, 1.0, SUB_POINTS)[None, :]
-    for _ in range(REFINE_LEVELS):
-        pts = {k: a[:, None] + (b - a)[:, None] * frac for k, (a, b) in brackets.items()}
-        allp = np.concatenate([pts["min"], pts["lo"], pts["hi"]], axis=1)
-        tt = optimistic_time_s(parts, motors[:, None], allp, target_mps)
-        t_min_pts, t_lo_pts, t_hi_pts = np.split(tt, 3, axis=1)
-        # minimum
-        k = np.argmin(t_min_pts, axis=1)
-        t_best = np.minimum(t_best, t_min_pts[rows, k])
-        p = pts["min"]
-        brackets["min"] = (p[rows, np.maximum(k - 1, 0)], p[rows, np.minimum(k + 1, SUB_POINTS - 1)])
-        # lower edge: first feasible sample in the bracket, keep its infeasible left neighbour
-        okl = t_lo_pts <= limit
-        fl = np.argmax(okl, axis=1)
-        has = okl.any(axis=1)
-        p = pts["lo"]
-        left = p[rows, np.maximum(fl - 1, 0)]
-        lo = np.where(has, left, lo)
-        brackets["lo"] = (left, p[rows, fl])
-        # upper edge
-        okh = t_hi_pts <= limit
-        lh = SUB_POINTS - 1 - np.argmax(okh[:, ::-1], axis=1)
-        has = okh.any(axis=1)
-        p = pts["hi"]
-        right = p[rows, np.minimum(lh + 1, SUB_POINTS - 1)]
-        hi = np.where(has, right, hi)
-        brackets["hi"] = (p[rows, lh], right)
-    # a minimum that meets the limit where no grid point did: the feasible set lies between the
-    # infeasible grid neighbours of the minimum
-    star_only = (t_best <= limit) & ~grid_ok
-    lo = np.where(star_only, min_bracket0[0], lo)
-    hi = np.where(star_only, min_bracket0[1], hi)
-    ok_final = grid_ok | star_only
-    lo = np.where(ok_final, lo - pad, np.inf)
-    hi = np.where(ok_final, hi + pad, -np.inf)
-    # time often falls with L right up to the gearing limit L_gear = ln(w_max / V): sample it
-    l_gear = np.log(parts.motors.max_speed_rad_s[motors] / target_mps) * (1 - 1e-13)
-    in_range = (l_gear >= grid[0]) & (l_gear <= grid[-1])
-    t_gear = optimistic_time_s(parts, motors, np.where(in_range, l_gear, grid[0]), target_mps)
-    t_best = np.where(in_range, np.minimum(t_best, t_gear), t_best)
-    gear_only = in_range & (t_gear <= limit) & ~ok_final
-    lo = np.where(gear_only, l_gear - step - pad, lo)
-    hi = np.where(gear_only, l_gear + pad, hi)
-    t_min = np.where(np.isfinite(t_best), t_best * (1 - BOUND_SAFETY), np.inf)
-    full = AccelWindows(lo=np.full(n_all, np.inf), hi=np.full(n_all, -np.inf), t_min_s=np.full(n_all, np.inf))
-    full.lo[motors], full.hi[motors], full.t_min_s[motors] = lo, hi, t_min
-    return full
+    args = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (
+        torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2, eta_max, eta_min,
+        mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max, hl, transfer_sign, l_a, l_b,
+        target_mps)))
+    t_, p_, wd, k, wm, j, e_hi, e_lo, m, m_hi, c, q, mu, s_max, hl_, sg, la, lb, vt = (a[..., None] for a in args)
+    v, dv = riemann_speeds(args[-1], nodes)
+    vv = np.concatenate([v, args[-1][..., None]], axis=-1)  # the target itself: a_up(V) > 0 is necessary
+    ea, eb = np.exp(la), np.exp(lb)
+    torque = envelope_torque_nm(vv * ea, t_, p_, wd, k, wm)
+    f_up = e_hi * eb * torque
+    f_res = m * G_N * c + q * vv * vv
+    dj = j * e_lo * ea * ea
+    m_eff = m + dj
+    with np.errstate(divide="ignore", invalid="ignore"):
+        den = 1.0 + dj / m_hi - sg * mu * hl_
+        a_trac = np.where(den > 0, (G_N * (mu * s_max - c) - q * vv * vv / m_hi) / den, np.inf)
+        a_up = np.minimum((f_up - f_res) / m_eff, a_trac)
+    reach = (a_up > 0).all(axis=-1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = (dv / a_up[..., :-1]).sum(axis=-1)
+    return np.where(reach, t, np.inf)
+
+
+def motor_time_bound_s(parts: PartTables, use: Usable, motors, l_a, l_b, target_mps, mass_min_kg=None, eta_max=None,
+                       crr_min=None, nodes: int = RIEMANN_NODES):
+    """`optimistic_time_s` of single-unit designs with ``motors`` and gears in [l_a, l_b] (broadcast) [s].
+
+    ``mass_min_kg``, ``eta_max``, ``crr_min`` (optional, broadcast): tighter extremes over the
+    block's designs than the motor's usable parts give (e.g. over the pairs in an L cell).
+    """
+    mo = parts.motors
+    p = parts.problem
+    motors = np.asarray(motors, dtype=np.int64)
+    share = max_driven_share(parts, mo.mass_kg[motors], (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
+                             (use.tyre_mass_min, use.tyre_mass_max))
+    m_lo = lightest_mass_kg(parts, use, motors) if mass_min_kg is None else mass_min_kg
+    return optimistic_time_s(mo.torque_nm[motors], mo.power_w[motors], mo.decline_rad_s[motors],
+                             mo.decline_exponent[motors], mo.max_speed_rad_s[motors], mo.rotor_inertia_kgm2[motors],
+                             use.eta_max[motors] if eta_max is None else eta_max, use.eta_min[motors], m_lo,
+                             heaviest_mass_kg(parts, use, motors), use.crr_min if crr_min is None else crr_min,
+                             parts.q_n_s2_m2, p.environment.road_friction, share,
+                             p.vehicle.cg_height_m / p.vehicle.wheelbase_m, 1.0 if parts.rear_drive else -1.0,
+                             l_a, l_b, target_mps, nodes)

@@ -1,11 +1,16 @@
-"""The exact search: relax (MILP), verify (exact physics on a motor's whole slice), cut, repeat.
+"""The exact search: the entry point every study calls, its result and its status.
 
-Every model row is a relaxation, so the MILP optimum bounds the true optimum from below. Each
-iteration takes the motor the MILP picks, evaluates that motor's entire reducer x tyre slice
-with the exact physics (`evaluate.screen`), adds its best designs to a pool, forbids the motor,
-and tightens an objective cutoff to the pool's ``count``-th best value. When the MILP becomes
-infeasible, no unevaluated motor can beat the pool, so the pool is exact. At most one iteration
-per motor. Ties within 1e-9 relative are broken by part-id order (motor, reducer, tyre).
+`search` finds the ``count`` best designs of a study, exactly, ties broken by part-id order. How
+optimality is proved depends on the layout (see DEVELOPERS.md, "How optimality is proved"):
+
+- single-axle studies: best-first branch and bound over motors with certified bounds
+  (`best_first.SingleAxleSearch`); every design not evaluated exactly has a proved lower bound
+  above the result;
+- two-unit studies: the same over blocks of drive-unit options (`two_units.TwoUnitSearch`), with the
+  MILP relaxation (`model.py`) as the global bound when blocks are many.
+
+Statuses: "optimal" (proved), "infeasible" (proved: no design meets every requirement),
+"time_limit" (the best designs found so far, a proved lower bound and the gap).
 """
 
 from __future__ import annotations
@@ -13,30 +18,11 @@ from __future__ import annotations
 import time
 from dataclasses import dataclass, field, replace
 
-import numpy as np
-
-from selector.engine.bounds import accel_windows
-from selector.engine.evaluate import (
-    OBJECTIVE_METRIC,
-    order_best,
-    screen,
-    slice_indices,
-    tie_tolerance,
-)
-from selector.engine.model import SelectionModel
+from selector.design import Design
+from selector.errors import InputError
+from selector.engine.evaluate import OBJECTIVE_METRIC
 from selector.engine.parts import PartTables
-from selector.errors import InputError, SolverUnavailableError
 from selector.inputs import Requirements
-from selector.physics.performance import accel_time_s
-from selector.requirements import passes
-from selector.units import kmh_to_mps
-
-BATCH_EXTRA = 3
-"""accel_time objective: motors evaluated exactly per MILP solve besides the one it proposes [-]."""
-
-SOLVER_OPTIONS = {"mip_rel_gap": 0.0, "mip_abs_gap": 1e-9, "presolve": "off"}
-"""HiGHS options: exact gaps; presolve off (measured faster on these small dense one-hot models,
-see benchmarks/). Each solve only proposes a motor; exactness comes from the slice evaluation."""
 
 STATUS_OPTIMAL = "optimal"
 STATUS_INFEASIBLE = "infeasible"
@@ -47,8 +33,9 @@ STATUS_TIME_LIMIT = "time_limit"
 class SearchResult:
     """Outcome of one exact search.
 
-    ``designs``: list of (objective value, motor idx, reducer idx, tyre idx), best first.
-    ``bound``: proven lower bound on the objective (equal to the best value when optimal).
+    ``designs``: `Design` objects, best first. ``bound``: proven lower bound on the objective (equal
+    to the best value when optimal). ``iterations``: blocks (motors or unit options) evaluated
+    exactly; ``stats``: counters of the search (blocks, refined bounds, designs evaluated).
     """
 
     status: str
@@ -58,123 +45,37 @@ class SearchResult:
     iterations: int = 0
     reason: str | None = None
     timings: dict = field(default_factory=lambda: {"build_s": 0.0, "solve_s": 0.0, "verify_s": 0.0})
+    stats: dict = field(default_factory=dict)
 
     @property
     def gap(self) -> float | None:
         """Relative gap between the best design and the bound (0 when optimal)."""
         if not self.designs or self.bound is None:
             return None
-        best = self.designs[0][0]
+        best = self.designs[0].value
         return 0.0 if best == self.bound else abs(best - self.bound) / max(abs(best), 1e-12)
 
 
-class SliceCache:
-    """Exact evaluations of whole motor slices, shared by searches that differ only in the limits
-    ``budget``, ``max_mass_kg`` and ``accel_time_s`` (the frontier's epsilon steps).
-
-    Per evaluated motor it keeps the designs that meet every *other* requirement and check, with
-    their cost, mass and acceleration time; a search then applies its own limits to these exactly,
-    starts from them as incumbents and forbids those motors in the MILP at once.
-    """
-
-    VARYING = ("budget", "max_mass_kg", "accel_time_s")
-
-    def __init__(self):
-        self.key = None
-        self.entries: dict[int, dict] = {}
-
-    def _fixed(self, req: Requirements) -> Requirements:
-        return replace(req, **{k: None for k in self.VARYING})
-
-    def _key(self, parts: PartTables, req: Requirements, allowed: dict):
-        return (id(parts.cache), self._fixed(req), parts.speed_limit_mps,
-                *(None if allowed.get(k) is None else tuple(int(a) for a in allowed[k])
-                  for k in ("motors", "reducers", "tyres")))
-
-    def matches(self, parts: PartTables, req: Requirements, allowed: dict) -> bool:
-        """True when the cached slices apply to a search with these requirements and parts."""
-        return self._key(parts, req, allowed) == self.key
-
-    def bind(self, parts: PartTables, req: Requirements, allowed: dict):
-        """Reset the cache when the fixed requirements or the allowed parts differ from before."""
-        key = self._key(parts, req, allowed)
-        if key != self.key:
-            self.key, self.entries = key, {}
-
-    def slice(self, parts: PartTables, req: Requirements, i: int, reducers, tyres) -> dict:
-        """Designs of motor i meeting every requirement except the varying limits (computed once)."""
-        if i not in self.entries:
-            fixed = self._fixed(req)
-            fparts = replace(parts, problem=replace(parts.problem, requirements=fixed))
-            mi, rj, tk = slice_indices(parts, i, reducers, tyres)
-            ok, _ = screen(fparts, mi, rj, tk, "cost", need_accel=False)
-            mi, rj, tk = mi[ok], rj[ok], tk[ok]
-            t = np.full(mi.shape, np.inf)
-            if fixed.accel_to_kmh is not None and mi.size:
-                drive, body = parts.design(mi, rj, tk)
-                t = accel_time_s(drive, body, kmh_to_mps(fixed.accel_to_kmh))
-            self.entries[i] = {"keys": np.stack([mi, rj, tk], axis=1), "cost": parts.cost(mi, rj, tk),
-                               "mass_kg": parts.mass_kg(mi, rj, tk), "accel_time_s": t}
-        return self.entries[i]
-
-    @staticmethod
-    def select(entry: dict, req: Requirements, objective: str):
-        """(objective values, keys) of the entry's designs meeting the varying limits of ``req``."""
-        ok = np.ones(entry["keys"].shape[0], dtype=bool)
-        for name, metric in (("budget", "cost"), ("max_mass_kg", "mass_kg"), ("accel_time_s", "accel_time_s")):
-            limit = getattr(req, name)
-            if limit is not None:
-                ok &= passes("max", limit, entry[metric])
-        vals = entry[OBJECTIVE_METRIC[objective]][ok]
-        fin = np.isfinite(vals)
-        return vals[fin], entry["keys"][ok][fin]
-
-
 class SearchSession:
-    """State shared by a series of searches on one study that differ only in the limits
-    ``budget``, ``max_mass_kg`` and ``accel_time_s`` (the frontier's epsilon steps): the exact motor
-    slices (`SliceCache`) and, per objective, the built MILP with its loaded solver, whose limits
-    and windows are updated in place instead of rebuilding and reloading the model."""
+    """State shared by a series of searches on one study (the frontier's epsilon steps, explain's
+    re-solves): memoised bounds live in the part tables' cache; this object carries nothing else
+    today and is kept so callers can share future state explicitly."""
 
     def __init__(self):
-        self.slices = SliceCache()
-        self.models: dict = {}
-
-    def model_for(self, parts: PartTables, objective: str, req: Requirements, allowed: dict, windows,
-                  accel_target_kmh, build):
-        """(model, solver, reused) for this objective and these fixed requirements."""
-        key = (objective, self.slices._key(parts, req, allowed),
-               tuple(k for k in SliceCache.VARYING if getattr(req, k) is not None), accel_target_kmh)
-        if key in self.models:
-            model, opt = self.models[key]
-            model.reset(req, windows)
-            return model, opt, True
-        model = build()
-        opt = _solver()
-        self.models[key] = (model, opt)
-        return model, opt, False
+        self.searches = 0
 
 
-def cached_accel_windows(parts: PartTables, target_kmh: float, limit_s: float | None):
-    """`bounds.accel_windows`, memoised per part tables, target and limit (explain, frontier and
-    sweeps re-solve many times with the same acceleration requirement)."""
-    cache = parts.cache.setdefault("windows", {})
-    key = (float(target_kmh), None if limit_s is None else float(limit_s), parts.speed_limit_mps)
-    if key not in cache:
-        cache[key] = accel_windows(parts, kmh_to_mps(target_kmh), limit_s)
-    return cache[key]
-
-
-def _solver():
-    try:
-        from pyomo.contrib.solver.solvers.highs import Highs
-    except Exception as exc:  # pragma: no cover - depends on the installation
-        raise SolverUnavailableError(f"cannot load the HiGHS interface of Pyomo: {exc}. "
-                                     "Reinstall with: pip install pyomo highspy") from exc
-    opt = Highs()
-    if not opt.available():
-        raise SolverUnavailableError("the HiGHS solver (highspy) is not available. Install it with: pip install highspy")
-    return opt
+def _impossible(parts: PartTables, req: Requirements) -> str | None:
+    """A reason when a requirement is above the speed limiter (no design can meet it), else None."""
+    lim = req.speed_limiter_kmh
+    if lim is None:
+        return None
+    for key in ("top_speed_kmh", "accel_to_kmh"):
+        v = getattr(req, key)
+        needed = key == "top_speed_kmh" or req.accel_time_s is not None
+        if v is not None and needed and lim < v * (1 - 1e-9):
+            return f"{key} = {v:g} is above speed_limiter_kmh = {lim:g}: the speed is unreachable"
+    return None
 
 
 def search(parts: PartTables, objective: str | None = None, count: int = 1, per_motor: int | None = None,
@@ -192,9 +93,8 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     requirements : override of the problem's requirements (explain, frontier, sweeps)
     allowed : {"motors"|"reducers"|"tyres": positions allowed} (procurement filters, exclusions)
     time_limit_s : wall-clock limit [s]; on expiry status is "time_limit" with the best so far
-    threads : HiGHS threads [-]
-    session : state shared with earlier searches that differed only in budget, max_mass_kg or
-        accel_time_s (exact motor slices, built models); see `SearchSession`
+    threads : solver threads for the MILP stage [-]
+    session : state shared with earlier searches of the same study (see `SearchSession`)
     """
     t_start = time.perf_counter()
     problem = parts.problem
@@ -210,130 +110,44 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     if any(a is not None and len(a) == 0 for a in allowed.values()):
         result.reason = "no parts left after the procurement filters"
         return result
-
-    windows = None
-    accel_needed = req.accel_to_kmh is not None and (req.accel_time_s is not None or objective == "accel_time")
-    t0 = time.perf_counter()
-    if accel_needed:
-        if (session is not None and req.accel_time_s is not None and session.slices.entries
-                and session.slices.matches(parts, req, allowed)):
-            # motors whose slices are known exactly are forbidden in the model: bound only the others
-            todo = np.setdiff1d(np.arange(parts.sizes[0]), np.fromiter(session.slices.entries, dtype=np.int64))
-            windows = accel_windows(parts, kmh_to_mps(req.accel_to_kmh), req.accel_time_s, motors=todo)
-        else:
-            windows = cached_accel_windows(parts, req.accel_to_kmh, req.accel_time_s)
-
-    def build():
-        return SelectionModel(parts, objective, windows=windows,
-                              accel_target_kmh=req.accel_to_kmh if accel_needed else None,
-                              accel_limit_s=req.accel_time_s, allowed=allowed)
-
-    if session is not None:
-        model, opt, _ = session.model_for(parts, objective, req, allowed, windows,
-                                          req.accel_to_kmh if accel_needed else None, build)
-    else:
-        model = build()
-        opt = None
-    result.timings["build_s"] += time.perf_counter() - t0
-    if model.infeasible_reason:
-        result.reason = model.infeasible_reason
+    reason = _impossible(parts, req)
+    if reason:
+        result.reason = reason
         return result
+    deadline = None if time_limit_s is None else t_start + time_limit_s
+    stats = {"blocks": 0, "refined": 0, "evaluated": 0}
+    if parts.two_units:
+        from selector.engine.two_units import TwoUnitSearch
 
-    opt = opt or _solver()
-    scale = model.objective_scale()
-    per_slice = count if per_motor is None else min(count, per_motor)
-    pool_vals, pool_keys = np.empty(0), np.empty((0, 3), dtype=np.int64)
-    reducers, tyres = allowed.get("reducers"), allowed.get("tyres")
-    from pyomo.contrib.solver.common.results import TerminationCondition as TC
+        engine = TwoUnitSearch(parts, objective, req, allowed, count, per_motor, deadline, stats)
+    else:
+        from selector.engine.best_first import SingleAxleSearch
 
-    def add_to_pool(vals, keys):
-        nonlocal pool_vals, pool_keys
-        if vals.size:
-            best = order_best(vals, keys, per_slice)
-            pool_vals = np.concatenate([pool_vals, vals[best]])
-            pool_keys = np.concatenate([pool_keys, keys[best]])
-
-    evaluated: set[int] = set()
-    slice_cache = None if session is None else session.slices
-    if slice_cache is not None:
-        slice_cache.bind(parts, req, allowed)
-        motors_allowed = allowed.get("motors")
-        usable = None if motors_allowed is None else set(int(a) for a in motors_allowed)
-        for i in list(slice_cache.entries):
-            if usable is None or i in usable:
-                add_to_pool(*slice_cache.select(slice_cache.entries[i], req, objective))
-                model.exclude_motor(i)
-                evaluated.add(i)
-
-    def evaluate_motor(i: int):
-        if slice_cache is not None:
-            add_to_pool(*slice_cache.select(slice_cache.slice(parts, req, i, reducers, tyres), req, objective))
-        else:
-            mi, rj, tk = slice_indices(parts, i, reducers, tyres)
-            ok, vals = screen(parts, mi, rj, tk, objective)
-            add_to_pool(vals[ok], np.stack([mi[ok], rj[ok], tk[ok]], axis=1))
-        model.exclude_motor(i)
-        evaluated.add(i)
-
-    extra_candidates = None
-    if objective == "accel_time" and windows is not None:
-        m_ok = np.isfinite(windows.t_min_s) & (windows.lo <= windows.hi)
-        if allowed.get("motors") is not None:
-            m_ok &= np.isin(np.arange(parts.sizes[0]), allowed["motors"])
-        cand = np.nonzero(m_ok)[0]
-        extra_candidates = [int(c) for c in cand[np.lexsort((cand, windows.t_min_s[cand]))]]
-
-    options = dict(SOLVER_OPTIONS, threads=threads)
-    while True:
-        remaining = None if time_limit_s is None else time_limit_s - (time.perf_counter() - t_start)
-        if remaining is not None and remaining <= 0:
-            result.status = STATUS_TIME_LIMIT
-            break
-        if len(pool_vals) >= count:
-            kth = pool_vals[order_best(pool_vals, pool_keys, count)[-1]]
-            model.set_cutoff((kth + tie_tolerance(kth)) * scale)
-        t0 = time.perf_counter()
-        res = opt.solve(model.m, load_solutions=False, raise_exception_on_nonoptimal_result=False,
-                        time_limit=remaining, solver_options=options)
-        result.timings["solve_s"] += time.perf_counter() - t0
-        result.iterations += 1
-        tc = res.termination_condition
-        if tc in (TC.provenInfeasible, TC.infeasibleOrUnbounded, TC.locallyInfeasible):
-            result.status = STATUS_OPTIMAL if len(pool_vals) else STATUS_INFEASIBLE
-            break
-        if tc == TC.maxTimeLimit and res.incumbent_objective is None:
-            result.status = STATUS_TIME_LIMIT
-            result.bound = None if res.objective_bound is None else res.objective_bound / scale
-            break
-        if tc not in (TC.convergenceCriteriaSatisfied, TC.maxTimeLimit):
-            raise SolverUnavailableError(f"HiGHS stopped unexpectedly ({tc.name}); rerun with --verbose and report it")
-        res.solution_loader.load_vars()
-        i, _, _ = model.chosen()
-        if tc == TC.maxTimeLimit:
-            result.bound = None if res.objective_bound is None else res.objective_bound / scale
-        t0 = time.perf_counter()
-        evaluate_motor(i)
-        if extra_candidates is not None:
-            # accel_time objective: the MILP ranks motors by optimistic time; evaluate the next few
-            # by that ranking exactly too (always safe), saving a MILP solve per motor
-            limit = pool_vals[order_best(pool_vals, pool_keys, count)[-1]] if len(pool_vals) >= count else np.inf
-            for j in [c for c in extra_candidates if c not in evaluated][:BATCH_EXTRA]:
-                if windows.t_min_s[j] > limit + tie_tolerance(limit):
-                    break
-                evaluate_motor(j)
-        result.timings["verify_s"] += time.perf_counter() - t0
-        if tc == TC.maxTimeLimit:
-            result.status = STATUS_TIME_LIMIT
-            break
-
-    order = order_best(pool_vals, pool_keys, count)
-    result.designs = [(float(pool_vals[b]), int(pool_keys[b, 0]), int(pool_keys[b, 1]), int(pool_keys[b, 2]))
-                      for b in order]
-    if result.status == STATUS_OPTIMAL:
-        result.bound = result.designs[0][0]
-    elif result.designs and result.bound is not None:
-        # the MILP bound covers only the motors not yet evaluated; evaluated ones are known exactly
-        result.bound = min(result.bound, result.designs[0][0])
-    elif result.status == STATUS_INFEASIBLE:
-        result.reason = result.reason or "no design in the catalogues meets every requirement"
+        engine = SingleAxleSearch(parts, objective, req, allowed, count, per_motor, deadline, stats)
+    result.timings["build_s"] = time.perf_counter() - t_start
+    t0 = time.perf_counter()
+    status, designs, bound = engine.run()
+    result.timings["solve_s"] = time.perf_counter() - t0
+    result.status, result.designs, result.stats = status, designs, stats
+    result.iterations = stats["blocks"]
+    if status == STATUS_OPTIMAL:
+        result.bound = designs[0].value
+    elif status == STATUS_TIME_LIMIT:
+        result.bound = bound
+    else:
+        result.reason = "no design in the catalogues meets every requirement"
     return result
+
+
+def with_requirements(parts: PartTables, req: Requirements) -> PartTables:
+    """The same part tables under other requirements."""
+    return parts.with_requirements(req)
+
+
+def replace_requirements(req: Requirements, **changes) -> Requirements:
+    """``req`` with some values changed (None drops a requirement)."""
+    return replace(req, **changes)
+
+
+__all__ = ["STATUS_INFEASIBLE", "STATUS_OPTIMAL", "STATUS_TIME_LIMIT", "Design", "SearchResult", "SearchSession",
+           "search"]

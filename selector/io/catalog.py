@@ -55,6 +55,7 @@ PEAK_EFFICIENCY_WARN_PCT = (80.0, 99.0)
 EFFICIENCY_WARN_PCT = 80.0
 RR_WARN_N_PER_KN = (4.0, 20.0)
 RATIO_WARN = (1.0, 30.0)
+STEP_WARN = (1.05, 4.0)  # gear step ratio G_n / G_n+1 (common practice, no published source)
 
 _REL_TOL = 1e-9  # equal values after rounding in a datasheet are not an error
 
@@ -541,6 +542,9 @@ def _check_row(kind: str, v: dict, loc: str):
             a, b, c = distinct_numbers(v["ratio"], lo, hi)
             odd.append(f"{loc}: ratio = {a}; outside {b}..{c}, unusual for a single-speed "
                        "traction reducer. Check the value (ratio = motor speed / wheel speed).")
+        gear_errors, gear_odd = _check_gears(v, loc)
+        errors += gear_errors
+        odd += gear_odd
     elif kind == "tyres":
         rr = v["rr_coefficient_n_per_kn"]
         lo, hi = RR_WARN_N_PER_KN
@@ -549,6 +553,36 @@ def _check_row(kind: str, v: dict, loc: str):
                     if rr < 0.1 else " Check the value (EU tyre label classes span about 6.5..12 N/kN).")
             a, b, c = distinct_numbers(rr, lo, hi)
             odd.append(f"{loc}: rr_coefficient_n_per_kn = {a}; outside {b}..{c} N/kN.{hint}")
+    return errors, odd
+
+
+def _check_gears(v: dict, loc: str):
+    """Rules of the multi-speed gearbox columns: decreasing ratios, a third gear only after a second,
+    a shift time with every second gear; step ratios outside 1.05..4 are unusual."""
+    errors, odd = [], []
+    r1, r2, r3 = v["ratio"], v.get("ratio_2"), v.get("ratio_3")
+    if r3 is not None and r2 is None:
+        errors.append(f"{loc}: ratio_3 = {r3:g} is given without ratio_2; a third gear needs a second. "
+                      "Fill in ratio_2 or move the value to ratio_2.")
+    for name, hi_name, lo_v, hi_v in (("ratio_2", "ratio", r2, r1), ("ratio_3", "ratio_2", r3, r2)):
+        if lo_v is not None and hi_v is not None and not lo_v < hi_v:
+            errors.append(f"{loc}: {name} = {lo_v:g} is not below {hi_name} = {hi_v:g}; each further gear must be "
+                          "strictly taller (a smaller ratio). List the gears from first (largest ratio) to last.")
+    for n, r in ((2, r2), (3, r3)):
+        if r is None and v.get(f"efficiency_{n}_pct") is not None:
+            errors.append(f"{loc}: efficiency_{n}_pct is given without ratio_{n}. Remove it or add ratio_{n}.")
+    if r2 is not None and v.get("shift_time_s") is None:
+        errors.append(f"{loc}: shift_time_s is empty but the gearbox has a second gear (ratio_2 = {r2:g}); the "
+                      "torque interruption per upshift is required [s]. Fill it in (0 for a seamless shift).")
+    if r2 is None and v.get("shift_time_s") not in (None, 0, 0.0):
+        odd.append(f"{loc}: shift_time_s = {v['shift_time_s']:g} on a single-speed reducer (no ratio_2); it is "
+                   "ignored. Remove it, or add the gearbox's further ratios.")
+    for a, b in ((r1, r2), (r2, r3)):
+        if a is not None and b is not None and b > 0 and a > b:
+            step = a / b
+            if not STEP_WARN[0] <= step <= STEP_WARN[1]:
+                odd.append(f"{loc}: gear step {a:g} / {b:g} = {step:.3g}; outside {STEP_WARN[0]:g}..{STEP_WARN[1]:g}, "
+                           "unusual for a traction gearbox. Check the ratios.")
     return errors, odd
 
 
@@ -571,6 +605,12 @@ def _frame(kind, schema, typed, extra_vals, lines, grids=None) -> pd.DataFrame:
         data["decline_speed_rpm"] = np.where(np.isnan(dec), data["max_speed_rpm"], dec)
         k = data["decline_exponent"]
         data["decline_exponent"] = np.where(np.isnan(k), 1.0, k)
+    if kind == "reducers":
+        for n in (2, 3):
+            eff = data[f"efficiency_{n}_pct"]
+            data[f"efficiency_{n}_pct"] = np.where(np.isnan(eff), data["efficiency_pct"], eff)
+        st = data["shift_time_s"]
+        data["shift_time_s"] = np.where(np.isnan(st), 0.0, st)
     for h, vals in extra_vals.items():
         data[h] = pd.array(vals, dtype=object)
     if kind == "motors":

@@ -72,7 +72,7 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
     from selector.physics.road import road_load_n
     from selector.units import kmh_to_mps
 
-    drive, body = perf.broadcast(*parts.design(np.array([i]), np.array([j]), np.array([k])))
+    drive, body = perf.broadcast(*parts.single_drive(np.array([i]), np.array([j]), np.array([k])))
     p = parts.problem
     v_max = float(perf.max_speed_mps(drive, body)[0])
     v_gear = float(perf.gearing_speed_limit_mps(drive)[0])
@@ -95,7 +95,7 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
     run_v = np.linspace(0.0, max(run_end, 0.0), ACCEL_RUN_SAMPLES)
     if run_end > 0:
         n = run_v.size - 1
-        d_n, b_n = parts.design(np.full(n, i), np.full(n, j), np.full(n, k))
+        d_n, b_n = parts.single_drive(np.full(n, i), np.full(n, j), np.full(n, k))
         run_t = np.concatenate([[0.0], perf.accel_time_s(d_n, b_n, run_v[1:])])
     else:
         run_v, run_t = np.zeros(1), np.zeros(1)

@@ -34,6 +34,7 @@ from typing import Callable
 from selector.errors import InputError
 from selector.inputs import (
     Catalogs,
+    DriveOptions,
     Energy,
     Environment,
     Problem,
@@ -53,7 +54,7 @@ __all__ = ["ProblemWarning", "load_problem", "load_study"]
 
 OBJECTIVES = ("cost", "mass", "accel_time")
 DISTINCT = ("motor", "reducer", "tyre")
-DRIVEN_AXLES = ("rear", "front")
+DRIVEN_AXLES = ("rear", "front", "both")
 ROLLING_RADIUS_FACTOR_RANGE = (0.9, 1.0)
 ROAD_FRICTION_MAX = 2.0          # common practice, no published source: road tyres stay well below
 TEMPERATURE_RANGE_C = (-70.0, 60.0)  # common practice, no published source: road-vehicle climates
@@ -81,7 +82,7 @@ class Key:
 
     name: str
     type: str
-    """``"number"``, ``"int"``, ``"str"``, ``"str list"``."""
+    """``"number"``, ``"int"``, ``"str"``, ``"str list"``, ``"bool"``."""
     required: bool = False
     unit: str = ""
     check: Callable[[object], str | None] | None = None
@@ -134,7 +135,8 @@ TABLES: dict[str, dict[str, Key]] = {
         Key("wheelbase_m", "number", True, "m", _positive, "wheelbase"),
         Key("cg_height_m", "number", True, "m", _positive, "height of the centre of gravity"),
         Key("rear_axle_share", "number", True, "", _open_unit, "static share of mass_kg on the rear axle"),
-        Key("driven_axle", "str", True, "", _one_of(DRIVEN_AXLES), '"rear" or "front"'),
+        Key("driven_axle", "str", True, "", _one_of(DRIVEN_AXLES),
+            '"rear", "front" or "both" (one drive unit per axle)'),
         Key("tyre_count", "int", True, "", _even_tyres, "number of tyres"),
         Key("rolling_radius_factor", "number", False, "", _between(*ROLLING_RADIUS_FACTOR_RANGE),
             "dynamic rolling radius / free radius, default 0.97"),
@@ -166,6 +168,11 @@ TABLES: dict[str, dict[str, Key]] = {
         Key("avoid_suppliers", "str list", False, "", None, "suppliers to leave out"),
         Key("max_lead_time_weeks", "number", False, "weeks", _non_negative,
             "longest acceptable lead time (0 = in stock only)"),
+    )},
+    "drive": {k.name: k for k in (
+        Key("same_unit", "bool", False, "", None, "the same motor and reducer part on both axles"),
+        Key("front_motors", "str list", False, "", None, "motor part ids or suppliers allowed on the front axle"),
+        Key("rear_motors", "str list", False, "", None, "motor part ids or suppliers allowed on the rear axle"),
     )},
     "energy": {k.name: k for k in (
         Key("cycle", "str", True, "", None,
@@ -301,6 +308,12 @@ def _check_value(col: _Collector, table: str, spec: Key, v):
         if not math.isfinite(v):
             col.bad(table, spec.name, v, "must be a finite number", spec.unit)
             return None
+    elif spec.type == "bool":
+        if not isinstance(v, bool):
+            col.bad(table, spec.name, v, f"must be true or false, not {_type_name(v)}", "",
+                    "Write true or false (without quotes).")
+            return None
+        return v
     elif spec.type == "str":
         if not isinstance(v, str):
             col.bad(table, spec.name, v, f"must be text in double quotes, not {_type_name(v)}", "",
@@ -403,6 +416,7 @@ def load_problem(path) -> Problem:
     if "max_lead_time_weeks" in proc:
         proc["max_lead_time_weeks"] = float(proc["max_lead_time_weeks"])
     procurement = Procurement(**proc)
+    drive = _drive(col, values["drive"], data, vehicle)
     catalog_paths = _catalog_paths(col, path, values["catalogs"])
     energy = _energy(col, path, values["energy"], data)
 
@@ -412,7 +426,7 @@ def load_problem(path) -> Problem:
                          + "\n".join(f"  {e}" for e in col.errors))
     for note in col.notes:
         warnings.warn(note, ProblemWarning, stacklevel=2)
-    return Problem(name=name, path=path, catalog_paths=catalog_paths, vehicle=vehicle,
+    return Problem(name=name, path=path, catalog_paths=catalog_paths, vehicle=vehicle, drive=drive,
                    environment=environment, requirements=requirements, objective=objective,
                    procurement=procurement, energy=energy)
 
@@ -533,6 +547,14 @@ def _environment(col: _Collector, v: dict, data: dict) -> Environment | None:
         rho = isa_density_kg_m3(float(v.get("altitude_m", 0.0)),
                                 None if "temperature_c" not in v else float(v["temperature_c"]))
     return Environment(air_density_kg_m3=rho, road_friction=float(v.get("road_friction", DEFAULT_ROAD_FRICTION)))
+
+
+def _drive(col: _Collector, v: dict, data: dict, vehicle: Vehicle | None) -> DriveOptions:
+    """The [drive] table: only meaningful with driven_axle = "both"."""
+    if "drive" in data and vehicle is not None and vehicle.driven_axle != "both":
+        col.add(f"{col.where('drive')}: [drive] applies only to two drive units; [vehicle] driven_axle is "
+                f"\"{vehicle.driven_axle}\". Set driven_axle = \"both\" or remove the [drive] table.")
+    return DriveOptions(**v)
 
 
 def _requirements(col: _Collector, v: dict) -> Requirements:

@@ -57,6 +57,7 @@ from selector.engine.search import (
 from selector.engine.verify import verify_designs
 from selector.inputs import Requirements
 from selector.io.catalog import distinct_numbers
+from selector.physics import accel_run
 from selector.physics import performance as perf
 from selector.records import BINDING_RULE, clean, design_record
 from selector.requirements import (
@@ -424,8 +425,8 @@ def enumerate_shortfalls(parts: PartTables, allowed: dict, objective: str, progr
 
 
 def _accel_times(parts: PartTables, keys: np.ndarray, target_kmh: float) -> np.ndarray:
-    drive, body = parts.design(keys[:, 0], keys[:, 1], keys[:, 2])
-    return perf.accel_time_s(drive, body, kmh_to_mps(target_kmh))
+    axles, body = parts.design(parts.single_keys(keys[:, 0], keys[:, 1], keys[:, 2]))
+    return accel_run.accel_time_s(axles, body, kmh_to_mps(target_kmh))
 
 
 REACH_LIMITS = ("gearing", "motor", "traction", "limiter")
@@ -455,7 +456,7 @@ def reach_speed_kmh(parts: PartTables, keys: np.ndarray) -> tuple[np.ndarray, li
     (speeds [km/h], limits: one of `REACH_LIMITS` per design)
     """
     keys = np.atleast_2d(np.asarray(keys, dtype=np.int64))
-    drive, body = perf.broadcast(*parts.design(keys[:, 0], keys[:, 1], keys[:, 2]))
+    drive, body = perf.broadcast(*parts.single_drive(keys[:, 0], keys[:, 1], keys[:, 2]))
     m_eff = perf.effective_mass(drive, body)
     grip_n = body.road_friction * perf.driven_weight_n(body) - perf.level_road_load(body, 0.0)
     with np.errstate(divide="ignore", invalid="ignore"):

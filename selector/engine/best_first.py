@@ -1,0 +1,431 @@
+"""Single-axle exact search: best-first branch and bound over motors with certified bounds.
+
+The design space is partitioned into blocks, one per motor (all its reducer x tyre pairs). Each
+block gets a certified lower bound on the objective over its designs that can be feasible:
+
+- the reducer-tyre pairs a motor can use are cut to those whose log-gearing L = ln(G/r) lies in the
+  motor's requirement windows (`bounds.requirement_window`) and whose reducer is rated for it;
+- cost and mass: the motor's own value plus the smallest pair value among those pairs (a
+  range-minimum query over pairs sorted by L, per reducer rating class);
+- acceleration time: the certified Riemann bound of `bounds.optimistic_time_s` over L cells
+  holding such pairs (first over the motor's whole L range, refined to `CELLS` cells when the motor
+  comes up), which also removes the pairs of cells that cannot meet ``accel_time_s``.
+
+Motors are taken in order of their bound; a motor's block is evaluated exactly (`evaluate.screen`,
+cheap checks first, the acceleration run last), in the order of its pairs' own bounds, stopping as
+soon as no unevaluated pair can improve the pool. The search ends when every remaining motor's
+bound exceeds the pool's ``count``-th best value beyond the tie tolerance: every design not
+evaluated is then provably worse or infeasible, so the pool is exact (ties broken by part id).
+"""
+
+from __future__ import annotations
+
+import heapq
+import time
+from dataclasses import dataclass
+
+import numpy as np
+
+from selector.design import Design
+from selector.engine import bounds as B
+from selector.engine.evaluate import OBJECTIVE_METRIC, designs_of, order_best, screen, tie_tolerance
+from selector.engine.parts import PartTables
+from selector.engine.rmq import RangeMin
+from selector.requirements import REL_TOL
+from selector.units import kmh_to_mps
+
+CELLS = 32
+"""L cells per motor for the refined acceleration bound [-]."""
+SUBCELLS = 8
+"""Sub-cells per cell when a motor's block is evaluated [-]."""
+REFINE_BATCH = 64
+"""Motors whose acceleration bound is refined together [-]."""
+FIRST_CHUNK = 256
+"""Designs of a block evaluated in its first chunk (later chunks double) [-]."""
+
+
+@dataclass
+class _Class:
+    """Single-speed pairs of one reducer rating class, sorted by L."""
+
+    torque_nm: float
+    speed_rad_s: float
+    pairs: np.ndarray
+    """Pair positions, sorted by L."""
+    l_sorted: np.ndarray
+    cost: RangeMin
+    mass: RangeMin
+    crr: RangeMin
+    neg_eta: RangeMin
+    """-(best gear efficiency), so that its range minimum is the best efficiency's negative."""
+
+
+@dataclass
+class PairTable:
+    """Every (reducer, tyre) pair a design can use, with what the bounds need (arrays (P,))."""
+
+    j: np.ndarray
+    k: np.ndarray
+    gear_l: np.ndarray
+    """(P, 3) L = ln(G/r) of each gear, NaN beyond the gear count."""
+    l_first: np.ndarray
+    l_tall: np.ndarray
+    multi: np.ndarray
+    cost: np.ndarray
+    mass: np.ndarray
+    crr: np.ndarray
+    eta: np.ndarray
+    classes: list
+    multi_pairs: np.ndarray
+
+
+def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
+    """Pairs of the allowed reducers and the usable tyres."""
+    re, ty = parts.reducers, parts.tyres
+    n = parts.problem.vehicle.tyre_count
+    rj = np.asarray(reducers, dtype=np.int64)
+    jj, kk = np.meshgrid(rj, use.tyres, indexing="ij")
+    j, k = jj.ravel(), kk.ravel()
+    with np.errstate(invalid="ignore"):
+        gear_l = np.log(re.ratios[j]) - np.log(ty.radius_m[k])[:, None]
+    l_first = gear_l[:, 0]
+    l_tall = gear_l[np.arange(j.size), re.n_gears[j] - 1]
+    multi = re.n_gears[j] > 1
+    cost = re.cost[j] + n * ty.cost[k]
+    mass = re.mass_kg[j] + n * ty.mass_kg[k]
+    crr = ty.crr[k]
+    eta = np.nanmax(re.efficiencies[j], axis=1)
+    classes = []
+    single = np.nonzero(~multi)[0]
+    if single.size:
+        rating = np.stack([re.max_torque_nm[j[single]], re.max_speed_rad_s[j[single]]], axis=1)
+        uniq, inv = np.unique(rating, axis=0, return_inverse=True)
+        inv = np.asarray(inv).ravel()
+        for c in range(uniq.shape[0]):
+            members = single[inv == c]
+            order = members[np.argsort(l_first[members], kind="stable")]
+            classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order],
+                                  RangeMin(cost[order]), RangeMin(mass[order]), RangeMin(crr[order]),
+                                  RangeMin(-eta[order])))
+    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, classes, np.nonzero(multi)[0])
+
+
+class SingleAxleSearch:
+    """One exact search of a single-axle study (see the module docstring)."""
+
+    def __init__(self, parts: PartTables, objective: str, req, allowed: dict, count: int, per_motor: int | None,
+                 deadline: float | None, stats: dict):
+        self.parts, self.objective, self.req = parts, objective, req
+        self.allowed = allowed
+        self.count = count
+        self.per_slice = count if per_motor is None else min(count, per_motor)
+        self.deadline = deadline
+        self.stats = stats
+        self.metric = OBJECTIVE_METRIC[objective]
+        self.accel = req.accel_to_kmh is not None and (req.accel_time_s is not None or objective == "accel_time")
+        self.target = kmh_to_mps(req.accel_to_kmh) if self.accel else None
+        self.use = B.cached_usable(parts, allowed)
+        reducers = allowed.get("reducers")
+        self.pairs = pair_table(parts, self.use, np.arange(parts.sizes[1]) if reducers is None else reducers)
+        motors = np.arange(parts.sizes[0]) if allowed.get("motors") is None else np.asarray(allowed["motors"])
+        motors = np.asarray(motors, dtype=np.int64)
+        motors = motors[B.traction_feasible(parts, self.use, motors, req)]
+        self.motors = motors
+        lo_s, hi_s = B.requirement_window(parts, self.use, motors, req, first_gear=False,
+                                          accel_target_kmh=req.accel_to_kmh if self.accel else None)
+        lo_1, hi_1 = B.requirement_window(parts, self.use, motors, req, first_gear=True)
+        self.win_speed = (lo_s, hi_s)
+        self.win_first = (lo_1, hi_1)
+        self.pool_vals = np.empty(0)
+        self.pool_keys = np.empty((0, 5), dtype=np.int64)
+        self.l_range = (float(np.nanmin(self.pairs.l_tall)) if self.pairs.j.size else 0.0,
+                        float(np.nanmax(self.pairs.l_first)) if self.pairs.j.size else 0.0)
+
+    # ------------------------------------------------------------------ candidate pairs
+    def _single_ranges(self, m_pos):
+        """Per compatible class: (class, lo index, hi index) of admissible single-speed pairs of motors."""
+        mo = self.parts.motors
+        mi = self.motors[m_pos]
+        lo = np.maximum(self.win_speed[0][m_pos], self.win_first[0][m_pos])
+        hi = np.minimum(self.win_speed[1][m_pos], self.win_first[1][m_pos])
+        tol = 1 + 2 * REL_TOL
+        out = []
+        for c in self.pairs.classes:
+            comp = (mo.torque_nm[mi] <= c.torque_nm * tol) & (mo.max_speed_rad_s[mi] <= c.speed_rad_s * tol)
+            a = np.searchsorted(c.l_sorted, lo, side="left")
+            b = np.searchsorted(c.l_sorted, hi, side="right")
+            b = np.where(comp & (hi >= lo), b, a)
+            out.append((c, a, b))
+        return out
+
+    def _multi_ok(self, m_pos):
+        """(motors, multi-speed pairs) admissible: rated, first gear in its window, some gear in the speed window."""
+        p = self.pairs
+        mp = p.multi_pairs
+        if mp.size == 0:
+            return np.zeros((m_pos.size, 0), dtype=bool)
+        comp = self.use.compatible[self.motors[m_pos]][:, p.j[mp]]
+        l1 = p.l_first[mp][None, :]
+        ok = comp & (l1 >= self.win_first[0][m_pos][:, None]) & (l1 <= self.win_first[1][m_pos][:, None])
+        lo_s, hi_s = self.win_speed[0][m_pos][:, None, None], self.win_speed[1][m_pos][:, None, None]
+        gl = p.gear_l[mp][None, :, :]
+        with np.errstate(invalid="ignore"):
+            some = ((gl >= lo_s) & (gl <= hi_s)).any(axis=2)
+        return ok & some
+
+    def candidates(self, pos: int) -> np.ndarray:
+        """Admissible pair positions of one motor (before acceleration bounds)."""
+        parts = []
+        for c, a, b in self._single_ranges(np.array([pos])):
+            if b[0] > a[0]:
+                parts.append(c.pairs[a[0]:b[0]])
+        mo = self._multi_ok(np.array([pos]))
+        if mo.size:
+            parts.append(self.pairs.multi_pairs[mo[0]])
+        return np.concatenate(parts) if parts else np.empty(0, dtype=np.int64)
+
+    # ------------------------------------------------------------------ bounds
+    def value_bounds(self) -> np.ndarray:
+        """Cost or mass lower bound per motor (inf: no admissible pair)."""
+        n = self.motors.size
+        m_pos = np.arange(n)
+        attr = "cost" if self.objective in ("cost", "accel_time") else "mass"
+        best = np.full(n, np.inf)
+        for c, a, b in self._single_ranges(m_pos):
+            best = np.minimum(best, getattr(c, attr).query(a, b))
+        mo = self._multi_ok(m_pos)
+        if mo.size:
+            vals = getattr(self.pairs, attr)[self.pairs.multi_pairs]
+            best = np.minimum(best, np.where(mo, vals[None, :], np.inf).min(axis=1))
+        if attr == "cost":
+            return self.parts.motors.cost[self.motors] + best
+        return self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[self.motors] + best
+
+    def hull(self, m_pos):
+        """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
+        lo = np.full(m_pos.size, np.inf)
+        hi = np.full(m_pos.size, -np.inf)
+        for c, a, b in self._single_ranges(m_pos):
+            has = b > a
+            lo = np.where(has, np.minimum(lo, c.l_sorted[np.minimum(a, c.l_sorted.size - 1)]), lo)
+            hi = np.where(has, np.maximum(hi, c.l_sorted[np.maximum(b - 1, 0)]), hi)
+        mo = self._multi_ok(m_pos)
+        if mo.size:
+            mp = self.pairs.multi_pairs
+            lo = np.minimum(lo, np.where(mo, self.pairs.l_tall[mp][None, :], np.inf).min(axis=1))
+            hi = np.maximum(hi, np.where(mo, self.pairs.l_first[mp][None, :], -np.inf).max(axis=1))
+        return lo, hi
+
+    def time_bound(self, m_pos, l_a, l_b) -> np.ndarray:
+        """Certified acceleration-time bound of motors m_pos over L hulls [l_a, l_b] (broadcast) [s]."""
+        return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], l_a, l_b, self.target)
+
+    def cell_edges(self, cells: int = CELLS):
+        lo, hi = self.l_range
+        return np.linspace(lo - 1e-9, hi + 1e-9, cells + 1)
+
+    def cell_bounds(self, m_pos, lo_c, hi_c) -> np.ndarray:
+        """Certified time bound of each motor's single-speed designs in each L cell [lo_c, hi_c] [s].
+
+        ``lo_c``, ``hi_c``: (C,) or (m, C). Each cell's bound uses the lightest pair mass, the best
+        gearbox efficiency and the lowest rolling resistance among the motor's admissible pairs in
+        the cell (range-minimum queries); inf for cells without such pairs.
+        """
+        lo_c = np.broadcast_to(lo_c, (m_pos.size,) + np.shape(lo_c)[-1:])
+        hi_c = np.broadcast_to(hi_c, lo_c.shape)
+        shape = lo_c.shape
+        occupied = np.zeros(shape, dtype=bool)
+        mass = np.full(shape, np.inf)
+        crr = np.full(shape, np.inf)
+        eta = np.full(shape, np.inf)  # minimum of -eta
+        for c, a, b in self._single_ranges(m_pos):
+            ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[:, None])
+            ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[:, None])
+            has = ib > ia
+            if not has.any():
+                continue
+            occupied |= has
+            mass = np.minimum(mass, c.mass.query(ia, np.where(has, ib, ia)))
+            crr = np.minimum(crr, c.crr.query(ia, np.where(has, ib, ia)))
+            eta = np.minimum(eta, c.neg_eta.query(ia, np.where(has, ib, ia)))
+        out = np.full(shape, np.inf)
+        if occupied.any():
+            r, col = np.nonzero(occupied)
+            mi = self.motors[m_pos[r]]
+            m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[mi] + mass[r, col]
+            out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
+                                               mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
+        return out
+
+    def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
+        """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.
+
+        Returns (cell_lb (m, CELLS): bound over the single-speed pairs in each cell, inf for cells
+        without admissible pairs; multi_lb (m,): least bound over its admissible multi-speed pairs,
+        each over its gear hull, inf if none). A cell or pair whose bound exceeds accel_time_s holds
+        no feasible design.
+        """
+        edges = self.cell_edges()
+        t = self.cell_bounds(m_pos, edges[:-1], edges[1:])
+        multi = np.full(m_pos.size, np.inf)
+        mo = self._multi_ok(m_pos)
+        if mo.size and mo.any():
+            mp = self.pairs.multi_pairs
+            tm = self.time_bound(m_pos[:, None], self.pairs.l_tall[mp][None, :], self.pairs.l_first[mp][None, :])
+            multi = np.where(mo, tm, np.inf).min(axis=1)
+        return t, multi
+
+    # ------------------------------------------------------------------ the pool
+    def kth(self) -> float:
+        if self.pool_vals.size < self.count:
+            return np.inf
+        return float(self.pool_vals[order_best(self.pool_vals, self.pool_keys, self.count)[-1]])
+
+    def _add(self, vals, keys):
+        if vals.size:
+            best = order_best(vals, keys, self.per_slice)
+            self.pool_vals = np.concatenate([self.pool_vals, vals[best]])
+            self.pool_keys = np.concatenate([self.pool_keys, keys[best]])
+            keep = order_best(self.pool_vals, self.pool_keys, self.count)
+            self.pool_vals, self.pool_keys = self.pool_vals[keep], self.pool_keys[keep]
+
+    # ------------------------------------------------------------------ one block
+    def evaluate_motor(self, pos: int, cell_lb=None):
+        """Evaluate motor ``pos``'s admissible designs exactly, best pair bound first, until provably done.
+
+        Pairs are ordered by a lower bound of their objective (cost and mass: exact; time: the bound
+        of their L cell, or of their gear hull for a multi-speed pair) and evaluated in growing chunks;
+        within a chunk, the point bound of each pair (`time_bound` at its own L) drops the pairs that
+        cannot meet accel_time_s or beat the pool, before `evaluate.screen` decides the rest.
+        """
+        parts, p = self.parts, self.pairs
+        i = int(self.motors[pos])
+        cand = self.candidates(pos)
+        if cand.size == 0:
+            return
+        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        if self.accel:
+            # sub-cell bounds: SUBCELLS per cell of the refinement grid, only where the cell can count
+            fine = self.cell_edges(CELLS * SUBCELLS)
+            sub = np.clip(np.searchsorted(fine, p.l_first[cand], side="right") - 1, 0, CELLS * SUBCELLS - 1)
+            multi = p.multi[cand]
+            used = np.unique(sub[~multi])
+            t_sub = np.full(CELLS * SUBCELLS, np.inf)
+            if used.size:
+                if cell_lb is not None:
+                    used = used[cell_lb[used // SUBCELLS] <= limit]
+                if used.size:
+                    t_sub[used] = self.cell_bounds(np.array([pos]), fine[used], fine[used + 1])[0]
+            t_cell = np.where(multi, 0.0, t_sub[sub])
+            if multi.any():
+                mc = np.nonzero(multi)[0]
+                t_cell[mc] = self.time_bound(np.full(mc.size, pos), p.l_tall[cand[mc]], p.l_first[cand[mc]])
+            keep = t_cell <= limit
+            cand, t_cell = cand[keep], t_cell[keep]
+        if cand.size == 0:
+            return
+        if self.objective == "cost":
+            key_val = parts.motors.cost[i] + p.cost[cand]
+        elif self.objective == "mass":
+            key_val = parts.problem.vehicle.mass_kg + parts.motors.mass_kg[i] + p.mass[cand]
+        else:
+            key_val = t_cell
+        order = np.lexsort((p.k[cand], p.j[cand], key_val))
+        cand, key_val = cand[order], key_val[order]
+        found_v, found_k = [], []
+        start, size = 0, FIRST_CHUNK
+        while start < cand.size:
+            nxt = key_val[start]
+            kth = self.kth()
+            if nxt > kth + tie_tolerance(kth):
+                break
+            slice_kth = np.inf
+            if found_v:
+                fv = np.concatenate(found_v)
+                if fv.size >= self.per_slice:
+                    fk = np.concatenate(found_k)
+                    slice_kth = float(fv[order_best(fv, fk, self.per_slice)[-1]])
+                    if nxt > slice_kth + tie_tolerance(slice_kth):
+                        break
+            stop = min(cand.size, start + size)
+            chunk = cand[start:stop]
+            if self.objective == "accel_time":
+                # the chunk's key values are not sorted beyond their cell bound: keep those that can still count
+                ok_chunk = key_val[start:stop] <= min(kth, slice_kth) * (1 + 4 * REL_TOL)
+                chunk = chunk[ok_chunk]
+            cutoff = None
+            if self.objective == "accel_time" and np.isfinite(min(kth, slice_kth)):
+                cutoff = min(kth, slice_kth) * (1 + 4 * REL_TOL)
+            if chunk.size:
+                keys = parts.single_keys(i, p.j[chunk], p.k[chunk])
+                ok, obj = screen(parts, keys, objective=self.objective, accel_cutoff=cutoff)
+                self.stats["evaluated"] += chunk.size
+                if ok.any():
+                    found_v.append(obj[ok])
+                    found_k.append(keys[ok])
+            start, size = stop, size * 2
+        if found_v:
+            self._add(np.concatenate(found_v), np.concatenate(found_k))
+
+    # ------------------------------------------------------------------ the loop
+    def run(self):
+        """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
+        n = self.motors.size
+        lb = self.value_bounds() if self.objective != "accel_time" else np.zeros(n)
+        if self.objective == "accel_time":
+            lo, hi = self.hull(np.arange(n))
+            has = np.nonzero(lo <= hi)[0]
+            lb = np.full(n, np.inf)
+            lb[has] = self.time_bound(has, lo[has], hi[has])
+        refined = np.zeros(n, dtype=bool) if self.accel else np.ones(n, dtype=bool)
+        cells: dict[int, np.ndarray] = {}
+        heap = [(float(v), int(m)) for v, m in zip(lb, self.motors) if np.isfinite(v)]
+        pos_of = {int(m): k for k, m in enumerate(self.motors)}
+        heapq.heapify(heap)
+        status = "optimal"
+        while heap:
+            kth = self.kth()
+            if heap[0][0] > kth + tie_tolerance(kth):
+                break
+            if self.deadline is not None and time.perf_counter() > self.deadline:
+                status = "time_limit"
+                break
+            v, m = heapq.heappop(heap)
+            pos = pos_of[m]
+            if not refined[pos]:
+                batch = [pos]
+                while heap and len(batch) < REFINE_BATCH and heap[0][0] <= kth + tie_tolerance(kth):
+                    _, m2 = heapq.heappop(heap)
+                    p2 = pos_of[m2]
+                    if refined[p2]:
+                        heapq.heappush(heap, (float(lb[p2]), m2))
+                        break
+                    batch.append(p2)
+                batch = np.array(batch)
+                t_cell, t_multi = self.refine(batch)
+                self.stats["refined"] += batch.size
+                limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+                for row, p2 in enumerate(batch):
+                    cl = t_cell[row]
+                    refined[p2] = True
+                    cells[int(p2)] = cl
+                    best = min(float(cl.min()), float(t_multi[row]))
+                    if not best <= limit:
+                        lb[p2] = np.inf
+                        continue
+                    if self.objective == "accel_time":
+                        lb[p2] = max(lb[p2], best)
+                    heapq.heappush(heap, (float(lb[p2]), int(self.motors[p2])))
+                continue
+            self.evaluate_motor(pos, cells.get(pos))
+            self.stats["blocks"] += 1
+        bound = None
+        if status == "time_limit":
+            rest = min((h[0] for h in heap), default=np.inf)
+            best = self.pool_vals.min() if self.pool_vals.size else np.inf
+            bound = float(min(rest, best)) if np.isfinite(min(rest, best)) else None
+        order = order_best(self.pool_vals, self.pool_keys, self.count)
+        designs: list[Design] = designs_of(self.pool_vals, self.pool_keys, order)
+        if status == "optimal" and not designs:
+            status = "infeasible"
+        return status, designs, bound

@@ -1,0 +1,473 @@
+"""The acceleration run from rest on the level: one or two drive units, one to three gears each.
+
+Time is integrated in speed, t = integral of dv / a(v), where a(v) is the acceleration of the current
+gear state (`drivetrain.combination_accels`: each axle motor- or traction-limited, load transfer
+m a h/L, best torque split). A run is a sequence of segments between shift events:
+
+- every unit starts in first gear; a unit upshifts at the first speed where its next gear gives at
+  least as much vehicle acceleration as its current one (counting each gear's reflected rotor
+  inertia, so the shift point is where a_g(v) = a_g+1(v)), or where its motor reaches its maximum
+  speed in the current gear; exact ties shift at the earliest speed; no downshifts during the run;
+- during a unit's `shift_time_s` no torque reaches that unit's wheels and its rotor is decoupled:
+  with one unit the vehicle coasts against road load (closed form); with two units the other unit
+  keeps driving (integrated in time by classical Runge-Kutta, `SHIFT_RK_STEPS` steps);
+- the time to the target speed includes every shift.
+
+Within a segment the integrand is smooth between breakpoints: each unit's envelope corners (corner
+and decline speeds in its current gear) and the speeds where the limiting traction combination
+changes (found by sampling and bisection). Each smooth piece is integrated by Gauss-Legendre
+quadrature. Near the end of a segment, 1/a(v) may have a pole just beyond it (the top speed of the
+current regime, where a = 0): the pieces are then graded geometrically towards the end so that every
+piece is at most `GRADE_WIDTH` times as wide as its distance from the pole. With the pole at least
+that far away, the integrand is analytic inside a Bernstein ellipse of parameter >= 2 + sqrt(3) for
+every piece, and the Gauss-Legendre error with `GL_NODES` nodes is below 1e-20 of the piece's
+integral (Trefethen, Approximation Theory and Approximation Practice, Thm 19.3); see DEVELOPERS.md.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from selector.physics.drivetrain import (
+    Axles,
+    combination_accels,
+    gear_limit_mps,
+    gear_over_radius,
+    speed_cap_mps,
+    state_effective_mass_kg,
+    take_axles,
+    take_fields,
+    unit_force_n,
+)
+from selector.units import G_N
+
+GL_NODES = 20
+"""Gauss-Legendre nodes per smooth piece [-]."""
+CROSS_SAMPLES = 17
+"""Samples per piece when looking for a change of the limiting traction combination [-]."""
+BISECT_STEPS = 42
+"""Bisection halvings of a combination change (2^-42 of the sample spacing) [-]."""
+GRADE_RATIO = 0.35
+"""Geometric grading ratio towards the end of a segment: each graded piece lies at least
+GRADE_RATIO / (1 - GRADE_RATIO) of its width from the end [-]."""
+GRADE_WIDTH = 0.25
+"""The last graded piece is at most this fraction of the estimated distance to the pole [-]."""
+GRADE_MAX_LEVELS = 60
+"""Most grading levels (GRADE_RATIO^60 ~ 5e-28 of the segment) [-]."""
+SHIFT_SAMPLES = 33
+"""Samples of a(next gear) - a(current gear) per segment when looking for a shift point [-]."""
+SHIFT_BISECT = 60
+"""Bisection halvings of a shift point [-]."""
+SHIFT_TIE = 1e-12
+"""The next gear 'gives at least as much acceleration' when a_next >= a_now (1 - SHIFT_TIE) [-]."""
+SHIFT_RK_STEPS = 64
+"""Runge-Kutta steps of a shift phase in which the other unit keeps driving [-]."""
+
+_GL_CACHE: dict = {}
+
+
+def gauss_legendre(n: int):
+    """Nodes and weights of n-point Gauss-Legendre quadrature on [-1, 1] (cached)."""
+    if n not in _GL_CACHE:
+        _GL_CACHE[n] = np.polynomial.legendre.leggauss(n)
+    return _GL_CACHE[n]
+
+
+@dataclass(frozen=True)
+class RunResult:
+    """Outcome of the acceleration run of each design.
+
+    time_s (n,): time from rest to the target [s], inf when unreachable;
+    shift_axle (n, K): 0 front, 1 rear, -1 no shift; shift_from_gear (n, K): gear index left (0 = first);
+    shift_speed_mps, shift_time_s (n, K): road speed and elapsed time when the torque interruption starts.
+    """
+
+    time_s: np.ndarray
+    shift_axle: np.ndarray
+    shift_from_gear: np.ndarray
+    shift_speed_mps: np.ndarray
+    shift_time_s: np.ndarray
+
+
+# ----------------------------------------------------------------------------------------- gear state
+
+@dataclass(frozen=True)
+class _State:
+    """Designs of one chunk in a gear state: axles, body, gear index per unit, engaged flags, effective mass."""
+
+    axles: Axles
+    body: object
+    g_front: np.ndarray
+    g_rear: np.ndarray
+    on_front: np.ndarray
+    on_rear: np.ndarray
+    m_eff: np.ndarray
+
+
+def _state(axles: Axles, body, g_front, g_rear, on_front=None, on_rear=None) -> _State:
+    on_f = axles.front.present if on_front is None else on_front
+    on_r = axles.rear.present if on_rear is None else on_rear
+    m_eff = state_effective_mass_kg(axles, body.mass_kg, body.wheel_inertia_total_kgm2, g_front, g_rear,
+                                    engaged_front=on_f, engaged_rear=on_r)
+    return _State(axles, body, g_front, g_rear, on_f, on_r, m_eff)
+
+
+def _take_state(st: _State, rows) -> _State:
+    return _State(take_axles(st.axles, rows), take_fields(st.body, rows), st.g_front[rows], st.g_rear[rows],
+                  st.on_front[rows], st.on_rear[rows], st.m_eff[rows])
+
+
+def state_accel(st: _State, v, labels: bool = False):
+    """Acceleration at speeds v (n, s) [m/s^2]; with ``labels`` also the limiting combination's index."""
+    col = lambda a: np.asarray(a)[:, None]  # noqa: E731
+    b, ax = st.body, st.axles
+    f_res = col(b.mass_kg) * G_N * col(b.crr) + col(b.q_n_s2_m2) * v * v
+    zero = np.zeros(())
+    f_f = np.where(col(st.on_front), unit_force_n(ax.front, ax.radius_m, st.g_front, v), 0.0) \
+        if np.any(st.on_front) else zero
+    f_r = np.where(col(st.on_rear), unit_force_n(ax.rear, ax.radius_m, st.g_rear, v), 0.0) \
+        if np.any(st.on_rear) else zero
+    return combination_accels(f_f, f_r, col(st.on_front), col(st.on_rear), f_res, col(b.mass_kg), col(st.m_eff),
+                              col(b.rear_share), col(b.road_friction), col(b.cg_height_m), col(b.wheelbase_m),
+                              labels=labels)
+
+
+def _unit_breaks(st: _State, v_lo, v_hi):
+    """Envelope corner and decline speeds of each engaged unit in its gear, clipped to [v_lo, v_hi] [m/s]."""
+    out = []
+    for unit, g, on in ((st.axles.front, st.g_front, st.on_front), (st.axles.rear, st.g_rear, st.on_rear)):
+        if not np.any(on):
+            continue
+        ratio, _ = unit.gear(g)
+        e = gear_over_radius(ratio, st.axles.radius_m)
+        v_c = np.where(on, np.clip(unit.power_w / unit.torque_nm / e, v_lo, v_hi), v_hi)
+        v_d = np.where(on, np.clip(unit.decline_rad_s / e, v_lo, v_hi), v_hi)
+        out += [v_c, v_d]
+    return out
+
+
+# ----------------------------------------------------------------------------------------- one segment
+
+def _crossings(st: _State, lo, hi, v_end):
+    """First and last change of the limiting combination on each piece [lo, hi] (v_end where none)."""
+    n = lo.shape[0]
+    col = lambda a: a[:, None]  # noqa: E731
+    frac = np.linspace(0.0, 1.0, CROSS_SAMPLES)[None, :]
+    vs = col(lo) + (col(hi) - col(lo)) * frac
+    acc, lab = state_accel(st, vs, labels=True)
+    change = (lab[:, 1:] != lab[:, :-1]) & np.isfinite(acc[:, 1:]) & np.isfinite(acc[:, :-1])
+    has = change.any(axis=1) & (hi > lo)
+    first = np.argmax(change, axis=1)
+    last = change.shape[1] - 1 - np.argmax(change[:, ::-1], axis=1)
+    out = []
+    for idx, use in ((first, has), (last, has & (last != first))):
+        rows = np.nonzero(use)[0]
+        cross = v_end.copy()
+        if rows.size:
+            sub = _take_state(st, rows)
+            a = vs[rows, idx[rows]].copy()
+            b = vs[rows, idx[rows] + 1].copy()
+            lab_a = lab[rows, idx[rows]]
+            for _ in range(BISECT_STEPS):
+                mid = 0.5 * (a + b)
+                _, lm = state_accel(sub, mid[:, None], labels=True)
+                same = lm[:, 0] == lab_a
+                a = np.where(same, mid, a)
+                b = np.where(same, b, mid)
+            cross[rows] = 0.5 * (a + b)
+        out.append(cross)
+    return out
+
+
+def _integrate_pieces(st: _State, edges):
+    """sum over pieces of Gauss-Legendre integrals of 1/a; and where a <= 0 at a node (n,) [s]."""
+    gl_x, gl_w = gauss_legendre(GL_NODES)
+    col = lambda a: a[:, None]  # noqa: E731
+    tot = np.zeros(edges.shape[0])
+    bad_any = np.zeros(edges.shape[0], dtype=bool)
+    for i in range(edges.shape[1] - 1):
+        a, b = edges[:, i], edges[:, i + 1]
+        half = 0.5 * (b - a)
+        v = col(0.5 * (a + b)) + col(half) * gl_x[None, :]
+        acc = state_accel(st, v)
+        width_pos = half > 0
+        bad = width_pos & (acc <= 0).any(axis=1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            contrib = half * (gl_w[None, :] / acc).sum(axis=1)
+        tot += np.where(width_pos, contrib, 0.0)
+        bad_any |= bad
+    return tot, bad_any
+
+
+def pole_distance_mps(st: _State, v_end, a_end):
+    """Estimated distance from v_end to the next speed where a(v) = 0 (linear extrapolation) [m/s].
+
+    inf where the acceleration does not fall at v_end.
+    """
+    eps = 1e-6
+    a_before = state_accel(st, (v_end * (1.0 - eps))[:, None])
+    slope = (a_end - a_before[:, 0]) / np.maximum(v_end * eps, 1e-300)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        d = np.where(slope < 0, a_end / -slope, np.inf)
+    return np.where(np.isfinite(d) & (d >= 0), d, np.inf)
+
+
+def integrate_segment(st: _State, v_lo, v_hi):
+    """Time to accelerate from v_lo to v_hi in a fixed gear state [s] (inf if a <= 0 on the way)."""
+    n = v_lo.shape[0]
+    a_end = state_accel(st, v_hi[:, None])[:, 0]
+    ok = a_end > 0
+    base = [v_lo] + _unit_breaks(st, v_lo, v_hi) + [v_hi]
+    base = np.sort(np.stack(base, axis=1), axis=1)
+    edges = [base[:, i] for i in range(base.shape[1])]
+    for i in range(base.shape[1] - 1):
+        edges += _crossings(st, base[:, i], base[:, i + 1], v_hi)
+    br = np.sort(np.stack(edges, axis=1), axis=1)
+    # grading towards v_hi where 1/a has a pole just beyond it
+    length = v_hi - v_lo
+    delta = pole_distance_mps(st, v_hi, a_end)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        levels = np.ceil(np.log(GRADE_WIDTH * delta / np.maximum(length, 1e-300)) / np.log(GRADE_RATIO))
+    levels = np.where(ok & (length > 0) & np.isfinite(levels), np.clip(levels, 0, GRADE_MAX_LEVELS), 0).astype(int)
+    total = np.zeros(n)
+    bad = np.zeros(n, dtype=bool)
+    for lv in np.unique(levels):
+        rows = np.nonzero(levels == lv)[0]
+        sub = _take_state(st, rows) if rows.size < n else st
+        e = br[rows]
+        if lv > 0:
+            grading = [(v_hi[rows] - length[rows] * GRADE_RATIO ** m)[:, None] for m in range(1, lv + 1)]
+            e = np.sort(np.concatenate([e] + grading, axis=1), axis=1)
+        total[rows], bad[rows] = _integrate_pieces(sub, e)
+    ok &= ~bad
+    return np.where(ok, total, np.inf)
+
+
+# ----------------------------------------------------------------------------------------- shifts
+
+def _shift_point(st: _State, which: str, v_lo, v_hi):
+    """First speed in [v_lo, v_hi] where unit ``which``'s next gear accelerates at least as much (inf if none)."""
+    n = v_lo.shape[0]
+    nxt = _state(st.axles, st.body, st.g_front + (which == "front"), st.g_rear + (which == "rear"),
+                 st.on_front, st.on_rear)
+    col = lambda a: a[:, None]  # noqa: E731
+
+    def holds(s1, s2, v):
+        a1 = state_accel(s1, v)
+        a2 = state_accel(s2, v)
+        return a2 >= a1 - SHIFT_TIE * np.abs(a1)
+
+    frac = np.linspace(0.0, 1.0, SHIFT_SAMPLES)[None, :]
+    vs = col(v_lo) + (col(v_hi) - col(v_lo)) * frac
+    h = holds(st, nxt, vs)
+    anyh = h.any(axis=1)
+    first = np.argmax(h, axis=1)
+    out = np.full(n, np.inf)
+    at_start = anyh & (first == 0)
+    out[at_start] = v_lo[at_start]
+    rows = np.nonzero(anyh & (first > 0))[0]
+    if rows.size:
+        s1, s2 = _take_state(st, rows), _take_state(nxt, rows)
+        a = vs[rows, first[rows] - 1].copy()
+        b = vs[rows, first[rows]].copy()
+        for _ in range(SHIFT_BISECT):
+            mid = 0.5 * (a + b)
+            hm = holds(s1, s2, mid[:, None])[:, 0]
+            b = np.where(hm, mid, b)
+            a = np.where(hm, a, mid)
+        out[rows] = b
+    return out
+
+
+def coast_speed_mps(v_start, t_s, mass_kg, a0_n, q_n_s2_m2):
+    """Speed after coasting t_s seconds from v_start against road load a0 + q v^2 [m/s] (closed form).
+
+    m dv/dt = -(a0 + q v^2): v = sqrt(a0/q) tan(atan(v0 sqrt(q/a0)) - t sqrt(a0 q)/m), stopping at 0;
+    v0 / (1 + q v0 t/m) without rolling resistance; v0 - a0 t/m without drag.
+    """
+    v0 = np.asarray(v_start, dtype=float)
+    a0 = np.asarray(a0_n, dtype=float) + 0.0 * v0
+    q = np.asarray(q_n_s2_m2, dtype=float) + 0.0 * v0
+    m = np.asarray(mass_kg, dtype=float) + 0.0 * v0
+    t = np.asarray(t_s, dtype=float) + 0.0 * v0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        k = np.sqrt(a0 / q)
+        both = k * np.tan(np.arctan(v0 / k) - t * np.sqrt(a0 * q) / m)
+        stop_both = t * np.sqrt(a0 * q) / m >= np.arctan(v0 / k)
+        aero = v0 / (1.0 + q * v0 * t / m)
+        rolling = v0 - a0 * t / m
+    out = np.where((a0 > 0) & (q > 0), np.where(stop_both, 0.0, both),
+                   np.where(q > 0, aero, np.where(a0 > 0, np.maximum(rolling, 0.0), v0)))
+    return out
+
+
+def _shift_phase(st: _State, which: str, v_start, target):
+    """Speed after the shift of unit ``which`` (its torque interrupted for its shift time), and the time
+    into the shift at which ``target`` is passed (inf if not) [m/s], [s]."""
+    unit = getattr(st.axles, which)
+    t_s = unit.shift_time_s
+    on_f = st.on_front & (which != "front")
+    on_r = st.on_rear & (which != "rear")
+    ph = _state(st.axles, st.body, st.g_front, st.g_rear, on_f, on_r)
+    alone = ~(on_f | on_r)
+    v_end = np.array(v_start, dtype=float)
+    t_hit = np.full(v_end.shape, np.inf)
+    b = st.body
+    if alone.any():
+        m_c = ph.m_eff[alone]
+        v_end[alone] = coast_speed_mps(v_start[alone], t_s[alone], m_c, b.mass_kg[alone] * G_N * b.crr[alone],
+                                       b.q_n_s2_m2[alone])
+    rows = np.nonzero(~alone)[0]
+    if rows.size:
+        sub = _take_state(ph, rows)
+        h = t_s[rows] / SHIFT_RK_STEPS
+        v = v_start[rows].copy()
+        tt = np.zeros(rows.size)
+        hit = np.full(rows.size, np.inf)
+
+        def f(x):
+            a = state_accel(sub, np.maximum(x, 0.0)[:, None])[:, 0]
+            return np.where((x <= 0) & (a < 0), 0.0, a)
+
+        for _ in range(SHIFT_RK_STEPS):
+            k1 = f(v)
+            k2 = f(v + 0.5 * h * k1)
+            k3 = f(v + 0.5 * h * k2)
+            k4 = f(v + h * k3)
+            v_new = np.maximum(v + h / 6.0 * (k1 + 2 * k2 + 2 * k3 + k4), 0.0)
+            crossed = np.isinf(hit) & (v < target[rows]) & (v_new >= target[rows])
+            with np.errstate(divide="ignore", invalid="ignore"):
+                frac = np.where(v_new > v, (target[rows] - v) / (v_new - v), 0.0)
+            hit = np.where(crossed, tt + frac * h, hit)
+            v = v_new
+            tt = tt + h
+        v_end[rows] = v
+        t_hit[rows] = hit
+    return v_end, t_hit
+
+
+# ----------------------------------------------------------------------------------------- the run
+
+def accel_run(axles: Axles, body, target_mps, chunk: int = 20000) -> RunResult:
+    """Acceleration run of every design to ``target_mps`` (per design or scalar) [m/s].
+
+    ``axles`` and ``body`` hold one row per design (``body`` fields broadcast to (n,)).
+    """
+    n = axles.n
+    target = np.broadcast_to(np.asarray(target_mps, dtype=float), (n,)).copy()
+    max_shifts = int(max(1, np.max(axles.front.n_gears, initial=1) - 1 + np.max(axles.rear.n_gears, initial=1) - 1))
+    res = RunResult(np.full(n, np.inf), np.full((n, max_shifts), -1), np.full((n, max_shifts), -1),
+                    np.full((n, max_shifts), np.nan), np.full((n, max_shifts), np.nan))
+    for s in range(0, n, chunk):
+        sl = np.arange(s, min(n, s + chunk))
+        _run_chunk(take_axles(axles, sl), take_fields(body, sl), target[sl], res, sl)
+    return res
+
+
+def _run_chunk(axles: Axles, body, target, res: RunResult, out_rows):
+    n = axles.n
+    g_f = np.zeros(n, dtype=np.int64)
+    g_r = np.zeros(n, dtype=np.int64)
+    v0 = np.zeros(n)
+    t0 = np.zeros(n)
+    k_shift = np.zeros(n, dtype=np.int64)
+    reach = (target <= speed_cap_mps(axles) * (1 + 1e-12)) & (target <= body.speed_limit_mps)
+    active = reach.copy()
+    n_f, n_r = axles.front.n_gears, axles.rear.n_gears
+    for _ in range(res.shift_axle.shape[1] + 2):
+        rows = np.nonzero(active)[0]
+        if rows.size == 0:
+            break
+        ax, bd = take_axles(axles, rows), take_fields(body, rows)
+        st = _state(ax, bd, g_f[rows], g_r[rows])
+        v_lo, v_t = v0[rows], target[rows]
+        shift_at = {}
+        for which, g, ng in (("front", g_f[rows], n_f[rows]), ("rear", g_r[rows], n_r[rows])):
+            can = ng > g + 1
+            s_at = np.full(rows.size, np.inf)
+            if can.any():
+                lim = gear_limit_mps(getattr(ax, which), ax.radius_m, g)
+                hi = np.minimum(lim, v_t)
+                cr = np.nonzero(can)[0]
+                sp = _shift_point(_take_state(st, cr), which, v_lo[cr], np.maximum(hi[cr], v_lo[cr]))
+                # forced shift where the motor reaches its maximum speed in this gear (before the target)
+                sp = np.where(np.isinf(sp) & (lim[cr] < v_t[cr]), lim[cr], sp)
+                s_at[cr] = sp
+            shift_at[which] = s_at
+        v_end = np.minimum(v_t, np.minimum(shift_at["front"], shift_at["rear"]))
+        seg = integrate_segment(st, v_lo, np.maximum(v_end, v_lo))
+        t_new = t0[rows] + seg
+        failed = ~np.isfinite(seg)
+        finished = ~failed & (v_end >= v_t)
+        res.time_s[out_rows[rows[finished]]] = t_new[finished]
+        shifting = ~failed & ~finished
+        which_f = shifting & (shift_at["front"] <= shift_at["rear"])
+        which_r = shifting & ~which_f
+        active[rows[failed | finished]] = False
+        for which, mask in (("front", which_f), ("rear", which_r)):
+            idx = np.nonzero(mask)[0]
+            if idx.size == 0:
+                continue
+            sub = _take_state(st, idx)
+            v_after, t_hit = _shift_phase(sub, which, v_end[idx], v_t[idx])
+            glob = rows[idx]
+            kk = k_shift[glob]
+            res.shift_axle[out_rows[glob], kk] = 0 if which == "front" else 1
+            res.shift_from_gear[out_rows[glob], kk] = (g_f if which == "front" else g_r)[glob]
+            res.shift_speed_mps[out_rows[glob], kk] = v_end[idx]
+            res.shift_time_s[out_rows[glob], kk] = t_new[idx]
+            k_shift[glob] += 1
+            hit = np.isfinite(t_hit)
+            res.time_s[out_rows[glob[hit]]] = t_new[idx][hit] + t_hit[hit]
+            active[glob[hit]] = False
+            unit = getattr(sub.axles, which)
+            t0[glob] = t_new[idx] + unit.shift_time_s
+            v0[glob] = v_after
+            if which == "front":
+                g_f[glob] += 1
+            else:
+                g_r[glob] += 1
+
+
+def accel_time_s(axles: Axles, body, target_mps, chunk: int = 20000) -> np.ndarray:
+    """Time from rest to ``target_mps`` on the level [s] (inf when unreachable). See `accel_run`."""
+    return accel_run(axles, body, target_mps, chunk).time_s
+
+
+BRACKET_NODES = 48
+"""Speed nodes of `time_bracket` [-]."""
+
+
+def time_bracket(axles: Axles, body, target_mps, nodes: int = BRACKET_NODES):
+    """Proved lower and upper bounds of the 0-to-target time of single-speed designs [s].
+
+    With every unit single-speed there is one gear state, and a(v) is non-increasing in v (each
+    axle's force is non-increasing, road load increasing, every traction combination decreasing), so
+    1/a is non-decreasing and the left and right Riemann sums of dv/a over any partition of [0, V]
+    bracket the exact integral. Both are inf when the target cannot be reached (a <= 0 at a node, or
+    the target above the gearing limit or the limiter). Designs with a multi-speed unit get (0, inf).
+    """
+    n = axles.n
+    target = np.broadcast_to(np.asarray(target_mps, dtype=float), (n,))
+    lo = np.zeros(n)
+    hi = np.full(n, np.inf)
+    single = (axles.front.n_gears <= 1) & (axles.rear.n_gears <= 1)
+    rows = np.nonzero(single)[0]
+    if rows.size == 0:
+        return lo, hi
+    ax, bd = take_axles(axles, rows), take_fields(body, rows)
+    st = _state(ax, bd, np.zeros(rows.size, dtype=np.int64), np.zeros(rows.size, dtype=np.int64))
+    v_t = target[rows]
+    s = 1.0 - (1.0 - np.arange(nodes + 1) / nodes) ** 2
+    v = v_t[:, None] * s[None, :]
+    a = state_accel(st, v)
+    dv = np.diff(v, axis=1)
+    reach = (a > 0).all(axis=1) & (v_t <= speed_cap_mps(ax) * (1 + 1e-12)) & (v_t <= bd.speed_limit_mps)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t_lo = (dv / a[:, :-1]).sum(axis=1)
+        t_hi = (dv / a[:, 1:]).sum(axis=1)
+    lo[rows] = np.where(reach, t_lo, np.inf)
+    hi[rows] = np.where(reach, t_hi, np.inf)
+    return lo, hi

@@ -1,0 +1,178 @@
+"""Maximum and sustained top speed of designs with one or two drive units and multi-speed gearboxes.
+
+- One unit, one gear: min(gearing limit w_max r/G, the speed where the envelope's wheel force meets
+  the level road load, speed limiter); the crossing in closed form (torque branch), by the cubic's
+  real root (power branch) and by Newton's method in ln v (decline branch).
+- One unit, several gears: the highest speed any gear reaches, max over g of min(limit_g, crossing_g).
+- Two units: the largest speed at which the sum of both units' best-gear forces covers the road load,
+  capped by the lowest of the two units' tallest-gear gearing limits (no unit may over-speed); the
+  summed force is non-increasing and the road load increasing, so the crossing is unique and found
+  by bisection to floating-point resolution.
+
+The sustained top speed is the same with the continuous envelopes (best gear on the continuous
+envelope). All speeds in m/s; every function is vectorised over designs.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from selector.physics.drivetrain import (
+    Axles,
+    best_gear_force_n,
+    gear_limit_mps,
+    gear_over_radius,
+    speed_cap_mps,
+    take_axles,
+    take_fields,
+)
+from selector.units import G_N
+
+NEWTON_STEPS = 40
+"""Newton iterations for the decline-branch crossing (converges to machine precision far sooner) [-]."""
+BISECT_STEPS = 80
+"""Bisection halvings for the two-unit crossing (2^-80 of the bracket: below floating-point resolution) [-]."""
+
+
+def _cubic_root(a0, q, p_force):
+    """Positive real root v of q v^3 + a0 v - p_force = 0 (q > 0, a0 >= 0, p_force >= 0)."""
+    p = a0 / q
+    s = p_force / q
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        ps = np.maximum(p, 1e-300)
+        arg = 1.5 * s / ps * np.sqrt(3.0 / ps)
+        v_trig = 2.0 * np.sqrt(ps / 3.0) * np.sinh(np.arcsinh(arg) / 3.0)
+    v_cbrt = np.cbrt(s)
+    return np.where((p <= 0) | ~np.isfinite(v_trig), v_cbrt, v_trig)
+
+
+def envelope_crossing_mps(e, eta, torque_nm, power_w, decline_rad_s, decline_exponent, a0_n, q_n_s2_m2):
+    """Speed where one gear's envelope wheel force equals the level road load a0 + q v^2 [m/s].
+
+    The envelope is the minimum of three decreasing branches (torque, power, decline) and road load
+    increases with speed, so the crossing is the smallest of the three branch crossings: torque in
+    closed form, power by the cubic's real root, decline by Newton's method in ln v. Ignores the
+    gearing limit. 0 if the vehicle cannot move.
+
+    Parameters
+    ----------
+    e : G/r [1/m]
+    eta : gearbox efficiency [-]
+    torque_nm, power_w : envelope torque and power limits [N m], [W]
+    decline_rad_s, decline_exponent : decline speed [rad/s] and exponent [-]
+    a0_n : speed-independent road load m g Crr [N]
+    q_n_s2_m2 : 0.5 rho CdA [N s^2/m^2]
+    """
+    a0, q = a0_n, q_n_s2_m2
+    f_t = eta * torque_nm * e
+    with np.errstate(divide="ignore", invalid="ignore"):
+        v_t = np.sqrt(np.maximum(f_t - a0, 0.0) / q)
+    v_p = _cubic_root(a0, q, eta * power_w)
+    # Decline branch: f(u) = C - (k+1) u - ln(a0 + q e^{2u}) = 0, u = ln v; f decreasing, concave.
+    k = decline_exponent
+    c0 = np.log(eta * power_w) + k * np.log(decline_rad_s) - k * np.log(e)
+    u = np.log(np.maximum(v_p, 1e-12))
+    f0 = c0 - (k + 1) * u - np.log(a0 + q * np.exp(2 * u))
+    active = f0 < 0  # otherwise the decline crossing lies beyond the power crossing
+    for _ in range(NEWTON_STEPS):
+        ex = q * np.exp(2 * u)
+        f = c0 - (k + 1) * u - np.log(a0 + ex)
+        fp = -(k + 1) - 2 * ex / (a0 + ex)
+        u = np.where(active, u - f / fp, u)
+    v_d = np.where(active, np.exp(u), np.inf)
+    return np.minimum(np.minimum(v_t, v_p), v_d)
+
+
+def _level_a0(body):
+    return body.mass_kg * G_N * body.crr
+
+
+def unit_reach_mps(axles: Axles, body, unit_name: str, continuous: bool = False) -> np.ndarray:
+    """Highest speed one unit alone drives the vehicle to: max over its gears of min(limit_g, crossing_g) [m/s].
+
+    Without the speed limiter; 0 where the unit is absent.
+    """
+    unit = getattr(axles, unit_name)
+    a0 = _level_a0(body)
+    best = np.zeros(axles.n)
+    for g in range(unit.ratio.shape[1]):
+        has = unit.n_gears > g
+        if not has.any():
+            break
+        gi = np.where(has, g, 0)
+        ratio, eta = unit.gear(gi)
+        e = gear_over_radius(ratio, axles.radius_m)
+        cross = envelope_crossing_mps(e, eta, unit.cont_torque_nm if continuous else unit.torque_nm,
+                                      unit.cont_power_w if continuous else unit.power_w, unit.decline_rad_s,
+                                      unit.decline_exponent, a0, body.q_n_s2_m2)
+        reach = np.minimum(gear_limit_mps(unit, axles.radius_m, gi), cross)
+        best = np.where(has, np.maximum(best, reach) if g else reach, best)
+    return best
+
+
+def _summed_crossing_mps(axles: Axles, body, continuous: bool) -> np.ndarray:
+    """Largest v <= the speed cap with sum of best-gear forces >= level road load (bisection) [m/s]."""
+    hi = speed_cap_mps(axles)
+    a0 = _level_a0(body)
+    q = body.q_n_s2_m2
+
+    def surplus(v):
+        f = (best_gear_force_n(axles.front, axles.radius_m, v, continuous)
+             + best_gear_force_n(axles.rear, axles.radius_m, v, continuous))
+        return f - (a0 + q * v * v)
+
+    # at the cap itself the force of the limiting gear still counts (limit inclusive)
+    top_ok = surplus(hi) >= 0
+    lo_v = np.zeros(axles.n)
+    hi_v = hi.copy()
+    start_ok = surplus(lo_v) >= 0
+    for _ in range(BISECT_STEPS):
+        mid = 0.5 * (lo_v + hi_v)
+        ok = surplus(mid) >= 0
+        lo_v = np.where(ok, mid, lo_v)
+        hi_v = np.where(ok, hi_v, mid)
+    return np.where(top_ok, hi, np.where(start_ok, lo_v, 0.0))
+
+
+def top_speed_mps(axles: Axles, body, continuous: bool = False) -> np.ndarray:
+    """Maximum speed (peak envelopes) or sustained top speed (``continuous``) on the level [m/s].
+
+    Capped by the speed limiter ``body.speed_limit_mps``. See the module docstring for the rules.
+    """
+    f_on, r_on = axles.front.present, axles.rear.present
+    out = np.zeros(axles.n)
+    single = f_on ^ r_on
+    for name, on in (("front", f_on), ("rear", r_on)):
+        rows = single & on
+        if not rows.any():
+            continue
+        unit = getattr(axles, name)
+        one_gear = rows & (unit.n_gears == 1)
+        if one_gear.any():
+            # one unit, one gear: min(min(gearing limit, crossing), limiter) exactly as the single-axle formula
+            ratio, eta = unit.gear(0)
+            e = gear_over_radius(ratio, axles.radius_m)
+            cross = envelope_crossing_mps(e, eta, unit.cont_torque_nm if continuous else unit.torque_nm,
+                                          unit.cont_power_w if continuous else unit.power_w, unit.decline_rad_s,
+                                          unit.decline_exponent, _level_a0(body), body.q_n_s2_m2)
+            v1 = np.minimum(np.minimum(unit.max_speed_rad_s / e, cross), body.speed_limit_mps)
+            out = np.where(one_gear, v1, out)
+        multi = np.nonzero(rows & (unit.n_gears > 1))[0]
+        if multi.size:
+            sub, sb = take_axles(axles, multi), take_fields(body, multi)
+            out[multi] = np.minimum(unit_reach_mps(sub, sb, name, continuous), sb.speed_limit_mps)
+    both = np.nonzero(f_on & r_on)[0]
+    if both.size:
+        sub, sb = take_axles(axles, both), take_fields(body, both)
+        out[both] = np.minimum(_summed_crossing_mps(sub, sb, continuous), sb.speed_limit_mps)
+    return out
+
+
+def max_speed_mps(axles: Axles, body) -> np.ndarray:
+    """Vehicle maximum speed with the peak envelopes, capped by gearing and the limiter [m/s]."""
+    return top_speed_mps(axles, body, continuous=False)
+
+
+def sustained_top_speed_mps(axles: Axles, body) -> np.ndarray:
+    """Sustained top speed on the level with the continuous envelopes (best gear), capped [m/s]."""
+    return top_speed_mps(axles, body, continuous=True)

@@ -42,6 +42,14 @@ REFINE_BATCH = 64
 """Motors whose acceleration bound is refined together [-]."""
 FIRST_CHUNK = 256
 """Designs of a block evaluated in its first chunk (later chunks double) [-]."""
+MILP_OPEN = 400
+"""The MILP relaxation is consulted when more motors than this are still open below the incumbent [-]..."""
+MILP_MAX_OPEN = 2000
+"""... but not more than this (the model's size and build time grow with them) ..."""
+MILP_AFTER_S = 5.0
+"""... and the bound search has already run this long [s] (measured: on the benchmark catalogues the
+bound search proves optimality sooner than a MILP round costs; the relaxation pays off only where
+per-motor bounds stay weak for long)."""
 
 
 @dataclass
@@ -114,8 +122,10 @@ class SingleAxleSearch:
     """One exact search of a single-axle study (see the module docstring)."""
 
     def __init__(self, parts: PartTables, objective: str, req, allowed: dict, count: int, per_motor: int | None,
-                 deadline: float | None, stats: dict):
+                 deadline: float | None, stats: dict, milp: str = "auto"):
         self.parts, self.objective, self.req = parts, objective, req
+        self.milp = milp
+        self.model = None
         self.allowed = allowed
         self.count = count
         self.per_slice = count if per_motor is None else min(count, per_motor)
@@ -130,6 +140,9 @@ class SingleAxleSearch:
         motors = np.arange(parts.sizes[0]) if allowed.get("motors") is None else np.asarray(allowed["motors"])
         motors = np.asarray(motors, dtype=np.int64)
         motors = motors[B.traction_feasible(parts, self.use, motors, req)]
+        cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
+        motors = B.equivalent_motors(parts, motors, count, cost_matters)
+        self.stats["motors"] = int(motors.size)
         self.motors = motors
         lo_s, hi_s = B.requirement_window(parts, self.use, motors, req, first_gear=False,
                                           accel_target_kmh=req.accel_to_kmh if self.accel else None)
@@ -367,6 +380,67 @@ class SingleAxleSearch:
         if found_v:
             self._add(np.concatenate(found_v), np.concatenate(found_k))
 
+    # ------------------------------------------------------------------ the MILP relaxation
+    def milp_round(self, open_pos: np.ndarray, lb: np.ndarray, cells: dict):
+        """Ask the MILP relaxation over the open motors: None when it is infeasible under the incumbent
+        cutoff (no open motor can beat the pool: a proof), else the position of the motor it picks.
+
+        Each open motor's first-gear L window is the hull of its admissible pairs (and, once its
+        acceleration bound is refined, of the pairs in cells that can still count); the accel_time
+        objective uses each motor's certified bound as its coefficient. Every row of the model is a
+        relaxation (`model.py`), so infeasibility proves that no unevaluated design beats the cutoff.
+        """
+        from selector.engine.model import AccelWindows, SelectionModel
+
+        parts = self.parts
+        n_all = parts.sizes[0]
+        lo = np.full(n_all, np.inf)
+        hi = np.full(n_all, -np.inf)
+        tmin = np.full(n_all, np.inf)
+        h_lo, h_hi = self.hull(open_pos)
+        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        edges = self.cell_edges()
+        for n, pos in enumerate(open_pos):
+            a, b = h_lo[n], h_hi[n]
+            cl = cells.get(int(pos))
+            if cl is not None and self.pairs.multi_pairs.size == 0:
+                ok = np.nonzero(cl <= min(limit, np.inf if self.objective != "accel_time" else lb[pos] * 1e9))[0]
+                if ok.size:
+                    a, b = max(a, edges[ok.min()]), min(b, edges[ok.max() + 1])
+            i = int(self.motors[pos])
+            lo[i], hi[i] = a - 1e-9, b + 1e-9
+            tmin[i] = lb[pos]
+        # a model over the parts still in play only (open motors, allowed reducers, usable tyres)
+        m_rows = np.sort(self.motors[open_pos])
+        r_rows = np.arange(parts.sizes[1]) if self.allowed.get("reducers") is None else \
+            np.sort(np.asarray(self.allowed["reducers"], dtype=np.int64))
+        sub = parts.subset(motors=m_rows, reducers=r_rows, tyres=self.use.tyres)
+        windows = AccelWindows(lo=lo[m_rows], hi=hi[m_rows], t_min_s=tmin[m_rows])
+        model = SelectionModel(sub, self.objective, windows=windows,
+                               accel_target_kmh=self.req.accel_to_kmh if self.accel else None,
+                               accel_limit_s=self.req.accel_time_s)
+        self.stats["milp"] = self.stats.get("milp", 0) + 1
+        if model.infeasible_reason:
+            return None
+        kth = self.kth()
+        if np.isfinite(kth):
+            model.set_cutoff((kth + tie_tolerance(kth)) * model.objective_scale())
+        from pyomo.contrib.solver.common.results import TerminationCondition as TC
+
+        from selector.engine.search import solver
+
+        res = solver().solve(model.m, load_solutions=False, raise_exception_on_nonoptimal_result=False,
+                             solver_options={"mip_rel_gap": 0.0, "mip_abs_gap": 1e-9, "presolve": "off",
+                                             "threads": 1})
+        if res.termination_condition in (TC.provenInfeasible, TC.infeasibleOrUnbounded, TC.locallyInfeasible):
+            return None
+        if res.termination_condition != TC.convergenceCriteriaSatisfied:
+            return -1  # no verdict (e.g. the solver stopped early): keep the bound search going
+        res.solution_loader.load_vars()
+        i, _, _ = model.chosen()
+        i = int(m_rows[i])
+        return int(np.nonzero(self.motors == i)[0][0])
+
     # ------------------------------------------------------------------ the loop
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
@@ -383,6 +457,9 @@ class SingleAxleSearch:
         pos_of = {int(m): k for k, m in enumerate(self.motors)}
         heapq.heapify(heap)
         status = "optimal"
+        milp_tried = False
+        t_start = time.perf_counter()
+        done = np.zeros(n, dtype=bool)
         while heap:
             kth = self.kth()
             if heap[0][0] > kth + tie_tolerance(kth):
@@ -392,6 +469,8 @@ class SingleAxleSearch:
                 break
             v, m = heapq.heappop(heap)
             pos = pos_of[m]
+            if done[pos]:
+                continue
             if not refined[pos]:
                 batch = [pos]
                 while heap and len(batch) < REFINE_BATCH and heap[0][0] <= kth + tie_tolerance(kth):
@@ -417,6 +496,26 @@ class SingleAxleSearch:
                         lb[p2] = max(lb[p2], best)
                     heapq.heappush(heap, (float(lb[p2]), int(self.motors[p2])))
                 continue
+            late = time.perf_counter() - t_start > MILP_AFTER_S
+            if self.milp == "always" or (self.milp == "auto" and late and np.isfinite(kth) and not milp_tried):
+                open_pos = np.array(sorted({pos_of[m2] for _, m2 in heap if not done[pos_of[m2]]
+                                            and lb[pos_of[m2]] <= kth + tie_tolerance(kth)} | {pos}))
+                if self.milp == "always" or MILP_OPEN < open_pos.size <= MILP_MAX_OPEN:
+                    milp_tried = True
+                    pick = self.milp_round(open_pos, lb, cells)
+                    if pick is None:  # the relaxation proves that no open motor beats the pool
+                        heap = []
+                        break
+                    if pick >= 0 and pick != pos:  # evaluate the relaxation's motor first
+                        heapq.heappush(heap, (float(lb[pos]), int(self.motors[pos])))
+                        pos = pick
+                        if not refined[pos]:
+                            t_cell, t_multi = self.refine(np.array([pos]))
+                            refined[pos] = True
+                            cells[int(pos)] = t_cell[0]
+            if done[pos]:
+                continue
+            done[pos] = True
             self.evaluate_motor(pos, cells.get(pos))
             self.stats["blocks"] += 1
         bound = None

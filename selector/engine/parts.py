@@ -14,7 +14,7 @@ as (motor, reducer, tyre).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 
 import numpy as np
 
@@ -225,6 +225,25 @@ class PartTables:
         if self.problem.drive.same_unit:
             return units * n_t
         return units * units * n_t
+
+    def subset(self, motors=None, reducers=None, tyres=None) -> "PartTables":
+        """The tables restricted to some rows (positions, in part-id order); the [drive] motor filters
+        are mapped to the new positions. Used to build small models over the parts still in play."""
+        def take(arrays, rows):
+            if rows is None:
+                return arrays
+            rows = np.asarray(rows, dtype=np.int64)
+            return type(arrays)(*[np.asarray(getattr(arrays, f.name))[rows] for f in fields(arrays)])
+
+        axle = {}
+        if motors is not None:
+            motors = np.asarray(motors, dtype=np.int64)
+            for a, pos in self.axle_motors.items():
+                axle[a] = np.nonzero(np.isin(motors, pos))[0]
+        else:
+            axle = dict(self.axle_motors)
+        return replace(self, motors=take(self.motors, motors), reducers=take(self.reducers, reducers),
+                       tyres=take(self.tyres, tyres), axle_motors=axle, cache={})
 
     # ------------------------------------------------------------------ keys
     def single_keys(self, mi, rj, tk) -> np.ndarray:

@@ -140,6 +140,8 @@ class SingleAxleSearch:
         motors = np.arange(parts.sizes[0]) if allowed.get("motors") is None else np.asarray(allowed["motors"])
         motors = np.asarray(motors, dtype=np.int64)
         motors = motors[B.traction_feasible(parts, self.use, motors, req)]
+        if parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
+            motors = motors[parts.motors.has_loss_model[motors]]
         cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
         motors = B.equivalent_motors(parts, motors, count, cost_matters)
         self.stats["motors"] = int(motors.size)
@@ -214,6 +216,60 @@ class SingleAxleSearch:
             return self.parts.motors.cost[self.motors] + best
         return self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[self.motors] + best
 
+    def energy_bounds(self, mi, l_a, l_b, mass_kg, crr, eta_max) -> np.ndarray:
+        """Certified lower bound of the energy objective (Wh/km at the sized battery) of single-unit
+        designs with motors ``mi``, gears in [l_a, l_b], least mass, rolling resistance and best gear
+        efficiency given (broadcast), see `selector.engine.energy.consumption_lower_bound`."""
+        from selector.engine import energy as E
+
+        st = E.setup(self.parts)
+        mo, ty = self.parts.motors, self.parts.tyres
+        v = self.parts.problem.vehicle
+        mi = np.asarray(mi, dtype=np.int64)
+        poly = mo.map_index[mi] < 0
+        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
+            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
+
+        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+
+        m = np.asarray(mass_kg, dtype=float)
+        if st.range_km is None:
+            return c_lb(m)[0]
+        return E.battery_lower_bound(st, c_lb, m, E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
+
+    def battery_bounds(self, mi, l_a, l_b, mass_kg, crr, eta_max):
+        """(least battery mass [kg], least battery cost [currency]) of single-unit designs of blocks
+        (as `energy_bounds`); zeros without a range requirement."""
+        from selector.engine import energy as E
+
+        st = E.setup(self.parts)
+        shape = np.broadcast_shapes(np.shape(mi), np.shape(l_a), np.shape(mass_kg))
+        if st is None or st.range_km is None:
+            return np.zeros(shape), np.zeros(shape)
+        mo, ty = self.parts.motors, self.parts.tyres
+        v = self.parts.problem.vehicle
+        mi = np.asarray(mi, dtype=np.int64)
+        poly = mo.map_index[mi] < 0
+        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
+            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
+
+        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+
+        mb, _ = E.battery_lower_bound(st, c_lb, np.asarray(mass_kg, dtype=float), E.MAX_BATTERY_FACTOR * v.mass_kg)
+        return mb, mb * st.specific_energy_wh_per_kg / 1000.0 * st.cost_per_kwh
+
     def hull(self, m_pos):
         """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
         lo = np.full(m_pos.size, np.inf)
@@ -237,7 +293,7 @@ class SingleAxleSearch:
         lo, hi = self.l_range
         return np.linspace(lo - 1e-9, hi + 1e-9, cells + 1)
 
-    def cell_bounds(self, m_pos, lo_c, hi_c) -> np.ndarray:
+    def cell_bounds(self, m_pos, lo_c, hi_c, what: str = "time") -> np.ndarray:
         """Certified time bound of each motor's single-speed designs in each L cell [lo_c, hi_c] [s].
 
         ``lo_c``, ``hi_c``: (C,) or (m, C). Each cell's bound uses the lightest pair mass, the best
@@ -266,8 +322,11 @@ class SingleAxleSearch:
             r, col = np.nonzero(occupied)
             mi = self.motors[m_pos[r]]
             m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[mi] + mass[r, col]
-            out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
-                                               mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
+            if what == "energy":
+                out[r, col] = self.energy_bounds(mi, lo_c[r, col], hi_c[r, col], m_lo, crr[r, col], -eta[r, col])
+            else:
+                out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
+                                                   mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
         return out
 
     def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
@@ -287,6 +346,45 @@ class SingleAxleSearch:
             tm = self.time_bound(m_pos[:, None], self.pairs.l_tall[mp][None, :], self.pairs.l_first[mp][None, :])
             multi = np.where(mo, tm, np.inf).min(axis=1)
         return t, multi
+
+    def _cell_battery(self, pos: int, cand: np.ndarray, what: str) -> np.ndarray:
+        """Battery cost or mass lower bound of each candidate pair, from the bound of its L cell (cell
+        least pair mass, rolling resistance and best efficiency by range-minimum queries)."""
+        p = self.pairs
+        i = int(self.motors[pos])
+        edges = self.cell_edges(CELLS * SUBCELLS)
+        cell = np.clip(np.searchsorted(edges, p.l_first[cand], side="right") - 1, 0, edges.size - 2)
+        used = np.unique(cell)
+        lo_c, hi_c = edges[used], edges[used + 1]
+        mass = np.full(used.size, np.inf)
+        crr = np.full(used.size, np.inf)
+        eta = np.full(used.size, np.inf)
+        for c, a, b in self._single_ranges(np.array([pos])):
+            ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[0])
+            ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[0])
+            has = ib > ia
+            if has.any():
+                mass = np.minimum(mass, c.mass.query(ia, np.where(has, ib, ia)))
+                crr = np.minimum(crr, c.crr.query(ia, np.where(has, ib, ia)))
+                eta = np.minimum(eta, c.neg_eta.query(ia, np.where(has, ib, ia)))
+        val = np.zeros(used.size)
+        ok = np.isfinite(mass)
+        if ok.any():
+            m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + mass[ok]
+            if what == "energy":
+                val[ok] = self.energy_bounds(np.full(int(ok.sum()), i), lo_c[ok], hi_c[ok], m_lo, crr[ok], -eta[ok])
+            else:
+                mb, mc = self.battery_bounds(np.full(int(ok.sum()), i), lo_c[ok], hi_c[ok], m_lo, crr[ok], -eta[ok])
+                val[ok] = mc if what == "cost" else mb
+        out = val[np.searchsorted(used, cell)]
+        multi = p.multi[cand]
+        if multi.any() and what == "energy":  # a multi-speed pair: the bound over its gear hull
+            mc_ = np.nonzero(multi)[0]
+            mass_m = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + p.mass[cand[mc_]]
+            out[mc_] = self.energy_bounds(np.full(mc_.size, i), p.l_tall[cand[mc_]], p.l_first[cand[mc_]], mass_m,
+                                          p.crr[cand[mc_]], p.eta[cand[mc_]])
+            return np.where(np.isfinite(out), out, np.inf)
+        return np.where(multi, 0.0, np.where(np.isfinite(out), out, np.inf))
 
     # ------------------------------------------------------------------ the pool
     def kth(self) -> float:
@@ -341,6 +439,13 @@ class SingleAxleSearch:
             key_val = parts.motors.cost[i] + p.cost[cand]
         elif self.objective == "mass":
             key_val = parts.problem.vehicle.mass_kg + parts.motors.mass_kg[i] + p.mass[cand]
+        if self.objective in ("cost", "mass") and parts.problem.energy is not None \
+                and parts.problem.requirements.range_km is not None:
+            key_val = key_val + self._cell_battery(pos, cand, "cost" if self.objective == "cost" else "mass")
+        if self.objective in ("cost", "mass"):
+            pass
+        elif self.objective == "energy":
+            key_val = self._cell_battery(pos, cand, "energy")
         else:
             key_val = t_cell
         order = np.lexsort((p.k[cand], p.j[cand], key_val))
@@ -362,7 +467,7 @@ class SingleAxleSearch:
                         break
             stop = min(cand.size, start + size)
             chunk = cand[start:stop]
-            if self.objective == "accel_time":
+            if self.objective in ("accel_time", "energy"):
                 # the chunk's key values are not sorted beyond their cell bound: keep those that can still count
                 ok_chunk = key_val[start:stop] <= min(kth, slice_kth) * (1 + 4 * REL_TOL)
                 chunk = chunk[ok_chunk]
@@ -445,13 +550,37 @@ class SingleAxleSearch:
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
         n = self.motors.size
-        lb = self.value_bounds() if self.objective != "accel_time" else np.zeros(n)
+        lb = self.value_bounds() if self.objective in ("cost", "mass") else np.zeros(n)
+        if self.objective in ("cost", "mass") and self.parts.problem.requirements.range_km is not None \
+                and self.parts.problem.energy is not None:
+            lo, hi = self.hull(np.arange(n))
+            has = np.nonzero((lo <= hi) & np.isfinite(lb))[0]
+            mi = self.motors[has]
+            mb, mc = self.battery_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
+                                         self.use.crr_min, self.use.eta_max[mi])
+            lb[has] = lb[has] + (mc if self.objective == "cost" else mb)
         if self.objective == "accel_time":
             lo, hi = self.hull(np.arange(n))
             has = np.nonzero(lo <= hi)[0]
             lb = np.full(n, np.inf)
             lb[has] = self.time_bound(has, lo[has], hi[has])
+        if self.objective == "energy":
+            lo, hi = self.hull(np.arange(n))
+            has = np.nonzero(lo <= hi)[0]
+            lb = np.full(n, np.inf)
+            mi = self.motors[has]
+            lb[has] = self.energy_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
+                                         self.use.crr_min, self.use.eta_max[mi])
         refined = np.zeros(n, dtype=bool) if self.accel else np.ones(n, dtype=bool)
+        if self.objective == "energy":
+            # the motor-level energy bound refined over L cells (least pair mass per cell), in batches
+            fin = np.nonzero(np.isfinite(lb))[0]
+            edges = self.cell_edges()
+            for s0 in range(0, fin.size, REFINE_BATCH):
+                b = fin[s0:s0 + REFINE_BATCH]
+                cl = self.cell_bounds(b, edges[:-1], edges[1:], what="energy")
+                lb[b] = np.maximum(lb[b], np.where(self._multi_ok(b).any(axis=1) if self.pairs.multi_pairs.size
+                                                   else False, lb[b], cl.min(axis=1)))
         cells: dict[int, np.ndarray] = {}
         heap = [(float(v), int(m)) for v, m in zip(lb, self.motors) if np.isfinite(v)]
         pos_of = {int(m): k for k, m in enumerate(self.motors)}

@@ -127,9 +127,15 @@ def lightest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
 
 
 def heaviest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
-    """Heaviest vehicle mass of any design with each motor (single unit) [kg]."""
+    """Heaviest vehicle mass of any design with each motor (single unit; with the largest battery an
+    energy study considers) [kg]."""
     v = parts.problem.vehicle
-    return v.mass_kg + parts.motors.mass_kg[motors] + use.reducer_mass_max[motors] + v.tyre_count * use.tyre_mass_max
+    m = v.mass_kg + parts.motors.mass_kg[motors] + use.reducer_mass_max[motors] + v.tyre_count * use.tyre_mass_max
+    if parts.problem.energy is not None and parts.problem.requirements.range_km is not None:
+        from selector.engine.energy import MAX_BATTERY_FACTOR
+
+        m = m + MAX_BATTERY_FACTOR * v.mass_kg
+    return m
 
 
 def equivalent_motors(parts: PartTables, motors, keep: int, cost_matters: bool) -> np.ndarray:
@@ -182,6 +188,9 @@ def max_driven_share(parts: PartTables, motor_mass_kg, reducer_mass_kg, tyre_mas
         for mt in tyre_mass_kg:
             driven = share0 * v.mass_kg + mm + mr + 0.5 * n * mt
             best = np.maximum(best, driven / (v.mass_kg + mm + mr + n * mt))
+    if parts.problem.energy is not None:
+        # a battery sits with the vehicle's own share: it moves the driven share towards share0
+        best = np.maximum(best, share0)
     return best
 
 

@@ -116,6 +116,8 @@ class TwoUnitSearch:
             m = np.asarray(motors, dtype=np.int64)
             if axle in parts.axle_motors:
                 m = m[np.isin(m, parts.axle_motors[axle])]
+            if parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
+                m = m[parts.motors.has_loss_model[m]]
             comp = B.compatible_matrix(parts, m, reducers)
             mi, rj = np.nonzero(comp)
             self.options[axle] = np.stack([m[mi], np.asarray(reducers, dtype=np.int64)[rj]], axis=1)
@@ -291,6 +293,36 @@ class TwoUnitSearch:
             self._add(obj[ok], keys[start:stop][ok])
             start, size = stop, size * 2
 
+    def _design_energy_lb(self, keys) -> np.ndarray:
+        """Per-design certified lower bound of the energy objective (both units exact, no copper loss)."""
+        from selector.engine import energy as E
+
+        p = self.parts
+        st = E.setup(p)
+        v = p.problem.vehicle
+        mo, re, ty = p.motors, p.reducers, p.tyres
+        k = keys[:, TY]
+        ki = kw = c0 = brake = 0.0
+        l_a = np.full(keys.shape[0], np.inf)
+        for m_col, r_col in ((FM, FR), (RM, RR)):
+            mi, rj = keys[:, m_col], keys[:, r_col]
+            poly = mo.map_index[mi] < 0
+            ki = ki + np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+            kw = kw + np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+            c0 = c0 + np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+            l1 = np.log(re.ratio[rj]) - np.log(ty.radius_m[k])
+            l_a = np.minimum(l_a, np.log(re.tallest_ratio[rj]) - np.log(ty.radius_m[k]))
+            brake = brake + mo.rotor_inertia_kgm2[mi] * np.exp(2 * l1)
+        brake = brake + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
+        mass = p.mass_kg(keys)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, ty.crr[k], l_a, 1.0, ki, kw, c0, brake)
+
+        if st.range_km is None:
+            return c_lb(mass)[0]
+        return E.battery_lower_bound(st, c_lb, mass, E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
+
     def _own_value(self, tf, fi, tr, ri, kk) -> np.ndarray:
         p = self.parts
         n = p.problem.vehicle.tyre_count
@@ -318,6 +350,8 @@ class TwoUnitSearch:
         keys = self._keys(t, oi, t, oi, kk)
         if self.objective == "accel_time":
             key_val = self._point_bounds(keys)
+        elif self.objective == "energy":
+            key_val = self._design_energy_lb(keys)
         else:
             key_val = self._own_value(t, oi, t, oi, kk)
         self.stats["blocks"] += 1
@@ -348,6 +382,9 @@ class TwoUnitSearch:
             f_ok[fi, kk] = True
             return self._run_pairs_accel(tf, tr, f_ok, rear_ok)
         refined = np.zeros(fi.size, dtype=bool)
+        if self.objective == "energy":
+            lb = self._energy_bounds(tf, tr, fi, kk, rear_ok, per_tyre=True)
+            return self._best_first(tf, tr, fi, kk, lb, refined)
         attr = tr.cost if self.objective == "cost" else tr.mass
         rear_min = np.where(rear_ok, attr[:, None], np.inf).min(axis=0)
         own = tf.cost[fi] if self.objective == "cost" else tf.mass[fi]
@@ -355,6 +392,11 @@ class TwoUnitSearch:
         tyre_val = (p.tyres.cost if self.objective == "cost" else p.tyres.mass_kg)[self.tyres[kk]]
         base = 0.0 if self.objective == "cost" else p.problem.vehicle.mass_kg
         lb = base + own + rear_min[kk] + n * tyre_val
+        return self._best_first(tf, tr, fi, kk, lb, refined)
+
+    def _best_first(self, tf, tr, fi, kk, lb, refined):
+        """Best-first over (front option, tyre) blocks with lazily refined bounds."""
+        rear_ok = self._rear_static(tr)
         heap = [(float(v), int(b)) for b, v in enumerate(lb) if np.isfinite(v)]
         heapq.heapify(heap)
         status = "optimal"
@@ -372,7 +414,10 @@ class TwoUnitSearch:
                     _, b2 = heapq.heappop(heap)
                     batch.append(b2)
                 batch = np.array(batch)
-                new = self._refine_value(tf, tr, fi[batch], kk[batch])
+                if self.objective == "energy":
+                    new = self._energy_bounds(tf, tr, fi[batch], kk[batch], rear_ok, per_tyre=False)
+                else:
+                    new = self._refine_value(tf, tr, fi[batch], kk[batch])
                 self.stats["refined"] += batch.size
                 refined[batch] = True
                 for bb, v in zip(batch, new):
@@ -383,6 +428,87 @@ class TwoUnitSearch:
             self._evaluate_block(tf, tr, int(fi[b]), int(kk[b]))
             self.stats["blocks"] += 1
         return self._finish(status, min((h[0] for h in heap), default=np.inf))
+
+    def _energy_bounds(self, tf, tr, fi, kk, rear_ok, per_tyre: bool) -> np.ndarray:
+        """Certified lower bound of the energy objective of blocks (front option fi, tyre column kk).
+
+        Lightest mass (the front option's, or with ``per_tyre`` the lightest front, and the lightest
+        usable rear), the tyre's rolling resistance, every gear at least as tall as the tallest of
+        both units, best efficiency 1, the sum of both motors' spin losses at least the front's (or
+        the least front's) plus the least rear coefficients, most reflected inertia when braking, no
+        copper loss (the split could share it): `selector.engine.energy.consumption_lower_bound`, and
+        the battery bound with a range.
+        """
+        from selector.engine import energy as E
+
+        p = self.parts
+        st = E.setup(p)
+        v = p.problem.vehicle
+        ty, mo = p.tyres, p.motors
+        nt = self.tyres.size
+        k = self.tyres[kk]
+
+        def spin(table, rows):
+            mi = table.options[rows, 0]
+            poly = mo.map_index[mi] < 0
+            return (np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0),
+                    np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0),
+                    np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0))
+
+        def l_tall(table, rows, cols):
+            idx = rows * nt + cols
+            unit = _take_unit(table.unit, idx)
+            ratio = unit.ratio[np.arange(idx.size), unit.top_gear()]
+            first = unit.ratio[:, 0]
+            return np.log(ratio) - np.log(table.radius[idx]), np.log(first) - np.log(table.radius[idx])
+
+        # rear extremes per tyre column over the usable rear options
+        r_mass = np.full(nt, np.inf)
+        r_lt = np.full(nt, np.inf)
+        r_l1 = np.full(nt, -np.inf)
+        r_ki = np.full(nt, np.inf)
+        r_kw = np.full(nt, np.inf)
+        r_c0 = np.full(nt, np.inf)
+        r_j = np.zeros(nt)
+        for c in range(nt):
+            ro = np.nonzero(rear_ok[:, c])[0]
+            if ro.size == 0:
+                continue
+            lt, l1 = l_tall(tr, ro, np.full(ro.size, c))
+            ki, kw, c0 = spin(tr, ro)
+            r_mass[c], r_lt[c], r_l1[c] = tr.mass[ro].min(), lt.min(), l1.max()
+            r_ki[c], r_kw[c], r_c0[c] = ki.min(), kw.min(), c0.min()
+            r_j[c] = (mo.rotor_inertia_kgm2[tr.options[ro, 0]] * np.exp(2 * l1)).max()
+        f_lt, f_l1 = l_tall(tf, fi, kk)
+        f_ki, f_kw, f_c0 = spin(tf, fi)
+        f_mass = tf.mass[fi]
+        f_j = mo.rotor_inertia_kgm2[tf.options[fi, 0]] * np.exp(2 * f_l1)
+        if per_tyre:  # the least over every front option at that tyre
+            out = np.full(fi.size, np.inf)
+            for c in np.unique(kk):
+                rows = kk == c
+                f_mass[rows] = f_mass[rows].min()
+                f_lt[rows] = f_lt[rows].min()
+                f_ki[rows], f_kw[rows], f_c0[rows] = f_ki[rows].min(), f_kw[rows].min(), f_c0[rows].min()
+                f_j[rows] = f_j[rows].max()
+            del out
+        mass = v.mass_kg + f_mass + r_mass[kk] + v.tyre_count * ty.mass_kg[k]
+        l_a = np.minimum(f_lt, r_lt[kk])
+        brake = f_j + r_j[kk] + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
+        ok = np.isfinite(mass)
+        out = np.full(fi.size, np.inf)
+        if not ok.any():
+            return out
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, ty.crr[k][ok], l_a[ok], 1.0, f_ki[ok] + r_ki[kk][ok],
+                                             f_kw[ok] + r_kw[kk][ok], f_c0[ok] + r_c0[kk][ok], brake[ok])
+
+        if st.range_km is None:
+            out[ok] = c_lb(mass[ok])[0]
+        else:
+            out[ok] = E.battery_lower_bound(st, c_lb, mass[ok], E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
+        return out
 
     def _refine_value(self, tf, tr, fi, kk) -> np.ndarray:
         """Cost or mass bound of blocks with the front option fixed: least own value over the rear
@@ -461,6 +587,8 @@ class TwoUnitSearch:
         keys = self._keys(tf, np.full(ri.size, f), tr, ri, np.full(ri.size, k))
         if self.objective == "accel_time":
             key_val = self._point_bounds(keys)
+        elif self.objective == "energy":
+            key_val = self._design_energy_lb(keys)
         else:
             key_val = self._own_value(tf, f, tr, ri, k)
         self._evaluate(keys, key_val)

@@ -58,6 +58,8 @@ class Requirements:
     max_mass_kg: float | None = None
     budget: float | None = None
     speed_limiter_kmh: float | None = None
+    range_km: float | None = None
+    """Range on the energy study's cycle ([energy] range_km; the battery is sized for it) [km]."""
 
 
 @dataclass(frozen=True)

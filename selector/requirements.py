@@ -44,7 +44,10 @@ REQUIREMENTS: tuple[Requirement, ...] = (
     Requirement("accel_time_s", "accel_time_s", "s", "max",
                 "time from rest to accel_to_kmh on the level, traction-limited"),
     Requirement("max_mass_kg", "mass_kg", "kg", "max", "vehicle mass with the selected parts"),
-    Requirement("budget", "cost", "currency", "max", "motor + reducer + all tyres, catalogue prices"),
+    Requirement("budget", "cost", "currency", "max",
+                "motor + reducer + all tyres, catalogue prices (+ the battery in an energy study with a range)"),
+    Requirement("range_km", "range_reach_km", "km", "min",
+                "range on the energy study's cycle with the battery sized for it ([energy] range_km)"),
 )
 
 CHECKS: tuple[Requirement, ...] = (
@@ -58,25 +61,33 @@ CHECKS: tuple[Requirement, ...] = (
                 "each tyre's share of the heavier static axle load within its load index, reduced above "
                 "210 km/h for V, W and Y tyres (UN R30) at the vehicle's maximum speed"),
 )
+ENERGY_CHECKS: tuple[Requirement, ...] = (
+    Requirement("cycle_followed_pct", "cycle_followed_pct", "%", "min",
+                "share of the energy study's cycle the design can follow (force, speed and efficiency map)"),
+)
+"""Checks of energy studies only."""
+
 CHECK_LIMIT_METRIC = {
     "reducer_torque_nm": "reducer_max_torque_nm",
     "reducer_speed_rpm": "reducer_max_speed_rpm",
     "tyre_speed_kmh": "tyre_speed_rating_kmh",
     "tyre_load_kg": "tyre_load_capacity_kg",
+    "cycle_followed_pct": "cycle_required_pct",
 }
 """For each check, the metric holding the part's rating (the 'required' side)."""
 
-BY_NAME = {r.name: r for r in REQUIREMENTS + CHECKS}
+BY_NAME = {r.name: r for r in REQUIREMENTS + CHECKS + ENERGY_CHECKS}
 
 
-def check_rows(axles: tuple[str, ...]):
+def check_rows(axles: tuple[str, ...], energy: bool = False):
     """(check, axle, limit metric key, demand metric key) of every part-rating check of a study.
 
     ``axles``: the axles that carry a unit. With one unit the per-axle checks use plain metric
-    keys and ``axle`` None (the single-axle contract); with two, keys ``metric@axle``.
+    keys and ``axle`` None (the single-axle contract); with two, keys ``metric@axle``. ``energy``:
+    the study has an [energy] table (adds the cycle check).
     """
     out = []
-    for c in CHECKS:
+    for c in CHECKS + (ENERGY_CHECKS if energy else ()):
         if c.per_axle and len(axles) > 1:
             for a in axles:
                 out.append((c, a, f"{CHECK_LIMIT_METRIC[c.name]}@{a}", f"{c.metric}@{a}"))

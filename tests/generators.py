@@ -158,6 +158,23 @@ def add_gears(rng, rows: list[dict], share: float) -> list[dict]:
     return out
 
 
+def add_losses(rng, rows: list[dict]) -> list[dict]:
+    """Give every motor row a polynomial loss model (invented, plausible: a few per cent of peak power
+    as copper loss at peak torque, about 1 % each as iron and windage loss at maximum speed)."""
+    out = []
+    for r in rows:
+        r = dict(r)
+        p_w = float(r["peak_power_kw"]) * 1e3
+        t_nm = float(r["peak_torque_nm"])
+        w_max = float(r["max_speed_rpm"]) * RPM_TO_RAD_S
+        r["loss_copper_w_per_nm2"] = f"{rng.uniform(0.05, 0.1) * p_w / t_nm ** 2:.6g}"
+        r["loss_iron_nm"] = f"{rng.uniform(0.01, 0.03) * p_w / w_max:.6g}"
+        r["loss_windage_w_s3"] = f"{rng.uniform(0.003, 0.012) * p_w / w_max ** 3:.6g}"
+        r["loss_constant_w"] = f"{rng.uniform(0.001, 0.004) * p_w:.6g}"
+        out.append(r)
+    return out
+
+
 def random_reducers(rng, n: int, motors: list[dict]) -> list[dict]:
     """Rows of a reducers.csv; ratings drawn around the motors' needs so some pairs are incompatible."""
     t_med = float(np.median([float(m["peak_torque_nm"]) for m in motors]))
@@ -277,7 +294,8 @@ def _toml_value(v) -> str:
 
 
 def write_problem(path: Path, name: str, vehicle: dict, environment: dict, requirements: dict,
-                  objective: str, what: str = "hand-made", drive: dict | None = None) -> None:
+                  objective: str, what: str = "hand-made", drive: dict | None = None,
+                  energy: dict | None = None) -> None:
     """Write a problem TOML naming motors.csv, reducers.csv and tyres.csv beside it."""
     lines = [HEADER_COMMENT.format(what=what), f"name = {_toml_value(name)}", "", "[catalogs]",
              'motors = "motors.csv"', 'reducers = "reducers.csv"', 'tyres = "tyres.csv"', "", "[vehicle]"]
@@ -287,6 +305,8 @@ def write_problem(path: Path, name: str, vehicle: dict, environment: dict, requi
     lines += ["", "[environment]"] + [f"{k} = {_toml_value(x)}" for k, x in environment.items()]
     if requirements:
         lines += ["", "[requirements]"] + [f"{k} = {_toml_value(x)}" for k, x in requirements.items()]
+    if energy:
+        lines += ["", "[energy]"] + [f"{k} = {_toml_value(x)}" for k, x in energy.items()]
     lines += ["", "[objective]", f"minimize = {_toml_value(objective)}", ""]
     path.write_text("\n".join(lines), encoding="utf-8")
 
@@ -357,7 +377,7 @@ def _compatible(parts: PartTables, metrics: dict) -> np.ndarray:
 
 def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | None = None,
                  objective_weights: dict | None = None, requirement_share: dict | float | None = None,
-                 layout: str = "single", gearbox_share: float = 0.0) -> Study:
+                 layout: str = "single", gearbox_share: float = 0.0, energy: bool = False) -> Study:
     """Generate, write and load one random study.
 
     Parameters
@@ -372,12 +392,14 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     layout : "single" (front or rear drive, drawn), "both" (a unit on each axle) or "same" (both
         axles, same_unit = true)
     gearbox_share : share of reducer rows made two- or three-speed gearboxes [-]
+    energy : add loss models to the motors and an [energy] table (UDDS, a range, battery data)
 
     Returns
     -------
     Study
     """
     rng = np.random.default_rng(seed)
+    objective_arg = objective
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
     counts = [s if isinstance(s, (int, np.integer)) else int(rng.integers(s[0], s[1] + 1)) for s in sizes]
@@ -387,6 +409,15 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     reducers = random_reducers(rng, counts[1], motors)
     if gearbox_share > 0:
         reducers = add_gears(np.random.default_rng([seed, 13]), reducers, gearbox_share)
+    energy_table = None
+    if energy:
+        erng = np.random.default_rng([seed, 17])
+        motors = add_losses(erng, motors)
+        energy_table = {"cycle": "udds"}
+        if erng.random() < 0.75:
+            energy_table.update({"range_km": round(float(erng.uniform(40, 400)), 0),
+                                 "specific_energy_wh_per_kg": round(float(erng.uniform(120, 220)), 0),
+                                 "cost_per_kwh": round(float(erng.uniform(90, 250)), 0)})
     drive = None
     if layout != "single":
         vehicle["driven_axle"] = "both"
@@ -411,7 +442,7 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     # calibration: load the catalogues with the requirement-free problem, enumerate every design
     path = directory / "problem.toml"
     name = f"Random study {seed} (invented data)"
-    write_problem(path, name, vehicle, environment, {}, "cost", f"seed {seed}", drive)
+    write_problem(path, name, vehicle, environment, {}, "cost", f"seed {seed}", drive, energy_table)
     base, catalogs = load_study(path)
     parts = PartTables.build(base, catalogs)
     mi, rj, tk = _all_triples(parts)
@@ -453,7 +484,9 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
             req[key] = level
         levels[key] = kind
 
-    write_problem(path, name, vehicle, environment, req, objective, f"seed {seed}", drive)
+    if energy and objective_arg is None and np.random.default_rng([seed, 19]).random() < 0.4:
+        objective = "energy"
+    write_problem(path, name, vehicle, environment, req, objective, f"seed {seed}", drive, energy_table)
     problem, catalogs = load_study(path)
     return Study(seed=seed, problem_path=path, problem=problem, catalogs=catalogs,
                  parts=PartTables.build(problem, catalogs), levels=levels)

@@ -42,6 +42,14 @@ REFINE_BATCH = 64
 """Motors whose acceleration bound is refined together [-]."""
 FIRST_CHUNK = 256
 """Designs of a block evaluated in its first chunk (later chunks double) [-]."""
+MILP_OPEN = 400
+"""The MILP relaxation is consulted when more motors than this are still open below the incumbent [-]..."""
+MILP_MAX_OPEN = 2000
+"""... but not more than this (the model's size and build time grow with them) ..."""
+MILP_AFTER_S = 5.0
+"""... and the bound search has already run this long [s] (measured: on the benchmark catalogues the
+bound search proves optimality sooner than a MILP round costs; the relaxation pays off only where
+per-motor bounds stay weak for long)."""
 
 
 @dataclass
@@ -114,8 +122,10 @@ class SingleAxleSearch:
     """One exact search of a single-axle study (see the module docstring)."""
 
     def __init__(self, parts: PartTables, objective: str, req, allowed: dict, count: int, per_motor: int | None,
-                 deadline: float | None, stats: dict):
+                 deadline: float | None, stats: dict, milp: str = "auto"):
         self.parts, self.objective, self.req = parts, objective, req
+        self.milp = milp
+        self.model = None
         self.allowed = allowed
         self.count = count
         self.per_slice = count if per_motor is None else min(count, per_motor)
@@ -130,6 +140,11 @@ class SingleAxleSearch:
         motors = np.arange(parts.sizes[0]) if allowed.get("motors") is None else np.asarray(allowed["motors"])
         motors = np.asarray(motors, dtype=np.int64)
         motors = motors[B.traction_feasible(parts, self.use, motors, req)]
+        if parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
+            motors = motors[parts.motors.has_loss_model[motors]]
+        cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
+        motors = B.equivalent_motors(parts, motors, count, cost_matters)
+        self.stats["motors"] = int(motors.size)
         self.motors = motors
         lo_s, hi_s = B.requirement_window(parts, self.use, motors, req, first_gear=False,
                                           accel_target_kmh=req.accel_to_kmh if self.accel else None)
@@ -201,6 +216,60 @@ class SingleAxleSearch:
             return self.parts.motors.cost[self.motors] + best
         return self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[self.motors] + best
 
+    def energy_bounds(self, mi, l_a, l_b, mass_kg, crr, eta_max) -> np.ndarray:
+        """Certified lower bound of the energy objective (Wh/km at the sized battery) of single-unit
+        designs with motors ``mi``, gears in [l_a, l_b], least mass, rolling resistance and best gear
+        efficiency given (broadcast), see `selector.engine.energy.consumption_lower_bound`."""
+        from selector.engine import energy as E
+
+        st = E.setup(self.parts)
+        mo, ty = self.parts.motors, self.parts.tyres
+        v = self.parts.problem.vehicle
+        mi = np.asarray(mi, dtype=np.int64)
+        poly = mo.map_index[mi] < 0
+        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
+            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
+
+        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+
+        m = np.asarray(mass_kg, dtype=float)
+        if st.range_km is None:
+            return c_lb(m)[0]
+        return E.battery_lower_bound(st, c_lb, m, E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
+
+    def battery_bounds(self, mi, l_a, l_b, mass_kg, crr, eta_max):
+        """(least battery mass [kg], least battery cost [currency]) of single-unit designs of blocks
+        (as `energy_bounds`); zeros without a range requirement."""
+        from selector.engine import energy as E
+
+        st = E.setup(self.parts)
+        shape = np.broadcast_shapes(np.shape(mi), np.shape(l_a), np.shape(mass_kg))
+        if st is None or st.range_km is None:
+            return np.zeros(shape), np.zeros(shape)
+        mo, ty = self.parts.motors, self.parts.tyres
+        v = self.parts.problem.vehicle
+        mi = np.asarray(mi, dtype=np.int64)
+        poly = mo.map_index[mi] < 0
+        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
+            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
+
+        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+
+        mb, _ = E.battery_lower_bound(st, c_lb, np.asarray(mass_kg, dtype=float), E.MAX_BATTERY_FACTOR * v.mass_kg)
+        return mb, mb * st.specific_energy_wh_per_kg / 1000.0 * st.cost_per_kwh
+
     def hull(self, m_pos):
         """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
         lo = np.full(m_pos.size, np.inf)
@@ -224,7 +293,7 @@ class SingleAxleSearch:
         lo, hi = self.l_range
         return np.linspace(lo - 1e-9, hi + 1e-9, cells + 1)
 
-    def cell_bounds(self, m_pos, lo_c, hi_c) -> np.ndarray:
+    def cell_bounds(self, m_pos, lo_c, hi_c, what: str = "time") -> np.ndarray:
         """Certified time bound of each motor's single-speed designs in each L cell [lo_c, hi_c] [s].
 
         ``lo_c``, ``hi_c``: (C,) or (m, C). Each cell's bound uses the lightest pair mass, the best
@@ -253,8 +322,11 @@ class SingleAxleSearch:
             r, col = np.nonzero(occupied)
             mi = self.motors[m_pos[r]]
             m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[mi] + mass[r, col]
-            out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
-                                               mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
+            if what == "energy":
+                out[r, col] = self.energy_bounds(mi, lo_c[r, col], hi_c[r, col], m_lo, crr[r, col], -eta[r, col])
+            else:
+                out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
+                                                   mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
         return out
 
     def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
@@ -274,6 +346,45 @@ class SingleAxleSearch:
             tm = self.time_bound(m_pos[:, None], self.pairs.l_tall[mp][None, :], self.pairs.l_first[mp][None, :])
             multi = np.where(mo, tm, np.inf).min(axis=1)
         return t, multi
+
+    def _cell_battery(self, pos: int, cand: np.ndarray, what: str) -> np.ndarray:
+        """Battery cost or mass lower bound of each candidate pair, from the bound of its L cell (cell
+        least pair mass, rolling resistance and best efficiency by range-minimum queries)."""
+        p = self.pairs
+        i = int(self.motors[pos])
+        edges = self.cell_edges(CELLS * SUBCELLS)
+        cell = np.clip(np.searchsorted(edges, p.l_first[cand], side="right") - 1, 0, edges.size - 2)
+        used = np.unique(cell)
+        lo_c, hi_c = edges[used], edges[used + 1]
+        mass = np.full(used.size, np.inf)
+        crr = np.full(used.size, np.inf)
+        eta = np.full(used.size, np.inf)
+        for c, a, b in self._single_ranges(np.array([pos])):
+            ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[0])
+            ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[0])
+            has = ib > ia
+            if has.any():
+                mass = np.minimum(mass, c.mass.query(ia, np.where(has, ib, ia)))
+                crr = np.minimum(crr, c.crr.query(ia, np.where(has, ib, ia)))
+                eta = np.minimum(eta, c.neg_eta.query(ia, np.where(has, ib, ia)))
+        val = np.zeros(used.size)
+        ok = np.isfinite(mass)
+        if ok.any():
+            m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + mass[ok]
+            if what == "energy":
+                val[ok] = self.energy_bounds(np.full(int(ok.sum()), i), lo_c[ok], hi_c[ok], m_lo, crr[ok], -eta[ok])
+            else:
+                mb, mc = self.battery_bounds(np.full(int(ok.sum()), i), lo_c[ok], hi_c[ok], m_lo, crr[ok], -eta[ok])
+                val[ok] = mc if what == "cost" else mb
+        out = val[np.searchsorted(used, cell)]
+        multi = p.multi[cand]
+        if multi.any() and what == "energy":  # a multi-speed pair: the bound over its gear hull
+            mc_ = np.nonzero(multi)[0]
+            mass_m = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + p.mass[cand[mc_]]
+            out[mc_] = self.energy_bounds(np.full(mc_.size, i), p.l_tall[cand[mc_]], p.l_first[cand[mc_]], mass_m,
+                                          p.crr[cand[mc_]], p.eta[cand[mc_]])
+            return np.where(np.isfinite(out), out, np.inf)
+        return np.where(multi, 0.0, np.where(np.isfinite(out), out, np.inf))
 
     # ------------------------------------------------------------------ the pool
     def kth(self) -> float:
@@ -328,6 +439,13 @@ class SingleAxleSearch:
             key_val = parts.motors.cost[i] + p.cost[cand]
         elif self.objective == "mass":
             key_val = parts.problem.vehicle.mass_kg + parts.motors.mass_kg[i] + p.mass[cand]
+        if self.objective in ("cost", "mass") and parts.problem.energy is not None \
+                and parts.problem.requirements.range_km is not None:
+            key_val = key_val + self._cell_battery(pos, cand, "cost" if self.objective == "cost" else "mass")
+        if self.objective in ("cost", "mass"):
+            pass
+        elif self.objective == "energy":
+            key_val = self._cell_battery(pos, cand, "energy")
         else:
             key_val = t_cell
         order = np.lexsort((p.k[cand], p.j[cand], key_val))
@@ -349,7 +467,7 @@ class SingleAxleSearch:
                         break
             stop = min(cand.size, start + size)
             chunk = cand[start:stop]
-            if self.objective == "accel_time":
+            if self.objective in ("accel_time", "energy"):
                 # the chunk's key values are not sorted beyond their cell bound: keep those that can still count
                 ok_chunk = key_val[start:stop] <= min(kth, slice_kth) * (1 + 4 * REL_TOL)
                 chunk = chunk[ok_chunk]
@@ -367,22 +485,110 @@ class SingleAxleSearch:
         if found_v:
             self._add(np.concatenate(found_v), np.concatenate(found_k))
 
+    # ------------------------------------------------------------------ the MILP relaxation
+    def milp_round(self, open_pos: np.ndarray, lb: np.ndarray, cells: dict):
+        """Ask the MILP relaxation over the open motors: None when it is infeasible under the incumbent
+        cutoff (no open motor can beat the pool: a proof), else the position of the motor it picks.
+
+        Each open motor's first-gear L window is the hull of its admissible pairs (and, once its
+        acceleration bound is refined, of the pairs in cells that can still count); the accel_time
+        objective uses each motor's certified bound as its coefficient. Every row of the model is a
+        relaxation (`model.py`), so infeasibility proves that no unevaluated design beats the cutoff.
+        """
+        from selector.engine.model import AccelWindows, SelectionModel
+
+        parts = self.parts
+        n_all = parts.sizes[0]
+        lo = np.full(n_all, np.inf)
+        hi = np.full(n_all, -np.inf)
+        tmin = np.full(n_all, np.inf)
+        h_lo, h_hi = self.hull(open_pos)
+        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        edges = self.cell_edges()
+        for n, pos in enumerate(open_pos):
+            a, b = h_lo[n], h_hi[n]
+            cl = cells.get(int(pos))
+            if cl is not None and self.pairs.multi_pairs.size == 0:
+                ok = np.nonzero(cl <= min(limit, np.inf if self.objective != "accel_time" else lb[pos] * 1e9))[0]
+                if ok.size:
+                    a, b = max(a, edges[ok.min()]), min(b, edges[ok.max() + 1])
+            i = int(self.motors[pos])
+            lo[i], hi[i] = a - 1e-9, b + 1e-9
+            tmin[i] = lb[pos]
+        # a model over the parts still in play only (open motors, allowed reducers, usable tyres)
+        m_rows = np.sort(self.motors[open_pos])
+        r_rows = np.arange(parts.sizes[1]) if self.allowed.get("reducers") is None else \
+            np.sort(np.asarray(self.allowed["reducers"], dtype=np.int64))
+        sub = parts.subset(motors=m_rows, reducers=r_rows, tyres=self.use.tyres)
+        windows = AccelWindows(lo=lo[m_rows], hi=hi[m_rows], t_min_s=tmin[m_rows])
+        model = SelectionModel(sub, self.objective, windows=windows,
+                               accel_target_kmh=self.req.accel_to_kmh if self.accel else None,
+                               accel_limit_s=self.req.accel_time_s)
+        self.stats["milp"] = self.stats.get("milp", 0) + 1
+        if model.infeasible_reason:
+            return None
+        kth = self.kth()
+        if np.isfinite(kth):
+            model.set_cutoff((kth + tie_tolerance(kth)) * model.objective_scale())
+        from pyomo.contrib.solver.common.results import TerminationCondition as TC
+
+        from selector.engine.search import solver
+
+        res = solver().solve(model.m, load_solutions=False, raise_exception_on_nonoptimal_result=False,
+                             solver_options={"mip_rel_gap": 0.0, "mip_abs_gap": 1e-9, "presolve": "off",
+                                             "threads": 1})
+        if res.termination_condition in (TC.provenInfeasible, TC.infeasibleOrUnbounded, TC.locallyInfeasible):
+            return None
+        if res.termination_condition != TC.convergenceCriteriaSatisfied:
+            return -1  # no verdict (e.g. the solver stopped early): keep the bound search going
+        res.solution_loader.load_vars()
+        i, _, _ = model.chosen()
+        i = int(m_rows[i])
+        return int(np.nonzero(self.motors == i)[0][0])
+
     # ------------------------------------------------------------------ the loop
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
         n = self.motors.size
-        lb = self.value_bounds() if self.objective != "accel_time" else np.zeros(n)
+        lb = self.value_bounds() if self.objective in ("cost", "mass") else np.zeros(n)
+        if self.objective in ("cost", "mass") and self.parts.problem.requirements.range_km is not None \
+                and self.parts.problem.energy is not None:
+            lo, hi = self.hull(np.arange(n))
+            has = np.nonzero((lo <= hi) & np.isfinite(lb))[0]
+            mi = self.motors[has]
+            mb, mc = self.battery_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
+                                         self.use.crr_min, self.use.eta_max[mi])
+            lb[has] = lb[has] + (mc if self.objective == "cost" else mb)
         if self.objective == "accel_time":
             lo, hi = self.hull(np.arange(n))
             has = np.nonzero(lo <= hi)[0]
             lb = np.full(n, np.inf)
             lb[has] = self.time_bound(has, lo[has], hi[has])
+        if self.objective == "energy":
+            lo, hi = self.hull(np.arange(n))
+            has = np.nonzero(lo <= hi)[0]
+            lb = np.full(n, np.inf)
+            mi = self.motors[has]
+            lb[has] = self.energy_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
+                                         self.use.crr_min, self.use.eta_max[mi])
         refined = np.zeros(n, dtype=bool) if self.accel else np.ones(n, dtype=bool)
+        if self.objective == "energy":
+            # the motor-level energy bound refined over L cells (least pair mass per cell), in batches
+            fin = np.nonzero(np.isfinite(lb))[0]
+            edges = self.cell_edges()
+            for s0 in range(0, fin.size, REFINE_BATCH):
+                b = fin[s0:s0 + REFINE_BATCH]
+                cl = self.cell_bounds(b, edges[:-1], edges[1:], what="energy")
+                lb[b] = np.maximum(lb[b], np.where(self._multi_ok(b).any(axis=1) if self.pairs.multi_pairs.size
+                                                   else False, lb[b], cl.min(axis=1)))
         cells: dict[int, np.ndarray] = {}
         heap = [(float(v), int(m)) for v, m in zip(lb, self.motors) if np.isfinite(v)]
         pos_of = {int(m): k for k, m in enumerate(self.motors)}
         heapq.heapify(heap)
         status = "optimal"
+        milp_tried = False
+        t_start = time.perf_counter()
+        done = np.zeros(n, dtype=bool)
         while heap:
             kth = self.kth()
             if heap[0][0] > kth + tie_tolerance(kth):
@@ -392,6 +598,8 @@ class SingleAxleSearch:
                 break
             v, m = heapq.heappop(heap)
             pos = pos_of[m]
+            if done[pos]:
+                continue
             if not refined[pos]:
                 batch = [pos]
                 while heap and len(batch) < REFINE_BATCH and heap[0][0] <= kth + tie_tolerance(kth):
@@ -417,6 +625,26 @@ class SingleAxleSearch:
                         lb[p2] = max(lb[p2], best)
                     heapq.heappush(heap, (float(lb[p2]), int(self.motors[p2])))
                 continue
+            late = time.perf_counter() - t_start > MILP_AFTER_S
+            if self.milp == "always" or (self.milp == "auto" and late and np.isfinite(kth) and not milp_tried):
+                open_pos = np.array(sorted({pos_of[m2] for _, m2 in heap if not done[pos_of[m2]]
+                                            and lb[pos_of[m2]] <= kth + tie_tolerance(kth)} | {pos}))
+                if self.milp == "always" or MILP_OPEN < open_pos.size <= MILP_MAX_OPEN:
+                    milp_tried = True
+                    pick = self.milp_round(open_pos, lb, cells)
+                    if pick is None:  # the relaxation proves that no open motor beats the pool
+                        heap = []
+                        break
+                    if pick >= 0 and pick != pos:  # evaluate the relaxation's motor first
+                        heapq.heappush(heap, (float(lb[pos]), int(self.motors[pos])))
+                        pos = pick
+                        if not refined[pos]:
+                            t_cell, t_multi = self.refine(np.array([pos]))
+                            refined[pos] = True
+                            cells[int(pos)] = t_cell[0]
+            if done[pos]:
+                continue
+            done[pos] = True
             self.evaluate_motor(pos, cells.get(pos))
             self.stats["blocks"] += 1
         bound = None

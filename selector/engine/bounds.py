@@ -127,9 +127,43 @@ def lightest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
 
 
 def heaviest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
-    """Heaviest vehicle mass of any design with each motor (single unit) [kg]."""
+    """Heaviest vehicle mass of any design with each motor (single unit; with the largest battery an
+    energy study considers) [kg]."""
     v = parts.problem.vehicle
-    return v.mass_kg + parts.motors.mass_kg[motors] + use.reducer_mass_max[motors] + v.tyre_count * use.tyre_mass_max
+    m = v.mass_kg + parts.motors.mass_kg[motors] + use.reducer_mass_max[motors] + v.tyre_count * use.tyre_mass_max
+    if parts.problem.energy is not None and parts.problem.requirements.range_km is not None:
+        from selector.engine.energy import MAX_BATTERY_FACTOR
+
+        m = m + MAX_BATTERY_FACTOR * v.mass_kg
+    return m
+
+
+def equivalent_motors(parts: PartTables, motors, keep: int, cost_matters: bool) -> np.ndarray:
+    """The motors worth searching: of every group of motors equal on every attribute the study
+    reads (envelopes, maximum speed, rotor inertia, mass, ratings needs, loss model), only the
+    ``keep`` cheapest (ties: part-id order) when cost matters, else the first ``keep`` in part-id
+    order. Any other member is beaten or tied-and-outranked by ``keep`` members on every design
+    (same feasibility, same objective or a better cost), so it can appear in no list of ``keep``
+    best designs; with count = N the first N members of each group are kept.
+    """
+    mo = parts.motors
+    motors = np.asarray(motors, dtype=np.int64)
+    if motors.size == 0:
+        return motors
+    cols = [mo.torque_nm, mo.power_w, mo.cont_torque_nm, mo.cont_power_w, mo.decline_rad_s, mo.decline_exponent,
+            mo.max_speed_rad_s, mo.rotor_inertia_kgm2, mo.mass_kg]
+    for extra in ("loss_copper", "loss_iron", "loss_windage", "loss_constant", "map_index"):
+        if hasattr(mo, extra):
+            cols.append(getattr(mo, extra))
+    table = np.stack([np.asarray(c, dtype=float)[motors] for c in cols], axis=1)
+    _, group = np.unique(table, axis=0, return_inverse=True)
+    group = np.asarray(group).ravel()
+    cost = mo.cost[motors] if cost_matters else np.zeros(motors.size)
+    order = np.lexsort((motors, cost, group))
+    g_sorted = group[order]
+    rank = np.arange(order.size) - np.searchsorted(g_sorted, g_sorted, side="left")
+    kept = np.sort(motors[order[rank < keep]])
+    return kept
 
 
 # ------------------------------------------------------------------------------------------ traction
@@ -154,6 +188,9 @@ def max_driven_share(parts: PartTables, motor_mass_kg, reducer_mass_kg, tyre_mas
         for mt in tyre_mass_kg:
             driven = share0 * v.mass_kg + mm + mr + 0.5 * n * mt
             best = np.maximum(best, driven / (v.mass_kg + mm + mr + n * mt))
+    if parts.problem.energy is not None:
+        # a battery sits with the vehicle's own share: it moves the driven share towards share0
+        best = np.maximum(best, share0)
     return best
 
 

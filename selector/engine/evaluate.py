@@ -20,7 +20,7 @@ from selector.physics.tyres import load_capacity_factor
 from selector.requirements import REL_TOL, check_rows, passes, stated
 from selector.units import kmh_to_mps, mps_to_kmh, rad_s_to_rpm
 
-OBJECTIVE_METRIC = {"cost": "cost", "mass": "mass_kg", "accel_time": "accel_time_s"}
+OBJECTIVE_METRIC = {"cost": "cost", "mass": "mass_kg", "accel_time": "accel_time_s", "energy": "energy_wh_per_km"}
 """Metric minimised by each objective."""
 
 
@@ -51,9 +51,9 @@ def _unit_ratings(parts: PartTables, keys, out: dict):
         out["reducer_max_speed_rpm" + sfx] = np.where(on, rad_s_to_rpm(re.max_speed_rad_s[rj]), 1.0)
 
 
-def tyre_load_demand_kg(parts: PartTables, keys) -> np.ndarray:
-    """Each tyre's share of the heavier static axle load [kg]."""
-    rear, front = parts.axle_masses_kg(keys)
+def tyre_load_demand_kg(parts: PartTables, keys, extra_kg=None) -> np.ndarray:
+    """Each tyre's share of the heavier static axle load [kg] (``extra_kg``: a battery, see `parts`)."""
+    rear, front = parts.axle_masses_kg(keys, extra_kg)
     return np.maximum(rear, front) / (0.5 * parts.problem.vehicle.tyre_count)
 
 
@@ -74,23 +74,37 @@ def evaluate(parts: PartTables, keys, rj=None, tk=None, accel: bool = True, shif
     acceleration run's shifts are added (``run``: `selector.physics.accel_run.RunResult`).
     """
     keys = as_keys(parts, keys, rj, tk)
-    axles, body = parts.design(keys)
     p = parts.problem
+    energy = None
+    battery_kg = None
+    if p.energy is not None:
+        from selector.engine import energy as E
+
+        energy = E.energy_metrics(parts, keys, parts.mass_kg(keys))
+        battery_kg = np.nan_to_num(energy["battery_mass_kg"])
+        axles, body = parts.design(keys, mass_kg=parts.mass_kg(keys) + battery_kg)
+    else:
+        axles, body = parts.design(keys)
     max_kmh = mps_to_kmh(speeds.max_speed_mps(axles, body))
+    cost = parts.cost(keys)
+    if energy is not None:
+        cost = cost + np.nan_to_num(energy["battery_cost"])
     out = {
         "mass_kg": body.mass_kg,
-        "cost": parts.cost(keys),
+        "cost": cost,
         "lead_time_weeks": parts.lead_time_weeks(keys),
         "max_speed_kmh": max_kmh,
         "sustained_top_speed_kmh": mps_to_kmh(speeds.sustained_top_speed_mps(axles, body)),
         "gradeability_pct": climb.gradeability_pct(axles, body),
         "launch_accel_mps2": climb.launch_accel_mps2(axles, body),
-        "tyre_load_kg": tyre_load_demand_kg(parts, keys),
+        "tyre_load_kg": tyre_load_demand_kg(parts, keys, battery_kg),
         "tyre_speed_rating_kmh": parts.tyres.speed_rating_kmh[keys[:, TY]],
         "tyre_load_capacity_kg": tyre_capacity_kg(parts, keys, max_kmh),
         "rear_axle_share": body.rear_share,
     }
     _unit_ratings(parts, keys, out)
+    if energy is not None:
+        out.update(energy)
     from selector.physics.drivetrain import gear_over_radius, state_effective_mass_kg
 
     z = np.zeros(keys.shape[0], dtype=np.int64)
@@ -116,7 +130,7 @@ def check_results(parts: PartTables, metrics: dict) -> dict[str, np.ndarray]:
     res = {}
     for r, required in stated(parts.problem):
         res[r.name] = passes(r.sense, required, metrics[r.metric])
-    for c, _axle, limit, demand in check_rows(parts.axles):
+    for c, _axle, limit, demand in check_rows(parts.axles, parts.problem.energy is not None):
         ok = passes(c.sense, metrics[limit], metrics[demand])
         res[c.name] = res[c.name] & ok if c.name in res else ok
     return res
@@ -169,6 +183,16 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
         return ok, obj
     if need_accel is None:
         need_accel = req.accel_time_s is not None or objective == "accel_time"
+    if p.energy is not None and req.top_speed_kmh is not None:
+        # the battery only adds mass, and the sustained top speed falls with mass: a design that
+        # misses it without the battery misses it with one (spares the energy evaluation)
+        axles, body = parts.design(keys[sel])
+        top = mps_to_kmh(speeds.sustained_top_speed_mps(axles, body))
+        keep = passes("min", req.top_speed_kmh, top)
+        ok[sel[~keep]] = False
+        sel = sel[keep]
+        if sel.size == 0:
+            return ok, obj
     m = evaluate(parts, keys[sel], accel=False)
     sub_ok = np.ones(sel.size, dtype=bool)
     for name, v in check_results(parts, m).items():
@@ -178,7 +202,8 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
         idx = np.nonzero(sub_ok)[0]
         t = np.full(sel.size, np.inf)
         if idx.size:
-            axles, body = parts.design(keys[sel][idx])
+            mass = None if p.energy is None else m["mass_kg"][idx]
+            axles, body = parts.design(keys[sel][idx], mass_kg=mass)
             target = kmh_to_mps(req.accel_to_kmh)
             lo, hi = accel_run.time_bracket(axles, body, target)
             exact = np.isfinite(lo)

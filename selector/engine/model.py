@@ -25,7 +25,6 @@ from typing import Callable
 import numpy as np
 import pyomo.environ as pyo
 
-from selector.engine.bounds import AccelWindows, log_gearing_range
 from selector.engine.parts import PartTables
 from selector.requirements import REL_TOL
 from selector.units import G_N, kmh_to_mps
@@ -36,6 +35,23 @@ SLACK_T = 1e-6
 """Slack added to every row in tonnes or thousands [-] (limits also get 2 REL_TOL relative)."""
 LSE_TANGENTS = (-9.0, -7.0, -6.0, -5.0, -4.5, -4.0, -3.5, -3.0, -2.5, -2.0, -1.5, -1.0, 0.0, 1.0)
 """Points d = Y - X where the log-sum-exp ln(e^X + e^Y) is under-estimated by tangents [-]."""
+
+
+@dataclass(frozen=True)
+class AccelWindows:
+    """Per motor: admissible window [lo, hi] of the first gear's L = ln(G_1/r) (lo > hi: the motor is
+    ruled out) and a proved lower bound of its acceleration time [s] (the accel_time objective)."""
+
+    lo: np.ndarray
+    hi: np.ndarray
+    t_min_s: np.ndarray
+
+
+def log_gearing_range(parts: PartTables) -> tuple[float, float]:
+    """Smallest and largest L = ln(G/r) of any gear over the catalogue [ln(1/m)]."""
+    lg = np.log(parts.reducers.ratios)
+    lr = np.log(parts.tyres.radius_m)
+    return float(np.nanmin(lg) - lr.max()), float(np.nanmax(lg) - lr.min())
 
 
 @dataclass(frozen=True)
@@ -132,16 +148,26 @@ class SelectionModel:
                         if idx not in keep:
                             var[idx].fix(0)
 
-        # log gearing L = ln G - ln r, log efficiency E, per-motor copies Lm_i = x_i L
+        # log gearing of the first gear L = ln G_1 - ln r and of the tallest gear Lt = ln G_last - ln r,
+        # log efficiency of the first gear E and the best gear Emax, per-motor copies Lm_i = x_i L and
+        # Ltm_i = x_i Lt (single-speed reducers: Lt = L, Emax = E)
         self.ln_g = np.log(re.ratio)
+        self.ln_gt = np.log(re.tallest_ratio)
         self.ln_r = np.log(ty.radius_m)
         self.ln_eta = np.log(re.efficiency)
+        self.ln_eta_max = np.log(np.nanmax(re.efficiencies, axis=1))
         u.L = pyo.Expression(expr=_sum(self.ln_g, u.y) - _sum(self.ln_r, m.z))
+        u.Lt = pyo.Expression(expr=_sum(self.ln_gt, u.y) - _sum(self.ln_r, m.z))
         u.E = pyo.Expression(expr=_sum(self.ln_eta, u.y))
+        u.Emax = pyo.Expression(expr=_sum(self.ln_eta_max, u.y))
         l_lo, l_hi = log_gearing_range(p)
         self.l_range = (l_lo, l_hi)
         u.Lm = pyo.Var(u.I, bounds=(min(l_lo, 0.0), max(l_hi, 0.0)))
         u.Lm_sum = pyo.Constraint(expr=pyo.quicksum(u.Lm[i] for i in u.I) == u.L)
+        u.Ltm = pyo.Var(u.I, bounds=(min(l_lo, 0.0), max(l_hi, 0.0)))
+        u.Ltm_sum = pyo.Constraint(expr=pyo.quicksum(u.Ltm[i] for i in u.I) == u.Lt)
+        u.Ltm_lo = pyo.Constraint(u.I, rule=lambda b, i: b.Ltm[i] >= l_lo * b.x[i])
+        u.Ltm_hi = pyo.Constraint(u.I, rule=lambda b, i: b.Ltm[i] <= l_hi * b.x[i])
         u.Lm_lo_p = pyo.Param(u.I, mutable=True, initialize=l_lo)
         u.Lm_hi_p = pyo.Param(u.I, mutable=True, initialize=l_hi)
         u.Lm_lo = pyo.Constraint(u.I, rule=lambda b, i: b.Lm[i] >= b.Lm_lo_p[i] * b.x[i])
@@ -283,17 +309,19 @@ def _envelope_rows(sm: SelectionModel, name: str, speed_mps: float, continuous: 
     k = mo.decline_exponent
     blk = pyo.Block()
     setattr(m, name, blk)
-    blk.torque = pyo.Constraint(expr=u.E + _sum(np.log(t_lim), u.x) + u.L >= demand - SLACK_LOG)
-    blk.power = pyo.Constraint(expr=u.E + _sum(np.log(p_lim) - ln_v, u.x) >= demand - SLACK_LOG)
+    # any gear's force is at most the best efficiency times the first gear's torque branch (largest
+    # G/r), the power branch (gear-independent) or the tallest gear's decline branch (e^{-kL} falls with L)
+    blk.torque = pyo.Constraint(expr=u.Emax + _sum(np.log(t_lim), u.x) + u.L >= demand - SLACK_LOG)
+    blk.power = pyo.Constraint(expr=u.Emax + _sum(np.log(p_lim) - ln_v, u.x) >= demand - SLACK_LOG)
     const = np.log(p_lim) + k * np.log(mo.decline_rad_s) - (k + 1) * ln_v
-    blk.decline = pyo.Constraint(expr=u.E + _sum(const, u.x) - _sum(k, u.Lm) >= demand - SLACK_LOG)
+    blk.decline = pyo.Constraint(expr=u.Emax + _sum(const, u.x) - _sum(k, u.Ltm) >= demand - SLACK_LOG)
 
 
 def _gearing_row(sm: SelectionModel, name: str, speed_mps: float):
-    """Row: gearing limit w_max r/G >= speed."""
+    """Row: the tallest gear's gearing limit w_max r/G_last >= speed (no unit may over-speed)."""
     u = sm.unit
     setattr(sm.m, name, pyo.Constraint(
-        expr=_sum(np.log(sm.parts.motors.max_speed_rad_s), u.x) - u.L >= np.log(speed_mps) - SLACK_LOG))
+        expr=_sum(np.log(sm.parts.motors.max_speed_rad_s), u.x) - u.Lt >= np.log(speed_mps) - SLACK_LOG))
 
 
 @family("top_speed", "top_speed_kmh", "km/h",

@@ -14,7 +14,7 @@ as (motor, reducer, tyre).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field, fields, replace
 
 import numpy as np
 
@@ -52,6 +52,19 @@ class MotorArrays:
     mass_kg: np.ndarray
     cost: np.ndarray
     lead_time_weeks: np.ndarray
+    loss_copper: np.ndarray = None
+    """Polynomial loss model k_c [W/(N m)^2], k_i [N m], k_w [W s^3], C0 [W] (NaN: none)."""
+    loss_iron: np.ndarray = None
+    loss_windage: np.ndarray = None
+    loss_constant: np.ndarray = None
+    map_index: np.ndarray = None
+    """Index into ``maps`` of the motor's efficiency map, -1 for none (the map wins over the polynomial)."""
+    maps: tuple = ()
+
+    @property
+    def has_loss_model(self) -> np.ndarray:
+        """True for motors usable in an energy study (a loss model or an efficiency map)."""
+        return (self.map_index >= 0) | np.isfinite(self.loss_copper)
 
 
 @dataclass(frozen=True)
@@ -96,6 +109,21 @@ class TyreArrays:
     speed_rating_kmh: np.ndarray
     load_capacity_kg: np.ndarray
     speed_symbol: np.ndarray
+
+
+def _motor_losses(m):
+    """Loss-model arrays of a motors frame: ((k_c, k_i, k_w, C0), map index per row, maps)."""
+    n = len(m)
+    cols = ("loss_copper_w_per_nm2", "loss_iron_nm", "loss_windage_w_s3", "loss_constant_w")
+    losses = tuple(_f(m, c) if c in m else np.full(n, np.nan) for c in cols)
+    map_index = np.full(n, -1, dtype=np.int64)
+    maps = []
+    if "efficiency_map_grid" in m:
+        for row, grid in enumerate(m["efficiency_map_grid"]):
+            if grid is not None and not (isinstance(grid, float) and np.isnan(grid)):
+                map_index[row] = len(maps)
+                maps.append(grid)
+    return losses, map_index, tuple(maps)
 
 
 def _reducer_arrays(r) -> ReducerArrays:
@@ -166,13 +194,16 @@ class PartTables:
     def build(cls, problem: Problem, catalogs: Catalogs) -> "PartTables":
         """Convert validated catalogues to SI arrays for one problem."""
         m, r, t = catalogs.motors, catalogs.reducers, catalogs.tyres
+        losses, map_index, maps = _motor_losses(m)
         motors = MotorArrays(
             part=m["part"].astype(str).to_numpy(), supplier=m["supplier"].astype(str).to_numpy(),
             torque_nm=_f(m, "peak_torque_nm"), power_w=_f(m, "peak_power_kw") * 1e3,
             cont_torque_nm=_f(m, "cont_torque_nm"), cont_power_w=_f(m, "cont_power_kw") * 1e3,
             decline_rad_s=rpm_to_rad_s(_f(m, "decline_speed_rpm")), decline_exponent=_f(m, "decline_exponent"),
             max_speed_rad_s=rpm_to_rad_s(_f(m, "max_speed_rpm")), rotor_inertia_kgm2=_f(m, "rotor_inertia_kgm2"),
-            mass_kg=_f(m, "mass_kg"), cost=_f(m, "unit_cost"), lead_time_weeks=_f(m, "lead_time_weeks"))
+            mass_kg=_f(m, "mass_kg"), cost=_f(m, "unit_cost"), lead_time_weeks=_f(m, "lead_time_weeks"),
+            loss_copper=losses[0], loss_iron=losses[1], loss_windage=losses[2], loss_constant=losses[3],
+            map_index=map_index, maps=maps)
         k = problem.vehicle.rolling_radius_factor
         tyres = TyreArrays(
             part=t["part"].astype(str).to_numpy(), supplier=t["supplier"].astype(str).to_numpy(),
@@ -226,6 +257,25 @@ class PartTables:
             return units * n_t
         return units * units * n_t
 
+    def subset(self, motors=None, reducers=None, tyres=None) -> "PartTables":
+        """The tables restricted to some rows (positions, in part-id order); the [drive] motor filters
+        are mapped to the new positions. Used to build small models over the parts still in play."""
+        def take(arrays, rows):
+            if rows is None:
+                return arrays
+            rows = np.asarray(rows, dtype=np.int64)
+            return type(arrays)(*[np.asarray(getattr(arrays, f.name))[rows] for f in fields(arrays)])
+
+        axle = {}
+        if motors is not None:
+            motors = np.asarray(motors, dtype=np.int64)
+            for a, pos in self.axle_motors.items():
+                axle[a] = np.nonzero(np.isin(motors, pos))[0]
+        else:
+            axle = dict(self.axle_motors)
+        return replace(self, motors=take(self.motors, motors), reducers=take(self.reducers, reducers),
+                       tyres=take(self.tyres, tyres), axle_motors=axle, cache={})
+
     # ------------------------------------------------------------------ keys
     def single_keys(self, mi, rj, tk) -> np.ndarray:
         """Key rows of single-axle designs (motor, reducer, tyre) on this study's driven axle."""
@@ -271,8 +321,14 @@ class PartTables:
             lt = np.where(on, np.maximum(lt, unit), lt)
         return lt
 
-    def axle_masses_kg(self, keys):
-        """Static (rear, front) axle masses [kg]: each unit on its axle, tyres split evenly."""
+    def axle_masses_kg(self, keys, extra_kg=None):
+        """Static (rear, front) axle masses [kg]: each unit on its axle, tyres split evenly; ``extra_kg``
+        (e.g. a battery) with the vehicle's own static share."""
+        if extra_kg is not None:
+            rear, front = self.axle_masses_kg(keys)
+            s = self.problem.vehicle.rear_axle_share
+            extra = np.nan_to_num(np.asarray(extra_kg, dtype=float))
+            return rear + s * extra, front + (1.0 - s) * extra
         v = self.problem.vehicle
         keys = np.asarray(keys)
         half_tyres = 0.5 * v.tyre_count * self.tyres.mass_kg[keys[:, TY]]

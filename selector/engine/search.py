@@ -65,6 +65,21 @@ class SearchSession:
         self.searches = 0
 
 
+def solver():
+    """The HiGHS solver through Pyomo's persistent interface (imported only when a search needs it)."""
+    from selector.errors import SolverUnavailableError
+
+    try:
+        from pyomo.contrib.solver.solvers.highs import Highs
+    except Exception as exc:  # pragma: no cover - depends on the installation
+        raise SolverUnavailableError(f"cannot load the HiGHS interface of Pyomo: {exc}. "
+                                     "Reinstall with: pip install pyomo highspy") from exc
+    opt = Highs()
+    if not opt.available():
+        raise SolverUnavailableError("the HiGHS solver (highspy) is not available. Install it with: pip install highspy")
+    return opt
+
+
 def _impossible(parts: PartTables, req: Requirements) -> str | None:
     """A reason when a requirement is above the speed limiter (no design can meet it), else None."""
     lim = req.speed_limiter_kmh
@@ -81,7 +96,7 @@ def _impossible(parts: PartTables, req: Requirements) -> str | None:
 def search(parts: PartTables, objective: str | None = None, count: int = 1, per_motor: int | None = None,
            requirements: Requirements | None = None, allowed: dict | None = None,
            time_limit_s: float | None = None, threads: int = 1,
-           session: SearchSession | None = None) -> SearchResult:
+           session: SearchSession | None = None, milp: str = "auto") -> SearchResult:
     """Find the ``count`` best designs exactly.
 
     Parameters
@@ -95,6 +110,9 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     time_limit_s : wall-clock limit [s]; on expiry status is "time_limit" with the best so far
     threads : solver threads for the MILP stage [-]
     session : state shared with earlier searches of the same study (see `SearchSession`)
+    milp : when the single-axle search consults the MILP relaxation: "auto" (once, when many motors
+        are still open below the incumbent), "always" (before every block: tests and benchmarks) or
+        "never"
     """
     t_start = time.perf_counter()
     problem = parts.problem
@@ -123,7 +141,8 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     else:
         from selector.engine.best_first import SingleAxleSearch
 
-        engine = SingleAxleSearch(parts, objective, req, allowed, count, per_motor, deadline, stats)
+        engine = SingleAxleSearch(parts, objective, req, allowed, count, per_motor, deadline, stats,
+                                  milp=milp if parts.problem.energy is None else "never")
     result.timings["build_s"] = time.perf_counter() - t_start
     t0 = time.perf_counter()
     status, designs, bound = engine.run()

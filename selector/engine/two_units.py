@@ -1,8 +1,27 @@
-"""Two-unit exact search (a drive unit on each axle): best-first over front-unit blocks.
+"""Two-unit exact search (a drive unit on each axle): best-first branch and bound over blocks.
 
-A block is one front drive-unit option (motor, reducer) with every rear option and every tyre.
-Blocks are evaluated exactly in order of a lower bound of their objective and the search stops
-when the next bound exceeds the pool's ``count``-th best value (beyond the tie tolerance).
+Drive-unit options are the (motor, reducer) pairs allowed on an axle (reducer rated for the motor,
+[drive] motor filters, procurement filters). A block is one front option with one tyre, holding every
+rear option; with ``same_unit`` the designs are (option, option, tyre) and are searched directly.
+
+Per (option, tyre) the search precomputes what the requirements read: the tallest gear's gearing
+limit, the best-gear continuous force at the required top speed, the best-gear peak force at the
+acceleration target, the first-gear crawl force, mass and cost. From these, every design's
+necessary conditions are cheap sums (top speed: summed continuous forces at V cover the road load at
+V with the design's exact mass; acceleration target: summed peak forces exceed the road load there;
+gradeability and launch: summed first-gear crawl forces with every axle motor-limited; mass, budget,
+tyre load, gearing limits). A block's lower bound:
+
+- cost, mass: the front option's and the tyre's value plus the least rear value among the rear
+  options that can meet the conditions at that tyre (first over the rear options alone, refined
+  lazily with the front option fixed);
+- acceleration time: the certified Riemann bound (`bounds` module proof) with the front option's own
+  force, the upper envelope of the rear options' forces at that tyre, the lightest mass and the
+  bound of every traction combination (each axle motor- or traction-limited).
+
+Blocks are evaluated in order of their bound (each rear option exactly through `evaluate.screen`,
+best first) until the next bound exceeds the pool's ``count``-th best value: every design not
+evaluated is then provably worse or infeasible.
 """
 
 from __future__ import annotations
@@ -16,10 +35,66 @@ from selector.design import Design
 from selector.engine import bounds as B
 from selector.engine.evaluate import OBJECTIVE_METRIC, designs_of, order_best, screen, tie_tolerance
 from selector.engine.parts import FM, FR, RM, RR, TY, PartTables
+from selector.physics.drivetrain import best_gear_force_n, top_gear_limit_mps
+from selector.requirements import REL_TOL
+from selector.units import G_N, kmh_to_mps
+
+GROUPS = 24
+"""Groups of similar force profile per axle and tyre in the acceleration-time search [-]."""
+REFINE_BATCH = 512
+"""Blocks whose bound is refined together [-]."""
+FIRST_CHUNK = 128
+"""Rear options of a block evaluated in its first chunk (later chunks double) [-]."""
+NODES = 48
+"""Speed nodes of the certified acceleration bound [-]."""
+
+
+class _Table:
+    """Per (option, tyre) quantities of one axle's options: arrays (options, tyres)."""
+
+    def __init__(self, parts: PartTables, options: np.ndarray, tyres: np.ndarray, req, accel_target: float | None):
+        mo, re, ty = parts.motors, parts.reducers, parts.tyres
+        self.options = options
+        mi, rj = options[:, 0], options[:, 1]
+        self.cost = mo.cost[mi] + re.cost[rj]
+        self.mass = mo.mass_kg[mi] + re.mass_kg[rj]
+        no, nt = options.shape[0], tyres.size
+        unit = parts.unit(np.repeat(mi, nt), np.repeat(rj, nt))
+        radius = np.tile(ty.radius_m[tyres], no)
+        self.lim = top_gear_limit_mps(unit, radius).reshape(no, nt)
+        self.f0 = best_first_gear_force(unit, radius).reshape(no, nt)
+        self.fc_top = None
+        if req.top_speed_kmh is not None:
+            v = np.full(no * nt, kmh_to_mps(req.top_speed_kmh))
+            self.fc_top = best_gear_force_n(unit, radius, v, continuous=True).reshape(no, nt)
+        self.f_acc = None
+        if accel_target is not None:
+            v = np.full(no * nt, accel_target)
+            self.f_acc = best_gear_force_n(unit, radius, v).reshape(no, nt)
+        self.unit, self.radius = unit, radius
+        self.j_eta_e2_min = _min_rotor_mass(unit, radius).reshape(no, nt)
+
+
+def best_first_gear_force(unit, radius) -> np.ndarray:
+    """First-gear crawl force eta_1 T G_1 / r of each unit [N]."""
+    from selector.physics.drivetrain import unit_force_n
+
+    return unit_force_n(unit, radius, 0, np.zeros(unit.n))
+
+
+def _min_rotor_mass(unit, radius) -> np.ndarray:
+    """Least reflected rotor inertia over the unit's gears, min_g J (G_g/r)^2 eta_g [kg]."""
+    from selector.physics.drivetrain import rotor_mass_kg
+
+    best = np.full(unit.n, np.inf)
+    for g in range(unit.ratio.shape[1]):
+        has = unit.n_gears > g
+        best = np.where(has, np.minimum(best, rotor_mass_kg(unit, radius, np.where(has, g, 0))), best)
+    return np.where(np.isfinite(best), best, 0.0)
 
 
 class TwoUnitSearch:
-    """One exact search of a two-unit study."""
+    """One exact search of a two-unit study (see the module docstring)."""
 
     def __init__(self, parts: PartTables, objective: str, req, allowed: dict, count: int, per_motor: int | None,
                  deadline: float | None, stats: dict):
@@ -30,6 +105,8 @@ class TwoUnitSearch:
         self.stats = stats
         self.metric = OBJECTIVE_METRIC[objective]
         self.same = parts.problem.drive.same_unit
+        self.accel = req.accel_to_kmh is not None and (req.accel_time_s is not None or objective == "accel_time")
+        self.target = kmh_to_mps(req.accel_to_kmh) if self.accel else None
         use = B.cached_usable(parts, allowed)
         self.tyres = use.tyres
         motors = np.arange(parts.sizes[0]) if allowed.get("motors") is None else np.asarray(allowed["motors"])
@@ -39,84 +116,288 @@ class TwoUnitSearch:
             m = np.asarray(motors, dtype=np.int64)
             if axle in parts.axle_motors:
                 m = m[np.isin(m, parts.axle_motors[axle])]
+            if parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
+                m = m[parts.motors.has_loss_model[m]]
             comp = B.compatible_matrix(parts, m, reducers)
             mi, rj = np.nonzero(comp)
-            self.options[axle] = np.stack([m[mi], np.asarray(reducers)[rj]], axis=1)
+            self.options[axle] = np.stack([m[mi], np.asarray(reducers, dtype=np.int64)[rj]], axis=1)
         if self.same:
             f, r = self.options["front"], self.options["rear"]
-            both = {tuple(x) for x in r}
-            self.options["front"] = np.array([x for x in f if tuple(x) in both], dtype=np.int64).reshape(-1, 2)
+            both = {tuple(x) for x in r.tolist()}
+            keep = np.array([tuple(x) in both for x in f.tolist()], dtype=bool)
+            self.options["front"] = self.options["rear"] = f[keep] if f.size else f
         self.pool_vals = np.empty(0)
         self.pool_keys = np.empty((0, 5), dtype=np.int64)
+        self.speeds = [kmh_to_mps(v) for v in (req.top_speed_kmh, req.accel_to_kmh if self.accel else None)
+                       if v is not None]
 
+    # ------------------------------------------------------------------ pool
     def kth(self) -> float:
         if self.pool_vals.size < self.count:
             return np.inf
         return float(self.pool_vals[order_best(self.pool_vals, self.pool_keys, self.count)[-1]])
 
+    def _group(self, keys):
+        return keys[:, FM] * (self.parts.sizes[0] + 1) + keys[:, RM]
+
     def _add(self, vals, keys):
         if not vals.size:
             return
+        allv = np.concatenate([self.pool_vals, vals])
+        allk = np.concatenate([self.pool_keys, keys])
         if self.per_motor is not None:
             # one group per (front motor, rear motor) pair: at most per_motor designs each
-            pairs = keys[:, FM] * (self.parts.sizes[0] + 1) + keys[:, RM]
+            g = self._group(allk)
             keep = []
-            for g in np.unique(pairs):
-                idx = np.nonzero(pairs == g)[0]
-                keep.extend(idx[order_best(vals[idx], keys[idx], self.per_motor)])
-            keep = np.asarray(keep, dtype=np.int64)
-            vals, keys = vals[keep], keys[keep]
-            allv = np.concatenate([self.pool_vals, vals])
-            allk = np.concatenate([self.pool_keys, keys])
-            pairs = allk[:, FM] * (self.parts.sizes[0] + 1) + allk[:, RM]
-            keep = []
-            for g in np.unique(pairs):
-                idx = np.nonzero(pairs == g)[0]
+            for key in np.unique(g):
+                idx = np.nonzero(g == key)[0]
                 keep.extend(idx[order_best(allv[idx], allk[idx], self.per_motor)])
             keep = np.asarray(keep, dtype=np.int64)
-            self.pool_vals, self.pool_keys = allv[keep], allk[keep]
-        else:
-            self.pool_vals = np.concatenate([self.pool_vals, vals])
-            self.pool_keys = np.concatenate([self.pool_keys, keys])
-        best = order_best(self.pool_vals, self.pool_keys, self.count if self.per_motor is None else
-                          self.pool_vals.size)
-        self.pool_vals, self.pool_keys = self.pool_vals[best], self.pool_keys[best]
+            allv, allk = allv[keep], allk[keep]
+        best = order_best(allv, allk, self.count)
+        self.pool_vals, self.pool_keys = allv[best], allk[best]
 
-    def block_keys(self, f: np.ndarray) -> np.ndarray:
-        """Key rows of front option f with every rear option (or the same one) and every usable tyre."""
-        rear = f[None, :] if self.same else self.options["rear"]
-        n_r, n_t = rear.shape[0], self.tyres.size
-        keys = np.empty((n_r * n_t, 5), dtype=np.int64)
-        keys[:, FM], keys[:, FR] = f[0], f[1]
-        keys[:, RM] = np.repeat(rear[:, 0], n_t)
-        keys[:, RR] = np.repeat(rear[:, 1], n_t)
-        keys[:, TY] = np.tile(self.tyres, n_r)
+    # ------------------------------------------------------------------ necessary conditions
+    def conditions(self, tf: _Table, fi, tr: _Table, ri, kk) -> np.ndarray:
+        """Cheap necessary conditions of designs (front option fi, rear option ri, tyre column kk) (broadcast)."""
+        p = self.parts
+        v = p.problem.vehicle
+        req = self.req
+        ty = p.tyres
+        k = self.tyres[kk]
+        n = v.tyre_count
+        m = v.mass_kg + tf.mass[fi] + tr.mass[ri] + n * ty.mass_kg[k]
+        ok = np.ones(np.broadcast_shapes(np.shape(fi), np.shape(ri), np.shape(kk)), dtype=bool)
+        tol = 1 + 4 * REL_TOL
+        for spd in self.speeds:
+            ok &= (tf.lim[fi, kk] * tol >= spd) & (tr.lim[ri, kk] * tol >= spd)
+        crr = ty.crr[k]
+        if tf.fc_top is not None:
+            vt = kmh_to_mps(req.top_speed_kmh)
+            ok &= (tf.fc_top[fi, kk] + tr.fc_top[ri, kk]) * tol >= m * G_N * crr + p.q_n_s2_m2 * vt * vt
+        if self.accel:
+            va = self.target
+            ok &= (tf.f_acc[fi, kk] + tr.f_acc[ri, kk]) * tol > m * G_N * crr + p.q_n_s2_m2 * va * va
+        f0 = tf.f0[fi, kk] + tr.f0[ri, kk]
+        if req.gradeability_pct is not None:
+            th = np.arctan(req.gradeability_pct / 100.0)
+            ok &= f0 * tol >= m * G_N * (crr * np.cos(th) + np.sin(th))
+        if req.launch_accel_mps2 is not None:
+            ok &= (f0 - m * G_N * crr) * tol >= req.launch_accel_mps2 * m
+        if req.max_mass_kg is not None:
+            ok &= m <= req.max_mass_kg * tol
+        if req.budget is not None:
+            ok &= tf.cost[fi] + tr.cost[ri] + n * ty.cost[k] <= req.budget * tol
+        half = 0.5 * n * ty.mass_kg[k]
+        rear = v.rear_axle_share * v.mass_kg + half + tr.mass[ri]
+        front = (1.0 - v.rear_axle_share) * v.mass_kg + half + tf.mass[fi]
+        ok &= np.maximum(rear, front) / (0.5 * n) <= ty.load_capacity_kg[k] * tol
+        return ok
+
+    # ------------------------------------------------------------------ acceleration bound
+    def nodes(self):
+        """Speed nodes of the certified bound, graded towards the target [m/s]."""
+        s = 1.0 - (1.0 - np.arange(NODES + 1) / NODES) ** 2
+        return self.target * s
+
+    def envelope_bounds(self, kk, env_f, mf_min, mf_max, jf_min, env_r, mr_min, mr_max, jr_min) -> np.ndarray:
+        """Certified acceleration-time bound of blocks of designs at tyre column kk [s].
+
+        Each block holds front options whose wheel forces at the nodes are at most ``env_f`` (blocks,
+        NODES + 1), masses in [mf_min, mf_max] and reflected rotor inertia at least ``jf_min``, and
+        likewise rear options. The bound is the left Riemann sum of dv / a_up, a_up the least of the
+        four traction combinations' upper bounds (each axle motor- or traction-limited, see
+        `selector.physics.drivetrain.combination_accels`), each non-increasing in v (see `bounds`).
+        """
+        p = self.parts
+        v = p.problem.vehicle
+        env = p.problem.environment
+        ty = p.tyres
+        k = self.tyres[kk]
+        n = v.tyre_count
+        vv = self.nodes()[None, :]
+        dv = np.diff(vv, axis=1)
+        col = lambda a: np.asarray(a, dtype=float)[:, None]  # noqa: E731
+        m_lo = v.mass_kg + mf_min + mr_min + n * ty.mass_kg[k]
+        m_hi = v.mass_kg + mf_max + mr_max + n * ty.mass_kg[k]
+        crr = ty.crr[k]
+        f_res = col(m_lo) * G_N * col(crr) + p.q_n_s2_m2 * vv * vv
+        dj = jf_min + jr_min + n * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
+        m_eff = col(m_lo + dj)
+        mu = env.road_friction
+        hl = v.cg_height_m / v.wheelbase_m
+        half = 0.5 * n * ty.mass_kg[k]
+        w_f_max = G_N * ((1.0 - v.rear_axle_share) * v.mass_kg + half + mf_max)
+        w_r_max = G_N * (v.rear_axle_share * v.mass_kg + half + mr_max)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            mm = (env_f + env_r - f_res) / m_eff
+            tm = (mu * col(w_f_max) + env_r - f_res) / (m_eff + mu * col(m_lo) * hl)
+            den_mt = m_eff - mu * col(m_hi) * hl
+            mt = np.where(den_mt > 0, (env_f + mu * col(w_r_max) - f_res) / den_mt, np.inf)
+            tt = G_N * (mu - col(crr)) - p.q_n_s2_m2 * vv * vv / col(m_hi)
+        a_up = np.minimum(np.minimum(mm, tm), np.minimum(mt, tt))
+        reach = (a_up > 0).all(axis=1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = (dv / a_up[:, :-1]).sum(axis=1)
+        return np.where(reach, t, np.inf)
+
+    def forces_at_nodes(self, table: _Table, oi, kk) -> np.ndarray:
+        """Best-gear peak wheel forces of options oi at tyre columns kk at the nodes (n, NODES + 1) [N]."""
+        idx = np.asarray(oi) * self.tyres.size + np.asarray(kk)
+        vv = np.broadcast_to(self.nodes(), (idx.size, NODES + 1))
+        return best_gear_force_n(_take_unit(table.unit, idx), table.radius[idx], vv)
+
+    # ------------------------------------------------------------------ search
+    def run(self):
+        """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
+        if self.tyres.size == 0 or self.options["front"].shape[0] == 0 or self.options["rear"].shape[0] == 0:
+            return "infeasible", [], None
+        tr = _Table(self.parts, self.options["rear"], self.tyres, self.req, self.target)
+        tf = tr if self.same else _Table(self.parts, self.options["front"], self.tyres, self.req, self.target)
+        if self.same:
+            return self._run_same(tf)
+        return self._run_pairs(tf, tr)
+
+    def _finish(self, status, heap_min):
+        bound = None
+        if status == "time_limit":
+            best = self.pool_vals.min() if self.pool_vals.size else np.inf
+            lo = min(heap_min, best)
+            bound = float(lo) if np.isfinite(lo) else None
+        order = order_best(self.pool_vals, self.pool_keys, self.count)
+        designs: list[Design] = designs_of(self.pool_vals, self.pool_keys, order)
+        if status == "optimal" and not designs:
+            status = "infeasible"
+        return status, designs, bound
+
+    def _keys(self, tf, fi, tr, ri, kk) -> np.ndarray:
+        keys = np.empty((np.size(ri), 5), dtype=np.int64)
+        keys[:, FM], keys[:, FR] = tf.options[fi, 0], tf.options[fi, 1]
+        keys[:, RM], keys[:, RR] = tr.options[ri, 0], tr.options[ri, 1]
+        keys[:, TY] = self.tyres[kk]
         return keys
 
-    def value_bounds(self) -> np.ndarray:
-        """Cost or mass lower bound of every front block (0 for the time objective)."""
-        p = self.parts
-        f = self.options["front"]
-        if self.objective == "accel_time":
-            return np.zeros(f.shape[0])
-        n = p.problem.vehicle.tyre_count
-        if self.objective == "cost":
-            own = p.motors.cost[f[:, 0]] + p.reducers.cost[f[:, 1]]
-            rear = own if self.same else np.full(f.shape[0], (p.motors.cost[self.options["rear"][:, 0]]
-                                                                + p.reducers.cost[self.options["rear"][:, 1]]).min())
-            return own + rear + n * p.tyres.cost[self.tyres].min()
-        own = p.motors.mass_kg[f[:, 0]] + p.reducers.mass_kg[f[:, 1]]
-        rear = own if self.same else np.full(f.shape[0], (p.motors.mass_kg[self.options["rear"][:, 0]]
-                                                            + p.reducers.mass_kg[self.options["rear"][:, 1]]).min())
-        return p.problem.vehicle.mass_kg + own + rear + n * p.tyres.mass_kg[self.tyres].min()
+    def _evaluate(self, keys, key_val):
+        """Evaluate candidate designs exactly in the order of their bound ``key_val``, stopping when done."""
+        order = np.lexsort(tuple(keys[:, c] for c in range(4, -1, -1)) + (key_val,))
+        keys, key_val = keys[order], key_val[order]
+        start, size = 0, FIRST_CHUNK
+        while start < keys.shape[0]:
+            kth = self.kth()
+            if key_val[start] > kth + tie_tolerance(kth):
+                break
+            stop = min(keys.shape[0], start + size)
+            cutoff = kth * (1 + 4 * REL_TOL) if self.objective == "accel_time" and np.isfinite(kth) else None
+            ok, obj = screen(self.parts, keys[start:stop], objective=self.objective, accel_cutoff=cutoff)
+            self.stats["evaluated"] += stop - start
+            self._add(obj[ok], keys[start:stop][ok])
+            start, size = stop, size * 2
 
-    def run(self):
-        """Returns (status, designs, bound)."""
-        f_opts = self.options["front"]
-        if f_opts.shape[0] == 0 or self.tyres.size == 0 or (not self.same and self.options["rear"].shape[0] == 0):
-            return "infeasible", [], None
-        lb = self.value_bounds()
-        heap = [(float(v), int(b)) for b, v in enumerate(lb)]
+    def _design_energy_lb(self, keys) -> np.ndarray:
+        """Per-design certified lower bound of the energy objective (both units exact, no copper loss)."""
+        from selector.engine import energy as E
+
+        p = self.parts
+        st = E.setup(p)
+        v = p.problem.vehicle
+        mo, re, ty = p.motors, p.reducers, p.tyres
+        k = keys[:, TY]
+        ki = kw = c0 = brake = 0.0
+        l_a = np.full(keys.shape[0], np.inf)
+        for m_col, r_col in ((FM, FR), (RM, RR)):
+            mi, rj = keys[:, m_col], keys[:, r_col]
+            poly = mo.map_index[mi] < 0
+            ki = ki + np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+            kw = kw + np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+            c0 = c0 + np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+            l1 = np.log(re.ratio[rj]) - np.log(ty.radius_m[k])
+            l_a = np.minimum(l_a, np.log(re.tallest_ratio[rj]) - np.log(ty.radius_m[k]))
+            brake = brake + mo.rotor_inertia_kgm2[mi] * np.exp(2 * l1)
+        brake = brake + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
+        mass = p.mass_kg(keys)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, ty.crr[k], l_a, 1.0, ki, kw, c0, brake)
+
+        if st.range_km is None:
+            return c_lb(mass)[0]
+        return E.battery_lower_bound(st, c_lb, mass, E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
+
+    def _own_value(self, tf, fi, tr, ri, kk) -> np.ndarray:
+        p = self.parts
+        n = p.problem.vehicle.tyre_count
+        k = self.tyres[kk]
+        if self.objective == "cost":
+            return tf.cost[fi] + tr.cost[ri] + n * p.tyres.cost[k]
+        return p.problem.vehicle.mass_kg + tf.mass[fi] + tr.mass[ri] + n * p.tyres.mass_kg[k]
+
+    def _point_bounds(self, keys) -> np.ndarray:
+        """Per-design proved lower bound of the acceleration time (the exact-physics left Riemann sum)."""
+        from selector.physics.accel_run import time_bracket
+
+        axles, body = self.parts.design(keys)
+        lo, _ = time_bracket(axles, body, self.target)
+        return lo
+
+    def _run_same(self, t: _Table):
+        """same_unit: designs (option, option, tyre), searched directly in order of their bound."""
+        no, nt = t.options.shape[0], self.tyres.size
+        oi, kk = (a.ravel() for a in np.meshgrid(np.arange(no), np.arange(nt), indexing="ij"))
+        ok = self.conditions(t, oi, t, oi, kk)
+        oi, kk = oi[ok], kk[ok]
+        if oi.size == 0:
+            return self._finish("optimal", np.inf)
+        keys = self._keys(t, oi, t, oi, kk)
+        if self.objective == "accel_time":
+            key_val = self._point_bounds(keys)
+        elif self.objective == "energy":
+            key_val = self._design_energy_lb(keys)
+        else:
+            key_val = self._own_value(t, oi, t, oi, kk)
+        self.stats["blocks"] += 1
+        if self.deadline is not None and time.perf_counter() > self.deadline:
+            return self._finish("time_limit", float(key_val.min()))
+        self._evaluate(keys, key_val)
+        return self._finish("optimal", np.inf)
+
+    def _rear_static(self, tr: _Table) -> np.ndarray:
+        """(rear options, tyres) bool: the rear option alone meets the gearing limits at that tyre."""
+        ok = np.ones(tr.lim.shape, dtype=bool)
+        for spd in self.speeds:
+            ok &= tr.lim * (1 + 4 * REL_TOL) >= spd
+        return ok
+
+    def _run_pairs(self, tf: _Table, tr: _Table):
+        p = self.parts
+        nf, nt = tf.options.shape[0], self.tyres.size
+        fi, kk = (a.ravel() for a in np.meshgrid(np.arange(nf), np.arange(nt), indexing="ij"))
+        tol = 1 + 4 * REL_TOL
+        front_ok = np.ones(fi.size, dtype=bool)
+        for spd in self.speeds:
+            front_ok &= tf.lim[fi, kk] * tol >= spd
+        fi, kk = fi[front_ok], kk[front_ok]
+        rear_ok = self._rear_static(tr)
+        if self.objective == "accel_time":
+            f_ok = np.zeros((nf, nt), dtype=bool)
+            f_ok[fi, kk] = True
+            return self._run_pairs_accel(tf, tr, f_ok, rear_ok)
+        refined = np.zeros(fi.size, dtype=bool)
+        if self.objective == "energy":
+            lb = self._energy_bounds(tf, tr, fi, kk, rear_ok, per_tyre=True)
+            return self._best_first(tf, tr, fi, kk, lb, refined)
+        attr = tr.cost if self.objective == "cost" else tr.mass
+        rear_min = np.where(rear_ok, attr[:, None], np.inf).min(axis=0)
+        own = tf.cost[fi] if self.objective == "cost" else tf.mass[fi]
+        n = p.problem.vehicle.tyre_count
+        tyre_val = (p.tyres.cost if self.objective == "cost" else p.tyres.mass_kg)[self.tyres[kk]]
+        base = 0.0 if self.objective == "cost" else p.problem.vehicle.mass_kg
+        lb = base + own + rear_min[kk] + n * tyre_val
+        return self._best_first(tf, tr, fi, kk, lb, refined)
+
+    def _best_first(self, tf, tr, fi, kk, lb, refined):
+        """Best-first over (front option, tyre) blocks with lazily refined bounds."""
+        rear_ok = self._rear_static(tr)
+        heap = [(float(v), int(b)) for b, v in enumerate(lb) if np.isfinite(v)]
         heapq.heapify(heap)
         status = "optimal"
         while heap:
@@ -127,18 +408,194 @@ class TwoUnitSearch:
                 status = "time_limit"
                 break
             _, b = heapq.heappop(heap)
-            keys = self.block_keys(f_opts[b])
-            ok, obj = screen(self.parts, keys, objective=self.objective)
-            self.stats["evaluated"] += keys.shape[0]
+            if not refined[b]:
+                batch = [b]
+                while heap and len(batch) < REFINE_BATCH and heap[0][0] <= kth + tie_tolerance(kth):
+                    _, b2 = heapq.heappop(heap)
+                    batch.append(b2)
+                batch = np.array(batch)
+                if self.objective == "energy":
+                    new = self._energy_bounds(tf, tr, fi[batch], kk[batch], rear_ok, per_tyre=False)
+                else:
+                    new = self._refine_value(tf, tr, fi[batch], kk[batch])
+                self.stats["refined"] += batch.size
+                refined[batch] = True
+                for bb, v in zip(batch, new):
+                    lb[bb] = max(lb[bb], v)
+                    if np.isfinite(lb[bb]):
+                        heapq.heappush(heap, (float(lb[bb]), int(bb)))
+                continue
+            self._evaluate_block(tf, tr, int(fi[b]), int(kk[b]))
             self.stats["blocks"] += 1
-            self._add(obj[ok], keys[ok])
-        bound = None
-        if status == "time_limit":
-            rest = min((h[0] for h in heap), default=np.inf)
-            best = self.pool_vals.min() if self.pool_vals.size else np.inf
-            bound = float(min(rest, best)) if np.isfinite(min(rest, best)) else None
-        order = order_best(self.pool_vals, self.pool_keys, self.count)
-        designs: list[Design] = designs_of(self.pool_vals, self.pool_keys, order)
-        if status == "optimal" and not designs:
-            status = "infeasible"
-        return status, designs, bound
+        return self._finish(status, min((h[0] for h in heap), default=np.inf))
+
+    def _energy_bounds(self, tf, tr, fi, kk, rear_ok, per_tyre: bool) -> np.ndarray:
+        """Certified lower bound of the energy objective of blocks (front option fi, tyre column kk).
+
+        Lightest mass (the front option's, or with ``per_tyre`` the lightest front, and the lightest
+        usable rear), the tyre's rolling resistance, every gear at least as tall as the tallest of
+        both units, best efficiency 1, the sum of both motors' spin losses at least the front's (or
+        the least front's) plus the least rear coefficients, most reflected inertia when braking, no
+        copper loss (the split could share it): `selector.engine.energy.consumption_lower_bound`, and
+        the battery bound with a range.
+        """
+        from selector.engine import energy as E
+
+        p = self.parts
+        st = E.setup(p)
+        v = p.problem.vehicle
+        ty, mo = p.tyres, p.motors
+        nt = self.tyres.size
+        k = self.tyres[kk]
+
+        def spin(table, rows):
+            mi = table.options[rows, 0]
+            poly = mo.map_index[mi] < 0
+            return (np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0),
+                    np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0),
+                    np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0))
+
+        def l_tall(table, rows, cols):
+            idx = rows * nt + cols
+            unit = _take_unit(table.unit, idx)
+            ratio = unit.ratio[np.arange(idx.size), unit.top_gear()]
+            first = unit.ratio[:, 0]
+            return np.log(ratio) - np.log(table.radius[idx]), np.log(first) - np.log(table.radius[idx])
+
+        # rear extremes per tyre column over the usable rear options
+        r_mass = np.full(nt, np.inf)
+        r_lt = np.full(nt, np.inf)
+        r_l1 = np.full(nt, -np.inf)
+        r_ki = np.full(nt, np.inf)
+        r_kw = np.full(nt, np.inf)
+        r_c0 = np.full(nt, np.inf)
+        r_j = np.zeros(nt)
+        for c in range(nt):
+            ro = np.nonzero(rear_ok[:, c])[0]
+            if ro.size == 0:
+                continue
+            lt, l1 = l_tall(tr, ro, np.full(ro.size, c))
+            ki, kw, c0 = spin(tr, ro)
+            r_mass[c], r_lt[c], r_l1[c] = tr.mass[ro].min(), lt.min(), l1.max()
+            r_ki[c], r_kw[c], r_c0[c] = ki.min(), kw.min(), c0.min()
+            r_j[c] = (mo.rotor_inertia_kgm2[tr.options[ro, 0]] * np.exp(2 * l1)).max()
+        f_lt, f_l1 = l_tall(tf, fi, kk)
+        f_ki, f_kw, f_c0 = spin(tf, fi)
+        f_mass = tf.mass[fi]
+        f_j = mo.rotor_inertia_kgm2[tf.options[fi, 0]] * np.exp(2 * f_l1)
+        if per_tyre:  # the least over every front option at that tyre
+            out = np.full(fi.size, np.inf)
+            for c in np.unique(kk):
+                rows = kk == c
+                f_mass[rows] = f_mass[rows].min()
+                f_lt[rows] = f_lt[rows].min()
+                f_ki[rows], f_kw[rows], f_c0[rows] = f_ki[rows].min(), f_kw[rows].min(), f_c0[rows].min()
+                f_j[rows] = f_j[rows].max()
+            del out
+        mass = v.mass_kg + f_mass + r_mass[kk] + v.tyre_count * ty.mass_kg[k]
+        l_a = np.minimum(f_lt, r_lt[kk])
+        brake = f_j + r_j[kk] + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
+        ok = np.isfinite(mass)
+        out = np.full(fi.size, np.inf)
+        if not ok.any():
+            return out
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, ty.crr[k][ok], l_a[ok], 1.0, f_ki[ok] + r_ki[kk][ok],
+                                             f_kw[ok] + r_kw[kk][ok], f_c0[ok] + r_c0[kk][ok], brake[ok])
+
+        if st.range_km is None:
+            out[ok] = c_lb(mass[ok])[0]
+        else:
+            out[ok] = E.battery_lower_bound(st, c_lb, mass[ok], E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
+        return out
+
+    def _refine_value(self, tf, tr, fi, kk) -> np.ndarray:
+        """Cost or mass bound of blocks with the front option fixed: least own value over the rear
+        options that meet every cheap necessary condition with it."""
+        nr = tr.options.shape[0]
+        ri = np.arange(nr)[None, :]
+        ok = self.conditions(tf, fi[:, None], tr, ri, kk[:, None])
+        val = self._own_value(tf, fi[:, None], tr, ri, kk[:, None])
+        return np.where(ok, val, np.inf).min(axis=1)
+
+    def _groups(self, table: _Table, ok_col: np.ndarray, k: int):
+        """Options usable at tyre column k split into GROUPS groups of similar force profile (by mean
+        force over the nodes): [(members, envelope, mass min, mass max, rotor inertia min)]."""
+        oi = np.nonzero(ok_col)[0]
+        if oi.size == 0:
+            return []
+        f = self.forces_at_nodes(table, oi, np.full(oi.size, k))
+        order = np.argsort(f.mean(axis=1), kind="stable")
+        out = []
+        for part in np.array_split(order, min(GROUPS, oi.size)):
+            if part.size == 0:
+                continue
+            mem = oi[part]
+            out.append((mem, f[part].max(axis=0), table.mass[mem].min(), table.mass[mem].max(),
+                        table.j_eta_e2_min[mem, k].min()))
+        return out
+
+    def _run_pairs_accel(self, tf: _Table, tr: _Table, front_ok: np.ndarray, rear_ok: np.ndarray):
+        """accel_time objective: best-first over (front group, rear group, tyre) blocks."""
+        nt = self.tyres.size
+        blocks = []  # (k, front members, rear members)
+        rows = {"kk": [], "ef": [], "mf0": [], "mf1": [], "jf": [], "er": [], "mr0": [], "mr1": [], "jr": []}
+        for k in range(nt):
+            gf = self._groups(tf, front_ok[:, k], k)
+            gr = self._groups(tr, rear_ok[:, k], k)
+            for a in gf:
+                for b in gr:
+                    blocks.append((k, a[0], b[0]))
+                    for key, val in zip(rows, (k, a[1], a[2], a[3], a[4], b[1], b[2], b[3], b[4])):
+                        rows[key].append(val)
+        if not blocks:
+            return self._finish("optimal", np.inf)
+        r = {key: np.asarray(v) for key, v in rows.items()}
+        lb = self.envelope_bounds(r["kk"], r["ef"], r["mf0"], r["mf1"], r["jf"], r["er"], r["mr0"], r["mr1"],
+                                  r["jr"])
+        self.stats["refined"] += len(blocks)
+        heap = [(float(v), int(b)) for b, v in enumerate(lb) if np.isfinite(v)]
+        heapq.heapify(heap)
+        status = "optimal"
+        while heap:
+            kth = self.kth()
+            if heap[0][0] > kth + tie_tolerance(kth):
+                break
+            if self.deadline is not None and time.perf_counter() > self.deadline:
+                status = "time_limit"
+                break
+            _, b = heapq.heappop(heap)
+            k, fm, rm = blocks[b]
+            fi, ri = (a.ravel() for a in np.meshgrid(fm, rm, indexing="ij"))
+            ok = self.conditions(tf, fi, tr, ri, np.full(fi.size, k))
+            fi, ri = fi[ok], ri[ok]
+            self.stats["blocks"] += 1
+            if fi.size == 0:
+                continue
+            keys = self._keys(tf, fi, tr, ri, np.full(fi.size, k))
+            self._evaluate(keys, self._point_bounds(keys))
+        return self._finish(status, min((h[0] for h in heap), default=np.inf))
+
+    def _evaluate_block(self, tf, tr, f: int, k: int):
+        nr = tr.options.shape[0]
+        ri = np.arange(nr)
+        ok = self.conditions(tf, f, tr, ri, k)
+        ri = ri[ok]
+        if ri.size == 0:
+            return
+        keys = self._keys(tf, np.full(ri.size, f), tr, ri, np.full(ri.size, k))
+        if self.objective == "accel_time":
+            key_val = self._point_bounds(keys)
+        elif self.objective == "energy":
+            key_val = self._design_energy_lb(keys)
+        else:
+            key_val = self._own_value(tf, f, tr, ri, k)
+        self._evaluate(keys, key_val)
+
+
+def _take_unit(unit, idx):
+    from selector.physics.drivetrain import take_unit
+
+    return take_unit(unit, idx)
+

@@ -27,7 +27,7 @@ import os
 import re
 import tomllib
 import warnings
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, fields, replace
 from pathlib import Path
 from typing import Callable
 
@@ -52,7 +52,7 @@ from selector.physics.atmosphere import (
 
 __all__ = ["ProblemWarning", "load_problem", "load_study"]
 
-OBJECTIVES = ("cost", "mass", "accel_time")
+OBJECTIVES = ("cost", "mass", "accel_time", "energy")
 DISTINCT = ("motor", "reducer", "tyre")
 DRIVEN_AXLES = ("rear", "front", "both")
 ROLLING_RADIUS_FACTOR_RANGE = (0.9, 1.0)
@@ -161,7 +161,8 @@ TABLES: dict[str, dict[str, Key]] = {
         Key("speed_limiter_kmh", "number", False, "km/h", _positive, "caps the vehicle's maximum speed"),
     )},
     "objective": {k.name: k for k in (
-        Key("minimize", "str", False, "", _one_of(OBJECTIVES), '"cost" (default), "mass" or "accel_time"'),
+        Key("minimize", "str", False, "", _one_of(OBJECTIVES),
+            '"cost" (default), "mass", "accel_time" or "energy" (Wh/km on the [energy] cycle)'),
     )},
     "procurement": {k.name: k for k in (
         Key("distinct", "str", False, "", _one_of(DISTINCT), '"motor", "reducer" or "tyre"'),
@@ -419,6 +420,8 @@ def load_problem(path) -> Problem:
     drive = _drive(col, values["drive"], data, vehicle)
     catalog_paths = _catalog_paths(col, path, values["catalogs"])
     energy = _energy(col, path, values["energy"], data)
+    if energy is not None and energy.range_km is not None:
+        requirements = replace(requirements, range_km=energy.range_km)
 
     if col.errors:
         n = len(col.errors)
@@ -570,6 +573,9 @@ def _objective(col: _Collector, v: dict, data: dict) -> str:
     if minimize == "accel_time" and "accel_to_kmh" not in raw_req:
         col.add(f"{col.where('objective', 'minimize')} minimize = \"accel_time\" needs [requirements] "
                 "accel_to_kmh (the target speed of the acceleration run). Add it [km/h].")
+    if minimize == "energy" and not isinstance(data.get("energy"), dict):
+        col.add(f"{col.where('objective', 'minimize')} minimize = \"energy\" needs an [energy] table with the "
+                "driving cycle (cycle = \"wltc_class3b\", for example). Add it.")
     return minimize
 
 

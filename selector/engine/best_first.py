@@ -200,11 +200,11 @@ class SingleAxleSearch:
         return np.concatenate(parts) if parts else np.empty(0, dtype=np.int64)
 
     # ------------------------------------------------------------------ bounds
-    def value_bounds(self) -> np.ndarray:
-        """Cost or mass lower bound per motor (inf: no admissible pair)."""
+    def value_bounds(self, attr: str | None = None) -> np.ndarray:
+        """Cost or mass (``attr``; default: the objective's) lower bound per motor (inf: no admissible pair)."""
         n = self.motors.size
         m_pos = np.arange(n)
-        attr = "cost" if self.objective in ("cost", "accel_time") else "mass"
+        attr = attr or ("cost" if self.objective in ("cost", "accel_time") else "mass")
         best = np.full(n, np.inf)
         for c, a, b in self._single_ranges(m_pos):
             best = np.minimum(best, getattr(c, attr).query(a, b))

@@ -97,6 +97,40 @@ def _sigmoid(d):
 
 # ----------------------------------------------------------------------------- model
 
+COEFFICIENT_LIMIT = 1e9
+"""Largest magnitude of a model coefficient in model units (t, k-currency, logs); HiGHS treats
+|values| >= 1e20 as infinite and warns on badly scaled rows far earlier [-]."""
+
+
+def check_coefficients(parts: PartTables) -> None:
+    """Every catalogue and vehicle value the model's rows read is finite, positive where a log is
+    taken, and within `COEFFICIENT_LIMIT` in model units; otherwise an internal error is raised (the
+    input validation should have rejected the value), never a silently dropped row."""
+    from selector.errors import SelectorError
+
+    mo, re, ty = parts.motors, parts.reducers, parts.tyres
+    logs = {"motor torque": mo.torque_nm, "motor power": mo.power_w, "continuous torque": mo.cont_torque_nm,
+            "continuous power": mo.cont_power_w, "decline speed": mo.decline_rad_s, "maximum speed":
+            mo.max_speed_rad_s, "rotor inertia": mo.rotor_inertia_kgm2, "gear ratio": re.ratio, "tallest ratio":
+            re.tallest_ratio, "efficiency": re.efficiency, "rolling radius": ty.radius_m}
+    linear = {"motor mass [t]": mo.mass_kg / 1e3, "motor cost [k]": mo.cost / 1e3, "reducer mass [t]":
+              re.mass_kg / 1e3, "reducer cost [k]": re.cost / 1e3, "tyre mass [t]": ty.mass_kg / 1e3,
+              "tyre cost [k]": ty.cost / 1e3, "load capacity [t]": ty.load_capacity_kg / 1e3,
+              "decline exponent": mo.decline_exponent, "rolling resistance": ty.crr}
+    for name, a in logs.items():
+        a = np.asarray(a, dtype=float)
+        if a.size and not (np.all(np.isfinite(a)) and np.all(a > 0)
+                           and np.all(np.abs(np.log(a)) < COEFFICIENT_LIMIT)):
+            raise SelectorError(f"internal error: a {name} value is not a finite positive number the model can use; "
+                                "the input checks should have refused it. Please report this with the input files.")
+    for name, a in linear.items():
+        a = np.asarray(a, dtype=float)
+        if a.size and not (np.all(np.isfinite(a)) and np.all(np.abs(a) < COEFFICIENT_LIMIT)):
+            raise SelectorError(f"internal error: a {name} value is out of the solver's range (|value| >= "
+                                f"{COEFFICIENT_LIMIT:g} in model units); the input checks should have refused it. "
+                                "Please report this with the input files.")
+
+
 class SelectionModel:
     """Pyomo model of one study, with handles the engine needs.
 
@@ -122,6 +156,7 @@ class SelectionModel:
     # -- structure ----------------------------------------------------------
     def _build(self):
         p = self.parts
+        check_coefficients(p)
         n_m, n_r, n_t = p.sizes
         mo, re, ty = p.motors, p.reducers, p.tyres
         v = p.problem.vehicle

@@ -264,7 +264,8 @@ class PartTables:
             if rows is None:
                 return arrays
             rows = np.asarray(rows, dtype=np.int64)
-            return type(arrays)(*[np.asarray(getattr(arrays, f.name))[rows] for f in fields(arrays)])
+            return type(arrays)(*[getattr(arrays, f.name) if f.name == "maps" else np.asarray(getattr(arrays, f.name))[rows]
+                                  for f in fields(arrays)])
 
         axle = {}
         if motors is not None:

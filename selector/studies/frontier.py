@@ -28,6 +28,7 @@ from dataclasses import replace
 import numpy as np
 
 from selector.api import Study, header, records
+from selector.design import Design
 from selector.engine.evaluate import evaluate
 from selector.engine.search import (
     STATUS_INFEASIBLE,
@@ -100,6 +101,20 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
     own_limit = getattr(req0, limit_key)
     t_cap = ANY_FINITE_TIME_S
     points, searches, t0 = [], 0, time.perf_counter()
+    if not parts.two_units and parts.problem.energy is None and not any(
+            a is not None and len(a) == 0 for a in study.allowed.values()):
+        from selector.engine.frontier_sweep import sweep_frontier
+
+        deadline = None if time_limit_s is None else t0 + time_limit_s
+        res = sweep_frontier(parts, objective, base, study.allowed, own_limit, ANY_FINITE_TIME_S, STRICTLY_FASTER,
+                             LIMIT_SLACK, deadline)
+        if res is None:
+            raise FrontierTimeLimit("the frontier sweep stopped at its time limit; the frontier would not be exact. "
+                                    "Rerun without --time-limit or with a longer one.")
+        pts, st = res
+        points = [(v, t, *Design.of(t, key)[1:]) for v, t, key in pts]
+        return points, {"method": "sweep", "searches": 1, "elapsed_s": round(time.perf_counter() - t0, 3),
+                        "evaluated": st["evaluated"]}
     session = SearchSession()  # slices and models shared by every search below (they differ only in limits)
     # Each loop adds one point with a strictly larger axis value and strictly smaller time,
     # so it ends after at most (number of designs) loops.

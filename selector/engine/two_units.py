@@ -277,8 +277,12 @@ class TwoUnitSearch:
         keys[:, TY] = self.tyres[kk]
         return keys
 
-    def _evaluate(self, keys, key_val):
-        """Evaluate candidate designs exactly in the order of their bound ``key_val``, stopping when done."""
+    def _evaluate(self, keys, key_val, fine=None):
+        """Evaluate candidate designs exactly in the order of their bound ``key_val``, stopping when done.
+
+        ``fine(keys) -> bounds``: an optional tighter bound computed chunk by chunk (designs whose fine
+        bound exceeds the pool's count-th best are skipped without the exact evaluation).
+        """
         order = np.lexsort(tuple(keys[:, c] for c in range(4, -1, -1)) + (key_val,))
         keys, key_val = keys[order], key_val[order]
         start, size = 0, FIRST_CHUNK
@@ -287,10 +291,19 @@ class TwoUnitSearch:
             if key_val[start] > kth + tie_tolerance(kth):
                 break
             stop = min(keys.shape[0], start + size)
-            cutoff = kth * (1 + 4 * REL_TOL) if self.objective == "accel_time" and np.isfinite(kth) else None
-            ok, obj = screen(self.parts, keys[start:stop], objective=self.objective, accel_cutoff=cutoff)
-            self.stats["evaluated"] += stop - start
-            self._add(obj[ok], keys[start:stop][ok])
+            chunk = keys[start:stop]
+            chunk = chunk[key_val[start:stop] <= kth + tie_tolerance(kth)]
+            if fine is not None and chunk.shape[0]:
+                fb = fine(chunk)
+                chunk = chunk[fb <= kth + tie_tolerance(kth)]
+                if chunk.shape[0]:
+                    chunk = chunk[np.lexsort(tuple(chunk[:, c] for c in range(4, -1, -1))
+                                             + (fb[fb <= kth + tie_tolerance(kth)],))]
+            if chunk.shape[0]:
+                cutoff = kth * (1 + 4 * REL_TOL) if self.objective == "accel_time" and np.isfinite(kth) else None
+                ok, obj = screen(self.parts, chunk, objective=self.objective, accel_cutoff=cutoff)
+                self.stats["evaluated"] += chunk.shape[0]
+                self._add(obj[ok], chunk[ok])
             start, size = stop, size * 2
 
     def _design_energy_lb(self, keys) -> np.ndarray:
@@ -337,6 +350,21 @@ class TwoUnitSearch:
 
         axles, body = self.parts.design(keys)
         lo, _ = time_bracket(axles, body, self.target)
+        return lo
+
+    def _point_bounds_staged(self, keys) -> np.ndarray:
+        """`_point_bounds`, first on a coarse 12-node partition (also a proved bound) and on the finer one
+        only for the designs whose coarse bound does not already exceed the pool's count-th best."""
+        from selector.physics.accel_run import time_bracket
+
+        axles, body = self.parts.design(keys)
+        lo, _ = time_bracket(axles, body, self.target, nodes=12)
+        kth = self.kth()
+        rows = np.nonzero(lo <= kth + tie_tolerance(kth))[0]
+        if rows.size:
+            from selector.physics.drivetrain import take_axles, take_fields
+
+            lo[rows], _ = time_bracket(take_axles(axles, rows), take_fields(body, rows), self.target)
         return lo
 
     def _run_same(self, t: _Table):
@@ -395,11 +423,14 @@ class TwoUnitSearch:
         return self._best_first(tf, tr, fi, kk, lb, refined)
 
     def _best_first(self, tf, tr, fi, kk, lb, refined):
-        """Best-first over (front option, tyre) blocks with lazily refined bounds."""
+        """Best-first over (front option, tyre) blocks with lazily refined bounds; blocks whose bound is
+        below the incumbent are refined, then evaluated together (their designs merged in the order of
+        their own bounds)."""
         rear_ok = self._rear_static(tr)
         heap = [(float(v), int(b)) for b, v in enumerate(lb) if np.isfinite(v)]
         heapq.heapify(heap)
         status = "optimal"
+        rounds = 0
         while heap:
             kth = self.kth()
             if heap[0][0] > kth + tie_tolerance(kth):
@@ -407,26 +438,30 @@ class TwoUnitSearch:
             if self.deadline is not None and time.perf_counter() > self.deadline:
                 status = "time_limit"
                 break
-            _, b = heapq.heappop(heap)
-            if not refined[b]:
-                batch = [b]
-                while heap and len(batch) < REFINE_BATCH and heap[0][0] <= kth + tie_tolerance(kth):
-                    _, b2 = heapq.heappop(heap)
-                    batch.append(b2)
-                batch = np.array(batch)
+            # best first: the blocks at the top that are not refined yet get refined together; the
+            # refined ones at the top are evaluated together (growing batches)
+            want = not refined[heap[0][1]]
+            limit = REFINE_BATCH if want else min(REFINE_BATCH, 4 * 2 ** min(rounds, 7))
+            batch = []
+            while heap and len(batch) < limit and heap[0][0] <= kth + tie_tolerance(kth) \
+                    and (not refined[heap[0][1]]) == want:
+                batch.append(heapq.heappop(heap)[1])
+            batch = np.array(batch)
+            if want:
                 if self.objective == "energy":
                     new = self._energy_bounds(tf, tr, fi[batch], kk[batch], rear_ok, per_tyre=False)
                 else:
                     new = self._refine_value(tf, tr, fi[batch], kk[batch])
                 self.stats["refined"] += batch.size
                 refined[batch] = True
-                for bb, v in zip(batch, new):
-                    lb[bb] = max(lb[bb], v)
+                lb[batch] = np.maximum(lb[batch], new)
+                for bb in batch:
                     if np.isfinite(lb[bb]):
                         heapq.heappush(heap, (float(lb[bb]), int(bb)))
                 continue
-            self._evaluate_block(tf, tr, int(fi[b]), int(kk[b]))
-            self.stats["blocks"] += 1
+            rounds += 1
+            self._evaluate_blocks(tf, tr, fi[batch], kk[batch])
+            self.stats["blocks"] += batch.size
         return self._finish(status, min((h[0] for h in heap), default=np.inf))
 
     def _energy_bounds(self, tf, tr, fi, kk, rear_ok, per_tyre: bool) -> np.ndarray:
@@ -532,15 +567,48 @@ class TwoUnitSearch:
             if part.size == 0:
                 continue
             mem = oi[part]
+            extra = {"f0": table.f0[mem, k].max(), "cost": table.cost[mem].min(),
+                     "fc": None if table.fc_top is None else table.fc_top[mem, k].max(),
+                     "fa": None if table.f_acc is None else table.f_acc[mem, k].max()}
             out.append((mem, f[part].max(axis=0), table.mass[mem].min(), table.mass[mem].max(),
-                        table.j_eta_e2_min[mem, k].min()))
+                        table.j_eta_e2_min[mem, k].min(), extra))
         return out
+
+    def _group_conditions(self, kk, mass_lo, ef, er):
+        """Necessary conditions of blocks from the groups' extremes (largest forces, least mass and cost)."""
+        p = self.parts
+        v = p.problem.vehicle
+        req = self.req
+        ty = p.tyres
+        k = self.tyres[kk]
+        crr = ty.crr[k]
+        tol = 1 + 4 * REL_TOL
+        ok = np.ones(kk.size, dtype=bool)
+        if ef["fc"][0] is not None and req.top_speed_kmh is not None:
+            vt = kmh_to_mps(req.top_speed_kmh)
+            ok &= (ef["fc"] + er["fc"]) * tol >= mass_lo * G_N * crr + p.q_n_s2_m2 * vt * vt
+        if ef["fa"][0] is not None:
+            va = self.target
+            ok &= (ef["fa"] + er["fa"]) * tol > mass_lo * G_N * crr + p.q_n_s2_m2 * va * va
+        f0 = ef["f0"] + er["f0"]
+        if req.gradeability_pct is not None:
+            th = np.arctan(req.gradeability_pct / 100.0)
+            ok &= f0 * tol >= mass_lo * G_N * (crr * np.cos(th) + np.sin(th))
+        if req.launch_accel_mps2 is not None:
+            ok &= (f0 - mass_lo * G_N * crr) * tol >= req.launch_accel_mps2 * mass_lo
+        if req.max_mass_kg is not None:
+            ok &= mass_lo <= req.max_mass_kg * tol
+        if req.budget is not None:
+            ok &= ef["cost"] + er["cost"] + v.tyre_count * ty.cost[k] <= req.budget * tol
+        return ok
 
     def _run_pairs_accel(self, tf: _Table, tr: _Table, front_ok: np.ndarray, rear_ok: np.ndarray):
         """accel_time objective: best-first over (front group, rear group, tyre) blocks."""
         nt = self.tyres.size
         blocks = []  # (k, front members, rear members)
         rows = {"kk": [], "ef": [], "mf0": [], "mf1": [], "jf": [], "er": [], "mr0": [], "mr1": [], "jr": []}
+        xf = {"f0": [], "cost": [], "fc": [], "fa": []}
+        xr = {"f0": [], "cost": [], "fc": [], "fa": []}
         for k in range(nt):
             gf = self._groups(tf, front_ok[:, k], k)
             gr = self._groups(tr, rear_ok[:, k], k)
@@ -549,15 +617,27 @@ class TwoUnitSearch:
                     blocks.append((k, a[0], b[0]))
                     for key, val in zip(rows, (k, a[1], a[2], a[3], a[4], b[1], b[2], b[3], b[4])):
                         rows[key].append(val)
+                    for key in xf:
+                        xf[key].append(a[5][key])
+                        xr[key].append(b[5][key])
         if not blocks:
             return self._finish("optimal", np.inf)
         r = {key: np.asarray(v) for key, v in rows.items()}
-        lb = self.envelope_bounds(r["kk"], r["ef"], r["mf0"], r["mf1"], r["jf"], r["er"], r["mr0"], r["mr1"],
-                                  r["jr"])
+        ef = {key: (np.asarray(v, dtype=float) if v[0] is not None else [None]) for key, v in xf.items()}
+        er = {key: (np.asarray(v, dtype=float) if v[0] is not None else [None]) for key, v in xr.items()}
+        m_lo = self.parts.problem.vehicle.mass_kg + r["mf0"] + r["mr0"] \
+            + self.parts.problem.vehicle.tyre_count * self.parts.tyres.mass_kg[self.tyres[r["kk"]]]
+        possible = self._group_conditions(r["kk"], m_lo, ef, er)
+        lb = np.full(len(blocks), np.inf)
+        keep = np.nonzero(possible)[0]
+        if keep.size:
+            lb[keep] = self.envelope_bounds(r["kk"][keep], r["ef"][keep], r["mf0"][keep], r["mf1"][keep], r["jf"][keep],
+                                            r["er"][keep], r["mr0"][keep], r["mr1"][keep], r["jr"][keep])
         self.stats["refined"] += len(blocks)
         heap = [(float(v), int(b)) for b, v in enumerate(lb) if np.isfinite(v)]
         heapq.heapify(heap)
         status = "optimal"
+        rounds = 0
         while heap:
             kth = self.kth()
             if heap[0][0] > kth + tie_tolerance(kth):
@@ -565,34 +645,44 @@ class TwoUnitSearch:
             if self.deadline is not None and time.perf_counter() > self.deadline:
                 status = "time_limit"
                 break
-            _, b = heapq.heappop(heap)
-            k, fm, rm = blocks[b]
-            fi, ri = (a.ravel() for a in np.meshgrid(fm, rm, indexing="ij"))
-            ok = self.conditions(tf, fi, tr, ri, np.full(fi.size, k))
-            fi, ri = fi[ok], ri[ok]
-            self.stats["blocks"] += 1
+            fis, ris, kks, lbs = [], [], [], []
+            size = min(REFINE_BATCH, 8 * 2 ** min(rounds, 6))
+            rounds += 1
+            while heap and len(fis) < size and heap[0][0] <= kth + tie_tolerance(kth):
+                v_b, b = heapq.heappop(heap)
+                k, fm, rm = blocks[b]
+                fi, ri = (a.ravel() for a in np.meshgrid(fm, rm, indexing="ij"))
+                lbs.append(np.full(fi.size, v_b))
+                fis.append(fi)
+                ris.append(ri)
+                kks.append(np.full(fi.size, k))
+                self.stats["blocks"] += 1
+            fi, ri, kk = np.concatenate(fis), np.concatenate(ris), np.concatenate(kks)
+            blb = np.concatenate(lbs)
+            ok = self.conditions(tf, fi, tr, ri, kk)
+            fi, ri, kk, blb = fi[ok], ri[ok], kk[ok], blb[ok]
             if fi.size == 0:
                 continue
-            keys = self._keys(tf, fi, tr, ri, np.full(fi.size, k))
-            self._evaluate(keys, self._point_bounds(keys))
+            keys = self._keys(tf, fi, tr, ri, kk)
+            self._evaluate(keys, blb, fine=self._point_bounds_staged)
         return self._finish(status, min((h[0] for h in heap), default=np.inf))
 
-    def _evaluate_block(self, tf, tr, f: int, k: int):
+    def _evaluate_blocks(self, tf, tr, fb: np.ndarray, kb: np.ndarray):
+        """Evaluate the designs of several (front option, tyre) blocks together, best bound first."""
         nr = tr.options.shape[0]
-        ri = np.arange(nr)
-        ok = self.conditions(tf, f, tr, ri, k)
-        ri = ri[ok]
-        if ri.size == 0:
+        ok = self.conditions(tf, fb[:, None], tr, np.arange(nr)[None, :], kb[:, None])
+        bi, ri = np.nonzero(ok)
+        if bi.size == 0:
             return
-        keys = self._keys(tf, np.full(ri.size, f), tr, ri, np.full(ri.size, k))
+        fi, kk = fb[bi], kb[bi]
+        keys = self._keys(tf, fi, tr, ri, kk)
         if self.objective == "accel_time":
             key_val = self._point_bounds(keys)
         elif self.objective == "energy":
             key_val = self._design_energy_lb(keys)
         else:
-            key_val = self._own_value(tf, f, tr, ri, k)
+            key_val = self._own_value(tf, fi, tr, ri, kk)
         self._evaluate(keys, key_val)
-
 
 def _take_unit(unit, idx):
     from selector.physics.drivetrain import take_unit

@@ -111,7 +111,13 @@ def unit_reach_mps(axles: Axles, body, unit_name: str, continuous: bool = False)
 
 
 def _summed_crossing_mps(axles: Axles, body, continuous: bool) -> np.ndarray:
-    """Largest v <= the speed cap with sum of best-gear forces >= level road load (bisection) [m/s]."""
+    """Largest v <= the speed cap with sum of best-gear forces >= level road load [m/s].
+
+    The surplus (summed forces minus road load) is non-increasing, so the crossing is bracketed and
+    found by the Illinois variant of regula falsi, with a bisection step every fourth iteration to
+    guarantee the bracket halves; it stops when the bracket is below 1e-15 of the cap (the answer is
+    the bracket's feasible end).
+    """
     hi = speed_cap_mps(axles)
     a0 = _level_a0(body)
     q = body.q_n_s2_m2
@@ -122,15 +128,34 @@ def _summed_crossing_mps(axles: Axles, body, continuous: bool) -> np.ndarray:
         return f - (a0 + q * v * v)
 
     # at the cap itself the force of the limiting gear still counts (limit inclusive)
-    top_ok = surplus(hi) >= 0
+    f_hi = surplus(hi)
+    top_ok = f_hi >= 0
     lo_v = np.zeros(axles.n)
+    f_lo = surplus(lo_v)
+    start_ok = f_lo >= 0
     hi_v = hi.copy()
-    start_ok = surplus(lo_v) >= 0
-    for _ in range(BISECT_STEPS):
-        mid = 0.5 * (lo_v + hi_v)
-        ok = surplus(mid) >= 0
-        lo_v = np.where(ok, mid, lo_v)
-        hi_v = np.where(ok, hi_v, mid)
+    active = start_ok & ~top_ok
+    side = np.zeros(axles.n)  # Illinois: which end was kept last (-1 lo, +1 hi)
+    for it in range(BISECT_STEPS):
+        if not active.any():
+            break
+        if it % 4 == 3:
+            mid = 0.5 * (lo_v + hi_v)
+        else:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                mid = (lo_v * f_hi - hi_v * f_lo) / (f_hi - f_lo)
+            bad = ~np.isfinite(mid) | (mid <= lo_v) | (mid >= hi_v)
+            mid = np.where(bad, 0.5 * (lo_v + hi_v), mid)
+        f_mid = surplus(mid)
+        ok = f_mid >= 0
+        keep_lo = active & ok
+        keep_hi = active & ~ok
+        lo_v = np.where(keep_lo, mid, lo_v)
+        f_lo = np.where(keep_lo, f_mid, np.where(keep_hi & (side == -1), 0.5 * f_lo, f_lo))
+        hi_v = np.where(keep_hi, mid, hi_v)
+        f_hi = np.where(keep_hi, f_mid, np.where(keep_lo & (side == 1), 0.5 * f_hi, f_hi))
+        side = np.where(keep_lo, 1.0, np.where(keep_hi, -1.0, side))
+        active &= (hi_v - lo_v) > 1e-15 * np.maximum(hi, 1e-300)
     return np.where(top_ok, hi, np.where(start_ok, lo_v, 0.0))
 
 

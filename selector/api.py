@@ -119,7 +119,7 @@ def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> d
         "bound": clean(res.bound), "gap": clean(res.gap),
         "binding_rule": BINDING_RULE,
         "search": {"iterations": res.iterations, **{k: round(v, 4) for k, v in res.timings.items()},
-                   "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes)),
+                   "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
                    "combinations": int(np.prod(parts.sizes)), "procurement_filters": list(study.filter_notes)},
         "designs": records(parts, res.designs, res.objective),
     })
@@ -184,7 +184,7 @@ def problem_summary(study: Study) -> dict:
     p = parts.problem
     req = {k: v for k, v in vars(p.requirements).items() if v is not None}
     return {**header(parts), "catalogues": {k: str(v) for k, v in p.catalog_paths.items()},
-            "parts": dict(zip(("motors", "reducers", "tyres"), parts.sizes)),
+            "parts": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
             "combinations": int(np.prod(parts.sizes)),
             "after_procurement_filters": {k: int(len(v)) for k, v in study.allowed.items()},
             "requirements": req, "objective": p.objective,

@@ -138,7 +138,7 @@ def table(headers: list[str], rows: list[list], align: str | None = None) -> str
     align = align or ("l" + "r" * (len(headers) - 1))
     out = []
     for n, r in enumerate(cells):
-        line = "  ".join(c.ljust(w) if a == "l" else c.rjust(w) for c, w, a in zip(r, widths, align))
+        line = "  ".join(c.ljust(w) if a == "l" else c.rjust(w) for c, w, a in zip(r, widths, align, strict=False))
         out.append(line.rstrip())
         if n == 0:
             out.append("  ".join("-" * w for w in widths))

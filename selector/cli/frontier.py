@@ -68,8 +68,10 @@ def render(res: dict) -> str:
     if ch is None:
         lines.append("the problem as stated is infeasible: no chosen design")
     else:
-        where = "on the frontier" if ch["on_frontier"] else "not on the frontier (a frontier design is at least as good)"
-        lines.append(f"chosen ({ch['objective']} optimum of the problem): {ch['motor']} + {ch['reducer']} + {ch['tyre']}"
+        where = ("on the frontier" if ch["on_frontier"]
+                 else "not on the frontier (a frontier design is at least as good)")
+        lines.append(f"chosen ({ch['objective']} optimum of the problem): "
+                     f"{ch['motor']} + {ch['reducer']} + {ch['tyre']}"
                      f", {key} {fmt(ch[key])}, time {fmt(ch['accel_time_s'])} s, {where}")
     if res.get("plot"):
         lines.append(f"plot written to {res['plot']}")

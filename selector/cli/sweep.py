@@ -78,7 +78,8 @@ def render(res: dict) -> str:
                                                    row["reducer"] or "-", row["tyre"] or "-", fmt(row["cost"]),
                                                    fmt(row["mass_kg"]), fmt(row["accel_time_s"])])
     units = {q["key"]: q["unit"] for q in res["parameters"]}
-    head = [f"{k} [{units[k]}]" for k in keys] + ["status", f"min {obj['minimize']} [{obj['unit']}]", "motor", "reducer",
+    head = [f"{k} [{units[k]}]" for k in keys] + ["status", f"min {obj['minimize']} [{obj['unit']}]",
+                                                 "motor", "reducer",
                                                   "tyre", "cost", "mass_kg", "accel_time_s"]
     lines.append(table(head, rows, "r" * len(keys) + "lrlllrrr"))
     for extra in ("csv", "plot"):

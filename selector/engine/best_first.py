@@ -582,7 +582,7 @@ class SingleAxleSearch:
                 lb[b] = np.maximum(lb[b], np.where(self._multi_ok(b).any(axis=1) if self.pairs.multi_pairs.size
                                                    else False, lb[b], cl.min(axis=1)))
         cells: dict[int, np.ndarray] = {}
-        heap = [(float(v), int(m)) for v, m in zip(lb, self.motors) if np.isfinite(v)]
+        heap = [(float(v), int(m)) for v, m in zip(lb, self.motors, strict=False) if np.isfinite(v)]
         pos_of = {int(m): k for k, m in enumerate(self.motors)}
         heapq.heapify(heap)
         status = "optimal"

@@ -193,7 +193,8 @@ def consumption_lower_bound(st: EnergySetup, mass_kg, crr, l_a, eta_max, spin_k_
     mechanical power is at least F v / eta_max when driving and max(F v eta_max, -regen cap) when
     braking (0 below the regeneration speed: friction brakes); electrical power is at least that plus
     the spin losses and, when driving, the copper losses k_c T^2 of a motor torque at least
-    F / (eta_max e^{l_b}) (``k_copper`` 0 for map-based motors; braking copper losses >= 0); the battery power is an increasing function of it
+    F / (eta_max e^{l_b}) (``k_copper`` 0 for map-based motors; braking copper losses >= 0); the battery
+    power is an increasing function of it
     (x / eta_inv or x eta_inv); the auxiliary load is added at all times. Returns (bound, d bound / d m).
     """
     from selector.physics.cycles import cycle_steps
@@ -215,7 +216,8 @@ def consumption_lower_bound(st: EnergySetup, mass_kg, crr, l_a, eta_max, spin_k_
     slope = np.empty(n)
     for s in range(0, n, chunk):
         sl = slice(s, min(n, s + chunk))
-        col = lambda x: x[sl][:, None]  # noqa: E731
+        def col(x, sl=sl):
+            return x[sl][:, None]
         mm, cc, ee = col(m), col(c), col(eta)
         acc = a[None, :]
         m_acc = np.where(acc >= 0, mm, mm + col(ib))

@@ -19,7 +19,7 @@ import time
 import numpy as np
 
 from selector.engine.best_first import CELLS, SingleAxleSearch
-from selector.engine.evaluate import order_best, screen, tie_tolerance
+from selector.engine.evaluate import order_best, screen
 from selector.engine.parts import PartTables
 from selector.requirements import REL_TOL
 

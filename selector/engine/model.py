@@ -360,7 +360,8 @@ def _gearing_row(sm: SelectionModel, name: str, speed_mps: float):
 
 
 @family("top_speed", "top_speed_kmh", "km/h",
-        "ln(w_max) - L >= ln V; for each continuous-envelope branch b: E + ln F_b(L) >= under-estimator of ln(m g Crr + q V^2)")
+        "ln(w_max) - L >= ln V; for each continuous-envelope branch b: "
+        "E + ln F_b(L) >= under-estimator of ln(m g Crr + q V^2)")
 def _top_speed(sm: SelectionModel):
     _speed_target_rows(sm, "top_speed", "top_speed_kmh", sm.req.top_speed_kmh, continuous=True)
 
@@ -377,7 +378,8 @@ def _speed_target_rows(sm: SelectionModel, name: str, key: str, v_kmh: float, co
 
 
 @family("gradeability", "gradeability_pct", "%",
-        "E + ln T_pk + L >= under-estimator of ln m + ln g(Crr cos + sin); mu N_driven(theta) >= m g (Crr cos + sin) (exact, linear)")
+        "E + ln T_pk + L >= under-estimator of ln m + ln g(Crr cos + sin); "
+        "mu N_driven(theta) >= m g (Crr cos + sin) (exact, linear)")
 def _gradeability(sm: SelectionModel):
     p, u, m = sm.parts, sm.unit, sm.m
     theta = np.arctan(sm.req.gradeability_pct / 100.0)
@@ -397,7 +399,8 @@ def _gradeability(sm: SelectionModel):
 
 
 @family("launch", "launch_accel_mps2", "m/s^2",
-        "E + ln T_pk + L >= tangents of ln(m (a + g Crr) + J eta a (G/r)^2); mu N_driven(a) >= m a + m g Crr + J a min(eta G^2/r^2)")
+        "E + ln T_pk + L >= tangents of ln(m (a + g Crr) + J eta a (G/r)^2); "
+        "mu N_driven(a) >= m a + m g Crr + J a min(eta G^2/r^2)")
 def _launch(sm: SelectionModel):
     p, u, m = sm.parts, sm.unit, sm.m
     a = sm.req.launch_accel_mps2
@@ -415,7 +418,8 @@ def _launch(sm: SelectionModel):
     mu = p.problem.environment.road_friction
     hl = v.cg_height_m / v.wheelbase_m
     e2_min = float(re.efficiency.min() * re.ratio.min() ** 2 / ty.radius_m.max() ** 2)
-    inertia_t = _sum(mo.rotor_inertia_kgm2 * e2_min / 1000.0, u.x) + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m.max() ** 2 / 1000.0
+    inertia_t = (_sum(mo.rotor_inertia_kgm2 * e2_min / 1000.0, u.x)
+                 + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m.max() ** 2 / 1000.0)
     if p.rear_drive:
         traction = mu * (G_N * m.rear_mass + a * hl * m.mass)
     else:
@@ -425,7 +429,8 @@ def _launch(sm: SelectionModel):
 
 
 @family("accel", "accel", "s",
-        "ln(w_max) - L >= ln V_a; peak envelope covers road load at V_a; lo_i x_i <= Lm_i <= hi_i x_i (optimistic time window)")
+        "ln(w_max) - L >= ln V_a; peak envelope covers road load at V_a; "
+        "lo_i x_i <= Lm_i <= hi_i x_i (optimistic time window)")
 def _accel(sm: SelectionModel):
     _speed_target_rows(sm, "accel", "accel_to_kmh", sm.accel_target_kmh, continuous=False)
 

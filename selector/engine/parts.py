@@ -264,8 +264,8 @@ class PartTables:
             if rows is None:
                 return arrays
             rows = np.asarray(rows, dtype=np.int64)
-            return type(arrays)(*[getattr(arrays, f.name) if f.name == "maps" else np.asarray(getattr(arrays, f.name))[rows]
-                                  for f in fields(arrays)])
+            return type(arrays)(*[getattr(arrays, f.name) if f.name == "maps"
+                                  else np.asarray(getattr(arrays, f.name))[rows] for f in fields(arrays)])
 
         axle = {}
         if motors is not None:
@@ -376,7 +376,8 @@ class PartTables:
         if mass_kg is not None:  # extra mass (e.g. a battery) sits with the vehicle's own static share
             rear = rear + v.rear_axle_share * (mass - self.mass_kg(keys))
         full = lambda x: np.full(n, float(x))  # noqa: E731
-        return Body(mass_kg=mass, rear_share=rear / mass, crr=self.tyres.crr[keys[:, TY]], q_n_s2_m2=full(self.q_n_s2_m2),
+        return Body(mass_kg=mass, rear_share=rear / mass, crr=self.tyres.crr[keys[:, TY]],
+                    q_n_s2_m2=full(self.q_n_s2_m2),
                     road_friction=full(env.road_friction), cg_height_m=full(v.cg_height_m),
                     wheelbase_m=full(v.wheelbase_m), rear_drive=np.full(n, self.rear_drive),
                     wheel_inertia_total_kgm2=full(v.tyre_count * v.wheel_inertia_kgm2),

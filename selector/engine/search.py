@@ -19,9 +19,9 @@ import time
 from dataclasses import dataclass, field, replace
 
 from selector.design import Design
-from selector.errors import InputError
 from selector.engine.evaluate import OBJECTIVE_METRIC
 from selector.engine.parts import PartTables
+from selector.errors import InputError
 from selector.inputs import Requirements
 
 STATUS_OPTIMAL = "optimal"
@@ -76,7 +76,8 @@ def solver():
                                      "Reinstall with: pip install pyomo highspy") from exc
     opt = Highs()
     if not opt.available():
-        raise SolverUnavailableError("the HiGHS solver (highspy) is not available. Install it with: pip install highspy")
+        raise SolverUnavailableError("the HiGHS solver (highspy) is not available. "
+                                     "Install it with: pip install highspy")
     return opt
 
 

@@ -615,7 +615,7 @@ class TwoUnitSearch:
             for a in gf:
                 for b in gr:
                     blocks.append((k, a[0], b[0]))
-                    for key, val in zip(rows, (k, a[1], a[2], a[3], a[4], b[1], b[2], b[3], b[4])):
+                    for key, val in zip(rows, (k, a[1], a[2], a[3], a[4], b[1], b[2], b[3], b[4]), strict=False):
                         rows[key].append(val)
                     for key in xf:
                         xf[key].append(a[5][key])

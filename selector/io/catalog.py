@@ -27,6 +27,7 @@ from selector.errors import InputError
 from selector.inputs import Catalogs
 from selector.io.efficiency_map import load_efficiency_map
 from selector.io.schema import DERIVED_COLUMNS, KINDS, SOURCE_ROW, Column, columns
+from selector.physics.losses import peak_efficiency
 from selector.physics.tyres import (
     LOAD_INDEX_KG,
     LOAD_INDEX_MAX,
@@ -37,7 +38,6 @@ from selector.physics.tyres import (
     speed_rating_kmh,
     unloaded_diameter_m,
 )
-from selector.physics.losses import peak_efficiency
 from selector.units import RPM_TO_RAD_S
 
 __all__ = ["LOSS_COLUMNS", "CatalogWarning", "load_catalog", "load_catalogs", "motor_loss_models"]
@@ -361,7 +361,7 @@ def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, 
     """Load the efficiency map of every motor row that names one (each file once); collect errors."""
     grids: list = []
     loaded: dict[Path, object] = {}
-    for line, part, given in zip(lines, typed["part"], typed[MAP_COLUMN]):
+    for line, part, given in zip(lines, typed["part"], typed[MAP_COLUMN], strict=False):
         if not given:
             grids.append(None)
             continue
@@ -472,7 +472,7 @@ def distinct_numbers(*values, digits=None) -> list[str]:
     mins = digits or (6,) * len(values)
     values = [float(x) for x in values]
     for d in range(1, 18):
-        shown = [f"{x:.{max(d, m)}g}" for x, m in zip(values, mins)]
+        shown = [f"{x:.{max(d, m)}g}" for x, m in zip(values, mins, strict=False)]
         back = [float(t) for t in shown]
         if all((back[a] > back[b]) == (values[a] > values[b]) and (back[a] < back[b]) == (values[a] < values[b])
                for a in range(len(values)) for b in range(a)):

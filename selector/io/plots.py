@@ -172,7 +172,8 @@ def tractive_effort_plot(study, motor_id: str, reducer_id: str, tyre_id: str, pa
     ax2.plot(t, vs, color="C0", lw=2, label="acceleration run, level")
     target = d["accel_target_mps"]
     if target is not None:
-        ax2.axhline(mps_to_kmh(target), color="0.5", lw=1.0, ls=":", label=f"accel_to_kmh ({mps_to_kmh(target):g} km/h)")
+        ax2.axhline(mps_to_kmh(target), color="0.5", lw=1.0, ls=":",
+                    label=f"accel_to_kmh ({mps_to_kmh(target):g} km/h)")
     req_t = p.requirements.accel_time_s
     if req_t is not None:
         ax2.axvline(req_t, color="C2", lw=1.2, ls="--", label=f"accel_time_s required ({req_t:g} s)")
@@ -275,7 +276,7 @@ def sweep_plot(result: dict, path):
         for r in ok:
             ids = (r["motor"], r["reducer"], r["tyre"])
             if prev is not None and ids != prev:
-                changed = [new for new, old in zip(ids, prev) if new != old]
+                changed = [new for new, old in zip(ids, prev, strict=False) if new != old]
                 ax.plot([r[first]], [r["objective"]], ls="none", marker="D", ms=7, mfc="none", mec=color,
                         label="_change")
                 ax.annotate("\n".join(changed), (r[first], r["objective"]), textcoords="offset points",

@@ -152,7 +152,6 @@ def _unit_breaks(st: _State, v_lo, v_hi):
 
 def _crossings(st: _State, lo, hi, v_end):
     """First and last change of the limiting combination on each piece [lo, hi] (v_end where none)."""
-    n = lo.shape[0]
     col = lambda a: a[:, None]  # noqa: E731
     frac = np.linspace(0.0, 1.0, CROSS_SAMPLES)[None, :]
     vs = col(lo) + (col(hi) - col(lo)) * frac

@@ -79,7 +79,7 @@ def broadcast(drive: Drive, body: Body) -> tuple[Drive, Body]:
     arrays = [np.ravel(a) for a in arrays]
     d = Drive(*[a.astype(float) for a in arrays[: len(names_d)]])
     b_vals = arrays[len(names_d):]
-    b = Body(*[a.astype(bool) if n == "rear_drive" else a.astype(float) for n, a in zip(names_b, b_vals)])
+    b = Body(*[a.astype(bool) if n == "rear_drive" else a.astype(float) for n, a in zip(names_b, b_vals, strict=False)])
     return d, b
 
 
@@ -144,7 +144,7 @@ def axles_of(drive: Drive, body: Body) -> Axles:
     empty = absent_unit(n)
     rear = body.rear_drive
     pick = lambda a, b: Unit(*[np.where(rear.reshape((-1,) + (1,) * (np.ndim(x) - 1)), x, y)  # noqa: E731
-                               for x, y in zip(_fields(a), _fields(b))])
+                               for x, y in zip(_fields(a), _fields(b), strict=False)])
     return Axles(front=pick(empty, unit), rear=pick(unit, empty), radius_m=drive.radius_m), body
 
 

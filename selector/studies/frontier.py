@@ -185,7 +185,7 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
         chosen["on_frontier"] = any(_same(r[key], chosen[key]) and _same(r["performance"]["accel_time_s"],
                                                                         chosen["accel_time_s"]) for r in recs)
     out_points = []
-    for rec, (_, t_exact, *_) in zip(recs, pts):
+    for rec, (_, t_exact, *_) in zip(recs, pts, strict=False):
         rec = {"motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"], "cost": rec["cost"],
                "mass_kg": rec["mass_kg"], "accel_time_s": rec["performance"]["accel_time_s"],
                "meets_accel_time_s": None if req_t is None else bool(passes("max", req_t, t_exact)),
@@ -200,7 +200,7 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
         "limit": {"name": limit_key, "required": clean(getattr(problem.requirements, limit_key))},
         "points": out_points,
         "chosen": chosen,
-        "search": {**stats, "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes)),
+        "search": {**stats, "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
                    "combinations": int(np.prod(parts.sizes)), "procurement_filters": list(study.filter_notes)},
         "definition": (f"designs meeting every requirement except accel_time_s, non-dominated in ({key}, "
                        f"0-{problem.requirements.accel_to_kmh:g} km/h time); values within 2e-9 relative are equal"),

@@ -78,7 +78,8 @@ def parse_vary(text: str) -> tuple[str, np.ndarray]:
     Raises InputError for an unknown key (with a did-you-mean suggestion) or bad numbers.
     """
     if "=" not in text:
-        raise InputError(f"--vary {text!r}: expected KEY=START:STOP:N, e.g. --vary requirements.top_speed_kmh=100:140:5.")
+        raise InputError(f"--vary {text!r}: expected KEY=START:STOP:N, "
+                         "e.g. --vary requirements.top_speed_kmh=100:140:5.")
     key, _, spec = text.partition("=")
     key = key.strip()
     check_key(key)
@@ -276,7 +277,8 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
 def grid(varies: list[tuple[str, np.ndarray]]) -> list[dict]:
     """Grid points in order: the product of the values, the first parameter varying slowest."""
     keys = [k for k, _ in varies]
-    return [dict(zip(keys, (float(x) for x in combo))) for combo in itertools.product(*[v for _, v in varies])]
+    return [dict(zip(keys, (float(x) for x in combo), strict=True))
+            for combo in itertools.product(*[v for _, v in varies])]
 
 
 def _progress(total: int, enabled: bool):
@@ -336,7 +338,8 @@ def _run_dask(problem, catalogs, points, address, bar) -> tuple[list[dict], dict
     try:
         from distributed import Client, as_completed
     except ImportError as exc:  # pragma: no cover - dask[distributed] is a dependency
-        raise InputError(f"--scheduler needs dask.distributed ({exc}). Install it: pip install 'dask[distributed]'") from None
+        raise InputError(f"--scheduler needs dask.distributed ({exc}). "
+                         "Install it: pip install 'dask[distributed]'") from None
     try:
         client = Client(address, timeout=f"{DASK_CONNECT_TIMEOUT_S}s")
     except (OSError, TimeoutError) as exc:

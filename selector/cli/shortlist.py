@@ -40,7 +40,8 @@ def print_shortlist(res: dict) -> None:
     if res["bom"]:
         from selector.studies.shortlist import unit_text
 
-        rows = [[b["rank"], unit_text(b, "motor"), unit_text(b, "reducer"), b["tyre"], fmt(b["cost_per_vehicle"]), fmt(b["lead_time_weeks"]),
+        rows = [[b["rank"], unit_text(b, "motor"), unit_text(b, "reducer"), b["tyre"],
+                 fmt(b["cost_per_vehicle"]), fmt(b["lead_time_weeks"]),
                  fmt(b["max_speed_kmh"]), fmt(b["sustained_top_speed_kmh"]), fmt(b["gradeability_pct"]),
                  fmt(b["launch_accel_mps2"]), fmt(b["accel_time_s"]), fmt(b["mass_kg"]),
                  fmt(b["smallest_margin_pct"], 3), b["smallest_margin_name"] or "-"] for b in res["bom"]]

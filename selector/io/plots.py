@@ -374,6 +374,19 @@ MAX_LABELS = 25
 """Frontier points labelled with their part ids when there are at most this many [-]."""
 
 
+def _unit_lines(q: dict) -> list[str]:
+    """Motor and reducer ids of a frontier point, one line each (per axle for a two-unit design)."""
+    if q.get("motor") is not None or not q.get("units"):
+        return [q["motor"], q["reducer"]]
+    return [f"{u['axle'][0].upper()}: {u['motor']} {u['reducer']}" for u in q["units"]]
+
+
+def _motor_text(q: dict) -> str:
+    if q.get("motor") is not None or not q.get("units"):
+        return q["motor"]
+    return "/".join(u["motor"] for u in q["units"])
+
+
 def frontier_plot(result: dict, path):
     """Write the frontier chart of a `frontier.frontier` result.
 
@@ -386,6 +399,8 @@ def frontier_plot(result: dict, path):
     -------
     matplotlib.figure.Figure
     """
+    from selector.records import design_name
+
     check_output_path(path)
     fig, (ax,) = _figure(size=(9.0, 6.0))
     key = result["axis_key"]
@@ -397,17 +412,18 @@ def frontier_plot(result: dict, path):
         ax.plot(x, y, ls="none", marker="o", ms=5, color="C0", label="frontier")
         full = len(pts) <= MAX_LABELS  # all three ids on every point; else the motor where it changes
         for n, q in enumerate(pts):
+            motors = _motor_text(q)
             if full:
-                text = f"{q['motor']}\n{q['reducer']}\n{q['tyre']}"
-            elif n == 0 or q["motor"] != pts[n - 1]["motor"]:
-                text = q["motor"]
+                text = "\n".join([*_unit_lines(q), q["tyre"]])
+            elif n == 0 or motors != _motor_text(pts[n - 1]):
+                text = motors
             else:
                 continue
             ax.annotate(text, (x[n], y[n]), textcoords="offset points", xytext=(5, 4), fontsize=6, color="0.25")
     ch = result.get("chosen")
     if ch is not None and ch.get("accel_time_s") is not None:
         ax.plot([ch[key]], [ch["accel_time_s"]], ls="none", marker="*", ms=16, color="C1", mec="k",
-                label=f"chosen ({ch['objective']} optimum): {ch['motor']} + {ch['reducer']} + {ch['tyre']}")
+                label=f"chosen ({ch['objective']} optimum): {design_name(ch)}")
     req = result.get("requirement")
     if req is not None:
         ax.axhline(req, color="C3", lw=1.2, ls="--", label=f"accel_time_s required ({req:g} s)")
@@ -452,7 +468,8 @@ def sweep_plot(result: dict, path):
         ax.plot([r[first] for r in ok], [r["objective"] for r in ok], marker=".", color=color, label=label)
         prev = None
         for r in ok:
-            ids = (r["motor"], r["reducer"], r["tyre"])
+            ids = tuple(r.get(c) for c in ("motor", "reducer", "front_motor", "front_reducer", "rear_motor",
+                                             "rear_reducer", "tyre") if r.get(c) is not None)
             if prev is not None and ids != prev:
                 changed = [new for new, old in zip(ids, prev, strict=False) if new != old]
                 ax.plot([r[first]], [r["objective"]], ls="none", marker="D", ms=7, mfc="none", mec=color,

@@ -26,7 +26,7 @@ from selector.records import BINDING_RULE, CAUTION, as_design, clean, design_rec
 if TYPE_CHECKING:
     from selector.engine.search import SearchResult
 
-OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s"}
+OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s", "energy": "Wh/km"}
 
 
 @dataclass(frozen=True)
@@ -135,7 +135,12 @@ def shift_run(parts: PartTables, keys, metrics: dict):
 def objective_dict(objective: str, designs) -> dict:
     """The `objective` entry of a result: what is minimised, its unit and the best value."""
     return {"minimize": objective, "unit": OBJECTIVE_UNITS[objective], "metric": OBJECTIVE_METRIC[objective],
-            "value": clean(designs[0][0]) if designs else None}
+            "value": clean(_value(designs[0])) if designs else None}
+
+
+def _value(design) -> float:
+    """Objective value of a `Design` or of a single-axle (value, i, j, k) sequence."""
+    return design.value if hasattr(design, "value") else design[0]
 
 
 def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> dict:

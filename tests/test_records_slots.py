@@ -408,3 +408,12 @@ def test_axle_forces_single_unit_matches_single_axle_traction_curve():
     assert out["total_n"] == pytest.approx(m_eff * out["accel_mps2"] + out["road_load_n"], rel=1e-12)
     assert np.all(np.isnan(out["front_limit_n"])) and np.all(out["front_delivered_n"] == 0)
     assert math.isclose(float(trac[0]), (0.6 * 0.5 * 1600 * G_N - kappa[0] * 1600 * G_N * 0.01) / (1 - kappa[0]))
+
+
+def test_solve_infeasible_two_unit_study_answers_without_diagnosis(tmp_path, capsys):
+    path = write_study(tmp_path / "inf", requirements={**REQUIREMENTS, "budget": 1000})
+    code, res = cli_json(["solve", str(path)])
+    assert code == 0 and res["status"] == "infeasible" and res["designs"] == []
+    assert "selector explain" in res["diagnosis"]["summary"][0]
+    assert run(["solve", str(path)]) == 0
+    assert "no design meets every requirement" in capsys.readouterr().out

@@ -180,7 +180,9 @@ def _cmd_solve(args) -> int:
     res = solve(study, time_limit_s=args.time_limit)
     if res["status"] == "infeasible":
         combos = res["search"]["combinations"]
-        if args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
+        if study.parts.two_units:  # the closest-design search is single-axle: leave it to `selector explain`
+            res["diagnosis"] = {"summary": ["diagnosis skipped (a two-unit study): run `selector explain` for it"]}
+        elif args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
             from selector.studies.explain import diagnose
 
             res["diagnosis"] = diagnose(study, res.get("reason"))

@@ -417,3 +417,23 @@ def test_solve_infeasible_two_unit_study_answers_without_diagnosis(tmp_path, cap
     assert "selector explain" in res["diagnosis"]["summary"][0]
     assert run(["solve", str(path)]) == 0
     assert "no design meets every requirement" in capsys.readouterr().out
+
+
+def test_two_unit_gearbox_shifts_name_their_axle(awd, tmp_path):
+    study = open_study(awd)
+    sim = simulate(study, tyre="T-16", front_motor="M-A", front_reducer="G-2S", rear_motor="M-A",
+                   rear_reducer="R-08")
+    assert sim["units"][0]["gear_ratios"] == [10.0, 6.0] and sim["units"][1]["gear_ratios"] == [8.0]
+    assert [(s["axle"], s["from_gear"], s["to_gear"]) for s in sim["shifts"]] == [("front", 1, 2)]
+    (s,) = sim["shifts"]
+    # the front unit shifts no later than its motor reaches its maximum speed in first gear (w_max r / G1)
+    r_m = float(study.parts.tyres.radius_m[0])
+    assert 0 < s["speed_kmh"] <= rpm_to_rad_s(12000) * r_m / 10.0 * 3.6 * (1 + 1e-12)
+    assert 0 < s["time_s"] < sim["performance"]["accel_time_s"]
+
+
+def test_two_unit_sweep_plot_written(awd, tmp_path):
+    out = tmp_path / "sweep.png"
+    assert run(["sweep", str(awd), "--vary", "requirements.top_speed_kmh=110:150:3", "--workers", "1",
+                "--plot", str(out)]) == 0
+    assert out.stat().st_size > 0

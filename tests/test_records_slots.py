@@ -437,3 +437,16 @@ def test_two_unit_sweep_plot_written(awd, tmp_path):
     assert run(["sweep", str(awd), "--vary", "requirements.top_speed_kmh=110:150:3", "--workers", "1",
                 "--plot", str(out)]) == 0
     assert out.stat().st_size > 0
+
+
+def test_two_unit_shortlist_xlsx_rows_per_axle(same, tmp_path):
+    import openpyxl
+
+    out = tmp_path / "s.xlsx"
+    assert run(["shortlist", str(same), "--count", "2", "--out", str(out)]) == 0
+    wb = openpyxl.load_workbook(out)
+    head, *rows = list(wb["Shortlist"].values)
+    assert rows and all(r[head.index("motor")].startswith("both: ") for r in rows)
+    bom_head, *bom = list(wb["BOM"].values)
+    motor_lines = [r for r in bom if r[bom_head.index("item")] == "motor (both axles)"]
+    assert len(motor_lines) == len(rows) and all(r[bom_head.index("quantity_per_vehicle")] == 2 for r in motor_lines)

@@ -17,16 +17,16 @@ import numpy as np
 from selector import __version__
 from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, feasible
 from selector.engine.parts import PartTables
-from selector.engine.verify import verify_designs
+from selector.engine.verify import design_keys, verify_designs
 from selector.errors import InputError
 from selector.inputs import Procurement
 from selector.io.problem import load_study
-from selector.records import BINDING_RULE, CAUTION, clean, design_record, fmt
+from selector.records import BINDING_RULE, CAUTION, as_design, clean, design_record, fmt
 
 if TYPE_CHECKING:
     from selector.engine.search import SearchResult
 
-OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s"}
+OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s", "energy": "Wh/km"}
 
 
 @dataclass(frozen=True)
@@ -76,15 +76,18 @@ def procurement_filter(parts: PartTables) -> tuple[dict, tuple[str, ...]]:
     return allowed, tuple(notes)
 
 
-def find_part(parts: PartTables, kind: str, part_id: str) -> int:
-    """Position of a part id in a catalogue, or an InputError with a did-you-mean suggestion."""
+def find_part(parts: PartTables, kind: str, part_id: str, option: str | None = None) -> int:
+    """Position of a part id in a catalogue, or an InputError with a did-you-mean suggestion.
+
+    ``option``: the command-line option that named the part (default ``--kind``).
+    """
     arr = {"motor": parts.motors, "reducer": parts.reducers, "tyre": parts.tyres}[kind]
     ids = [str(p) for p in arr.part]
     if part_id in ids:
         return ids.index(part_id)
     close = difflib.get_close_matches(part_id, ids, n=3)
     hint = f" Did you mean {', '.join(repr(c) for c in close)}?" if close else ""
-    raise InputError(f"--{kind} {part_id!r}: no such part in the {kind} catalogue "
+    raise InputError(f"{option or '--' + kind} {part_id!r}: no such part in the {kind} catalogue "
                      f"({parts.problem.catalog_paths.get(kind + 's', '')}).{hint}")
 
 
@@ -96,15 +99,48 @@ def header(parts: PartTables) -> dict:
 
 
 def records(parts: PartTables, designs, objective: str) -> list[dict]:
-    """Verified design records, best first."""
+    """Verified design records, best first (``designs``: `selector.design.Design` objects, or
+    single-axle (value, i, j, k) sequences)."""
     metrics = verify_designs(parts, designs, objective)
-    return [design_record(parts, i, j, k, metrics, pos) for pos, (_, i, j, k) in enumerate(designs)]
+    if not designs:
+        return []
+    keys = design_keys(parts, designs)
+    run = shift_run(parts, keys, metrics)
+    return [design_record(parts, as_design(parts, *d[1:]) if not hasattr(d, "key") else d, metrics, pos, run=run)
+            for pos, d in enumerate(designs)]
+
+
+def shift_run(parts: PartTables, keys, metrics: dict):
+    """The acceleration run (with its shifts) of designs that have a multi-speed unit, else None.
+
+    The run is the one `evaluate.evaluate` integrates (same axles, same mass with any battery), so
+    its time is the design's ``accel_time_s``.
+    """
+    target = parts.problem.requirements.accel_to_kmh
+    keys = np.asarray(keys, dtype=np.int64)
+    gears = np.ones(keys.shape[0], dtype=np.int64)
+    for m_col, r_col in ((0, 1), (2, 3)):
+        on = keys[:, m_col] >= 0
+        gears = np.maximum(gears, np.where(on, parts.reducers.n_gears[np.maximum(keys[:, r_col], 0)], 1))
+    if target is None or not (gears > 1).any():
+        return None
+    from selector.physics.accel_run import accel_run
+    from selector.units import kmh_to_mps
+
+    mass = metrics["mass_kg"] if parts.problem.energy is not None else None
+    axles, body = parts.design(keys, mass_kg=mass)
+    return accel_run(axles, body, kmh_to_mps(target))
 
 
 def objective_dict(objective: str, designs) -> dict:
     """The `objective` entry of a result: what is minimised, its unit and the best value."""
     return {"minimize": objective, "unit": OBJECTIVE_UNITS[objective], "metric": OBJECTIVE_METRIC[objective],
-            "value": clean(designs[0][0]) if designs else None}
+            "value": clean(_value(designs[0])) if designs else None}
+
+
+def _value(design) -> float:
+    """Objective value of a `Design` or of a single-axle (value, i, j, k) sequence."""
+    return design.value if hasattr(design, "value") else design[0]
 
 
 def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> dict:
@@ -120,7 +156,7 @@ def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> d
         "binding_rule": BINDING_RULE,
         "search": {"iterations": res.iterations, **{k: round(v, 4) for k, v in res.timings.items()},
                    "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
-                   "combinations": int(np.prod(parts.sizes)), "procurement_filters": list(study.filter_notes)},
+                   "combinations": int(parts.combinations), "procurement_filters": list(study.filter_notes)},
         "designs": records(parts, res.designs, res.objective),
     })
     if res.status == STATUS_INFEASIBLE:
@@ -138,19 +174,28 @@ def solve(study: Study, count: int = 1, time_limit_s: float | None = None, objec
     return result_dict(study, res)
 
 
-def simulate(study: Study, motor: str, reducer: str, tyre: str) -> dict:
+def simulate(study: Study, motor: str | None = None, reducer: str | None = None, tyre: str | None = None, *,
+             front_motor: str | None = None, front_reducer: str | None = None, rear_motor: str | None = None,
+             rear_reducer: str | None = None) -> dict:
     """Evaluate one design given by part ids: performance, requirements and checks.
+
+    Single axle: ``motor``, ``reducer``, ``tyre`` (the unit on the study's driven axle). By slots:
+    ``front_motor``/``front_reducer`` and/or ``rear_motor``/``rear_reducer`` with ``tyre``; a
+    two-unit study (driven_axle = "both") needs both units. ``feasible`` is the definition solve
+    uses (`evaluate.feasible`), and a design outside the study's layout ([drive] same_unit,
+    front_motors, rear_motors) is not feasible (its ``unmet`` says why).
 
     The design record's keys (as in `solve`'s designs) are at the top level, and also under "design".
     """
     parts = study.parts
-    i, j, k = (find_part(parts, "motor", motor), find_part(parts, "reducer", reducer),
-               find_part(parts, "tyre", tyre))
-    metrics = evaluate(parts, [i], [j], [k])
-    rec = design_record(parts, i, j, k, metrics, 0)
+    design = design_from_ids(parts, motor, reducer, tyre, front_motor, front_reducer, rear_motor, rear_reducer)
+    metrics = evaluate(parts, [design.key], shifts=True)
+    rec = design_record(parts, design, metrics, 0, run=metrics.get("run"))
     objective = parts.problem.objective
-    rec["feasible"] = bool(feasible(parts, metrics, objective)[0])  # the definition solve and explain use
-    rec["unmet"] = unmet(parts, rec, metrics)
+    layout = layout_unmet(parts, design)
+    # the definition solve and explain use
+    rec["feasible"] = bool(feasible(parts, metrics, objective)[0]) and not layout
+    rec["unmet"] = unmet(parts, rec, metrics) + layout
     out = header(parts)
     out.update(rec)  # motor, reducer, tyre, cost, mass_kg, performance, requirements, checks, ... at the top
     out["design"] = rec
@@ -158,6 +203,83 @@ def simulate(study: Study, motor: str, reducer: str, tyre: str) -> dict:
                       "effective_mass_kg": clean(metrics["effective_mass_kg"][0]),
                       "gear_over_radius_1_m": clean(metrics["gear_over_radius_1_m"][0]),
                       "air_density_kg_m3": clean(parts.problem.environment.air_density_kg_m3)}
+    radius = float(parts.tyres.radius_m[design.tyre])
+    out["details"]["gear_over_radius_1_m_per_axle"] = {
+        axle: clean(parts.reducers.ratio[r] / radius) for axle, _, r in design.units}
+    return out
+
+
+SLOT_OPTIONS = {"front": ("--front-motor", "--front-reducer"), "rear": ("--rear-motor", "--rear-reducer")}
+"""Command-line options naming each axle's unit (simulate, plots)."""
+
+
+def design_from_ids(parts: PartTables, motor=None, reducer=None, tyre=None, front_motor=None, front_reducer=None,
+                    rear_motor=None, rear_reducer=None):
+    """The `selector.design.Design` (value NaN) named by part ids, single-axle or by slots.
+
+    InputError when the parts are incomplete (a motor without its reducer, no tyre), when both forms
+    are mixed, or when the units do not fit the study's driven axles.
+    """
+    from selector.design import Design
+    from selector.engine.parts import AXLE_COLUMNS, TY
+
+    if tyre is None:
+        raise InputError("--tyre: name the tyre part id of the design.")
+    slots = {"front": (front_motor, front_reducer), "rear": (rear_motor, rear_reducer)}
+    given = {a: v for a, v in slots.items() if any(x is not None for x in v)}
+    single = motor is not None or reducer is not None
+    p = parts.problem
+    axles_txt = f'[vehicle] driven_axle = "{p.vehicle.driven_axle}"'
+    if single and given:
+        raise InputError("give the design either as --motor/--reducer (single axle) or as --front-motor/"
+                         "--front-reducer and --rear-motor/--rear-reducer, not both.")
+    if single:
+        if motor is None or reducer is None:
+            raise InputError(f"{'--reducer' if reducer is None else '--motor'}: missing; a drive unit is a motor "
+                             "and a reducer, give both.")
+        if parts.two_units:
+            raise InputError(f"{axles_txt}: this study has a unit on each axle; name them with --front-motor, "
+                             "--front-reducer, --rear-motor and --rear-reducer.")
+        given = {parts.axles[-1]: (motor, reducer)}
+    if not given:
+        raise InputError("name the drive unit: --motor and --reducer (single axle), or --front-motor/--front-reducer "
+                         "and --rear-motor/--rear-reducer.")
+    key = [-1, -1, -1, -1, -1]
+    for axle, (m, r) in given.items():
+        m_opt, r_opt = SLOT_OPTIONS[axle]
+        if m is None or r is None:
+            raise InputError(f"{r_opt if r is None else m_opt}: missing; the {axle} unit is a motor and a reducer, "
+                             "give both.")
+        if axle not in parts.axles:
+            raise InputError(f"{m_opt}: {axles_txt} has no {axle} drive unit; name the unit on the "
+                             f"{' and '.join(parts.axles)} axle{'s' if parts.two_units else ''}.")
+        m_col, r_col = AXLE_COLUMNS[axle]
+        key[m_col] = find_part(parts, "motor", m, m_opt if not single else "--motor")
+        key[r_col] = find_part(parts, "reducer", r, r_opt if not single else "--reducer")
+    missing = [a for a in parts.axles if a not in given]
+    if missing:
+        m_opt, r_opt = SLOT_OPTIONS[missing[0]]
+        raise InputError(f"{m_opt}, {r_opt}: missing; {axles_txt} puts a drive unit on each axle, name the "
+                         f"{missing[0]} unit too.")
+    key[TY] = find_part(parts, "tyre", tyre)
+    return Design.of(float("nan"), key)
+
+
+def layout_unmet(parts: PartTables, design) -> list[dict]:
+    """[{name, why}] for each rule of the study's layout the design breaks ([drive] same_unit, front_motors,
+    rear_motors): solve never proposes such a design."""
+    out = []
+    if not parts.two_units:
+        return out
+    drive = parts.problem.drive
+    if drive.same_unit and design.front != design.rear:
+        out.append({"name": "same_unit", "why": "[drive] same_unit = true: the front and rear units must be the "
+                    "same motor and reducer parts"})
+    for axle, m, _ in design.units:
+        allowed = parts.axle_motors.get(axle)
+        if allowed is not None and m not in set(int(x) for x in allowed):
+            out.append({"name": f"{axle}_motors", "why": f"[drive] {axle}_motors does not allow motor "
+                        f"{parts.motors.part[m]} on the {axle} axle"})
     return out
 
 
@@ -179,14 +301,28 @@ def unmet(parts: PartTables, rec: dict, metrics: dict) -> list[dict]:
 
 
 def problem_summary(study: Study) -> dict:
-    """What `selector check` prints: parts per catalogue, combinations, requirements, objective."""
+    """What `selector check` prints: parts per catalogue, combinations, layout, requirements, objective."""
     parts = study.parts
     p = parts.problem
     req = {k: v for k, v in vars(p.requirements).items() if v is not None}
-    return {**header(parts), "catalogues": {k: str(v) for k, v in p.catalog_paths.items()},
-            "parts": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
-            "combinations": int(np.prod(parts.sizes)),
-            "after_procurement_filters": {k: int(len(v)) for k, v in study.allowed.items()},
-            "requirements": req, "objective": p.objective,
-            "air_density_kg_m3": clean(p.environment.air_density_kg_m3),
-            "path": str(Path(p.path)) if p.path else None}
+    out = {**header(parts), "catalogues": {k: str(v) for k, v in p.catalog_paths.items()},
+           "parts": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
+           "combinations": int(parts.combinations),
+           "after_procurement_filters": {k: int(len(v)) for k, v in study.allowed.items()},
+           "requirements": req, "objective": p.objective,
+           "air_density_kg_m3": clean(p.environment.air_density_kg_m3),
+           "path": str(Path(p.path)) if p.path else None}
+    out["layout"] = layout_summary(parts)
+    return out
+
+
+def layout_summary(parts: PartTables) -> dict:
+    """The study's drivetrain layout: driven axle(s), [drive] rules, motors allowed per axle, gearboxes."""
+    p = parts.problem
+    n_m = parts.sizes[0]
+    multi = int(np.sum(parts.reducers.n_gears > 1))
+    return {"driven_axle": p.vehicle.driven_axle, "units": list(parts.axles),
+            "same_unit": bool(parts.two_units and p.drive.same_unit),
+            "motors_per_axle": {a: int(len(parts.axle_motors[a])) if a in parts.axle_motors else n_m
+                                for a in parts.axles},
+            "multi_speed_reducers": multi}

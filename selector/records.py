@@ -61,46 +61,159 @@ def requirement_rows(parts: PartTables, metrics: dict, pos: int = 0) -> list[dic
     return rows
 
 
-def check_rows(parts: PartTables, metrics: dict, pos: int = 0) -> list[dict]:
-    """Part-rating checks: demand (achieved) against the part's rating (required)."""
-    from selector.requirements import CHECK_LIMIT_METRIC, CHECKS, margin_fraction, passes
+def check_rows(parts: PartTables, metrics: dict, pos: int = 0, keys=None) -> list[dict]:
+    """Part-rating checks: demand (achieved) against the part's rating (required).
+
+    Every row names its ``axle``: the drive unit's axle for the reducer ratings (one row per unit in
+    a two-unit study), the heavier static axle for the tyre load (given the design's key row
+    ``keys``; None without it), None for the tyre speed symbol and the energy study's cycle check.
+    The checks and their metric keys are `requirements.check_rows`, the list `evaluate.feasible` reads.
+    """
+    from selector.requirements import check_rows as study_checks
+    from selector.requirements import margin_fraction, passes
 
     rows = []
-    for c in CHECKS:
-        limit = float(metrics[CHECK_LIMIT_METRIC[c.name]][pos])
-        achieved = float(metrics[c.metric][pos])
-        frac = float(margin_fraction("max", limit, achieved))
+    for c, axle, limit_key, demand_key in study_checks(parts.axles, parts.problem.energy is not None):
+        limit = float(metrics[limit_key][pos])
+        achieved = float(metrics[demand_key][pos])
+        frac = float(margin_fraction(c.sense, limit, achieved))
+        if c.per_axle:
+            axle = axle or parts.axles[-1]
+        elif c.name == "tyre_load_kg" and keys is not None:
+            axle = _heavier_axle(parts, keys, metrics, pos)
         rows.append({"name": c.name, "required": clean(limit), "achieved": clean(achieved), "unit": c.unit,
-                     "sense": "at most", "margin": clean(limit - achieved), "margin_pct": clean(100.0 * frac),
-                     "met": bool(passes("max", limit, achieved)),
-                     "binding": bool(math.isfinite(frac) and 100.0 * frac <= BINDING_MARGIN_PCT and frac >= -1e-9)})
+                     "sense": "at least" if c.sense == "min" else "at most",
+                     "margin": clean(limit - achieved if c.sense == "max" else achieved - limit),
+                     "margin_pct": clean(100.0 * frac), "met": bool(passes(c.sense, limit, achieved)),
+                     "binding": bool(math.isfinite(frac) and 100.0 * frac <= BINDING_MARGIN_PCT and frac >= -1e-9),
+                     "axle": axle})
     return rows
 
 
-def part_info(parts: PartTables, i: int, j: int, k: int) -> dict:
-    """Catalogue facts of the three parts (ids, suppliers, costs, lead times, quantities)."""
-    n = parts.problem.vehicle.tyre_count
+def _heavier_axle(parts: PartTables, keys, metrics: dict, pos: int) -> str:
+    """The axle whose static load sets the tyre-load demand ("rear" on a tie)."""
+    import numpy as np
+
+    battery = metrics.get("battery_mass_kg")
+    extra = None if battery is None else np.nan_to_num(np.asarray([battery[pos]], dtype=float))
+    rear, front = parts.axle_masses_kg(np.asarray([keys]), extra)
+    return "rear" if rear[0] >= front[0] else "front"
+
+
+def _part(arr, pos: int, quantity: int, **extra) -> dict:
+    return {"part": str(arr.part[pos]), "supplier": str(arr.supplier[pos]), "quantity": quantity, **extra,
+            "unit_cost": clean(arr.cost[pos]), "lead_time_weeks": clean(arr.lead_time_weeks[pos])}
+
+
+def gear_ratios(parts: PartTables, reducer: int) -> list[float]:
+    """The gear ratios of a reducer or gearbox, first gear first [-]."""
+    re = parts.reducers
+    return [clean(r) for r in re.ratios[reducer, : int(re.n_gears[reducer])]]
+
+
+def part_info(parts: PartTables, design, j: int | None = None, k: int | None = None) -> dict:
+    """Catalogue facts of a design's parts (ids, suppliers, costs, lead times, quantities).
+
+    Single-axle designs: keys "motor", "reducer", "tyre" (the single-axle contract). Two-unit
+    designs: "front_motor", "front_reducer", "rear_motor", "rear_reducer", "tyre", each unit part
+    with its ``axle`` and quantity 1 (the bill of materials merges a part fitted on both axles).
+    ``design`` is a `selector.design.Design`, or a motor position with ``j``, ``k`` (single axle).
+    """
+    design = as_design(parts, design, j, k)
     mo, re, ty = parts.motors, parts.reducers, parts.tyres
-    return {
-        "motor": {"part": str(mo.part[i]), "supplier": str(mo.supplier[i]), "quantity": 1,
-                  "unit_cost": clean(mo.cost[i]), "lead_time_weeks": clean(mo.lead_time_weeks[i])},
-        "reducer": {"part": str(re.part[j]), "supplier": str(re.supplier[j]), "quantity": 1,
-                    "ratio": clean(re.ratio[j]), "unit_cost": clean(re.cost[j]),
-                    "lead_time_weeks": clean(re.lead_time_weeks[j])},
-        "tyre": {"part": str(ty.part[k]), "supplier": str(ty.supplier[k]), "quantity": n,
-                 "unit_cost": clean(ty.cost[k]), "lead_time_weeks": clean(ty.lead_time_weeks[k]),
-                 "rolling_radius_m": clean(ty.radius_m[k])},
-    }
+    out = {}
+    for axle, i, r in design.units:
+        prefix = f"{axle}_" if design.two_units else ""
+        out[prefix + "motor"] = _part(mo, i, 1)
+        out[prefix + "reducer"] = _part(re, r, 1, ratio=clean(re.ratio[r]))
+        if design.two_units:
+            out[prefix + "motor"]["axle"] = out[prefix + "reducer"]["axle"] = axle
+    t = design.tyre
+    out["tyre"] = _part(ty, t, parts.problem.vehicle.tyre_count)
+    out["tyre"]["rolling_radius_m"] = clean(ty.radius_m[t])
+    return out
 
 
-def design_record(parts: PartTables, i: int, j: int, k: int, metrics: dict, pos: int = 0) -> dict:
-    """The JSON record of one verified design."""
-    info = part_info(parts, i, j, k)
+def as_design(parts: PartTables, design, j: int | None = None, k: int | None = None):
+    """A `selector.design.Design` from a Design, or from single-axle (motor, reducer, tyre) positions."""
+    from selector.design import Design
+
+    if isinstance(design, Design):
+        return design
+    return Design.of(math.nan, parts.single_keys(int(design), int(j), int(k))[0])
+
+
+def unit_rows(parts: PartTables, design) -> list[dict]:
+    """``units`` of a design record: [{axle, motor, reducer, gear_ratios}] of the present units, front first."""
+    return [{"axle": axle, "motor": str(parts.motors.part[i]), "reducer": str(parts.reducers.part[r]),
+             "gear_ratios": gear_ratios(parts, r)} for axle, i, r in design.units]
+
+
+def shift_rows(run, pos: int) -> list[dict]:
+    """``shifts`` of a design record from an acceleration run (`physics.accel_run.RunResult`).
+
+    [{axle, from_gear, to_gear, speed_kmh, time_s}] in the order they happen; gears count from 1;
+    ``speed_kmh`` and ``time_s`` are the road speed and the elapsed time when the torque
+    interruption starts.
+    """
+    from selector.units import mps_to_kmh
+
+    out = []
+    if run is None:
+        return out
+    for kk in range(run.shift_axle.shape[1]):
+        a = int(run.shift_axle[pos, kk])
+        if a < 0:
+            continue
+        g = int(run.shift_from_gear[pos, kk])
+        out.append({"axle": "front" if a == 0 else "rear", "from_gear": g + 1, "to_gear": g + 2,
+                    "speed_kmh": clean(mps_to_kmh(float(run.shift_speed_mps[pos, kk]))),
+                    "time_s": clean(run.shift_time_s[pos, kk])})
+    return out
+
+
+ENERGY_KEYS = {"wh_per_km": "energy_wh_per_km", "battery_kwh": "battery_kwh", "battery_mass_kg": "battery_mass_kg",
+               "battery_cost": "battery_cost", "regen_share": "regen_share"}
+"""``energy`` entry of a design record: record key -> metric key (energy studies only)."""
+
+
+def energy_entry(parts: PartTables, metrics: dict, pos: int) -> dict:
+    """``energy`` of a design record in an energy study: the cycle, energy per km at the battery
+    [Wh/km], the battery sized for ``range_km`` (kWh, kg, cost; 0 without a range) and the share of
+    the traction energy recovered by regeneration [-]."""
+    e = parts.problem.energy
+    return {"cycle": str(e.cycle), **{k: clean(metrics[m][pos]) for k, m in ENERGY_KEYS.items()}}
+
+
+def design_record(parts: PartTables, design, *args, run=None) -> dict:
+    """The JSON record of one verified design.
+
+    ``design_record(parts, design, metrics, pos=0)`` with a `selector.design.Design` (or the
+    single-axle form ``design_record(parts, i, j, k, metrics, pos=0)``). ``run``: the acceleration
+    run with its shifts (`physics.accel_run.RunResult`, rows aligned with ``metrics``), for the
+    ``shifts`` of multi-speed designs.
+
+    Single-axle designs carry ``motor`` and ``reducer`` at the top level; two-unit designs have null
+    there, and so for ``gear_ratios`` (the reducer's ratios, first gear first). Every design lists
+    ``units`` [{axle, motor, reducer, gear_ratios}] and ``shifts`` of its acceleration run ([]
+    without shifts); an energy study adds ``energy``.
+    """
+    from selector.design import Design
+
+    if isinstance(design, Design):
+        metrics, pos = args[0], (args[1] if len(args) > 1 else 0)
+    else:
+        design = as_design(parts, design, args[0], args[1])
+        metrics, pos = args[2], (args[3] if len(args) > 3 else 0)
+    info = part_info(parts, design)
     rows = requirement_rows(parts, metrics, pos)
-    checks = check_rows(parts, metrics, pos)
+    checks = check_rows(parts, metrics, pos, design.key)
     margins = [r["margin_pct"] for r in rows + checks if r["margin_pct"] is not None]
-    return {
-        "motor": info["motor"]["part"], "reducer": info["reducer"]["part"], "tyre": info["tyre"]["part"],
+    units = unit_rows(parts, design)
+    single = not design.two_units and len(units) == 1
+    rec = {
+        "motor": units[0]["motor"] if single else None, "reducer": units[0]["reducer"] if single else None,
+        "tyre": info["tyre"]["part"],
         "cost": clean(metrics["cost"][pos]), "mass_kg": clean(metrics["mass_kg"][pos]),
         "lead_time_weeks": clean(max(info[p]["lead_time_weeks"] for p in info)),
         "performance": {key: clean(metrics[key][pos]) for key in PERFORMANCE_UNITS},
@@ -108,7 +221,20 @@ def design_record(parts: PartTables, i: int, j: int, k: int, metrics: dict, pos:
         "checks": checks,
         "smallest_margin_pct": clean(min(margins)) if margins else None,
         "parts": info,
+        "units": units,
+        "gear_ratios": units[0]["gear_ratios"] if single else None,
+        "shifts": shift_rows(run, pos),
     }
+    if parts.problem.energy is not None:
+        rec["energy"] = energy_entry(parts, metrics, pos)
+    return rec
+
+
+def design_name(rec: dict) -> str:
+    """Parts of a design record in one line: "motor + reducer + tyre", or per axle for two units."""
+    if rec.get("motor") is not None or not rec.get("units"):
+        return f"{rec['motor']} + {rec['reducer']} + {rec['tyre']}"
+    return " | ".join(f"{u['axle']}: {u['motor']} + {u['reducer']}" for u in rec["units"]) + f" | tyre {rec['tyre']}"
 
 
 # ----------------------------------------------------------------------------- text output
@@ -151,21 +277,42 @@ def requirement_table(rec: dict) -> str:
     for r in rec["requirements"]:
         rows.append([r["name"], r["sense"], fmt(r["required"]), fmt(r["achieved"]), r["unit"],
                      fmt(r["margin_pct"], 3), "yes" if r["met"] else "NO", "yes" if r["binding"] else ""])
+    two = rec.get("motor") is None and len(rec.get("units") or ()) > 1
     for r in rec["checks"]:
-        rows.append([r["name"], r["sense"], fmt(r["required"]), fmt(r["achieved"]), r["unit"],
+        name = f"{r['name']} ({r['axle']})" if two and r.get("axle") else r["name"]
+        rows.append([name, r["sense"], fmt(r["required"]), fmt(r["achieved"]), r["unit"],
                      fmt(r["margin_pct"], 3), "yes" if r["met"] else "NO", "yes" if r["binding"] else ""])
     return table(["requirement / check", "sense", "required", "achieved", "unit", "margin %", "met",
                   "binding"], rows, "llrrlrll")
 
 
 def parts_table(rec: dict) -> str:
-    """The three parts of a design record as a table."""
+    """The parts of a design record as a table (one line per unit part and axle, then the tyre)."""
     rows = []
-    for kind in ("motor", "reducer", "tyre"):
-        p = rec["parts"][kind]
-        rows.append([kind, p["part"], p["supplier"], p["quantity"], fmt(p["unit_cost"]),
+    for kind, p in rec["parts"].items():
+        rows.append([kind.replace("_", " "), p["part"], p["supplier"], p["quantity"], fmt(p["unit_cost"]),
                      fmt(p["unit_cost"] * p["quantity"]), fmt(p["lead_time_weeks"])])
     return table(["part", "id", "supplier", "qty", "unit cost", "cost", "lead time wk"], rows, "lllrrrr")
+
+
+def units_table(rec: dict) -> str:
+    """Drive units of a design record (axle, motor, reducer, gear ratios) and the run's shifts."""
+    rows = [[u["axle"], u["motor"], u["reducer"], " / ".join(fmt(g) for g in u["gear_ratios"])] for u in rec["units"]]
+    out = table(["axle", "motor", "reducer", "gear ratios"], rows, "llll")
+    if rec.get("shifts"):
+        out += "\n\n" + table(["axle", "shift", "speed km/h", "time s"],
+                               [[s["axle"], f"{s['from_gear']} -> {s['to_gear']}", fmt(s["speed_kmh"]),
+                                 fmt(s["time_s"])] for s in rec["shifts"]], "llrr")
+    return out
+
+
+def energy_table(rec: dict) -> str:
+    """The ``energy`` entry of a design record as a table."""
+    e = rec["energy"]
+    units = {"wh_per_km": "Wh/km", "battery_kwh": "kWh", "battery_mass_kg": "kg", "battery_cost": "currency",
+             "regen_share": "-"}
+    return table(["energy (" + e["cycle"] + ")", "value", "unit"], [[k, fmt(e[k]), u] for k, u in units.items()],
+                 "lrl")
 
 
 def performance_table(rec: dict) -> str:

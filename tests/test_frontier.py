@@ -62,8 +62,8 @@ def test_cost_frontier_equals_enumeration(seed, tmp_path):
     # one exact sweep (single-axle studies), or two searches per point plus the final infeasible one
     assert stats["searches"] == (1 if stats.get("method") == "sweep" else 2 * len(pts) + 1)
     # each point's own design has the reported cost and time (exact re-evaluation)
-    for c, t, i, j, k in pts:
-        m = evaluate.evaluate(s.parts, [i], [j], [k])
+    for c, t, d in pts:
+        m = evaluate.evaluate(s.parts, [d.key])
         assert math.isclose(m["cost"][0], c, rel_tol=2 * REL)
         assert math.isclose(m["accel_time_s"][0], t, rel_tol=1e-12)
 

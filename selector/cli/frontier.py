@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from selector.cli.args import add_common
-from selector.records import CAUTION, dumps, fmt, table
+from selector.records import CAUTION, design_name, dumps, fmt, table
 
 HELP = "exact cost (or mass) versus acceleration-time frontier"
 
@@ -54,8 +54,9 @@ def render(res: dict) -> str:
             note.append("chosen")
         if q["meets_accel_time_s"]:
             note.append("meets accel_time_s")
+        motor, reducer = _unit_cells(q)
         rows.append([str(n), fmt(q[key]), fmt(q["accel_time_s"]), fmt(q["cost"] if key != "cost" else q["mass_kg"]),
-                     q["motor"], q["reducer"], q["tyre"], ", ".join(note)])
+                     motor, reducer, q["tyre"], ", ".join(note)])
     other = "mass_kg" if key == "cost" else "cost"
     if not rows:
         lines.append("no design meets the other requirements and reaches accel_to_kmh: the frontier is empty.")
@@ -71,12 +72,20 @@ def render(res: dict) -> str:
         where = ("on the frontier" if ch["on_frontier"]
                  else "not on the frontier (a frontier design is at least as good)")
         lines.append(f"chosen ({ch['objective']} optimum of the problem): "
-                     f"{ch['motor']} + {ch['reducer']} + {ch['tyre']}"
+                     f"{design_name(ch)}"
                      f", {key} {fmt(ch[key])}, time {fmt(ch['accel_time_s'])} s, {where}")
     if res.get("plot"):
         lines.append(f"plot written to {res['plot']}")
     lines.append("\n" + CAUTION)
     return "\n".join(lines)
+
+
+def _unit_cells(q: dict) -> tuple[str, str]:
+    """Motor and reducer cells of a frontier point: the part ids, or per axle for a two-unit design."""
+    if q.get("motor") is not None or not q.get("units"):
+        return q["motor"], q["reducer"]
+    return (", ".join(f"{u['axle']} {u['motor']}" for u in q["units"]),
+            ", ".join(f"{u['axle']} {u['reducer']}" for u in q["units"]))
 
 
 def register(commands: dict) -> None:

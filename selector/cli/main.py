@@ -18,12 +18,15 @@ from selector.cli.args import add_common, positive_float
 from selector.errors import InputError, SelectorError
 from selector.records import (
     CAUTION,
+    design_name,
     dumps,
+    energy_table,
     fmt,
     parts_table,
     performance_table,
     requirement_table,
     table,
+    units_table,
 )
 
 
@@ -60,7 +63,14 @@ def _cmd_check(args) -> int:
     lines.append(table(["catalogue", "parts", "after filters", "file"],
                        [[k, s["parts"][k], s["after_procurement_filters"][k], s["catalogues"][k]]
                         for k in ("motors", "reducers", "tyres")], "lrrl"))
-    lines.append(f"\ncombinations: {s['combinations']:,}")
+    lay = s["layout"]
+    units = " and ".join(lay["units"])
+    lines.append(f"\nlayout: driven_axle = {lay['driven_axle']}: one drive unit on the {units} axle"
+                 f"{'s' if len(lay['units']) > 1 else ''}"
+                 + ("; the same unit on both axles (same_unit)" if lay["same_unit"] else "")
+                 + "; motors allowed per axle: " + ", ".join(f"{a} {n}" for a, n in lay["motors_per_axle"].items())
+                 + f"; multi-speed reducers in the catalogue: {lay['multi_speed_reducers']}")
+    lines.append(f"combinations: {s['combinations']:,}")
     lines.append(f"air density: {fmt(s['air_density_kg_m3'])} kg/m^3")
     lines.append(f"objective: minimise {s['objective']}")
     lines.append("requirements: " + (", ".join(f"{k} = {fmt(v)}" for k, v in s["requirements"].items()) or "none"))
@@ -72,30 +82,45 @@ def _cmd_check(args) -> int:
 
 def _setup_simulate(p):
     add_common(p)
-    p.add_argument("--motor", required=True, help="motor part id")
-    p.add_argument("--reducer", required=True, help="reducer part id (one ratio variant)")
+    p.add_argument("--motor", help="motor part id (single-axle study: the unit on the driven axle)")
+    p.add_argument("--reducer", help="reducer part id (one ratio variant or gearbox)")
     p.add_argument("--tyre", required=True, help="tyre part id")
+    p.add_argument("--front-motor", metavar="ID", help="motor part id of the front unit (by slots)")
+    p.add_argument("--front-reducer", metavar="ID", help="reducer part id of the front unit")
+    p.add_argument("--rear-motor", metavar="ID", help="motor part id of the rear unit (by slots)")
+    p.add_argument("--rear-reducer", metavar="ID", help="reducer part id of the rear unit")
     p.add_argument("--plot", metavar="FILE", help="write the tractive-effort diagram (PNG or SVG)")
+
+
+def _slot_ids(args) -> dict:
+    """Part ids of the design named on the command line, as keyword arguments of `api.simulate`."""
+    return {"motor": args.motor, "reducer": args.reducer, "tyre": args.tyre,
+            "front_motor": args.front_motor, "front_reducer": args.front_reducer,
+            "rear_motor": args.rear_motor, "rear_reducer": args.rear_reducer}
 
 
 def _cmd_simulate(args) -> int:
     from selector.api import open_study, simulate
-
     study = open_study(args.problem)
-    res = simulate(study, args.motor, args.reducer, args.tyre)
+    ids = _slot_ids(args)
+    res = simulate(study, **ids)
     if getattr(args, "plot", None):
         from selector.io.plots import tractive_effort_plot
 
-        tractive_effort_plot(study, args.motor, args.reducer, args.tyre, args.plot)
+        tractive_effort_plot(study, path=args.plot, **ids)
         res["plot"] = args.plot
     if args.format == "json":
         _out(args, res)
         return 0
     d = res["design"]
-    print(f"{res['problem']}\ndesign {d['motor']} + {d['reducer']} + {d['tyre']}: "
+    print(f"{res['problem']}\ndesign {design_name(d)}: "
           f"{'meets every requirement' if d['feasible'] else 'DOES NOT meet every requirement'}\n")
     print(parts_table(d) + "\n")
+    if d["motor"] is None or d["shifts"] or len(d["gear_ratios"] or ()) > 1:
+        print(units_table(d) + "\n")
     print(performance_table(d) + "\n")
+    if "energy" in d:
+        print(energy_table(d) + "\n")
     print(requirement_table(d))
     for u in d["unmet"]:
         print(f"not met: {u['name']}: {u['why']}")
@@ -134,9 +159,13 @@ def print_search_result(res: dict, title: str = "best design", diagnosis: list[s
           f"   value: {fmt(obj['value'])}   bound: {fmt(res.get('bound'))}")
     print_search_summary(res, diagnosis)
     for n, d in enumerate(res["designs"], 1):
-        print(f"\n{title if len(res['designs']) == 1 else f'design {n}'}: {d['motor']} + {d['reducer']} + {d['tyre']}"
+        print(f"\n{title if len(res['designs']) == 1 else f'design {n}'}: {design_name(d)}"
               f"   cost {fmt(d['cost'])}   mass {fmt(d['mass_kg'])} kg")
         print(parts_table(d) + "\n")
+        if d.get("motor") is None or d.get("shifts") or len(d.get("gear_ratios") or ()) > 1:
+            print(units_table(d) + "\n")
+        if "energy" in d:
+            print(energy_table(d) + "\n")
         print(requirement_table(d))
         active = [r["name"] for r in d["requirements"] if r["binding"]]
         print(f"active requirements (margin-based: {res['binding_rule']} %): {', '.join(active) if active else 'none'}"
@@ -151,7 +180,9 @@ def _cmd_solve(args) -> int:
     res = solve(study, time_limit_s=args.time_limit)
     if res["status"] == "infeasible":
         combos = res["search"]["combinations"]
-        if args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
+        if study.parts.two_units:  # the closest-design search is single-axle: leave it to `selector explain`
+            res["diagnosis"] = {"summary": ["diagnosis skipped (a two-unit study): run `selector explain` for it"]}
+        elif args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
             from selector.studies.explain import diagnose
 
             res["diagnosis"] = diagnose(study, res.get("reason"))
@@ -171,7 +202,7 @@ DIAGNOSE_MAX_COMBINATIONS = 2_000_000
 
 COMMANDS = {
     "check": (_setup_check, _cmd_check, "validate a problem file and its catalogues"),
-    "simulate": (_setup_simulate, _cmd_simulate, "evaluate one design (motor, reducer, tyre)"),
+    "simulate": (_setup_simulate, _cmd_simulate, "evaluate one design (motor, reducer, tyre; or a unit per axle)"),
     "solve": (_setup_solve, _cmd_solve, "find the optimal design, exactly, and verify it"),
 }
 # Further commands register themselves here (explain, frontier, sweep, shortlist).

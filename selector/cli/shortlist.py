@@ -38,7 +38,10 @@ def print_shortlist(res: dict) -> None:
     if o["found"] < o["count"] and res["status"] == "optimal" and res["bom"]:
         print(f"only {o['found']} designs meet every requirement under this rule and these filters.")
     if res["bom"]:
-        rows = [[b["rank"], b["motor"], b["reducer"], b["tyre"], fmt(b["cost_per_vehicle"]), fmt(b["lead_time_weeks"]),
+        from selector.studies.shortlist import unit_text
+
+        rows = [[b["rank"], unit_text(b, "motor"), unit_text(b, "reducer"), b["tyre"],
+                 fmt(b["cost_per_vehicle"]), fmt(b["lead_time_weeks"]),
                  fmt(b["max_speed_kmh"]), fmt(b["sustained_top_speed_kmh"]), fmt(b["gradeability_pct"]),
                  fmt(b["launch_accel_mps2"]), fmt(b["accel_time_s"]), fmt(b["mass_kg"]),
                  fmt(b["smallest_margin_pct"], 3), b["smallest_margin_name"] or "-"] for b in res["bom"]]

@@ -73,9 +73,14 @@ def render(res: dict) -> str:
     lines += [f"note: {n}" for n in res["notes"]]
     lines.append("")
     rows = []
+    two = "front_motor" in res["columns"]
     for row in res["rows"]:
-        rows.append([fmt(row[k]) for k in keys] + [row["status"], fmt(row["objective"]), row["motor"] or "-",
-                                                   row["reducer"] or "-", row["tyre"] or "-", fmt(row["cost"]),
+        motor, reducer = row["motor"], row["reducer"]
+        if two and row.get("front_motor") is not None:
+            motor = f"front {row['front_motor']}, rear {row['rear_motor']}"
+            reducer = f"front {row['front_reducer']}, rear {row['rear_reducer']}"
+        rows.append([fmt(row[k]) for k in keys] + [row["status"], fmt(row["objective"]), motor or "-",
+                                                   reducer or "-", row["tyre"] or "-", fmt(row["cost"]),
                                                    fmt(row["mass_kg"]), fmt(row["accel_time_s"])])
     units = {q["key"]: q["unit"] for q in res["parameters"]}
     head = [f"{k} [{units[k]}]" for k in keys] + ["status", f"min {obj['minimize']} [{obj['unit']}]",

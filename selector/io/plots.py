@@ -70,6 +70,7 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
     """
     from selector.physics import performance as perf
     from selector.physics.road import road_load_n
+    from selector.physics.tractive_effort import traction_limited_force_n
     from selector.units import kmh_to_mps
 
     drive, body = perf.broadcast(*parts.single_drive(np.array([i]), np.array([j]), np.array([k])))
@@ -86,8 +87,7 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
     m_eff = perf.effective_mass(drive, body)
     kap = perf.kappa(drive, body, m_eff)
     w_d = perf.driven_weight_n(body)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        trac = np.where(1.0 - kap > 0, (body.road_friction * w_d - kap * f_level) / (1.0 - kap), np.inf)
+    trac = traction_limited_force_n(body.road_friction, w_d, kap, f_level)
     grade = p.requirements.gradeability_pct
     f_grade = None if grade is None else road_load_n(body.mass_kg, body.crr, body.q_n_s2_m2, v, grade)
     target = None if p.requirements.accel_to_kmh is None else kmh_to_mps(p.requirements.accel_to_kmh)
@@ -105,31 +105,45 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
             "run_speed_mps": run_v[ok], "run_time_s": run_t[ok], "accel_target_mps": target}
 
 
-def tractive_effort_plot(study, motor_id: str, reducer_id: str, tyre_id: str, path):
+def tractive_effort_plot(study, motor: str | None = None, reducer: str | None = None, tyre: str | None = None,
+                         path=None, *, front_motor: str | None = None, front_reducer: str | None = None,
+                         rear_motor: str | None = None, rear_reducer: str | None = None):
     """Write the tractive-effort diagram and the acceleration run of one design.
 
     Left: wheel force [kN] against road speed [km/h] of the peak and continuous envelopes, the
     traction limit on the level, road load on the level and on the required grade, the top-speed
     requirement and the vehicle's maximum speed. Right: road speed against time in the
     acceleration run from rest on the level (to accel_to_kmh, or near the maximum speed).
+    Two-unit designs show each axle's force, both friction limits and the sum of the delivered
+    forces; multi-speed designs one envelope per gear with the run's shift points marked
+    (`slot_tractive_effort_plot`).
 
     Parameters
     ----------
     study : `api.Study`
-    motor_id, reducer_id, tyre_id : catalogue part ids
+    motor, reducer, tyre : catalogue part ids (single axle)
     path : output file (.png, .svg or .pdf)
+    front_motor, front_reducer, rear_motor, rear_reducer : part ids of the units by slots (with ``tyre``)
 
     Returns
     -------
     matplotlib.figure.Figure
     """
-    from selector.api import find_part
+    from selector.api import design_from_ids
     from selector.units import mps_to_kmh
 
+    if path is None:
+        raise TypeError("tractive_effort_plot: path is required")
     check_output_path(path)
     parts = study.parts
-    i, j, k = (find_part(parts, "motor", motor_id), find_part(parts, "reducer", reducer_id),
-               find_part(parts, "tyre", tyre_id))
+    design = design_from_ids(parts, motor, reducer, tyre, front_motor, front_reducer, rear_motor, rear_reducer)
+    units = design.units
+    if len(units) > 1 or int(parts.reducers.n_gears[units[0][2]]) > 1:
+        return slot_tractive_effort_plot(study, design, path)
+    _, i, j = units[0]
+    k = design.tyre
+    motor_id, reducer_id, tyre_id = (str(parts.motors.part[i]), str(parts.reducers.part[j]),
+                                     str(parts.tyres.part[k]))
     d = tractive_effort_data(parts, i, j, k)
     p = parts.problem
     fig, (ax, ax2) = _figure(1, 2, size=(12.0, 5.0))
@@ -190,10 +204,187 @@ def tractive_effort_plot(study, motor_id: str, reducer_id: str, tyre_id: str, pa
     return fig
 
 
+def slot_tractive_effort_data(parts, design) -> dict:
+    """Curves of the tractive-effort diagram of a two-unit or multi-speed design (SI arrays).
+
+    Returns speed_mps (grid), units [{axle, gears: (G, s) peak wheel force per gear (NaN above a
+    gear's gearing limit), cont_best_n (continuous envelope, best gear), run_gear (gear index at each
+    speed in the acceleration run), force_n (wheel force in that gear), limit_n (friction limit at
+    the vehicle's acceleration)}], total_n (sum of the delivered axle forces), accel_mps2,
+    road_level_n, road_grade_n, grade_pct, max_speed_mps, shifts (the design record's shifts),
+    run_speed_mps and run_time_s (the acceleration run, time to reach each speed), accel_target_mps.
+    Every force comes from `selector.physics.tractive_effort`; the run from
+    `selector.physics.accel_run` with the design's mass (battery included in an energy study).
+    """
+    from selector.engine.evaluate import evaluate
+    from selector.physics.accel_run import accel_run
+    from selector.physics.drivetrain import best_gear_force_n, speed_cap_mps, take_axles, take_fields
+    from selector.physics.road import road_load_n
+    from selector.physics.tractive_effort import axle_forces_n, gear_force_curves_n, run_gears
+    from selector.records import shift_rows
+    from selector.units import kmh_to_mps
+
+    p = parts.problem
+    key = np.asarray([design.key], dtype=np.int64)
+    m = evaluate(parts, key, accel=False)
+    axles, body = parts.design(key, mass_kg=m["mass_kg"] if p.energy is not None else None)
+    v_max = float(kmh_to_mps(m["max_speed_kmh"][0]))
+    v_cap = float(speed_cap_mps(axles)[0])
+    v_end = min(v_cap, v_max * 1.25 if np.isfinite(v_max) and v_max > 0 else v_cap)
+    if p.requirements.top_speed_kmh is not None:
+        v_end = max(v_end, kmh_to_mps(p.requirements.top_speed_kmh) * 1.1)
+    if not np.isfinite(v_end):
+        v_end = 100.0
+    v = np.linspace(0.0, v_end, SPEED_SAMPLES)
+    target = None if p.requirements.accel_to_kmh is None else kmh_to_mps(p.requirements.accel_to_kmh)
+    run_end = target if target is not None and target <= v_max else ACCEL_RUN_END * v_max
+    # the run to the end speed gives the shifts; runs to every grid speed give the time curve
+    rep = np.zeros(ACCEL_RUN_SAMPLES - 1, dtype=np.int64)
+    run_v = np.linspace(0.0, max(run_end, 0.0), ACCEL_RUN_SAMPLES)
+    full = accel_run(axles, body, max(run_end, 0.0))
+    if run_end > 0:
+        run_t = np.concatenate([[0.0], accel_run(take_axles(axles, rep), take_fields(body, rep), run_v[1:]).time_s])
+    else:
+        run_v, run_t = np.zeros(1), np.zeros(1)
+    ok = np.isfinite(run_t)
+    sa, sg, ss = full.shift_axle[0], full.shift_from_gear[0], full.shift_speed_mps[0]
+    g_f = run_gears(sa, sg, ss, 0, v)
+    g_r = run_gears(sa, sg, ss, 1, v)
+    many = np.zeros(v.size, dtype=np.int64)
+    ax_s, bd_s = take_axles(axles, many), take_fields(body, many)
+    forces = axle_forces_n(ax_s, bd_s, v, g_f, g_r)
+    units = []
+    for axle, unit, gears in (("front", axles.front, g_f), ("rear", axles.rear, g_r)):
+        if not bool(unit.present[0]):
+            continue
+        units.append({"axle": axle, "gears": gear_force_curves_n(unit, axles.radius_m, v)[0],
+                      "cont_best_n": best_gear_force_n(unit, axles.radius_m, v[None, :], continuous=True)[0],
+                      "run_gear": gears, "force_n": forces[f"{axle}_n"], "limit_n": forces[f"{axle}_limit_n"]})
+    grade = p.requirements.gradeability_pct
+    f_grade = None if grade is None else road_load_n(body.mass_kg[0], body.crr[0], body.q_n_s2_m2[0], v, grade)
+    return {"speed_mps": v, "units": units, "total_n": forces["total_n"], "accel_mps2": forces["accel_mps2"],
+            "road_level_n": forces["road_load_n"], "road_grade_n": f_grade, "grade_pct": grade,
+            "max_speed_mps": v_max, "shifts": shift_rows(full, 0), "run_speed_mps": run_v[ok],
+            "run_time_s": run_t[ok], "accel_target_mps": target}
+
+
+AXLE_COLORS = {"front": "C0", "rear": "C4"}
+"""Line colour of each axle's curves."""
+
+
+def slot_tractive_effort_plot(study, design, path):
+    """Write the tractive-effort diagram of a two-unit or multi-speed design (`selector.design.Design`).
+
+    Left: each axle's peak envelope per gear (thin), its force in the gear of the acceleration run
+    and its friction limit mu N_axle at the vehicle's acceleration (dash-dot), the sum of the
+    delivered axle forces (black), road loads, shift points (markers) and the speed lines. Right:
+    the acceleration run with its shifts.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from selector.records import design_name, unit_rows
+    from selector.units import mps_to_kmh
+
+    check_output_path(path)
+    parts = study.parts
+    p = parts.problem
+    d = slot_tractive_effort_data(parts, design)
+    kmh = mps_to_kmh(d["speed_mps"])
+    fig, (ax, ax2) = _figure(1, 2, size=(12.0, 5.0))
+    two = len(d["units"]) > 1
+    ymax = 0.0
+    for u in d["units"]:
+        color = AXLE_COLORS[u["axle"]]
+        name = u["axle"] if two else "unit"
+        n_g = u["gears"].shape[0]
+        n_real = int(np.sum(np.any(np.isfinite(u["gears"]), axis=1)))
+        for g in range(n_g):
+            if not np.any(np.isfinite(u["gears"][g])):
+                continue
+            label = f"{name} peak envelope, gear {g + 1}" if n_real > 1 else f"{name} peak envelope"
+            ax.plot(kmh, u["gears"][g] / 1e3, color=color, lw=1.0 + 0.5 * (n_real == 1), alpha=0.8, label=label)
+            ymax = max(ymax, float(np.nanmax(u["gears"][g])) / 1e3)
+        ax.plot(kmh, u["cont_best_n"] / 1e3, color=color, lw=1.0, ls="--", label=f"{name} continuous envelope")
+        if two:
+            ax.plot(kmh, u["limit_n"] / 1e3, color=color, lw=1.2, ls="-.", label=f"{u['axle']} friction limit, level")
+    if two:
+        ax.plot(kmh, d["total_n"] / 1e3, color="k", lw=2.0, label="sum of axle forces (delivered)")
+        ymax = max(ymax, float(np.max(d["total_n"])) / 1e3)
+    for n, s in enumerate(d["shifts"]):
+        u = next(x for x in d["units"] if x["axle"] == s["axle"])
+        v_s = s["speed_kmh"]
+        f_s = float(np.interp(v_s, kmh, np.nan_to_num(u["gears"][s["to_gear"] - 1]))) / 1e3
+        ax.plot([v_s], [f_s], ls="none", marker="o", ms=7, mfc="none", mec=AXLE_COLORS[s["axle"]],
+                label="shift points (acceleration run)" if n == 0 else "_shift")
+        ax.annotate(f"{s['from_gear']}->{s['to_gear']}", (v_s, f_s), textcoords="offset points", xytext=(4, 4),
+                    fontsize=7)
+    ax.plot(kmh, d["road_level_n"] / 1e3, color="0.3", lw=1.2, label="road load, level")
+    ymax = max(ymax, float(np.max(d["road_level_n"])) / 1e3)
+    if d["road_grade_n"] is not None:
+        ax.plot(kmh, d["road_grade_n"] / 1e3, color="0.55", lw=1.2, ls=":",
+                label=f"road load, {d['grade_pct']:g} % grade")
+        ymax = max(ymax, float(np.max(d["road_grade_n"])) / 1e3)
+    top = p.requirements.top_speed_kmh
+    if top is not None:
+        ax.axvline(top, color="C2", lw=1.2, ls="--", label=f"top_speed_kmh required ({top:g} km/h)")
+    if np.isfinite(d["max_speed_mps"]):
+        ax.axvline(mps_to_kmh(d["max_speed_mps"]), color="C1", lw=1.0, ls=":",
+                   label=f"maximum speed ({mps_to_kmh(d['max_speed_mps']):.1f} km/h)")
+    ax.set_ylim(0.0, ymax * 1.15 if ymax > 0 else 1.0)
+    ax.set_xlim(0.0, float(kmh[-1]))
+    ax.set_xlabel("road speed [km/h]")
+    ax.set_ylabel("wheel force [kN]")
+    rec = {"motor": None, "units": unit_rows(parts, design), "tyre": str(parts.tyres.part[design.tyre])}
+    if not two:
+        rec["motor"], rec["reducer"] = rec["units"][0]["motor"], rec["units"][0]["reducer"]
+    ax.set_title(f"Tractive effort: {design_name(rec)}", fontsize=10)
+    ax.grid(True, alpha=0.3)
+    ax.legend(fontsize=7, loc="upper right")
+
+    t, vs = d["run_time_s"], mps_to_kmh(d["run_speed_mps"])
+    ax2.plot(t, vs, color="C0", lw=2, label="acceleration run, level")
+    for n, s in enumerate(d["shifts"]):
+        ax2.plot([s["time_s"]], [s["speed_kmh"]], ls="none", marker="o", ms=6, mfc="none",
+                 mec=AXLE_COLORS[s["axle"]], label="shifts" if n == 0 else "_shift")
+    target = d["accel_target_mps"]
+    if target is not None:
+        ax2.axhline(mps_to_kmh(target), color="0.5", lw=1.0, ls=":",
+                    label=f"accel_to_kmh ({mps_to_kmh(target):g} km/h)")
+    req_t = p.requirements.accel_time_s
+    if req_t is not None:
+        ax2.axvline(req_t, color="C2", lw=1.2, ls="--", label=f"accel_time_s required ({req_t:g} s)")
+    if t.size > 1:
+        ax2.annotate(f"{t[-1]:.2f} s", (t[-1], vs[-1]), textcoords="offset points", xytext=(4, -12), fontsize=8)
+    ax2.set_xlabel("time [s]")
+    ax2.set_ylabel("road speed [km/h]")
+    ax2.set_xlim(left=0.0)
+    ax2.set_ylim(bottom=0.0)
+    ax2.set_title("Acceleration from rest", fontsize=10)
+    ax2.grid(True, alpha=0.3)
+    ax2.legend(fontsize=8, loc="lower right")
+    save_figure(fig, path)
+    return fig
+
+
 # ----------------------------------------------------------------------------- frontier
 
 MAX_LABELS = 25
 """Frontier points labelled with their part ids when there are at most this many [-]."""
+
+
+def _unit_lines(q: dict) -> list[str]:
+    """Motor and reducer ids of a frontier point, one line each (per axle for a two-unit design)."""
+    if q.get("motor") is not None or not q.get("units"):
+        return [q["motor"], q["reducer"]]
+    return [f"{u['axle'][0].upper()}: {u['motor']} {u['reducer']}" for u in q["units"]]
+
+
+def _motor_text(q: dict) -> str:
+    if q.get("motor") is not None or not q.get("units"):
+        return q["motor"]
+    return "/".join(u["motor"] for u in q["units"])
 
 
 def frontier_plot(result: dict, path):
@@ -208,6 +399,8 @@ def frontier_plot(result: dict, path):
     -------
     matplotlib.figure.Figure
     """
+    from selector.records import design_name
+
     check_output_path(path)
     fig, (ax,) = _figure(size=(9.0, 6.0))
     key = result["axis_key"]
@@ -219,17 +412,18 @@ def frontier_plot(result: dict, path):
         ax.plot(x, y, ls="none", marker="o", ms=5, color="C0", label="frontier")
         full = len(pts) <= MAX_LABELS  # all three ids on every point; else the motor where it changes
         for n, q in enumerate(pts):
+            motors = _motor_text(q)
             if full:
-                text = f"{q['motor']}\n{q['reducer']}\n{q['tyre']}"
-            elif n == 0 or q["motor"] != pts[n - 1]["motor"]:
-                text = q["motor"]
+                text = "\n".join([*_unit_lines(q), q["tyre"]])
+            elif n == 0 or motors != _motor_text(pts[n - 1]):
+                text = motors
             else:
                 continue
             ax.annotate(text, (x[n], y[n]), textcoords="offset points", xytext=(5, 4), fontsize=6, color="0.25")
     ch = result.get("chosen")
     if ch is not None and ch.get("accel_time_s") is not None:
         ax.plot([ch[key]], [ch["accel_time_s"]], ls="none", marker="*", ms=16, color="C1", mec="k",
-                label=f"chosen ({ch['objective']} optimum): {ch['motor']} + {ch['reducer']} + {ch['tyre']}")
+                label=f"chosen ({ch['objective']} optimum): {design_name(ch)}")
     req = result.get("requirement")
     if req is not None:
         ax.axhline(req, color="C3", lw=1.2, ls="--", label=f"accel_time_s required ({req:g} s)")
@@ -274,7 +468,8 @@ def sweep_plot(result: dict, path):
         ax.plot([r[first] for r in ok], [r["objective"] for r in ok], marker=".", color=color, label=label)
         prev = None
         for r in ok:
-            ids = (r["motor"], r["reducer"], r["tyre"])
+            ids = tuple(r.get(c) for c in ("motor", "reducer", "front_motor", "front_reducer", "rear_motor",
+                                             "rear_reducer", "tyre") if r.get(c) is not None)
             if prev is not None and ids != prev:
                 changed = [new for new, old in zip(ids, prev, strict=False) if new != old]
                 ax.plot([r[first]], [r["objective"]], ls="none", marker="D", ms=7, mfc="none", mec=color,

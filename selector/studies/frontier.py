@@ -25,8 +25,6 @@ import math
 import time
 from dataclasses import replace
 
-import numpy as np
-
 from selector.api import Study, header, records
 from selector.design import Design
 from selector.engine.evaluate import evaluate
@@ -90,8 +88,8 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
 
     Returns
     -------
-    (points, stats): points as (axis value, accel time, motor idx, reducer idx, tyre idx), ordered
-    by the axis value (increasing) and the time (decreasing); stats {"searches", "elapsed_s"}.
+    (points, stats): points as (axis value, accel time, `selector.design.Design`), ordered by the
+    axis value (increasing) and the time (decreasing); stats {"searches", "elapsed_s"}.
     """
     _requirements_check(study, axis)
     objective, limit_key, _, _, _ = AXES[axis]
@@ -112,7 +110,7 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
             raise FrontierTimeLimit("the frontier sweep stopped at its time limit; the frontier would not be exact. "
                                     "Rerun without --time-limit or with a longer one.")
         pts, st = res
-        points = [(v, t, *Design.of(t, key)[1:]) for v, t, key in pts]
+        points = [(v, t, Design.of(t, key)) for v, t, key in pts]
         return points, {"method": "sweep", "searches": 1, "elapsed_s": round(time.perf_counter() - t0, 3),
                         "evaluated": st["evaluated"]}
     session = SearchSession()  # slices and models shared by every search below (they differ only in limits)
@@ -125,7 +123,7 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
         _check_status(cheapest, f"min {objective}")
         if cheapest.status == STATUS_INFEASIBLE:
             break
-        value = cheapest.designs[0][0]
+        value = cheapest.designs[0].value
         limit = value * (1.0 + LIMIT_SLACK)
         if own_limit is not None:
             limit = min(limit, own_limit)
@@ -136,8 +134,9 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
         if fastest.status == STATUS_INFEASIBLE:  # cannot happen: the cheapest design qualifies
             raise SelectorError("frontier: the fastest-design search found nothing where the cheapest-design "
                                 "search found a design; please report this bug")
-        t, i, j, k = fastest.designs[0]
-        points.append((float(value), float(t), i, j, k))
+        best = fastest.designs[0]
+        t = best.value
+        points.append((float(value), float(t), best))
         t_cap = t * (1.0 - STRICTLY_FASTER)
     # axis value of each point is the design's own (may differ from the cheapest design's by ties)
     return points, {"searches": searches, "elapsed_s": round(time.perf_counter() - t0, 3)}
@@ -148,7 +147,7 @@ def _chosen(study: Study, time_limit_s: float | None):
     res = search(study.parts, allowed=study.allowed, time_limit_s=time_limit_s)
     if res.status != STATUS_OPTIMAL or not res.designs:
         return None
-    return res.designs[0][1:]
+    return res.designs[0]
 
 
 def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None) -> dict:
@@ -169,7 +168,7 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
     pts, stats = trace(study, axis, time_limit_s)
     base_parts = replace(parts, problem=replace(problem, requirements=replace(problem.requirements,
                                                                               accel_time_s=None)))
-    designs = [(t, i, j, k) for _, t, i, j, k in pts]
+    designs = [Design(t, d.key) for _, t, d in pts]
     recs = records(base_parts, designs, "accel_time")
     t0 = time.perf_counter()
     chosen_ids = _chosen(study, time_limit_s)
@@ -177,19 +176,25 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
     stats["elapsed_s"] = round(stats["elapsed_s"] + time.perf_counter() - t0, 3)
     chosen = None
     if chosen_ids is not None:
-        ci, cj, ck = chosen_ids
-        m = evaluate(parts, [ci], [cj], [ck])
-        chosen = {"motor": str(parts.motors.part[ci]), "reducer": str(parts.reducers.part[cj]),
-                  "tyre": str(parts.tyres.part[ck]), "cost": clean(m["cost"][0]), "mass_kg": clean(m["mass_kg"][0]),
-                  "accel_time_s": clean(m["accel_time_s"][0]), "objective": problem.objective}
+        m = evaluate(parts, [chosen_ids.key])
+        two = chosen_ids.two_units
+        units = [{"axle": a, "motor": str(parts.motors.part[i]), "reducer": str(parts.reducers.part[r])}
+                 for a, i, r in chosen_ids.units]
+        chosen = {"motor": None if two else units[0]["motor"], "reducer": None if two else units[0]["reducer"],
+                  "tyre": str(parts.tyres.part[chosen_ids.tyre]), "cost": clean(m["cost"][0]),
+                  "mass_kg": clean(m["mass_kg"][0]), "accel_time_s": clean(m["accel_time_s"][0]),
+                  "objective": problem.objective}
         chosen["on_frontier"] = any(_same(r[key], chosen[key]) and _same(r["performance"]["accel_time_s"],
                                                                         chosen["accel_time_s"]) for r in recs)
+        chosen["units"] = units
     out_points = []
-    for rec, (_, t_exact, *_) in zip(recs, pts, strict=False):
+    for rec, (_, t_exact, _) in zip(recs, pts, strict=False):
         rec = {"motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"], "cost": rec["cost"],
                "mass_kg": rec["mass_kg"], "accel_time_s": rec["performance"]["accel_time_s"],
                "meets_accel_time_s": None if req_t is None else bool(passes("max", req_t, t_exact)),
-               "chosen": bool(chosen is not None and all(rec[p] == chosen[p] for p in ("motor", "reducer", "tyre"))),
+               "chosen": bool(chosen is not None and rec["tyre"] == chosen["tyre"]
+                              and [(u["axle"], u["motor"], u["reducer"]) for u in rec["units"]]
+                              == [(u["axle"], u["motor"], u["reducer"]) for u in chosen["units"]]),
                **{k: v for k, v in rec.items() if k not in ("motor", "reducer", "tyre", "cost", "mass_kg")}}
         out_points.append(rec)
     out = header(parts)
@@ -201,7 +206,7 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
         "points": out_points,
         "chosen": chosen,
         "search": {**stats, "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
-                   "combinations": int(np.prod(parts.sizes)), "procurement_filters": list(study.filter_notes)},
+                   "combinations": int(parts.combinations), "procurement_filters": list(study.filter_notes)},
         "definition": (f"designs meeting every requirement except accel_time_s, non-dominated in ({key}, "
                        f"0-{problem.requirements.accel_to_kmh:g} km/h time); values within 2e-9 relative are equal"),
     })

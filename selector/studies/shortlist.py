@@ -49,10 +49,14 @@ DISTINCT_RULES = {
     "tyre": ("tyre: greedy, the best alternative not sharing the part: design n is the best design whose "
              "tyre differs from those of designs 1..n-1"),
 }
-_POSITION = {"reducer": 2, "tyre": 3}
+GREEDY = ("reducer", "tyre")
+"""Diversity rules found greedily (the others are exact)."""
+TWO_UNIT_MOTOR_RULE = ("motor: each (front motor, rear motor) pair's best design, the N best of those (exact); "
+                       "the same pair on swapped axles is another pair")
 PERFORMANCE_COLUMNS = ("max_speed_kmh", "sustained_top_speed_kmh", "gradeability_pct", "launch_accel_mps2",
                        "accel_time_s")
 ITEMS = ("motor", "reducer", "tyre")
+"""Part kinds of a design (two-unit designs: a motor and a reducer per axle)."""
 
 SHORTLIST_COLUMNS = [
     "rank", "motor", "motor_supplier", "reducer", "reducer_supplier", "ratio", "tyre", "tyre_supplier",
@@ -121,24 +125,32 @@ def _merge(total: SearchResult, res: SearchResult) -> None:
         total.timings[k] = total.timings.get(k, 0.0) + v
 
 
-def _pick_from_pool(designs, complete: bool, pos: int, excluded: set):
-    """Best design of a previous exact top-k list whose part at ``pos`` is not excluded, when provably
-    the same as a fresh search with those parts excluded; else None.
+def design_parts(design, distinct: str) -> set:
+    """Catalogue positions of the parts of kind ``distinct`` ("reducer" | "tyre") a design uses: the
+    tyre, or the reducer of every unit (both axles of a two-unit design)."""
+    if distinct == "tyre":
+        return {design.tyre}
+    return {r for _, _, r in design.units}
+
+
+def _pick_from_pool(designs, complete: bool, distinct: str, excluded: set):
+    """Best design of a previous exact top-k list that uses none of the ``excluded`` parts of kind
+    ``distinct``, when provably the same as a fresh search with those parts excluded; else None.
 
     A top-k list contains every design better than its last entry, so its best remaining entry is
     the restricted optimum when it lies clearly (beyond the tie tolerance) ahead of the last entry,
     or when the list holds every feasible design (``complete``).
     """
-    rest = [d for d in designs if d[pos] not in excluded]
+    rest = [d for d in designs if not design_parts(d, distinct) & excluded]
     if not rest:
         return None
-    vals = np.array([d[0] for d in rest])
-    keys = np.array([d[1:] for d in rest], dtype=np.int64)
+    vals = np.array([d.value for d in rest])
+    keys = np.array([d.key for d in rest], dtype=np.int64)
     best = rest[int(order_best(vals, keys, 1)[0])]
     if complete:
         return best
-    last = designs[-1][0]
-    if best[0] + 2.0 * tie_tolerance(best[0]) < last - 2.0 * tie_tolerance(last):
+    last = designs[-1].value
+    if best.value + 2.0 * tie_tolerance(best.value) < last - 2.0 * tie_tolerance(last):
         return best
     return None
 
@@ -150,18 +162,18 @@ def greedy_distinct(study: Study, count: int, distinct: str, objective: str | No
     Design n is the optimum of the study with the reducers (tyres) of designs 1..n-1 excluded via
     ``allowed``. To save solves, each engine search asks for the best ``count - n + 1`` designs of
     its restricted study; later steps take their design from that list when it provably equals a
-    fresh search (see `_pick_from_pool`), otherwise they search again.
+    fresh search (see `_pick_from_pool`), otherwise they search again. In a two-unit study a design
+    uses the reducers of both its units: each later design uses none of them.
     """
     parts = study.parts
     objective = objective or parts.problem.objective
-    pos = _POSITION[distinct]
     kind = distinct + "s"
     deadline = None if time_limit_s is None else time.perf_counter() + time_limit_s
     total = SearchResult(status=STATUS_OPTIMAL, objective=objective)
     picks, excluded = [], set()
     pool, complete = [], False
     while len(picks) < count:
-        pick = _pick_from_pool(pool, complete, pos, excluded) if pool else None
+        pick = _pick_from_pool(pool, complete, distinct, excluded) if pool else None
         if pick is None:
             allowed = dict(study.allowed)
             allowed[kind] = np.setdiff1d(study.allowed[kind], np.fromiter(excluded, dtype=np.int64))
@@ -187,17 +199,17 @@ def greedy_distinct(study: Study, count: int, distinct: str, objective: str | No
                 break
             pool, complete = res.designs, len(res.designs) < want
         picks.append(pick)
-        excluded.add(pick[pos])
+        excluded |= design_parts(pick, distinct)
     total.designs = picks
     if total.status == STATUS_OPTIMAL and picks:
-        total.bound = picks[0][0]
+        total.bound = picks[0].value
     return total
 
 
 def shortlist_search(study: Study, count: int, distinct: str | None = None, objective: str | None = None,
                      time_limit_s: float | None = None) -> SearchResult:
     """The shortlist's designs, best first (see the module docstring for each ``distinct`` rule)."""
-    if distinct in _POSITION:
+    if distinct in GREEDY:
         return greedy_distinct(study, count, distinct, objective, time_limit_s)
     return search(study.parts, objective=objective, count=count, per_motor=1 if distinct == "motor" else None,
                   allowed=study.allowed, time_limit_s=time_limit_s)
@@ -213,29 +225,73 @@ def _smallest_margin(rec: dict) -> tuple[float | None, str | None]:
     return r["margin_pct"], r["name"]
 
 
+def bom_lines(rec: dict, vehicles: int = 1) -> list[dict]:
+    """Order lines of a design record: one per part and axle; a part fitted on both axles of a two-unit
+    design (e.g. ``same_unit``) is one line with quantity 2 per vehicle and ``axle`` "both"."""
+    merged: dict = {}
+    two = rec.get("motor") is None and len(rec.get("units") or ()) > 1
+    for key, p in rec["parts"].items():
+        kind = key.split("_")[-1]
+        axle = p.get("axle") if two else (rec["units"][0]["axle"] if kind != "tyre" and rec.get("units") else None)
+        ident = (kind, p["part"])
+        if ident in merged:
+            line = merged[ident]
+            line["quantity_per_vehicle"] += int(p["quantity"])
+            line["item"], line["axle"] = f"{kind} (both axles)", "both"
+            continue
+        merged[ident] = {"item": f"{axle} {kind}" if two and axle else kind, "part": p["part"],
+                         "supplier": p["supplier"], "quantity_per_vehicle": int(p["quantity"]),
+                         "unit_cost": p["unit_cost"], "lead_time_weeks": p["lead_time_weeks"], "axle": axle}
+    lines = []
+    for line in merged.values():
+        qty = line["quantity_per_vehicle"] * vehicles
+        lines.append({"item": line["item"], "part": line["part"], "supplier": line["supplier"],
+                      "quantity_per_vehicle": line["quantity_per_vehicle"], "quantity": qty,
+                      "unit_cost": line["unit_cost"], "extended_cost": clean(line["unit_cost"] * qty),
+                      "lead_time_weeks": line["lead_time_weeks"], "axle": line["axle"]})
+    return lines
+
+
 def bill_of_materials(rec: dict, rank: int, vehicles: int = 1) -> dict:
     """Bill of materials of one verified design record for ``vehicles`` vehicles.
 
-    Lines: motor, reducer, tyre with supplier, quantity per vehicle (tyres: tyre_count), total
-    quantity, unit and extended cost and lead time; totals; key performance figures; the smallest
-    margin over the requirements and part-rating checks [%] and its name.
+    Lines (`bom_lines`): motor, reducer (per axle in a two-unit design), tyre with supplier, quantity
+    per vehicle (tyres: tyre_count; a unit part on both axles: 2), total quantity, unit and extended
+    cost and lead time; totals; key performance figures; the smallest margin over the requirements
+    and part-rating checks [%] and its name. Two-unit designs have null ``motor``, ``reducer`` and
+    ``ratio`` and list their ``units``.
     """
-    lines = []
-    for item in ITEMS:
-        p = rec["parts"][item]
-        qty = int(p["quantity"]) * vehicles
-        lines.append({"item": item, "part": p["part"], "supplier": p["supplier"],
-                      "quantity_per_vehicle": int(p["quantity"]), "quantity": qty, "unit_cost": p["unit_cost"],
-                      "extended_cost": clean(p["unit_cost"] * qty), "lead_time_weeks": p["lead_time_weeks"]})
+    lines = bom_lines(rec, vehicles)
     margin, name = _smallest_margin(rec)
-    return {
+    reducer = rec["parts"].get("reducer")
+    out = {
         "rank": rank, "motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"],
-        "ratio": rec["parts"]["reducer"].get("ratio"), "vehicles": vehicles, "lines": lines,
+        "ratio": reducer.get("ratio") if reducer else None, "vehicles": vehicles, "lines": lines,
         "cost_per_vehicle": rec["cost"], "extended_cost": clean(rec["cost"] * vehicles),
         "lead_time_weeks": rec["lead_time_weeks"],
         **{k: rec["performance"][k] for k in PERFORMANCE_COLUMNS}, "mass_kg": rec["mass_kg"],
         "smallest_margin_pct": margin, "smallest_margin_name": name,
     }
+    out["units"] = rec.get("units")
+    return out
+
+
+def unit_text(b: dict, kind: str, field: str = "part") -> str:
+    """The motor or reducer cell of a BOM design: the part id (single axle), or per axle for two units.
+
+    ``field``: "part" or "supplier".
+    """
+    if b.get(kind) is not None or not b.get("units"):
+        if field == "part":
+            return b[kind]
+        return next(ln["supplier"] for ln in b["lines"] if ln["item"] == kind)
+    out = []
+    for ln in b["lines"]:
+        if ln["item"].split(" ")[0] in ("front", "rear") and ln["item"].endswith(kind):
+            out.append(f"{ln['axle']}: {ln[field]}")
+        elif ln["item"].startswith(kind) and ln["axle"] == "both":
+            out.append(f"both: {ln[field]}")
+    return ", ".join(out)
 
 
 def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: int = 1,
@@ -261,6 +317,8 @@ def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: i
     options = {"count": int(count), "found": len(res.designs), "distinct": rule, "distinct_rule": DISTINCT_RULES[rule],
                "avoid_suppliers": list(proc.avoid_suppliers), "max_lead_time_weeks": clean(proc.max_lead_time_weeks),
                "vehicles": int(vehicles), "time_limit_s": time_limit_s}
+    if rule == "motor" and study.parts.two_units:
+        options["distinct_rule"] = TWO_UNIT_MOTOR_RULE
     out = result_dict(study, res)
     out["options"] = options
     out["bom"] = [bill_of_materials(rec, n, int(vehicles)) for n, rec in enumerate(out["designs"], 1)]
@@ -270,16 +328,19 @@ def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: i
 # ----------------------------------------------------------------------------------- tables
 
 def _design_name(b: dict) -> str:
+    if b.get("motor") is None and b.get("units"):
+        return " | ".join(f"{u['axle']}: {u['motor']} + {u['reducer']}" for u in b["units"]) + f" | tyre {b['tyre']}"
     return f"{b['motor']} + {b['reducer']} + {b['tyre']}"
 
 
 def shortlist_rows(result: dict) -> list[list]:
-    """One row per design, columns `SHORTLIST_COLUMNS`."""
+    """One row per design, columns `SHORTLIST_COLUMNS` (two-unit designs: motor and reducer cells per axle)."""
     rows = []
     for b in result["bom"]:
-        by = {line["item"]: line for line in b["lines"]}
-        rows.append([b["rank"], b["motor"], by["motor"]["supplier"], b["reducer"], by["reducer"]["supplier"],
-                     b["ratio"], b["tyre"], by["tyre"]["supplier"], by["tyre"]["quantity_per_vehicle"],
+        tyre = next(ln for ln in b["lines"] if ln["item"] == "tyre")
+        rows.append([b["rank"], unit_text(b, "motor"), unit_text(b, "motor", "supplier"), unit_text(b, "reducer"),
+                     unit_text(b, "reducer", "supplier"), b["ratio"], b["tyre"], tyre["supplier"],
+                     tyre["quantity_per_vehicle"],
                      b["cost_per_vehicle"], b["vehicles"], b["extended_cost"], b["lead_time_weeks"],
                      *[b[k] for k in PERFORMANCE_COLUMNS], b["mass_kg"], b["smallest_margin_pct"],
                      b["smallest_margin_name"]])

@@ -62,6 +62,13 @@ ISA_KEYS = ("environment.altitude_m", "environment.temperature_c")
 
 COLUMNS = ("status", "objective", "motor", "reducer", "tyre", "cost", "mass_kg", "accel_time_s")
 """Result columns of every row, after the parameter columns."""
+SLOT_COLUMNS = ("front_motor", "front_reducer", "rear_motor", "rear_reducer")
+"""Further columns of a two-unit study's rows (its rows have null motor and reducer, as its design records)."""
+
+
+def columns(problem: Problem) -> tuple[str, ...]:
+    """Result columns of a study's rows: `COLUMNS`, plus `SLOT_COLUMNS` for a two-unit study."""
+    return COLUMNS + (SLOT_COLUMNS if len(problem.axles) > 1 else ())
 
 DASK_CONNECT_TIMEOUT_S = 10
 """How long to try reaching a Dask scheduler before giving up [s]."""
@@ -241,7 +248,8 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
     -------
     dict with the override values, then status ("optimal" | "infeasible"), objective (value),
     motor, reducer, tyre, cost, mass_kg, accel_time_s (None where not applicable), and reason
-    (infeasible points).
+    (infeasible points); a two-unit study's rows have null motor and reducer and name the units in
+    front_motor, front_reducer, rear_motor, rear_reducer.
     """
     from selector.api import procurement_filter, records
     from selector.engine.parts import PartTables
@@ -260,13 +268,17 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
     with _SOLVE_LOCK:
         res = search(parts, allowed=allowed)
     row = {k: float(v) for k, v in overrides.items()}
-    row.update(dict.fromkeys(COLUMNS))
+    row.update(dict.fromkeys(columns(prob)))
     row["status"] = res.status
     if res.status == STATUS_OPTIMAL and res.designs:
-        rec = records(parts, res.designs[:1], res.objective)[0]
-        row.update({"objective": clean(res.designs[0][0]), "motor": rec["motor"], "reducer": rec["reducer"],
+        best = res.designs[0]
+        rec = records(parts, [best], res.objective)[0]
+        row.update({"objective": clean(best.value), "motor": rec["motor"], "reducer": rec["reducer"],
                     "tyre": rec["tyre"], "cost": rec["cost"], "mass_kg": rec["mass_kg"],
                     "accel_time_s": rec["performance"]["accel_time_s"]})
+        if parts.two_units:
+            for u in rec["units"]:
+                row[f"{u['axle']}_motor"], row[f"{u['axle']}_reducer"] = u["motor"], u["reducer"]
     else:
         row["reason"] = res.reason
     return row
@@ -397,7 +409,7 @@ def sweep(problem_path, vary: list[str], workers: int | None = None, scheduler: 
         "objective": {"minimize": problem.objective, "unit": OBJECTIVE_UNITS[problem.objective]},
         "parameters": [{"key": k, "unit": SWEEPABLE[k][0], "start": float(v[0]), "stop": float(v[-1]), "n": len(v),
                         "values": [float(x) for x in v]} for k, v in varies],
-        "columns": keys + list(COLUMNS),
+        "columns": keys + list(columns(problem)),
         "rows": rows,
         "infeasible": sum(r["status"] != "optimal" for r in rows),
         "notes": notes,

@@ -14,14 +14,17 @@ tyre load, gearing limits). A block's lower bound:
 
 - cost, mass: the front option's and the tyre's value plus the least rear value among the rear
   options that can meet the conditions at that tyre (first over the rear options alone, refined
-  lazily with the front option fixed);
-- acceleration time: the certified Riemann bound (`bounds` module proof) with the front option's own
-  force, the upper envelope of the rear options' forces at that tyre, the lightest mass and the
-  bound of every traction combination (each axle motor- or traction-limited).
+  lazily with the front option fixed, scanning the rear options in order of their own value and
+  stopping at the first that meets the conditions or at the value the pool can still accept);
+- energy: the certified consumption (and battery) bound of `selector.engine.energy` with the
+  block's extremes;
+- acceleration time: `selector.engine.accel_blocks`, a best-first search over blocks of a k-d tree
+  of each axle's options, bounded by the certified Riemann bound of `TwoUnitSearch.envelope_bounds`.
 
 Blocks are evaluated in order of their bound (each rear option exactly through `evaluate.screen`,
 best first) until the next bound exceeds the pool's ``count``-th best value: every design not
-evaluated is then provably worse or infeasible.
+evaluated is then provably worse or infeasible. Tables and condition checks are built in chunks
+(`CHUNK`, `PAIR_CHUNK`), so memory stays bounded for studies of 1e11 designs.
 """
 
 from __future__ import annotations
@@ -39,18 +42,23 @@ from selector.physics.drivetrain import best_gear_force_n, top_gear_limit_mps
 from selector.requirements import REL_TOL
 from selector.units import G_N, kmh_to_mps
 
-GROUPS = 24
-"""Groups of similar force profile per axle and tyre in the acceleration-time search [-]."""
 REFINE_BATCH = 512
 """Blocks whose bound is refined together [-]."""
 FIRST_CHUNK = 128
 """Rear options of a block evaluated in its first chunk (later chunks double) [-]."""
 NODES = 48
 """Speed nodes of the certified acceleration bound [-]."""
+PAIR_CHUNK = 2_000_000
+"""(block, rear option) pairs whose conditions are checked at once [-] (bounds memory)."""
+
+
+CHUNK = 1 << 18
+"""(option, tyre) entries whose per-tyre quantities are computed at once [-] (bounds memory)."""
 
 
 class _Table:
-    """Per (option, tyre) quantities of one axle's options: arrays (options, tyres)."""
+    """Per (option, tyre) quantities of one axle's options: arrays (options, tyres), plus per option
+    the wheel-torque and power bounds of the acceleration envelope (``torque0_nm``, ``power_eta_w``)."""
 
     def __init__(self, parts: PartTables, options: np.ndarray, tyres: np.ndarray, req, accel_target: float | None):
         mo, re, ty = parts.motors, parts.reducers, parts.tyres
@@ -59,20 +67,33 @@ class _Table:
         self.cost = mo.cost[mi] + re.cost[rj]
         self.mass = mo.mass_kg[mi] + re.mass_kg[rj]
         no, nt = options.shape[0], tyres.size
-        unit = parts.unit(np.repeat(mi, nt), np.repeat(rj, nt))
-        radius = np.tile(ty.radius_m[tyres], no)
-        self.lim = top_gear_limit_mps(unit, radius).reshape(no, nt)
-        self.f0 = best_first_gear_force(unit, radius).reshape(no, nt)
-        self.fc_top = None
-        if req.top_speed_kmh is not None:
-            v = np.full(no * nt, kmh_to_mps(req.top_speed_kmh))
-            self.fc_top = best_gear_force_n(unit, radius, v, continuous=True).reshape(no, nt)
-        self.f_acc = None
-        if accel_target is not None:
-            v = np.full(no * nt, accel_target)
-            self.f_acc = best_gear_force_n(unit, radius, v).reshape(no, nt)
-        self.unit, self.radius = unit, radius
-        self.j_eta_e2_min = _min_rotor_mass(unit, radius).reshape(no, nt)
+        radius_t = ty.radius_m[tyres]
+        own = parts.unit(mi, rj)  # per option (radius-free quantities)
+        eta_g = np.where(np.isfinite(own.efficiency), own.efficiency, 0.0)
+        ratio_g = np.where(np.isfinite(own.ratio), own.ratio, 0.0)
+        # F_g(v) = eta_g T(w) G_g / r <= eta_g T_pk G_g / r and F_g(v) v = eta_g T(w) w <= eta_g P_pk
+        self.torque0_nm = own.torque_nm * (eta_g * ratio_g).max(axis=1)
+        self.power_eta_w = own.power_w * eta_g.max(axis=1)
+        # gearing limit w_max r / G_top and least reflected rotor inertia min_g J eta_g G_g^2 / r^2: linear
+        # in r and in 1/r^2
+        self.lim = top_gear_limit_mps(own, np.ones(no))[:, None] * radius_t[None, :]
+        self.j_eta_e2_min = _min_rotor_mass(own, np.ones(no))[:, None] / (radius_t * radius_t)[None, :]
+        self.f0 = np.empty((no, nt))
+        self.fc_top = None if req.top_speed_kmh is None else np.empty((no, nt))
+        self.f_acc = None if accel_target is None else np.empty((no, nt))
+        step = max(1, CHUNK // max(nt, 1))
+        for s in range(0, no, step):
+            rows = slice(s, min(no, s + step))
+            n = rows.stop - rows.start
+            unit = parts.unit(np.repeat(mi[rows], nt), np.repeat(rj[rows], nt))
+            radius = np.tile(radius_t, n)
+            self.f0[rows] = best_first_gear_force(unit, radius).reshape(n, nt)
+            if self.fc_top is not None:
+                v = np.full(n * nt, kmh_to_mps(req.top_speed_kmh))
+                self.fc_top[rows] = best_gear_force_n(unit, radius, v, continuous=True).reshape(n, nt)
+            if self.f_acc is not None:
+                v = np.full(n * nt, accel_target)
+                self.f_acc[rows] = best_gear_force_n(unit, radius, v).reshape(n, nt)
 
 
 def best_first_gear_force(unit, radius) -> np.ndarray:
@@ -241,19 +262,14 @@ class TwoUnitSearch:
             t = (dv / a_up[:, :-1]).sum(axis=1)
         return np.where(reach, t, np.inf)
 
-    def forces_at_nodes(self, table: _Table, oi, kk) -> np.ndarray:
-        """Best-gear peak wheel forces of options oi at tyre columns kk at the nodes (n, NODES + 1) [N]."""
-        idx = np.asarray(oi) * self.tyres.size + np.asarray(kk)
-        vv = np.broadcast_to(self.nodes(), (idx.size, NODES + 1))
-        return best_gear_force_n(_take_unit(table.unit, idx), table.radius[idx], vv)
-
     # ------------------------------------------------------------------ search
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
         if self.tyres.size == 0 or self.options["front"].shape[0] == 0 or self.options["rear"].shape[0] == 0:
             return "infeasible", [], None
         tr = _Table(self.parts, self.options["rear"], self.tyres, self.req, self.target)
-        tf = tr if self.same else _Table(self.parts, self.options["front"], self.tyres, self.req, self.target)
+        same_options = self.same or np.array_equal(self.options["front"], self.options["rear"])
+        tf = tr if same_options else _Table(self.parts, self.options["front"], self.tyres, self.req, self.target)
         if self.same:
             return self._run_same(tf)
         return self._run_pairs(tf, tr)
@@ -376,8 +392,9 @@ class TwoUnitSearch:
         if oi.size == 0:
             return self._finish("optimal", np.inf)
         keys = self._keys(t, oi, t, oi, kk)
+        fine = None
         if self.objective == "accel_time":
-            key_val = self._point_bounds(keys)
+            key_val, fine = self._envelope_point_bounds(t, oi, kk), self._point_bounds_staged
         elif self.objective == "energy":
             key_val = self._design_energy_lb(keys)
         else:
@@ -385,8 +402,23 @@ class TwoUnitSearch:
         self.stats["blocks"] += 1
         if self.deadline is not None and time.perf_counter() > self.deadline:
             return self._finish("time_limit", float(key_val.min()))
-        self._evaluate(keys, key_val)
+        self._evaluate(keys, key_val, fine=fine)
         return self._finish("optimal", np.inf)
+
+    def _envelope_point_bounds(self, t: _Table, oi, kk) -> np.ndarray:
+        """Certified time bound of same-unit designs (option oi on both axles, tyre column kk) from the
+        option's force envelope min(A, B / v) (see `accel_blocks`) [s]; cheap, computed in chunks."""
+        radius = self.parts.tyres.radius_m[self.tyres[kk]]
+        speeds = self.nodes()
+        out = np.empty(oi.size)
+        step = max(1, CHUNK // speeds.size)
+        for s in range(0, oi.size, step):
+            o, c, r = oi[s:s + step], kk[s:s + step], radius[s:s + step]
+            with np.errstate(divide="ignore"):
+                env = np.minimum((t.torque0_nm[o] / r)[:, None], t.power_eta_w[o][:, None] / speeds[None, :])
+            m, j = t.mass[o], t.j_eta_e2_min[o, c]
+            out[s:s + step] = self.envelope_bounds(c, env, m, m, j, env, m, m, j)
+        return out
 
     def _rear_static(self, tr: _Table) -> np.ndarray:
         """(rear options, tyres) bool: the rear option alone meets the gearing limits at that tyre."""
@@ -406,13 +438,14 @@ class TwoUnitSearch:
         fi, kk = fi[front_ok], kk[front_ok]
         rear_ok = self._rear_static(tr)
         if self.objective == "accel_time":
+            from selector.engine.accel_blocks import run_accel_blocks
+
             f_ok = np.zeros((nf, nt), dtype=bool)
             f_ok[fi, kk] = True
-            return self._run_pairs_accel(tf, tr, f_ok, rear_ok)
-        refined = np.zeros(fi.size, dtype=bool)
+            return run_accel_blocks(self, tf, tr, f_ok, rear_ok)
         if self.objective == "energy":
             lb = self._energy_bounds(tf, tr, fi, kk, rear_ok, per_tyre=True)
-            return self._best_first(tf, tr, fi, kk, lb, refined)
+            return self._best_first(tf, tr, fi, kk, lb)
         attr = tr.cost if self.objective == "cost" else tr.mass
         rear_min = np.where(rear_ok, attr[:, None], np.inf).min(axis=0)
         own = tf.cost[fi] if self.objective == "cost" else tf.mass[fi]
@@ -420,49 +453,62 @@ class TwoUnitSearch:
         tyre_val = (p.tyres.cost if self.objective == "cost" else p.tyres.mass_kg)[self.tyres[kk]]
         base = 0.0 if self.objective == "cost" else p.problem.vehicle.mass_kg
         lb = base + own + rear_min[kk] + n * tyre_val
-        return self._best_first(tf, tr, fi, kk, lb, refined)
+        return self._best_first(tf, tr, fi, kk, lb)
 
-    def _best_first(self, tf, tr, fi, kk, lb, refined):
-        """Best-first over (front option, tyre) blocks with lazily refined bounds; blocks whose bound is
-        below the incumbent are refined, then evaluated together (their designs merged in the order of
-        their own bounds)."""
+    def _best_first(self, tf, tr, fi, kk, lb):
+        """Best-first over (front option, tyre) blocks with lazily refined bounds.
+
+        Blocks wait in one array sorted by their first bound; a refined block moves to a heap keyed by
+        its refined bound. Each round either refines the next waiting blocks (growing batches) or
+        evaluates the refined blocks at the top of the heap together (their designs merged in the
+        order of their own bounds), whichever holds the least bound; the search ends when the least
+        bound of both exceeds the pool's ``count``-th best (plus the tie tolerance).
+        """
         rear_ok = self._rear_static(tr)
-        heap = [(float(v), int(b)) for b, v in enumerate(lb) if np.isfinite(v)]
-        heapq.heapify(heap)
+        order = np.argsort(lb, kind="stable")
+        order = order[np.isfinite(lb[order])]
+        waiting = 0  # order[waiting:] are not refined yet
+        heap: list[tuple[float, int]] = []
         status = "optimal"
-        rounds = 0
-        while heap:
+        rounds = refines = 0
+        while True:
             kth = self.kth()
-            if heap[0][0] > kth + tie_tolerance(kth):
+            limit = kth + tie_tolerance(kth)
+            next_wait = lb[order[waiting]] if waiting < order.size else np.inf
+            next_heap = heap[0][0] if heap else np.inf
+            if (waiting >= order.size and not heap) or min(next_wait, next_heap) > limit:
                 break
             if self.deadline is not None and time.perf_counter() > self.deadline:
                 status = "time_limit"
                 break
-            # best first: the blocks at the top that are not refined yet get refined together; the
-            # refined ones at the top are evaluated together (growing batches)
-            want = not refined[heap[0][1]]
-            limit = REFINE_BATCH if want else min(REFINE_BATCH, 4 * 2 ** min(rounds, 7))
-            batch = []
-            while heap and len(batch) < limit and heap[0][0] <= kth + tie_tolerance(kth) \
-                    and (not refined[heap[0][1]]) == want:
-                batch.append(heapq.heappop(heap)[1])
-            batch = np.array(batch)
-            if want:
+            if waiting < order.size and next_wait <= next_heap:
+                size = min(REFINE_BATCH, 32 * 2 ** min(refines, 10))
+                stop = min(order.size, waiting + size)
+                stop = waiting + int(np.searchsorted(lb[order[waiting:stop]], limit, side="right"))
+                batch = order[waiting:max(stop, waiting + 1)]
+                waiting += batch.size
+                refines += 1
                 if self.objective == "energy":
                     new = self._energy_bounds(tf, tr, fi[batch], kk[batch], rear_ok, per_tyre=False)
                 else:
                     new = self._refine_value(tf, tr, fi[batch], kk[batch])
                 self.stats["refined"] += batch.size
-                refined[batch] = True
                 lb[batch] = np.maximum(lb[batch], new)
-                for bb in batch:
-                    if np.isfinite(lb[bb]):
-                        heapq.heappush(heap, (float(lb[bb]), int(bb)))
+                for bb in batch[np.isfinite(lb[batch])]:
+                    heapq.heappush(heap, (float(lb[bb]), int(bb)))
                 continue
+            size = min(REFINE_BATCH, 4 * 2 ** min(rounds, 7))
+            batch = []
+            while heap and len(batch) < size and heap[0][0] <= min(limit, next_wait):
+                batch.append(heapq.heappop(heap)[1])
+            if not batch:
+                batch.append(heapq.heappop(heap)[1])
             rounds += 1
+            batch = np.array(batch)
             self._evaluate_blocks(tf, tr, fi[batch], kk[batch])
             self.stats["blocks"] += batch.size
-        return self._finish(status, min((h[0] for h in heap), default=np.inf))
+        rest = min(lb[order[waiting]] if waiting < order.size else np.inf, heap[0][0] if heap else np.inf)
+        return self._finish(status, rest)
 
     def _energy_bounds(self, tf, tr, fi, kk, rear_ok, per_tyre: bool) -> np.ndarray:
         """Certified lower bound of the energy objective of blocks (front option fi, tyre column kk).
@@ -491,11 +537,9 @@ class TwoUnitSearch:
                     np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0))
 
         def l_tall(table, rows, cols):
-            idx = rows * nt + cols
-            unit = _take_unit(table.unit, idx)
-            ratio = unit.ratio[np.arange(idx.size), unit.top_gear()]
-            first = unit.ratio[:, 0]
-            return np.log(ratio) - np.log(table.radius[idx]), np.log(first) - np.log(table.radius[idx])
+            rj = table.options[rows, 1]
+            log_r = np.log(ty.radius_m[self.tyres[cols]])
+            return np.log(p.reducers.tallest_ratio[rj]) - log_r, np.log(p.reducers.ratios[rj, 0]) - log_r
 
         # rear extremes per tyre column over the usable rear options
         r_mass = np.full(nt, np.inf)
@@ -546,33 +590,76 @@ class TwoUnitSearch:
         return out
 
     def _refine_value(self, tf, tr, fi, kk) -> np.ndarray:
-        """Cost or mass bound of blocks with the front option fixed: least own value over the rear
-        options that meet every cheap necessary condition with it."""
-        nr = tr.options.shape[0]
-        ri = np.arange(nr)[None, :]
-        ok = self.conditions(tf, fi[:, None], tr, ri, kk[:, None])
-        val = self._own_value(tf, fi[:, None], tr, ri, kk[:, None])
-        return np.where(ok, val, np.inf).min(axis=1)
+        """Cost or mass bound of blocks with the front option fixed: the least own value over the rear
+        options that meet every cheap necessary condition with it.
 
-    def _groups(self, table: _Table, ok_col: np.ndarray, k: int):
-        """Options usable at tyre column k split into GROUPS groups of similar force profile (by mean
-        force over the nodes): [(members, envelope, mass min, mass max, rotor inertia min)]."""
-        oi = np.nonzero(ok_col)[0]
-        if oi.size == 0:
-            return []
-        f = self.forces_at_nodes(table, oi, np.full(oi.size, k))
-        order = np.argsort(f.mean(axis=1), kind="stable")
-        out = []
-        for part in np.array_split(order, min(GROUPS, oi.size)):
-            if part.size == 0:
-                continue
-            mem = oi[part]
-            extra = {"f0": table.f0[mem, k].max(), "cost": table.cost[mem].min(),
-                     "fc": None if table.fc_top is None else table.fc_top[mem, k].max(),
-                     "fa": None if table.f_acc is None else table.f_acc[mem, k].max()}
-            out.append((mem, f[part].max(axis=0), table.mass[mem].min(), table.mass[mem].max(),
-                        table.j_eta_e2_min[mem, k].min(), extra))
+        Rear options are scanned in order of their own value, so a block's bound is its first rear
+        option that meets the conditions; a block whose value would exceed the pool's count-th best
+        gets the (proved) value of the first rear option not scanned instead.
+        """
+        order, sval = self._rear_sorted(tr)
+        base = self._own_value(tf, fi, tr, np.full(fi.size, order[0]), kk) - sval[0]
+        kth = self.kth()
+        cap = kth + tie_tolerance(kth) - base  # rear values above cap cannot enter the pool
+        out = np.full(fi.size, np.inf)
+        stop_at = np.searchsorted(sval, cap, side="right")  # rear positions [0, stop_at) may
+        open_ = np.nonzero(stop_at > 0)[0]
+        beyond = stop_at < sval.size
+        out[beyond] = base[beyond] + sval[np.minimum(stop_at, sval.size - 1)[beyond]]
+        start, step = 0, 64
+        while open_.size and start < sval.size:
+            end = min(sval.size, start + step)
+            pos = np.arange(start, end)
+            for b0 in range(0, open_.size, max(1, PAIR_CHUNK // pos.size)):
+                blk = open_[b0:b0 + max(1, PAIR_CHUNK // pos.size)]
+                ok = self.conditions(tf, fi[blk][:, None], tr, order[pos][None, :], kk[blk][:, None])
+                ok &= pos[None, :] < stop_at[blk][:, None]
+                hit = ok.any(axis=1)
+                first = ok.argmax(axis=1)
+                out[blk[hit]] = base[blk[hit]] + sval[pos[first[hit]]]
+                stop_at[blk[hit]] = 0  # resolved
+            open_ = open_[stop_at[open_] > end]
+            start, step = end, step * 2
         return out
+
+    def _rear_sorted(self, tr):
+        """(rear options in order of their own cost or mass, those values)."""
+        if getattr(self, "_rsort", None) is None:
+            val = tr.cost if self.objective == "cost" else tr.mass
+            order = np.argsort(val, kind="stable")
+            self._rsort = (order, val[order])
+        return self._rsort
+
+    def _rear_pairs(self, tf, tr, fb, kb):
+        """(block index, rear option) pairs of blocks (front option fb, tyre column kb) that meet the
+        cheap necessary conditions and, for cost and mass, whose value can still enter the pool."""
+        nr = tr.options.shape[0]
+        if self.objective in ("cost", "mass"):
+            order, sval = self._rear_sorted(tr)
+            kth = self.kth()
+            base = self._own_value(tf, fb, tr, np.full(fb.size, order[0]), kb) - sval[0]
+            cnt = np.searchsorted(sval, kth + tie_tolerance(kth) - base, side="right")
+        else:
+            order, cnt = np.arange(nr), np.full(fb.size, nr)
+        bis, ris = [], []
+        b0 = 0
+        csum = np.concatenate([[0], np.cumsum(cnt)])
+        while b0 < fb.size:
+            b1 = max(b0 + 1, int(np.searchsorted(csum, csum[b0] + PAIR_CHUNK, side="right")) - 1)
+            b1 = min(b1, fb.size)
+            c = cnt[b0:b1]
+            total = int(c.sum())
+            if total:
+                bi = np.repeat(np.arange(b0, b1), c)
+                pos = np.arange(total) - np.repeat(csum[b0:b1] - csum[b0], c)
+                ri = order[pos]
+                ok = self.conditions(tf, fb[bi], tr, ri, kb[bi])
+                bis.append(bi[ok])
+                ris.append(ri[ok])
+            b0 = b1
+        if not bis:
+            return np.empty(0, dtype=np.int64), np.empty(0, dtype=np.int64)
+        return np.concatenate(bis), np.concatenate(ris)
 
     def _group_conditions(self, kk, mass_lo, ef, er):
         """Necessary conditions of blocks from the groups' extremes (largest forces, least mass and cost)."""
@@ -602,76 +689,9 @@ class TwoUnitSearch:
             ok &= ef["cost"] + er["cost"] + v.tyre_count * ty.cost[k] <= req.budget * tol
         return ok
 
-    def _run_pairs_accel(self, tf: _Table, tr: _Table, front_ok: np.ndarray, rear_ok: np.ndarray):
-        """accel_time objective: best-first over (front group, rear group, tyre) blocks."""
-        nt = self.tyres.size
-        blocks = []  # (k, front members, rear members)
-        rows = {"kk": [], "ef": [], "mf0": [], "mf1": [], "jf": [], "er": [], "mr0": [], "mr1": [], "jr": []}
-        xf = {"f0": [], "cost": [], "fc": [], "fa": []}
-        xr = {"f0": [], "cost": [], "fc": [], "fa": []}
-        for k in range(nt):
-            gf = self._groups(tf, front_ok[:, k], k)
-            gr = self._groups(tr, rear_ok[:, k], k)
-            for a in gf:
-                for b in gr:
-                    blocks.append((k, a[0], b[0]))
-                    for key, val in zip(rows, (k, a[1], a[2], a[3], a[4], b[1], b[2], b[3], b[4]), strict=False):
-                        rows[key].append(val)
-                    for key in xf:
-                        xf[key].append(a[5][key])
-                        xr[key].append(b[5][key])
-        if not blocks:
-            return self._finish("optimal", np.inf)
-        r = {key: np.asarray(v) for key, v in rows.items()}
-        ef = {key: (np.asarray(v, dtype=float) if v[0] is not None else [None]) for key, v in xf.items()}
-        er = {key: (np.asarray(v, dtype=float) if v[0] is not None else [None]) for key, v in xr.items()}
-        m_lo = self.parts.problem.vehicle.mass_kg + r["mf0"] + r["mr0"] \
-            + self.parts.problem.vehicle.tyre_count * self.parts.tyres.mass_kg[self.tyres[r["kk"]]]
-        possible = self._group_conditions(r["kk"], m_lo, ef, er)
-        lb = np.full(len(blocks), np.inf)
-        keep = np.nonzero(possible)[0]
-        if keep.size:
-            lb[keep] = self.envelope_bounds(r["kk"][keep], r["ef"][keep], r["mf0"][keep], r["mf1"][keep], r["jf"][keep],
-                                            r["er"][keep], r["mr0"][keep], r["mr1"][keep], r["jr"][keep])
-        self.stats["refined"] += len(blocks)
-        heap = [(float(v), int(b)) for b, v in enumerate(lb) if np.isfinite(v)]
-        heapq.heapify(heap)
-        status = "optimal"
-        rounds = 0
-        while heap:
-            kth = self.kth()
-            if heap[0][0] > kth + tie_tolerance(kth):
-                break
-            if self.deadline is not None and time.perf_counter() > self.deadline:
-                status = "time_limit"
-                break
-            fis, ris, kks, lbs = [], [], [], []
-            size = min(REFINE_BATCH, 8 * 2 ** min(rounds, 6))
-            rounds += 1
-            while heap and len(fis) < size and heap[0][0] <= kth + tie_tolerance(kth):
-                v_b, b = heapq.heappop(heap)
-                k, fm, rm = blocks[b]
-                fi, ri = (a.ravel() for a in np.meshgrid(fm, rm, indexing="ij"))
-                lbs.append(np.full(fi.size, v_b))
-                fis.append(fi)
-                ris.append(ri)
-                kks.append(np.full(fi.size, k))
-                self.stats["blocks"] += 1
-            fi, ri, kk = np.concatenate(fis), np.concatenate(ris), np.concatenate(kks)
-            blb = np.concatenate(lbs)
-            ok = self.conditions(tf, fi, tr, ri, kk)
-            fi, ri, kk, blb = fi[ok], ri[ok], kk[ok], blb[ok]
-            if fi.size == 0:
-                continue
-            keys = self._keys(tf, fi, tr, ri, kk)
-            self._evaluate(keys, blb, fine=self._point_bounds_staged)
-        return self._finish(status, min((h[0] for h in heap), default=np.inf))
-
     def _evaluate_blocks(self, tf, tr, fb: np.ndarray, kb: np.ndarray):
         """Evaluate the designs of several (front option, tyre) blocks together, best bound first."""
-        nr = tr.options.shape[0]
-        ok = self.conditions(tf, fb[:, None], tr, np.arange(nr)[None, :], kb[:, None])
-        bi, ri = np.nonzero(ok)
+        bi, ri = self._rear_pairs(tf, tr, fb, kb)
         if bi.size == 0:
             return
         fi, kk = fb[bi], kb[bi]
@@ -683,9 +703,3 @@ class TwoUnitSearch:
         else:
             key_val = self._own_value(tf, fi, tr, ri, kk)
         self._evaluate(keys, key_val)
-
-def _take_unit(unit, idx):
-    from selector.physics.drivetrain import take_unit
-
-    return take_unit(unit, idx)
-

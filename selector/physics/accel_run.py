@@ -7,7 +7,10 @@ m a h/L, best torque split). A run is a sequence of segments between shift event
 - every unit starts in first gear; a unit upshifts at the first speed where its next gear gives at
   least as much vehicle acceleration as its current one (counting each gear's reflected rotor
   inertia, so the shift point is where a_g(v) = a_g+1(v)), or where its motor reaches its maximum
-  speed in the current gear; exact ties shift at the earliest speed; no downshifts during the run;
+  speed in the current gear; exact ties shift at the earliest speed; no downshifts during the run.
+  The gears are compared by what the motors can deliver (`state_motor_accel`), traction limits
+  aside: while both gears are traction-limited the next gear would only shed rotor inertia, and its
+  torque interruption would stall a launch (a shift at 0 km/h);
 - during a unit's `shift_time_s` no torque reaches that unit's wheels and its rotor is decoupled:
   with one unit the vehicle coasts against road load (closed form); with two units the other unit
   keeps driving (integrated in time by classical Runge-Kutta, `SHIFT_RK_STEPS` steps);
@@ -134,6 +137,20 @@ def state_accel(st: _State, v, labels: bool = False):
                               labels=labels)
 
 
+def state_motor_accel(st: _State, v):
+    """Acceleration the units' motors can give at speeds v (n, s), traction limits aside [m/s^2]:
+    (F_front + F_rear - road load) / m_eff. The shift rule compares gears by it."""
+    col = lambda a: np.asarray(a)[:, None]  # noqa: E731
+    b, ax = st.body, st.axles
+    f_res = col(b.mass_kg) * G_N * col(b.crr) + col(b.q_n_s2_m2) * v * v
+    f = np.zeros(np.shape(v))
+    if np.any(st.on_front):
+        f = f + np.where(col(st.on_front), unit_force_n(ax.front, ax.radius_m, st.g_front, v), 0.0)
+    if np.any(st.on_rear):
+        f = f + np.where(col(st.on_rear), unit_force_n(ax.rear, ax.radius_m, st.g_rear, v), 0.0)
+    return (f - f_res) / col(st.m_eff)
+
+
 def _unit_breaks(st: _State, v_lo, v_hi):
     """Envelope corner and decline speeds of each engaged unit in its gear, clipped to [v_lo, v_hi] [m/s]."""
     out = []
@@ -254,8 +271,8 @@ def _shift_point(st: _State, which: str, v_lo, v_hi):
     col = lambda a: a[:, None]  # noqa: E731
 
     def holds(s1, s2, v):
-        a1 = state_accel(s1, v)
-        a2 = state_accel(s2, v)
+        a1 = state_motor_accel(s1, v)
+        a2 = state_motor_accel(s2, v)
         return a2 >= a1 - SHIFT_TIE * np.abs(a1)
 
     frac = np.linspace(0.0, 1.0, SHIFT_SAMPLES)[None, :]

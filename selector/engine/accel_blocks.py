@@ -1,0 +1,289 @@
+"""Acceleration-time search of two-unit studies: best-first over blocks of a k-d tree per axle.
+
+The designs of a two-unit study are (front option, rear option, tyre), an option being a (motor,
+reducer) pair allowed on that axle. Per axle and tyre column, the usable options are the leaves of a
+k-d tree built lazily: a node is a set of options with aggregate extremes (largest wheel-torque and
+power bounds, least and largest mass, least reflected rotor inertia, least cost, largest forces at
+the required speeds). A block is (tyre column, front node, rear node); its bound is the certified
+acceleration-time bound of `TwoUnitSearch.envelope_bounds`, with each node's force envelope
+
+    F(v) <= min(A, B / v),   A = max_g eta_g T_pk G_g / r,   B = max_g eta_g P_pk,
+
+valid for every option of the node at every speed (the wheel force in gear g is eta_g T(w) G_g / r
+with T(w) <= T_pk and T(w) w <= P_pk) and non-increasing in v, so the left Riemann sum of dv / a_up
+over the bound's speed nodes is a lower bound of every design's time (proof in the `bounds` module).
+A child block's bound is at least its parent's (both are valid; the larger is kept).
+
+Blocks are taken best first. A block whose bound is above the pool's ``count``-th best (plus the tie
+tolerance) is never opened, so every design in it is provably worse; a block of at most
+`LEAF_PAIRS` designs is evaluated (cheap necessary conditions, the exact-physics time bracket, then
+the exact evaluation of the designs that can still enter the pool); a larger one is split, both
+nodes in half when both hold several options, else the larger one. A node splits along the
+attribute with the largest relative spread among A, B and mass, so options of similar force and
+mass end up together and the bounds of deep blocks come close to the designs' own times.
+"""
+
+from __future__ import annotations
+
+import heapq
+import time
+
+import numpy as np
+
+from selector.engine.evaluate import tie_tolerance
+
+LEAF_PAIRS = 32
+"""Designs of a block evaluated without further splitting [-]."""
+FIRST_BATCH = 8
+"""Blocks taken from the heap in the first round (later rounds double, up to `MAX_BATCH`) [-]."""
+MAX_BATCH = 512
+"""Most blocks taken from the heap in one round [-]."""
+
+
+class _Growing:
+    """Columns of a table that grows by appending rows (amortised doubling)."""
+
+    def __init__(self, **dtypes):
+        self.n = 0
+        self._cols = {k: np.empty(64, dtype=t) for k, t in dtypes.items()}
+
+    def append(self, **values) -> np.ndarray:
+        """Append rows (equal-length arrays per column); returns their row numbers."""
+        m = len(next(iter(values.values())))
+        need = self.n + m
+        for k, col in self._cols.items():
+            if need > col.size:
+                grown = np.empty(max(need, 2 * col.size), dtype=col.dtype)
+                grown[:self.n] = col[:self.n]
+                self._cols[k] = col = grown
+            col[self.n:need] = values[k]
+        rows = np.arange(self.n, need)
+        self.n = need
+        return rows
+
+    def __getattr__(self, name):
+        cols = self.__dict__.get("_cols", {})
+        if name in cols:
+            return cols[name][:self.n]
+        raise AttributeError(name)
+
+
+_AGG_MAX = ("a", "b", "m_hi", "fc", "fa", "f0")
+_AGG_MIN = ("m_lo", "j", "cost")
+
+
+class _Side:
+    """One axle's usable (option, tyre column) entries and their lazily built k-d tree.
+
+    Entries are grouped by tyre column; a node is a contiguous range of ``perm`` (positions of
+    entries) within one column's group, with the aggregates of its entries.
+    """
+
+    def __init__(self, table, ok: np.ndarray, radius_m: np.ndarray, mass_ref_kg: float):
+        col, opt = np.nonzero(ok.T)  # column-major: entries grouped by tyre column, options ascending
+        self.col, self.opt = col, opt
+        self.attr = {
+            "a": table.torque0_nm[opt] / radius_m[col],
+            "b": table.power_eta_w[opt],
+            "m": table.mass[opt],
+            "j": table.j_eta_e2_min[opt, col],
+            "cost": table.cost[opt],
+            "fc": table.fc_top[opt, col] if table.fc_top is not None else np.zeros(opt.size),
+            "fa": table.f_acc[opt, col] if table.f_acc is not None else np.zeros(opt.size),
+            "f0": table.f0[opt, col],
+        }
+        self.mass_ref = max(float(mass_ref_kg), 1e-9)
+        self.perm = np.arange(opt.size)
+        self.nodes = _Growing(lo=np.int64, hi=np.int64, child=np.int64, child2=np.int64,
+                              **{k: float for k in _AGG_MAX + _AGG_MIN})
+        starts = np.searchsorted(col, np.arange(ok.shape[1]))
+        ends = np.searchsorted(col, np.arange(ok.shape[1]), side="right")
+        self.root = np.full(ok.shape[1], -1, dtype=np.int64)
+        have = np.nonzero(ends > starts)[0]
+        if have.size:
+            self.root[have] = self._make(starts[have], ends[have])
+
+    def _make(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+        """New nodes over perm[lo:hi] (arrays), aggregates by segment reductions; returns node ids."""
+        sizes = hi - lo
+        pos = np.concatenate([self.perm[a:b] for a, b in zip(lo, hi, strict=True)])
+        starts = np.concatenate([[0], np.cumsum(sizes)[:-1]])
+        at = self.attr
+        agg = {"a": np.maximum.reduceat(at["a"][pos], starts), "b": np.maximum.reduceat(at["b"][pos], starts),
+               "m_hi": np.maximum.reduceat(at["m"][pos], starts), "fc": np.maximum.reduceat(at["fc"][pos], starts),
+               "fa": np.maximum.reduceat(at["fa"][pos], starts), "f0": np.maximum.reduceat(at["f0"][pos], starts),
+               "m_lo": np.minimum.reduceat(at["m"][pos], starts), "j": np.minimum.reduceat(at["j"][pos], starts),
+               "cost": np.minimum.reduceat(at["cost"][pos], starts)}
+        return self.nodes.append(lo=lo, hi=hi, child=np.full(lo.size, -1), child2=np.full(lo.size, -1), **agg)
+
+    def size(self, nodes: np.ndarray) -> np.ndarray:
+        """Entries per node [-]."""
+        return self.nodes.hi[nodes] - self.nodes.lo[nodes]
+
+    def children(self, nodes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(first child, second child) of nodes of at least two entries, splitting those not split yet."""
+        new = np.unique(nodes[self.nodes.child[nodes] < 0])
+        if new.size:
+            self._arrange(new)
+            lo, hi = self.nodes.lo[new], self.nodes.hi[new]
+            mid = lo + (hi - lo) // 2
+            made = self._make(np.concatenate([lo, mid]), np.concatenate([mid, hi]))
+            self.nodes.child[new] = made[:new.size]
+            self.nodes.child2[new] = made[new.size:]
+        return self.nodes.child[nodes], self.nodes.child2[nodes]
+
+    def _arrange(self, nodes: np.ndarray) -> None:
+        """Order each node's entries by its attribute of largest relative spread (A, B or mass)."""
+        nd = self.nodes
+        lo, hi = nd.lo[nodes], nd.hi[nodes]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            pos = np.concatenate([self.perm[a:b] for a, b in zip(lo, hi, strict=True)])
+            owner = np.repeat(np.arange(nodes.size), hi - lo)
+            spread = []
+            for key in ("a", "b"):
+                v = self.attr[key][pos]
+                top = np.maximum.reduceat(v, np.concatenate([[0], np.cumsum(hi - lo)[:-1]]))
+                bot = np.minimum.reduceat(v, np.concatenate([[0], np.cumsum(hi - lo)[:-1]]))
+                spread.append(np.where(top > 0, (top - bot) / top, 0.0))
+            spread.append((nd.m_hi[nodes] - nd.m_lo[nodes]) / self.mass_ref)
+        pick = np.argmax(np.stack(spread), axis=0)  # 0: A, 1: B, 2: mass
+        value = np.choose(pick[owner], [self.attr["a"][pos], self.attr["b"][pos], self.attr["m"][pos]])
+        order = np.lexsort((pos, value, owner))  # ties in part order
+        sorted_pos = pos[order]
+        offset = 0
+        for a, b in zip(lo, hi, strict=True):
+            self.perm[a:b] = sorted_pos[offset:offset + (b - a)]
+            offset += b - a
+
+    def entries(self, node: int) -> np.ndarray:
+        """Entry positions of a node."""
+        return self.perm[self.nodes.lo[node]:self.nodes.hi[node]]
+
+    def envelope(self, nodes: np.ndarray, speeds_mps: np.ndarray) -> np.ndarray:
+        """min(A, B / v) of nodes at the speeds, (nodes, speeds) [N]."""
+        with np.errstate(divide="ignore"):
+            return np.minimum(self.nodes.a[nodes][:, None], self.nodes.b[nodes][:, None] / speeds_mps[None, :])
+
+    def extremes(self, nodes: np.ndarray) -> dict:
+        """Aggregates read by `TwoUnitSearch._group_conditions`: largest forces, least cost."""
+        nd = self.nodes
+        return {"f0": nd.f0[nodes], "cost": nd.cost[nodes], "fc": nd.fc[nodes], "fa": nd.fa[nodes]}
+
+
+def run_accel_blocks(search, tf, tr, front_ok: np.ndarray, rear_ok: np.ndarray):
+    """accel_time objective of a two-unit study (see the module docstring); returns `search._finish`."""
+    p = search.parts
+    v = p.problem.vehicle
+    radius = p.tyres.radius_m[search.tyres]
+    front = _Side(tf, front_ok, radius, v.mass_kg)
+    rear = front if (tf is tr and np.array_equal(front_ok, rear_ok)) else _Side(tr, rear_ok, radius, v.mass_kg)
+    speeds = search.nodes()
+    blocks = _Growing(col=np.int64, f=np.int64, r=np.int64)
+    heap: list[tuple[float, int]] = []
+    have = np.nonzero((front.root >= 0) & (rear.root >= 0))[0]
+    _push(search, front, rear, speeds, blocks, heap, have, front.root[have], rear.root[have], np.zeros(have.size))
+    status = "optimal"
+    rounds = 0
+    while heap:
+        kth = search.kth()
+        limit = kth + tie_tolerance(kth)
+        if heap[0][0] > limit:
+            break
+        if search.deadline is not None and time.perf_counter() > search.deadline:
+            status = "time_limit"
+            break
+        size = min(MAX_BATCH, FIRST_BATCH * 2 ** min(rounds, 10))
+        rounds += 1
+        taken, bounds = [], []
+        while heap and len(taken) < size and heap[0][0] <= limit:
+            b_val, b = heapq.heappop(heap)
+            taken.append(b)
+            bounds.append(b_val)
+        taken, bounds = np.array(taken), np.array(bounds)
+        search.stats["blocks"] += taken.size
+        col, fn, rn = blocks.col[taken], blocks.f[taken], blocks.r[taken]
+        nf, nr = front.size(fn), rear.size(rn)
+        leaf = nf * nr <= LEAF_PAIRS
+        if leaf.any():
+            _evaluate_leaves(search, tf, tr, front, rear, col[leaf], fn[leaf], rn[leaf], bounds[leaf])
+        inner = ~leaf
+        if inner.any():
+            _split(search, front, rear, speeds, blocks, heap, col[inner], fn[inner], rn[inner], bounds[inner])
+    return search._finish(status, heap[0][0] if heap else np.inf)
+
+
+def _split(search, front, rear, speeds, blocks, heap, col, fn, rn, parent_bound):
+    """Replace blocks by their children: both nodes halved when both hold several options, else the
+    larger one."""
+    nf, nr = front.size(fn), rear.size(rn)
+    both = (nf > 1) & (nr > 1)
+    f_only = ~both & (nf >= nr)
+    r_only = ~both & ~f_only
+    cols, fs, rs, pb = [], [], [], []
+    split_f = both | f_only
+    split_r = both | r_only
+    f1 = f2 = r1 = r2 = None
+    if split_f.any():
+        f1, f2 = front.children(fn[split_f])
+    if split_r.any():
+        r1, r2 = rear.children(rn[split_r])
+    fa = np.full((col.size, 2), -1, dtype=np.int64)
+    ra = np.full((col.size, 2), -1, dtype=np.int64)
+    fa[:, 0] = fa[:, 1] = fn
+    ra[:, 0] = ra[:, 1] = rn
+    if f1 is not None:
+        fa[split_f, 0], fa[split_f, 1] = f1, f2
+    if r1 is not None:
+        ra[split_r, 0], ra[split_r, 1] = r1, r2
+    for a in (0, 1):
+        for b in (0, 1):
+            # a block split on one side only has two children: (a, 0) for the front, (0, b) for the rear
+            use = both | (f_only & (b == 0)) | (r_only & (a == 0))
+            cols.append(col[use])
+            fs.append(fa[use, a])
+            rs.append(ra[use, b])
+            pb.append(parent_bound[use])
+    _push(search, front, rear, speeds, blocks, heap, np.concatenate(cols), np.concatenate(fs), np.concatenate(rs),
+          np.concatenate(pb))
+
+
+def _push(search, front, rear, speeds, blocks, heap, col, fn, rn, parent_bound):
+    """Bound new blocks (at least the parent's bound) and push those that can hold a design."""
+    if col.size == 0:
+        return
+    p = search.parts
+    v = p.problem.vehicle
+    fnd, rnd = front.nodes, rear.nodes
+    m_lo = v.mass_kg + fnd.m_lo[fn] + rnd.m_lo[rn] + v.tyre_count * p.tyres.mass_kg[search.tyres[col]]
+    possible = search._group_conditions(col, m_lo, front.extremes(fn), rear.extremes(rn))
+    keep = np.nonzero(possible)[0]
+    if keep.size == 0:
+        return
+    col, fn, rn, parent_bound = col[keep], fn[keep], rn[keep], parent_bound[keep]
+    bound = search.envelope_bounds(col, front.envelope(fn, speeds), fnd.m_lo[fn], fnd.m_hi[fn], fnd.j[fn],
+                                   rear.envelope(rn, speeds), rnd.m_lo[rn], rnd.m_hi[rn], rnd.j[rn])
+    bound = np.maximum(bound, parent_bound)
+    search.stats["refined"] += col.size
+    fin = np.isfinite(bound)
+    rows = blocks.append(col=col[fin], f=fn[fin], r=rn[fin])
+    for b_val, b in zip(bound[fin].tolist(), rows.tolist(), strict=True):
+        heapq.heappush(heap, (b_val, b))
+
+
+def _evaluate_leaves(search, tf, tr, front, rear, col, fn, rn, bound):
+    """Every design of small blocks: cheap necessary conditions, then the exact evaluation in order of
+    the block bounds, skipping designs whose exact-physics time bracket exceeds the pool's count-th best."""
+    fis, ris, kks, lbs = [], [], [], []
+    for c, f, r, b in zip(col.tolist(), fn.tolist(), rn.tolist(), bound.tolist(), strict=True):
+        fe, re = front.opt[front.entries(f)], rear.opt[rear.entries(r)]
+        fi, ri = (a.ravel() for a in np.meshgrid(fe, re, indexing="ij"))
+        fis.append(fi)
+        ris.append(ri)
+        kks.append(np.full(fi.size, c))
+        lbs.append(np.full(fi.size, b))
+    fi, ri, kk, lb = (np.concatenate(x) for x in (fis, ris, kks, lbs))
+    ok = search.conditions(tf, fi, tr, ri, kk)
+    if not ok.any():
+        return
+    keys = search._keys(tf, fi[ok], tr, ri[ok], kk[ok])
+    search._evaluate(keys, lb[ok], fine=search._point_bounds_staged)

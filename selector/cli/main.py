@@ -150,7 +150,7 @@ def _cmd_solve(args) -> int:
     study = open_study(args.problem)
     res = solve(study, time_limit_s=args.time_limit)
     if res["status"] == "infeasible":
-        combos = res["search"]["combinations"]
+        combos = study.parts.combinations  # two-unit studies: (units)^2 x tyres, the size explain enumerates
         if args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
             from selector.studies.explain import diagnose
 

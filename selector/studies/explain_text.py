@@ -168,5 +168,7 @@ def miss_text(r: dict) -> str:
         return (f"{r['name']}: never reaches {num(r['accel_to_kmh'])} km/h (its acceleration run ends at "
                 f"{num(r['reach_kmh'])} km/h, {r['reach_limit']} limit)")
     why = f"; {r['limited_by']} limits {r['name']}" if r.get("limited_by") else ""
-    return (f"{r['name']} {num(r['achieved'])} vs {num(r['required'])} {r['unit']} "
+    achieved, required = (distinct_numbers(r["achieved"], r["required"], digits=(4, 4))
+                          if r["achieved"] is not None else (num(None), num(r["required"])))
+    return (f"{r['name']} {achieved} vs {required} {r['unit']} "
             f"({num(r['shortfall_pct'])} % short{why})")

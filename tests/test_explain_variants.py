@@ -106,8 +106,9 @@ def test_two_unit_infeasible_diagnosis_names_the_rear_axle(tmp_path, capsys):
     assert diag["closest"]["units"] == c["units"] and diag["relaxation"] == res["relaxation"]
 
 
-def test_two_unit_feasible_requirement_rows_name_the_limiting_axle(tmp_path):
-    study = open_study(two_unit_study(tmp_path, launch=1.0))
+def test_two_unit_feasible_requirement_rows_name_the_limiting_axle(tmp_path, capsys):
+    path = two_unit_study(tmp_path, launch=1.0)
+    study = open_study(path)
     parts = study.parts
     res = explain(study)
     (best,) = enumerate_designs(parts, "cost")
@@ -118,6 +119,10 @@ def test_two_unit_feasible_requirement_rows_name_the_limiting_axle(tmp_path):
     # per-axle part-rating checks in the record
     assert {(c["name"], c["axle"]) for c in res["design"]["checks"]} >= {("reducer_torque_nm", "front"),
                                                                        ("reducer_torque_nm", "rear")}
+    # the table names both units and the limiting axle
+    assert run(["explain", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "front: M-SMALL + R-8 | rear: M-BIG + R-8 | tyre T-1" in out and "rear-axle traction" in out
 
 
 @pytest.mark.parametrize("seed", range(6))
@@ -212,7 +217,7 @@ def energy_study(tmp_path):
     return path
 
 
-def test_energy_price_of_range_and_designs_that_lose_on_energy(tmp_path):
+def test_energy_price_of_range_and_designs_that_lose_on_energy(tmp_path, capsys):
     study = open_study(energy_study(tmp_path))
     parts = study.parts
     req = parts.problem.requirements
@@ -240,6 +245,9 @@ def test_energy_price_of_range_and_designs_that_lose_on_energy(tmp_path):
     # the range row's price agrees with the energy section
     (rng,) = [r for r in res["requirements"] if r["name"] == "range_km"]
     assert rng["active"] is True and math.isclose(rng["price"]["dropped"]["saved"], p["saved"], rel_tol=1e-9)
+    # the CLI's JSON carries the same section
+    assert run(["explain", str(tmp_path / "problem.toml"), "--format", "json"]) == 0
+    assert json.loads(capsys.readouterr().out)["energy"] == e
 
 
 def test_energy_study_without_range_says_energy_is_not_priced(tmp_path):

@@ -268,8 +268,10 @@ def explain_infeasible(ctx: Context, reason: str | None, max_conflict_size: int 
         eparts = with_requirements(parts, dataclasses.replace(req0, accel_to_kmh=req0.speed_limiter_kmh))
     en = enumerate_shortfalls(eparts, allowed, ctx.objective, progress=ctx.progress)
     if en.keys.shape[0] == 0:
-        return _without_closest(out, "no design passes the part-rating checks (reducer torque and speed, tyre "
-                                     "speed symbol and load): no relaxation of the requirements helps; add parts")
+        cycle = ", and following the energy study's cycle" if parts.problem.energy is not None else ""
+        return _without_closest(out, f"no design passes the part-rating checks (reducer torque and speed, tyre "
+                                     f"speed symbol and load{cycle}): no relaxation of the requirements helps; "
+                                     "add parts")
     pos, total = closest_design(eparts, en, ctx.objective)
     out["conflicts"] = conflicts(ctx, en, max_size=max_conflict_size, base=eparts.problem.requirements)
     key = en.keys[pos]

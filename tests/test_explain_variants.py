@@ -255,3 +255,21 @@ def test_energy_study_without_range_says_energy_is_not_priced(tmp_path):
     assert gen.problem.requirements.range_km is None  # construction (seed 2 draws no range)
     res = explain(open_study(gen.problem_path))
     assert res["energy"]["price_of_range"] is None and "no range_km" in res["energy"]["note"]
+
+
+# ------------------------------------------------------------------------------ reach speed, two ways
+
+@pytest.mark.parametrize("seed", [4, 7])
+def test_reach_speed_by_bisection_agrees_with_the_closed_form(seed, tmp_path):
+    # single-unit single-speed designs: the closed form (first end speed of the run) and the bisection
+    # on the integrator's verdict, used for two units and gearboxes, find the same speed
+    from selector.studies.explain_common import _reach_bisect, _reach_closed_form
+
+    gen = random_study(seed, tmp_path, sizes=((3, 4), (3, 4), (2, 2)), objective="cost")
+    parts = gen.parts
+    n_m, n_r, n_t = parts.sizes
+    mi, rj, tk = (a.ravel() for a in np.meshgrid(np.arange(n_m), np.arange(n_r), np.arange(n_t), indexing="ij"))
+    keys = parts.single_keys(mi, rj, tk)
+    closed, _ = _reach_closed_form(parts, keys, None)
+    bisect, _ = _reach_bisect(parts, keys, None)
+    assert np.allclose(bisect, closed, rtol=1e-6, atol=1e-6)

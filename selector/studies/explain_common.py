@@ -274,7 +274,8 @@ def reach_speed_kmh(parts: PartTables, keys, mass_kg=None) -> tuple[np.ndarray, 
     (speeds [km/h], limits: one of `REACH_LIMITS` per design)
     """
     keys = np.atleast_2d(np.asarray(keys, dtype=np.int64))
-    multi = (parts.reducers.n_gears[np.maximum(keys[:, [1, 3]], 0)] > 1).any()
+    present = keys[:, [0, 2]] >= 0
+    multi = (present & (parts.reducers.n_gears[np.maximum(keys[:, [1, 3]], 0)] > 1)).any()
     if parts.two_units or multi:
         return _reach_bisect(parts, keys, mass_kg)
     return _reach_closed_form(parts, keys, mass_kg)

@@ -65,7 +65,10 @@ def oracle(parts, req: Requirements, objective: str):
 
 
 def ids(parts, d) -> dict:
-    return {"motor": parts.motors.part[d[1]], "reducer": parts.reducers.part[d[2]], "tyre": parts.tyres.part[d[3]]}
+    """Part ids of a single-unit design (value, motor, reducer, tyre), as explain's design dicts show them."""
+    motor, reducer = str(parts.motors.part[d[1]]), str(parts.reducers.part[d[2]])
+    return {"motor": motor, "reducer": reducer, "tyre": str(parts.tyres.part[d[3]]),
+            "units": [{"axle": parts.axles[0], "motor": motor, "reducer": reducer}]}
 
 
 def all_designs(parts):
@@ -109,7 +112,7 @@ def test_active_requirement_and_price_match_enumeration(tmp_path, name, level, o
 
     # the optimum is the enumeration optimum (source: exhaustive enumeration)
     opt = oracle(parts, base, objective)
-    assert {k: res["design"][k] for k in ("motor", "reducer", "tyre")} == ids(parts, opt)
+    assert {k: res["design"][k] for k in ("motor", "reducer", "tyre", "units")} == ids(parts, opt)
     assert math.isclose(res["objective"]["value"], opt[0], rel_tol=1e-9)
 
     rows = {r["name"]: r for r in res["requirements"]}
@@ -318,7 +321,7 @@ def test_demo_problems_explain(path, capsys):
         assert {"name", "required", "achieved", "unit", "margin", "margin_pct", "binding", "active"} <= set(r)
         for how in ("dropped", "loosened"):
             p = r["price"][how]
-            assert p["saved"] >= 0 and set(p["design"]) == {"motor", "reducer", "tyre"}
+            assert p["saved"] >= 0 and set(p["design"]) == {"motor", "reducer", "tyre", "units"}
         # active <=> dropping it changes the design or saves something
         assert r["active"] == (r["price"]["dropped"]["changes_design"] or r["price"]["dropped"]["saved"] > 0)
 

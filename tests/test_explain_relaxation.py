@@ -35,6 +35,7 @@ from selector.engine.evaluate import enumerate_designs, evaluate
 from selector.physics import performance as perf
 from selector.requirements import BY_NAME, CHECK_LIMIT_METRIC, CHECKS, passes, stated
 from selector.studies import explain as explain_mod
+from selector.studies import explain_relax
 from selector.studies.explain import explain, loosens, with_requirements
 from selector.units import G_N, kmh_to_mps
 
@@ -104,7 +105,8 @@ def check_confirmed(study, res, objective):
 # ------------------------------------------------------------------------------ ice: traction limits the run
 
 def test_ice_relaxation_lowers_the_target_and_is_confirmed(tmp_path, capsys):
-    path = write_problem(tmp_path, {"accel_to_kmh": 120.0, "accel_time_s": 12.0})
+    friction = 0.07
+    path = write_problem(tmp_path, {"accel_to_kmh": 120.0, "accel_time_s": 12.0}, friction=friction)
     study = open_study(path)
     parts = study.parts
     ids, m = all_designs(parts)
@@ -114,7 +116,7 @@ def test_ice_relaxation_lowers_the_target_and_is_confirmed(tmp_path, capsys):
     # traction closed form (derived here): the run ends where mu W_front = m g Crr + 0.5 rho CdA v^2
     crr = np.array([CRR[t] for t in parts.tyres.part[ids[2]]])
     w_front = m["mass_kg"] * G_N * (1.0 - m["rear_axle_share"])
-    v_trac = 3.6 * np.sqrt((0.07 * w_front - m["mass_kg"] * G_N * crr) / (0.5 * RHO * CDA))
+    v_trac = 3.6 * np.sqrt((friction * w_front - m["mass_kg"] * G_N * crr) / (0.5 * RHO * CDA))
     end = run_end_kmh(parts, *ids)
     assert np.allclose(end, np.minimum(v_trac, m["max_speed_kmh"]), rtol=1e-9)
     assert end.max() < 120.0
@@ -160,6 +162,24 @@ def test_ice_relaxation_lowers_the_target_and_is_confirmed(tmp_path, capsys):
     assert run(["explain", str(path), "--format", "json"]) == 0
     cli = json.loads(capsys.readouterr().out)
     assert cli["relaxation"] == res["relaxation"] and cli["relaxation_verified"] is True
+
+
+@pytest.mark.parametrize("objective", ["cost", "accel_time"])
+def test_ice_at_0_08_reaching_the_target_too_slowly(tmp_path, objective):
+    # road_friction 0.08 (the reported case): traction lets some designs reach 120 km/h, but only after
+    # minutes, far beyond 12 s; every option must loosen (accel_to_kmh lowered or accel_time_s raised,
+    # never a higher target) and the chosen one is confirmed by exhaustive enumeration
+    path = write_problem(tmp_path, {"accel_to_kmh": 120.0, "accel_time_s": 12.0}, objective, friction=0.08)
+    study = open_study(path)
+    ids, m = all_designs(study.parts)
+    assert np.isfinite(m["accel_time_s"]).any() and np.nanmin(m["accel_time_s"]) > 12.0  # construction
+    assert not oracle_feasible(study.parts, study.parts.problem.requirements, objective)
+    res = explain(study)
+    assert res["status"] == "infeasible"
+    check_confirmed(study, res, objective)
+    for o in res["relaxation_options"]:
+        assert o["relaxation"].get("accel_to_kmh", 120.0) <= 120.0
+        assert o["relaxation"].get("accel_time_s", 12.0) >= 12.0
 
 
 VARIANTS = [("cost", True), ("mass", True), ("accel_time", True), ("accel_time", False)]
@@ -250,7 +270,7 @@ def test_unconfirmed_candidates_get_one_looser_retry_then_an_explicit_note(tmp_p
         tried.append(dict(relax))
         return {"relaxation": dict(relax), "verified": False, "relaxed_optimum": None}
 
-    monkeypatch.setattr(explain_mod, "_try_relaxation", refuse)
+    monkeypatch.setattr(explain_relax, "try_relaxation", refuse)
     res = explain(study)
     assert len(tried) == 3 and [o["relaxation"] for o in res["relaxation_options"]] == tried
     first, last = tried[0], tried[-1]

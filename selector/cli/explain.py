@@ -35,7 +35,17 @@ def _relax(relax: dict) -> str:
 
 
 def _ids(d) -> str:
-    return "-" if d is None else f"{d['motor']} + {d['reducer']} + {d['tyre']}"
+    from selector.studies.explain_text import design_text
+
+    return design_text(d)
+
+
+def _parts(d: dict) -> str:
+    """Parts of the optimum: the record's parts table, or one row per unit and the tyre (two units)."""
+    if "parts" in d:
+        return parts_table(d)
+    rows = [[u["axle"], u["motor"], u["reducer"]] for u in d["units"]] + [["tyre", d["tyre"], ""]]
+    return table(["slot", "motor / tyre", "reducer"], rows, "lll")
 
 
 def render_feasible(res: dict) -> str:
@@ -44,13 +54,14 @@ def render_feasible(res: dict) -> str:
     d = res["design"]
     unit = obj["unit"]
     lines = [f"optimum: {_ids(d)}   minimise {obj['minimize']}: {fmt(obj['value'])} {unit}", "",
-             parts_table(d), "", "Requirements at the optimum"]
+             _parts(d), "", "Requirements at the optimum"]
     rows = []
     for r in res["requirements"]:
         rows.append([r["name"], r["sense"], fmt(r["required"]), fmt(r["achieved"]), r["unit"], fmt(r["margin"]),
-                     fmt(r["margin_pct"], 3), "yes" if r["binding"] else "", "yes" if r["active"] else ""])
+                     fmt(r["margin_pct"], 3), "yes" if r["binding"] else "", "yes" if r["active"] else "",
+                     r.get("limited_by", "")])
     lines.append(table(["requirement", "sense", "required", "achieved", "unit", "margin", "margin %",
-                        "binding", "active"], rows, "llrrlrrll"))
+                        "binding", "active", "limited by"], rows, "llrrlrrlll"))
     defs = res["definitions"]
     lines.append(f"binding: {defs['binding']}.  active: {defs['active']}.")
     lines += ["", f"Price of each requirement (objective {obj['minimize']} [{unit}]; "
@@ -93,12 +104,14 @@ def render_infeasible(res: dict) -> str:
         lines.append(res.get("closest_note", "no closest design"))
     else:
         lines.append(f"Closest design (least sum of normalised shortfalls): {_ids(c)}")
-        lines.append(table(["requirement", "sense", "required", "achieved", "unit", "shortfall", "shortfall %"],
+        lines.append(table(["requirement", "sense", "required", "achieved", "unit", "shortfall", "shortfall %",
+                            "limited by"],
                            [[r["name"] + (f" (to {fmt(r['accel_to_kmh'])} km/h)"
                                           if r["name"] == "accel_time_s" else ""),
                              r["sense"], fmt(r["required"]), fmt(r["achieved"]), r["unit"],
-                             fmt(r["shortfall"]), fmt(r["shortfall_pct"], 3)] for r in c["shortfalls"]],
-                           "llrrlrr"))
+                             fmt(r["shortfall"]), fmt(r["shortfall_pct"], 3), r.get("limited_by", "")]
+                            for r in c["shortfalls"]],
+                           "llrrlrrl"))
         for r in c["shortfalls"]:
             if "reach_kmh" in r and not r["met"] and (r["name"] == "accel_to_kmh" or r["achieved"] is None):
                 lines.append(f"{r['name']}: never reaches {fmt(r['accel_to_kmh'])} km/h; its acceleration run ends at "

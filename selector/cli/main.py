@@ -179,10 +179,9 @@ def _cmd_solve(args) -> int:
     study = open_study(args.problem)
     res = solve(study, time_limit_s=args.time_limit)
     if res["status"] == "infeasible":
-        combos = res["search"]["combinations"]
-        if study.parts.two_units:  # the closest-design search is single-axle: leave it to `selector explain`
-            res["diagnosis"] = {"summary": ["diagnosis skipped (a two-unit study): run `selector explain` for it"]}
-        elif args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
+        combos = study.parts.combinations  # two-unit studies: (units)^2 x tyres, the size explain enumerates
+        limit = DIAGNOSE_MAX_ENERGY if study.parts.problem.energy is not None else DIAGNOSE_MAX_COMBINATIONS
+        if args.time_limit is None and combos <= limit:
             from selector.studies.explain import diagnose
 
             res["diagnosis"] = diagnose(study, res.get("reason"))
@@ -199,6 +198,8 @@ def _cmd_solve(args) -> int:
 
 DIAGNOSE_MAX_COMBINATIONS = 2_000_000
 """solve diagnoses an infeasible study (an exhaustive closest-design search) up to this size [-]."""
+DIAGNOSE_MAX_ENERGY = 20_000
+"""The same for energy studies, whose every design is simulated over the whole driving cycle [-]."""
 
 COMMANDS = {
     "check": (_setup_check, _cmd_check, "validate a problem file and its catalogues"),

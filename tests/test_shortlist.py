@@ -90,6 +90,7 @@ def studies(tmp_path_factory):
 
 # ------------------------------------------------------------------------------------ exactness
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 @pytest.mark.parametrize("distinct", [None, "motor", "reducer", "tyre"])
 def test_shortlist_equals_enumeration(studies, distinct, monkeypatch):
     calls = []

@@ -45,6 +45,8 @@ class Study:
     filter_notes: tuple[str, ...] = ()
     catalogs: Catalogs | None = None
     """The validated catalogues the part tables were built from (sweeps rebuild the tables per point)."""
+    problem_dict: dict | None = None
+    """The problem dict of `from_frames` (None for a file): what a sweep reads instead of the file."""
 
     @property
     def problem(self) -> Problem:
@@ -83,7 +85,7 @@ class Study:
         from selector.frames import load_frames
 
         prob, catalogs = load_frames(motors, reducers, tyres, problem, base_dir)
-        return _build_study(prob, catalogs, procurement)
+        return replace(_build_study(prob, catalogs, procurement), problem_dict=dict(problem))
 
 
 def open_study(path: str | os.PathLike, procurement: Procurement | None = None) -> Study:

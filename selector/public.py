@@ -201,7 +201,7 @@ def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], wor
     if study.catalogs is None:
         raise InputError("study: has no catalogues attached; make it with open_study or Study.from_frames.")
     return SweepResult(sweep_problem(study.problem, study.catalogs, vary, workers=workers, scheduler=scheduler,
-                                     progress=progress))
+                                     progress=progress, source=study.problem_dict))
 
 
 def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: int = 1,

@@ -203,6 +203,30 @@ def test_from_frames_problem_dict_errors():
         selector.Study.from_frames([], frames["reducers"], frames["tyres"], problem)
 
 
+def test_from_frames_sweep_keeps_the_dicts_fixed_isa_value_as_a_file_does(tmp_path):
+    # the file loader is the reference: the same tables written as a problem file sweep identically
+    frames, problem = demo_frames()
+    problem["environment"] = {"altitude_m": 1000.0, "temperature_c": 30.0, "road_friction": 0.8}
+    memory = selector.Study.from_frames(**frames, problem=problem, base_dir=ROOT / "catalogs")
+    cat = ROOT / "catalogs"
+    text = (van_text_without_environment()
+            .replace('"../catalogs/', f'"{cat.as_posix()}/')
+            + "\n[environment]\naltitude_m = 1000.0\ntemperature_c = 30.0\nroad_friction = 0.8\n")
+    (tmp_path / "van.toml").write_text(text, encoding="utf-8")
+    on_file = selector.open_study(tmp_path / "van.toml")
+    vary = {"environment.altitude_m": [0.0, 2000.0]}
+    a, b = selector.sweep(memory, vary, workers=1), selector.sweep(on_file, vary, workers=1)
+    assert a.to_dict()["rows"] == b.to_dict()["rows"]
+    assert "temperature_c = 30" in a.to_dict()["notes"][0] and "problem dict" in a.to_dict()["notes"][0]
+
+
+def van_text_without_environment() -> str:
+    """The demo problem file's text without its [environment] table."""
+    text = Path(VAN).read_text(encoding="utf-8")
+    head, _, rest = text.partition("[environment]")
+    return head + rest[rest.index("\n["):] if "\n[" in rest else head
+
+
 # ----------------------------------------------------------------------------- parameter names
 
 def test_library_errors_name_parameters_and_cli_names_flags(van, capsys):

@@ -181,18 +181,23 @@ def apply_overrides(problem: Problem, overrides: dict) -> Problem:
                    procurement=replace(problem.procurement, **tables["procurement"]))
 
 
-def file_isa_context(problem: Problem, keys) -> dict:
+def file_isa_context(problem: Problem, keys, source: dict | None = None) -> dict:
     """Fixed ISA values from the problem file to add to every point when one ISA key is swept.
 
-    Sweeping ``altitude_m`` keeps the file's ``temperature_c`` (if any) and vice versa.
+    Sweeping ``altitude_m`` keeps the file's ``temperature_c`` (if any) and vice versa. ``source``:
+    the problem's tables as a dict (a study from in-memory data), read instead of the file.
     """
     swept = [k for k in ISA_KEYS if k in keys]
-    if not swept or problem.path is None:
+    if not swept or (problem.path is None and source is None):
         return {}
-    try:
-        env = tomllib.loads(Path(problem.path).read_text(encoding="utf-8-sig")).get("environment", {})
-    except (OSError, tomllib.TOMLDecodeError):  # the file was read and validated a moment ago
-        return {}
+    if source is not None:
+        env = source.get("environment", {})
+        env = env if isinstance(env, dict) else {}
+    else:
+        try:
+            env = tomllib.loads(Path(problem.path).read_text(encoding="utf-8-sig")).get("environment", {})
+        except (OSError, tomllib.TOMLDecodeError):  # the file was read and validated a moment ago
+            return {}
     out = {}
     for k in ISA_KEYS:
         name = k.split(".", 1)[1]
@@ -409,7 +414,7 @@ def sweep(problem_path, vary, workers: int | None = None, scheduler: str | None 
 
 
 def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | None = None,
-                  scheduler: str | None = None, progress: bool = False) -> dict:
+                  scheduler: str | None = None, progress: bool = False, source: dict | None = None) -> dict:
     """Run a sweep of a loaded problem and its catalogues; the JSON-ready result (as `sweep`).
 
     Parameters
@@ -426,6 +431,8 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
         Address of a Dask scheduler, e.g. ``tcp://host:8786``.
     progress : bool
         Show a progress bar on stderr.
+    source : dict, optional
+        The problem's tables as a dict when it came from memory (see `file_isa_context`).
     """
     from selector.api import OBJECTIVE_UNITS, header
     from selector.engine.parts import PartTables
@@ -433,12 +440,13 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
     varies = parse_varies(vary) if not (isinstance(vary, list) and vary and isinstance(vary[0], tuple)) else vary
     validate(problem, varies)
     keys = [k for k, _ in varies]
-    context = file_isa_context(problem, keys)
+    context = file_isa_context(problem, keys, source)
     notes = []
     if any(k in keys for k in ISA_KEYS):
+        origin = "file" if source is None else "problem dict"
+        fixed = ", ".join(f"{k} = {v:g}" for k, v in context.items())
         notes.append("air density from the ISA at each point's altitude / temperature" +
-                     (f" (fixed from the file: {', '.join(f'{k} = {v:g}' for k, v in context.items())})"
-                      if context else ""))
+                     (f" (fixed from the {origin}: {fixed})" if context else ""))
     points = grid(varies)
     run_pts = [{**pt, **context} for pt in points]
     rows, runner = run_points(problem, catalogs, run_pts, workers=workers, scheduler=scheduler, progress=progress)

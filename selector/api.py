@@ -7,6 +7,7 @@ here has been verified by `verify.verify_designs`.
 from __future__ import annotations
 
 import difflib
+import os
 import warnings
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -19,11 +20,13 @@ from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, feasible
 from selector.engine.parts import PartTables
 from selector.engine.verify import design_keys, verify_designs
 from selector.errors import InputError
-from selector.inputs import Procurement
+from selector.inputs import Catalogs, Problem, Procurement
 from selector.io.problem import load_study
 from selector.records import BINDING_RULE, CAUTION, as_design, clean, design_record, fmt
 
 if TYPE_CHECKING:
+    import pandas as pd
+
     from selector.engine.search import SearchResult
 
 OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s", "energy": "Wh/km"}
@@ -31,22 +34,86 @@ OBJECTIVE_UNITS = {"cost": "currency", "mass": "kg", "accel_time": "s", "energy"
 
 @dataclass(frozen=True)
 class Study:
-    """A loaded study: its part tables and the procurement filter (allowed part positions)."""
+    """A loaded study: its part tables and the procurement filter (allowed part positions).
+
+    Make one with `open_study` (a problem file) or `Study.from_frames` (in-memory tables).
+    """
 
     parts: PartTables
     allowed: dict
     """{"motors"|"reducers"|"tyres": np.ndarray of allowed positions}."""
     filter_notes: tuple[str, ...] = ()
+    catalogs: Catalogs | None = None
+    """The validated catalogues the part tables were built from (sweeps rebuild the tables per point)."""
+    problem_dict: dict | None = None
+    """The problem dict of `from_frames` (None for a file): what a sweep reads instead of the file."""
+
+    @property
+    def problem(self) -> Problem:
+        """The validated problem (`selector.inputs.Problem`)."""
+        return self.parts.problem
+
+    @classmethod
+    def from_frames(cls, motors: pd.DataFrame, reducers: pd.DataFrame, tyres: pd.DataFrame, problem: dict,
+                    procurement: Procurement | None = None, base_dir: str | os.PathLike | None = None) -> Study:
+        """A study from in-memory catalogues and a problem dict, validated exactly as files are.
+
+        Parameters
+        ----------
+        motors, reducers, tyres : pandas.DataFrame
+            One row per orderable part with the columns of the CSV catalogues (units in the column
+            names, e.g. ``peak_torque_nm`` [N m], ``unit_cost`` [currency]); NaN or None = empty cell.
+        problem : dict
+            The problem file's tables without ``catalogs``, e.g. ``{"vehicle": {"mass_kg": 2400, ...},
+            "requirements": {"top_speed_kmh": 110}}`` (units in the key names).
+        procurement : Procurement, optional
+            Overrides of the problem's ``procurement`` table (fields that are set).
+        base_dir : str or os.PathLike, optional
+            Folder that relative paths in the data (``efficiency_map``, a cycle file) are relative
+            to; default: the working directory.
+
+        Returns
+        -------
+        Study
+
+        Raises
+        ------
+        InputError
+            Every problem found, naming the frame, row (index label), part id and column, or the
+            problem dict's table and key.
+        """
+        from selector.frames import load_frames
+
+        prob, catalogs = load_frames(motors, reducers, tyres, problem, base_dir)
+        return replace(_build_study(prob, catalogs, procurement), problem_dict=dict(problem))
 
 
-def open_study(path, procurement: Procurement | None = None) -> Study:
+def open_study(path: str | os.PathLike, procurement: Procurement | None = None) -> Study:
     """Load and validate a problem file and its catalogues, then apply procurement filters.
 
-    ``procurement`` overrides the problem file's [procurement] table where its fields are set.
+    Parameters
+    ----------
+    path : str or os.PathLike
+        Problem file (TOML); its catalogue paths are relative to it.
+    procurement : Procurement, optional
+        Overrides of the problem file's [procurement] table (the fields that are set).
+
+    Returns
+    -------
+    Study
+
+    Raises
+    ------
+    InputError
+        Naming the file, line or row, key or column, what is wrong and what to do.
     """
     with warnings.catch_warnings():
         warnings.simplefilter("default")
         problem, catalogs = load_study(path)
+    return _build_study(problem, catalogs, procurement)
+
+
+def _build_study(problem: Problem, catalogs: Catalogs, procurement: Procurement | None) -> Study:
     if procurement is not None:
         base = problem.procurement
         procurement = Procurement(
@@ -56,7 +123,7 @@ def open_study(path, procurement: Procurement | None = None) -> Study:
                                  else base.max_lead_time_weeks))
         problem = replace(problem, procurement=procurement)
     parts = PartTables.build(problem, catalogs)
-    return Study(parts, *procurement_filter(parts))
+    return Study(parts, *procurement_filter(parts), catalogs=catalogs)
 
 
 def procurement_filter(parts: PartTables) -> tuple[dict, tuple[str, ...]]:

@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 from ambiance import CONST, Atmosphere
+from conftest import assert_table
 
 from selector.physics.atmosphere import (
     R_AIR_J_KG_K,
@@ -53,15 +54,21 @@ def test_geopotential_rows(h_m, t_k, p_pa, rho):
     assert isa_density_kg_m3(h_m) == pytest.approx(rho, abs=5e-6)
 
 
-@pytest.mark.parametrize("h_geometric_m", [0.0, 250.0, 1000.0, 2000.0, 3000.0, 4500.0, 8000.0, 11000.0])
-def test_against_ambiance(h_geometric_m):
+AMBIANCE_HEIGHTS_M = [0.0, 250.0, 1000.0, 2000.0, 3000.0, 4500.0, 8000.0, 11000.0]
+
+
+def test_against_ambiance():
     # ISA, ICAO Doc 7488, via ambiance (geometric input, converted to geopotential for selector).
     # Same constants and formula: agreement to floating-point rounding (rel 1e-9).
-    atm = Atmosphere(h_geometric_m)
-    h = geopotential_m(h_geometric_m)
-    assert isa_temperature_k(h) == pytest.approx(float(atm.temperature[0]), rel=1e-9)
-    assert isa_pressure_pa(h) == pytest.approx(float(atm.pressure[0]), rel=1e-9)
-    assert isa_density_kg_m3(h) == pytest.approx(float(atm.density[0]), rel=1e-9)
+    def h(row):
+        return geopotential_m(row)
+
+    def oracle(what):
+        return lambda row: pytest.approx(float(getattr(Atmosphere(row), what)[0]), rel=1e-9)
+
+    assert_table(AMBIANCE_HEIGHTS_M, lambda r: isa_temperature_k(h(r)), oracle("temperature"), "temperature [K]")
+    assert_table(AMBIANCE_HEIGHTS_M, lambda r: isa_pressure_pa(h(r)), oracle("pressure"), "pressure [Pa]")
+    assert_table(AMBIANCE_HEIGHTS_M, lambda r: isa_density_kg_m3(h(r)), oracle("density"), "density [kg/m^3]")
 
 
 def test_geometric_vs_geopotential_differs_as_documented():

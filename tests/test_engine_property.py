@@ -80,6 +80,7 @@ def compare(seed: int, directory: Path, count: int = 1):
     return True, bad
 
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 @pytest.mark.parametrize("batch", range(BATCHES), ids=[f"batch{b}-seeds{seeds(b)[0]}-{seeds(b)[-1]}"
                                                       for b in range(BATCHES)])
 def test_engine_equals_enumeration(batch, tmp_path):
@@ -93,6 +94,7 @@ def test_engine_equals_enumeration(batch, tmp_path):
     assert 0.3 * PER_BATCH <= feasible <= 0.95 * PER_BATCH, f"{feasible}/{PER_BATCH} feasible"
 
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 @pytest.mark.parametrize("batch", range(BATCHES), ids=[f"batch{b}-top3" for b in range(BATCHES)])
 def test_engine_top3_equals_enumeration(batch, tmp_path):
     bad = []

@@ -104,6 +104,7 @@ def check_confirmed(study, res, objective):
 
 # ------------------------------------------------------------------------------ ice: traction limits the run
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 def test_ice_relaxation_lowers_the_target_and_is_confirmed(tmp_path, capsys):
     friction = 0.07
     path = write_problem(tmp_path, {"accel_to_kmh": 120.0, "accel_time_s": 12.0}, friction=friction)
@@ -185,6 +186,7 @@ def test_ice_at_0_08_reaching_the_target_too_slowly(tmp_path, objective):
 VARIANTS = [("cost", True), ("mass", True), ("accel_time", True), ("accel_time", False)]
 
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 @pytest.mark.parametrize("objective,with_time", VARIANTS, ids=[f"{o}{'' if t else '-no-time'}" for o, t in VARIANTS])
 def test_same_diagnosis_whatever_the_objective(tmp_path, objective, with_time, capsys):
     reqs = {"accel_to_kmh": 120.0, "top_speed_kmh": 150.0}
@@ -295,6 +297,7 @@ def _low_friction_study(seed: int, directory: Path, objective: str):
     return open_study(st.problem_path)
 
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 @pytest.mark.parametrize("seed", range(16))
 def test_random_slippery_studies(seed, tmp_path):
     seen, with_time = {}, []

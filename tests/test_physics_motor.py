@@ -14,6 +14,7 @@ from __future__ import annotations
 import numpy as np
 import pint
 import pytest
+from conftest import assert_table, printed
 from scipy.optimize import brentq
 
 from selector.physics.motor import envelope_torque_nm, wheel_force_n
@@ -23,12 +24,6 @@ from selector.units import mps_to_kmh, rad_s_to_rpm
 UREG = pint.UnitRegistry()
 Q_ = UREG.Quantity
 EXACT = 1e-12  # exact arithmetic, floating-point rounding only
-
-
-def printed(text: str):
-    """pytest.approx for a table value printed as ``text``: half a unit in the last printed digit."""
-    decimals = len(text.split(".")[1]) if "." in text else 0
-    return pytest.approx(float(text), rel=0.0, abs=0.5 * 10.0 ** (-decimals))
 
 
 def rpm(n):
@@ -51,7 +46,7 @@ def make_drive(**kw) -> Drive:
 ENV = dict(torque_nm=300.0, power_w=100e3, decline_rad_s=1000.0, max_speed_rad_s=1500.0)
 
 
-@pytest.mark.parametrize("w, k, torque", [
+ENVELOPE_ROWS = [
     (0.0, 1.0, 300.0),               # standstill: torque branch (P/w -> inf)
     (200.0, 1.0, 300.0),             # below corner 1e5/300 = 333.3 rad/s
     (1e5 / 300.0, 1.0, 300.0),       # at the corner P/T both branches give 300
@@ -62,10 +57,13 @@ ENV = dict(torque_nm=300.0, power_w=100e3, decline_rad_s=1000.0, max_speed_rad_s
     (1250.0, 1.5, 1e5 * 0.8 ** 1.5 / 1250.0),  # = 57.2433..., k = 1.5
     (1500.0, 1.0, 1e5 * (1000.0 / 1500.0) / 1500.0),  # at w_max still available: 44.444...
     (1500.1, 1.0, 0.0),              # above w_max: nothing
-])
-def test_envelope_torque(w, k, torque):
+]
+
+
+def test_envelope_torque():
     # envelope definition, hand-derived values (see comment per row)
-    assert float(envelope_torque_nm(w, decline_exponent=k, **ENV)) == pytest.approx(torque, rel=EXACT, abs=1e-12)
+    assert_table(ENVELOPE_ROWS, lambda r: float(envelope_torque_nm(r[0], decline_exponent=r[1], **ENV)),
+                 lambda r: pytest.approx(r[2], rel=EXACT, abs=1e-12), "envelope torque [N m]")
 
 
 def test_envelope_power_is_flat_between_corner_and_decline():

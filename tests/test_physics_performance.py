@@ -22,6 +22,7 @@ import math
 
 import numpy as np
 import pytest
+from conftest import printed
 from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
@@ -51,12 +52,6 @@ CLOSED_REL = 1e-9
 ROOT_REL = 1e-10
 # ^ brentq with xtol 1e-13 / rtol 4 eps and the code's cubic root / Newton iteration both reach ~1e-14;
 #   1e-10 allows for the conditioning of a flat crossing.
-
-
-def printed(text: str):
-    """pytest.approx for a table value printed as ``text``: half a unit in the last printed digit."""
-    decimals = len(text.split(".")[1]) if "." in text else 0
-    return pytest.approx(float(text), rel=0.0, abs=0.5 * 10.0 ** (-decimals))
 
 
 # ============================================================================ designs
@@ -261,7 +256,7 @@ def test_accel_time_vectorised_over_designs():
     stacked = {k: np.array([p[k] for p in ps]) for k in BASE}
     drive, body = build(stacked)
     got = accel_time_s(drive, body, targets, chunk=4)
-    expected = [ivp_accel_time(p, t) for p, t in zip(ps, targets)]
+    expected = [ivp_accel_time(p, t) for p, t in zip(ps, targets, strict=True)]
     np.testing.assert_allclose(got, expected, rtol=IVP_REL)
 
 

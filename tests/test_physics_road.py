@@ -15,6 +15,7 @@ import math
 
 import numpy as np
 import pytest
+from conftest import assert_table, printed
 
 from selector.physics.road import (
     aero_coefficient_n_s2_m2,
@@ -25,12 +26,6 @@ from selector.physics.road import (
 from selector.units import G_N, kmh_to_mps
 
 RHO_SEA_LEVEL = 1.225  # ISA sea-level density [kg/m^3] (ICAO Doc 7488; ambiance CONST)
-
-
-def printed(text: str):
-    """pytest.approx for a table value printed as ``text``: half a unit in the last printed digit."""
-    decimals = len(text.split(".")[1]) if "." in text else 0
-    return pytest.approx(float(text), rel=0.0, abs=0.5 * 10.0 ** (-decimals))
 
 
 # ------------------------------------------------------------------------- grade trigonometry
@@ -52,29 +47,21 @@ GRADE_ROWS = [
 ]
 
 
-@pytest.mark.parametrize("grade, deg, sin_t, cos_t", GRADE_ROWS)
-def test_grade_angle_degrees(grade, deg, sin_t, cos_t):
-    # grade table above, theta = atan(p) (computed, Python math library)
-    assert math.degrees(float(grade_angle_rad(grade))) == printed(deg)
+def test_grade_angle_table():
+    # grade table above: theta = atan(p) in degrees, sin(theta), cos(theta) (standard trigonometry)
+    def angle(r):
+        return float(grade_angle_rad(r[0]))
+
+    assert_table(GRADE_ROWS, lambda r: math.degrees(angle(r)), lambda r: printed(r[1]), "theta [deg]")
+    assert_table(GRADE_ROWS, lambda r: math.sin(angle(r)), lambda r: printed(r[2]), "sin theta")
+    assert_table(GRADE_ROWS, lambda r: math.cos(angle(r)), lambda r: printed(r[3]), "cos theta")
 
 
-@pytest.mark.parametrize("grade, deg, sin_t, cos_t", GRADE_ROWS)
-def test_grade_angle_sine(grade, deg, sin_t, cos_t):
-    # grade table above, sin(theta) (standard trigonometry)
-    assert math.sin(float(grade_angle_rad(grade))) == printed(sin_t)
-
-
-@pytest.mark.parametrize("grade, deg, sin_t, cos_t", GRADE_ROWS)
-def test_grade_angle_cosine(grade, deg, sin_t, cos_t):
-    # grade table above, cos(theta) (standard trigonometry)
-    assert math.cos(float(grade_angle_rad(grade))) == printed(cos_t)
-
-
-@pytest.mark.parametrize("deg, grade", [(5, "8.749"), (10, "17.633"), (15, "26.795"), (20, "36.397"),
-                                        (30, "57.735"), (45, "100")])
-def test_grade_from_angle(deg, grade):
+def test_grade_from_angle():
     # inverse: 5 deg = 8.749 % ... 45 deg = 100 %, p = tan(theta) (standard trigonometry)
-    assert float(grade_pct_from_angle(math.radians(deg))) == printed(grade)
+    rows = [(5, "8.749"), (10, "17.633"), (15, "26.795"), (20, "36.397"), (30, "57.735"), (45, "100")]
+    assert_table(rows, lambda r: float(grade_pct_from_angle(math.radians(r[0]))), lambda r: printed(r[1]),
+                 "grade from angle [%]")
 
 
 def test_grade_angle_is_vectorised_and_inverts():
@@ -110,18 +97,19 @@ def test_worked_30pct_is_not_the_small_angle_shortcut():
     assert overstatement_pct == printed("4.4")
 
 
-@pytest.mark.parametrize("grade, over_pct", [(10, "0.5"), (30, "4.4"), (100, "41")])
-def test_small_angle_overstatement(grade, over_pct):
+def test_small_angle_overstatement():
     # the small-angle shortcut m g p overstates the force: +0.5 % at 10 %, +4.4 % at 30 %, +41 % at 100 %
     # (standard trigonometry, computed): p / sin(atan p) - 1
-    exact = float(road_load_n(1000.0, 0.0, 0.0, 0.0, grade))
-    assert 100.0 * (1000.0 * G_N * grade / 100.0 / exact - 1.0) == printed(over_pct)
+    def over_pct(r):
+        return 100.0 * (1000.0 * G_N * r[0] / 100.0 / float(road_load_n(1000.0, 0.0, 0.0, 0.0, r[0])) - 1.0)
+
+    assert_table([(10, "0.5"), (30, "4.4"), (100, "41")], over_pct, lambda r: printed(r[1]), "overstatement [%]")
 
 
-@pytest.mark.parametrize("grade, force", [(10, "1463.7"), (20, "2884.9")])
-def test_grade_force_1500kg(grade, force):
+def test_grade_force_1500kg():
     # computed from m g sin(atan p): grade force on 10 % is 1463.7 N; on 20 % it is 2884.9 N (m = 1500 kg)
-    assert float(road_load_n(1500.0, 0.0, 0.0, 0.0, grade)) == printed(force)
+    assert_table([(10, "1463.7"), (20, "2884.9")], lambda r: float(road_load_n(1500.0, 0.0, 0.0, 0.0, r[0])),
+                 lambda r: printed(r[1]), "grade force [N]")
 
 
 def test_level_road_has_no_grade_force():
@@ -131,11 +119,12 @@ def test_level_road_has_no_grade_force():
 
 # ------------------------------------------------------------------------- rolling resistance
 
-@pytest.mark.parametrize("rrc, force", [(6.5, "95.61"), (9.0, "132.39"), (12.0, "176.52")])
-def test_eu_label_rolling_resistance_points(rrc, force):
+def test_eu_label_rolling_resistance_points():
     # label class limits, 1500 kg, F = m g RRC/1000 (RRC in N/kN, Reg. (EC) 1222/2009 and
     # (EU) 2020/740 label classes; computed here)
-    assert float(road_load_n(1500.0, rrc / 1000.0, 0.0, 0.0)) == printed(force)
+    rows = [(6.5, "95.61"), (9.0, "132.39"), (12.0, "176.52")]
+    assert_table(rows, lambda r: float(road_load_n(1500.0, r[0] / 1000.0, 0.0, 0.0)), lambda r: printed(r[1]),
+                 "rolling resistance [N]")
 
 
 def test_rolling_resistance_independent_of_speed():
@@ -155,19 +144,14 @@ DRAG_ROWS = [
 ]
 
 
-@pytest.mark.parametrize("cda, v_kmh, force, power", DRAG_ROWS)
-def test_drag_force(cda, v_kmh, force, power):
-    # F_d = 0.5 rho Cd A v^2 (Gillespie ch. 4 / Wong ch. 3 form; drag table above), rolling resistance 0
-    q = aero_coefficient_n_s2_m2(RHO_SEA_LEVEL, cda)
-    assert float(road_load_n(1500.0, 0.0, q, kmh_to_mps(v_kmh))) == printed(force)
+def test_drag_table():
+    # F_d = 0.5 rho Cd A v^2 (Gillespie ch. 4 / Wong ch. 3 form; drag table above), rolling resistance 0;
+    # P_d = F_d v, in kW
+    def force(r):
+        return float(road_load_n(1500.0, 0.0, aero_coefficient_n_s2_m2(RHO_SEA_LEVEL, r[0]), kmh_to_mps(r[1])))
 
-
-@pytest.mark.parametrize("cda, v_kmh, force, power", DRAG_ROWS)
-def test_drag_power(cda, v_kmh, force, power):
-    # P_d = F_d v, in kW (drag table above)
-    v = kmh_to_mps(v_kmh)
-    q = aero_coefficient_n_s2_m2(RHO_SEA_LEVEL, cda)
-    assert float(road_load_n(1500.0, 0.0, q, v)) * v / 1000.0 == printed(power)
+    assert_table(DRAG_ROWS, force, lambda r: printed(r[2]), "drag force [N]")
+    assert_table(DRAG_ROWS, lambda r: force(r) * kmh_to_mps(r[1]) / 1000.0, lambda r: printed(r[3]), "drag power [kW]")
 
 
 def test_aero_coefficient_value():

@@ -25,6 +25,7 @@ DATA = Path(__file__).parent / "data" / "infeasible"
 OBJECTIVES = ("cost", "mass", "accel_time")
 
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 @pytest.mark.parametrize("batch", range(2))
 def test_simulate_feasible_is_membership_in_the_enumerated_feasible_set(batch, tmp_path):
     objective_only = 0  # designs infeasible only because the accel_time objective's target is never reached

@@ -9,6 +9,7 @@ from __future__ import annotations
 import numpy as np
 import pint
 import pytest
+from conftest import assert_all_raise, assert_table
 
 from selector.physics.tyres import (
     LOAD_INDEX_KG,
@@ -22,42 +23,42 @@ from selector.physics.tyres import (
 # ---------------------------------------------------------------------------------- parsing
 
 
-@pytest.mark.parametrize(
-    "text, expected",
-    [
-        ("205/55R16", (205.0, 55.0, 16.0, "R")),
-        ("205/55 R16", (205.0, 55.0, 16.0, "R")),
-        ("205/55ZR16", (205.0, 55.0, 16.0, "ZR")),
-        ("225/50 ZR16", (225.0, 50.0, 16.0, "ZR")),
-        ("235/65R16C", (235.0, 65.0, 16.0, "RC")),
-        ("235/65 R16 C", (235.0, 65.0, 16.0, "RC")),
-        ("205/55r16", (205.0, 55.0, 16.0, "R")),
-        ("225/50 zr16", (225.0, 50.0, 16.0, "ZR")),
-        ("  195/65R15  ", (195.0, 65.0, 15.0, "R")),
-    ],
-)
-def test_parse_accepted_forms(text, expected):
+PARSE_ACCEPTED = [
+    ("205/55R16", (205.0, 55.0, 16.0, "R")),
+    ("205/55 R16", (205.0, 55.0, 16.0, "R")),
+    ("205/55ZR16", (205.0, 55.0, 16.0, "ZR")),
+    ("225/50 ZR16", (225.0, 50.0, 16.0, "ZR")),
+    ("235/65R16C", (235.0, 65.0, 16.0, "RC")),
+    ("235/65 R16 C", (235.0, 65.0, 16.0, "RC")),
+    ("205/55r16", (205.0, 55.0, 16.0, "R")),
+    ("225/50 zr16", (225.0, 50.0, 16.0, "ZR")),
+    ("  195/65R15  ", (195.0, 65.0, 15.0, "R")),
+]
+
+
+def test_parse_accepted_forms():
     # ISO 4000-1 designation S/Ra R d; ZR (speed capability above 240 km/h) per UN ECE R30 conventions
-    assert parse_tyre_size(text) == expected
+    assert_table(PARSE_ACCEPTED, lambda r: parse_tyre_size(r[0]), lambda r: r[1], "accepted size designations")
 
 
-@pytest.mark.parametrize(
-    "text, reason",
-    [
-        ("", "empty"),
-        ("205R16", "no '/'"),
-        ("205/55-16", "diagonal"),
-        ("P205/55R16", "prefix 'P'"),
-        ("205/55X16", "construction code 'R'"),
-        ("205/55R16 91V", "service description"),
-        ("205/55R", "width/aspect R rim"),
-        ("2055/55R16", "width/aspect R rim"),
-    ],
-)
-def test_parse_rejects_malformed_sizes_with_a_reason(text, reason):
-    with pytest.raises(ValueError, match="not an ISO metric size designation") as info:
-        parse_tyre_size(text)
-    assert reason in str(info.value)
+PARSE_REJECTED = [
+    ("", "empty"),
+    ("205R16", "no '/'"),
+    ("205/55-16", "diagonal"),
+    ("P205/55R16", "prefix 'P'"),
+    ("205/55X16", "construction code 'R'"),
+    ("205/55R16 91V", "service description"),
+    ("205/55R", "width/aspect R rim"),
+    ("2055/55R16", "width/aspect R rim"),
+]
+
+
+def test_parse_rejects_malformed_sizes_with_a_reason():
+    # ISO 4000-1 designation S/Ra R d: anything else is refused, saying why
+    for text, reason in PARSE_REJECTED:
+        with pytest.raises(ValueError, match="not an ISO metric size designation") as info:
+            parse_tyre_size(text)
+        assert reason in str(info.value), text
 
 
 def test_parse_rejects_non_text():
@@ -81,13 +82,14 @@ DIAMETERS_MM = [
 ]
 
 
-@pytest.mark.parametrize("size, d_exact_mm, d_r30_mm", DIAMETERS_MM)
-def test_unloaded_diameter_reference_sizes(size, d_exact_mm, d_r30_mm):
-    w, a, rim, _ = parse_tyre_size(size)
-    d_m = unloaded_diameter_m(w, a, rim)
-    assert d_m == pytest.approx(d_exact_mm / 1000.0, abs=0.5e-3)
-    if d_r30_mm is not None:
-        assert d_m == pytest.approx(d_r30_mm / 1000.0, abs=0.5e-3)
+def test_unloaded_diameter_reference_sizes():
+    def diameter_m(row):
+        w, a, rim, _ = parse_tyre_size(row[0])
+        return float(unloaded_diameter_m(w, a, rim))
+
+    assert_table(DIAMETERS_MM, diameter_m, lambda r: pytest.approx(r[1] / 1000.0, abs=0.5e-3), "D exact rim")
+    with_r30 = [r for r in DIAMETERS_MM if r[2] is not None]
+    assert_table(with_r30, diameter_m, lambda r: pytest.approx(r[2] / 1000.0, abs=0.5e-3), "D R30 rim")
 
 
 def test_section_height_and_radius_205_55_r16():
@@ -116,10 +118,10 @@ SPEED_TABLE_LOW = {"A1": 5, "A2": 10, "A3": 15, "A4": 20, "A5": 25, "A6": 30, "A
                    "B": 50, "C": 60, "D": 65, "E": 70, "F": 80, "G": 90, "J": 100, "K": 110}
 
 
-@pytest.mark.parametrize("symbol, kmh", sorted({**SPEED_TABLE, **SPEED_TABLE_LOW}.items()))
-def test_speed_symbols(symbol, kmh):
-    assert speed_rating_kmh(symbol) == kmh
-    assert SPEED_SYMBOL_KMH[symbol] == kmh
+def test_speed_symbols():
+    table = sorted({**SPEED_TABLE, **SPEED_TABLE_LOW}.items())
+    assert_table(table, lambda r: speed_rating_kmh(r[0]), lambda r: r[1], "speed symbols (speed_rating_kmh)")
+    assert_table(table, lambda r: SPEED_SYMBOL_KMH[r[0]], lambda r: r[1], "speed symbols (SPEED_SYMBOL_KMH)")
 
 
 def test_speed_symbol_table_has_no_other_entries():
@@ -131,10 +133,9 @@ def test_speed_rating_vectorised_and_case_insensitive():
     np.testing.assert_array_equal(out, [210.0, 240.0, 40.0])  # ISO 4000-1 speed symbols
 
 
-@pytest.mark.parametrize("bad", ["X", "Z", "A9", "ZR", "(Y)", ""])
-def test_unknown_speed_symbol_raises(bad):
-    with pytest.raises(ValueError, match="unknown speed symbol"):
-        speed_rating_kmh(bad)
+def test_unknown_speed_symbol_raises():
+    # not in the ISO 4000-1 / UN ECE R30 speed-symbol table
+    assert_all_raise(["X", "Z", "A9", "ZR", "(Y)", ""], speed_rating_kmh, ValueError, "unknown speed symbol")
 
 
 # ------------------------------------------------------------------------------ load indices
@@ -157,15 +158,11 @@ def test_load_index_table_covers_60_to_130():
     assert LOAD_INDEX_KG == {k: float(v) for k, v in LI_TABLE.items()}
 
 
-@pytest.mark.parametrize("li, kg", sorted(LI_TABLE.items()))
-def test_load_index(li, kg):
-    assert load_capacity_kg(li) == kg
-
-
-@pytest.mark.parametrize("li, kg", [(91, 615), (94, 670), (106, 950), (110, 1060), (112, 1120)])
-def test_load_index_single_points(li, kg):
-    # single published points on further secondary pages (ISO 4000-1 load index table)
-    assert load_capacity_kg(li) == kg
+def test_load_index():
+    # the ISO 4000-1 / UN ECE R30 table above, then single published points on further secondary pages
+    assert_table(sorted(LI_TABLE.items()), lambda r: load_capacity_kg(r[0]), lambda r: r[1], "load index table")
+    points = [(91, 615), (94, 670), (106, 950), (110, 1060), (112, 1120)]
+    assert_table(points, lambda r: load_capacity_kg(r[0]), lambda r: r[1], "load index single points")
 
 
 @pytest.mark.parametrize("li, lb", [(120, 3086), (130, 4189)])
@@ -183,7 +180,6 @@ def test_load_capacity_vectorised():
     assert load_capacity_kg(91.0) == 615.0  # a whole-number float is accepted
 
 
-@pytest.mark.parametrize("bad", [59, 131, 91.5, -1, "91", True, float("nan")])
-def test_load_index_outside_table_raises(bad):
-    with pytest.raises(ValueError, match=r"load index .* is not supported; .* 60\.\.130"):
-        load_capacity_kg(bad)
+def test_load_index_outside_table_raises():
+    assert_all_raise([59, 131, 91.5, -1, "91", True, float("nan")], load_capacity_kg, ValueError,
+                     r"load index .* is not supported; .* 60\.\.130")

@@ -16,6 +16,7 @@ import math
 import numpy as np
 import pint
 import pytest
+from conftest import assert_table
 
 from selector import units
 
@@ -27,6 +28,11 @@ EXACT = 1e-12  # exact definitions: only floating-point rounding may differ
 def _pint_factor(src: str, dst: str) -> float:
     """How many ``dst`` in one ``src``, according to pint."""
     return float(Q_(1.0, src).to(dst).magnitude)
+
+
+def pint_approx(value: float, src: str, dst: str):
+    """``value`` [src] in ``dst`` according to pint, as a pytest.approx to floating-point rounding."""
+    return pytest.approx(float(Q_(value, src).to(dst).magnitude), rel=EXACT, abs=1e-300)
 
 
 # ------------------------------------------------------------------------------- constants
@@ -72,18 +78,16 @@ def test_rpm_to_rad_s_constant_is_two_pi_over_sixty():
 SPEEDS_KMH = [0.0, 1.0, 50.0, 96.56064, 100.0, 180.9557, 253.874]
 
 
-@pytest.mark.parametrize("v_kmh", SPEEDS_KMH)
-def test_kmh_to_mps_matches_pint(v_kmh):
+def test_kmh_to_mps_matches_pint():
     # pint km/h -> m/s (SI Brochure: hour = 3600 s)
-    expected = float(Q_(v_kmh, "km/h").to("m/s").magnitude)
-    assert units.kmh_to_mps(v_kmh) == pytest.approx(expected, rel=EXACT, abs=1e-300)
+    values = SPEEDS_KMH
+    assert_table(values, units.kmh_to_mps, lambda x: pint_approx(x, "km/h", "m/s"), "km/h -> m/s")
 
 
-@pytest.mark.parametrize("v_mps", [0.0, 1.0, 27.77777777777778, 50.2655, 70.52061])
-def test_mps_to_kmh_matches_pint(v_mps):
+def test_mps_to_kmh_matches_pint():
     # pint m/s -> km/h (SI Brochure: hour = 3600 s)
-    expected = float(Q_(v_mps, "m/s").to("km/h").magnitude)
-    assert units.mps_to_kmh(v_mps) == pytest.approx(expected, rel=EXACT, abs=1e-300)
+    values = [0.0, 1.0, 27.77777777777778, 50.2655, 70.52061]
+    assert_table(values, units.mps_to_kmh, lambda x: pint_approx(x, "m/s", "km/h"), "m/s -> km/h")
 
 
 def test_100_kmh_in_mps():
@@ -98,11 +102,10 @@ def test_60_mph_in_kmh_through_pint_and_selector():
     assert units.mps_to_kmh(v_mps) == pytest.approx(96.56064, rel=EXACT)
 
 
-@pytest.mark.parametrize("n_rpm", [0.0, 1.0, 1000.0, 3183.0988618379067, 12000.0, 16000.0])
-def test_rpm_to_rad_s_matches_pint(n_rpm):
+def test_rpm_to_rad_s_matches_pint():
     # pint rpm -> rad/s (ISO 80000-3 omega = 2 pi n)
-    expected = float(Q_(n_rpm, "rpm").to("rad/s").magnitude)
-    assert units.rpm_to_rad_s(n_rpm) == pytest.approx(expected, rel=EXACT, abs=1e-300)
+    values = [0.0, 1.0, 1000.0, 3183.0988618379067, 12000.0, 16000.0]
+    assert_table(values, units.rpm_to_rad_s, lambda x: pint_approx(x, "rpm", "rad/s"), "rpm -> rad/s")
 
 
 def test_1000_rpm_in_rad_s():
@@ -110,11 +113,10 @@ def test_1000_rpm_in_rad_s():
     assert units.rpm_to_rad_s(1000.0) == pytest.approx(104.71975511965977, rel=EXACT)
 
 
-@pytest.mark.parametrize("w_rad_s", [0.0, 1.0, 104.71975511965977, 1256.6370614359173])
-def test_rad_s_to_rpm_matches_pint(w_rad_s):
+def test_rad_s_to_rpm_matches_pint():
     # pint rad/s -> rpm (ISO 80000-3 omega = 2 pi n)
-    expected = float(Q_(w_rad_s, "rad/s").to("rpm").magnitude)
-    assert units.rad_s_to_rpm(w_rad_s) == pytest.approx(expected, rel=EXACT, abs=1e-300)
+    values = [0.0, 1.0, 104.71975511965977, 1256.6370614359173]
+    assert_table(values, units.rad_s_to_rpm, lambda x: pint_approx(x, "rad/s", "rpm"), "rad/s -> rpm")
 
 
 def test_conversions_are_vectorised_and_round_trip():

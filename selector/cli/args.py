@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import math
+import re
 
 
 def positive_int(text):
@@ -40,3 +41,20 @@ def add_common(p) -> None:
     p.add_argument("problem", help="problem file (TOML), e.g. problems/parcel_van.toml")
     p.add_argument("--format", choices=("table", "json"), default="table", help="output format (default: table)")
     p.add_argument("--verbose", action="store_true", help="show tracebacks of internal errors")
+
+
+PARAMETER_FLAGS = {
+    "count": "--count", "vehicles": "--vehicles", "distinct": "--distinct", "vary": "--vary",
+    "workers": "--workers", "scheduler": "--scheduler", "axis": "--axis", "time_limit_s": "--time-limit",
+    "step_pct": "--step", "near_miss_pct": "--near-miss", "motor": "--motor", "reducer": "--reducer",
+    "tyre": "--tyre", "avoid_suppliers": "--avoid-supplier", "max_lead_time_weeks": "--max-lead-time-weeks",
+}
+"""Library parameter names (as the library's error messages start) -> the command line's flags."""
+
+_PARAMETER = re.compile(r"^(" + "|".join(PARAMETER_FLAGS) + r")(?=[ :])")
+
+
+def flag_names(message: str) -> str:
+    """A library message naming a parameter (``count 0: ...``) as the CLI's flag (``--count 0: ...``)."""
+    message = _PARAMETER.sub(lambda m: PARAMETER_FLAGS[m.group(1)], message)
+    return message.replace("Rerun without time_limit_s", "Rerun without --time-limit")

@@ -8,7 +8,7 @@ from __future__ import annotations
 import argparse
 
 from selector.cli.args import add_common
-from selector.records import CAUTION, dumps, fmt, parts_table, table
+from selector.records import CAUTION, fmt, parts_table, table
 from selector.studies.defaults import NEAR_MISS_PCT, STEP_PCT
 
 
@@ -135,13 +135,14 @@ def render_infeasible(res: dict) -> str:
 
 def _cmd(args) -> int:
     from selector.api import open_study
-    from selector.studies.explain import explain
+    from selector.public import explain
 
-    res = explain(open_study(args.problem), step_pct=args.step, near_miss_pct=args.near_miss,
-                  progress=args.format != "json")
+    result = explain(open_study(args.problem), step_pct=args.step, near_miss_pct=args.near_miss,
+                     progress=args.format != "json")
     if args.format == "json":
-        print(dumps(res))
+        print(result.to_json())
         return 0
+    res = result.data
     print(res["problem"])
     print(render_feasible(res) if res["design"] is not None else render_infeasible(res))
     s = res["searches"]

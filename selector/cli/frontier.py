@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from selector.cli.args import add_common
-from selector.records import CAUTION, design_name, dumps, fmt, table
+from selector.records import CAUTION, design_name, fmt, table
 
 HELP = "exact cost (or mass) versus acceleration-time frontier"
 
@@ -19,22 +19,22 @@ def setup(p):
 def handle(args) -> int:
     """Trace the frontier, print it, optionally plot it."""
     from selector.api import open_study
-    from selector.studies.frontier import frontier
+    from selector.public import frontier
 
     if args.plot:
         from selector.io.plots import check_output_path
 
         check_output_path(args.plot)
-    res = frontier(open_study(args.problem), axis=args.axis)
+    result = frontier(open_study(args.problem), axis=args.axis)
     if args.plot:
         from selector.io.plots import frontier_plot
 
-        frontier_plot(res, args.plot)
-        res["plot"] = args.plot
+        frontier_plot(result.data, args.plot)
+        result.add_output("plot", args.plot)
     if args.format == "json":
-        print(dumps(res))
+        print(result.to_json())
         return 0
-    print(render(res))
+    print(render(result.data))
     return 0
 
 

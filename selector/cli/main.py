@@ -14,7 +14,7 @@ import traceback
 import warnings
 
 from selector import __version__
-from selector.cli.args import add_common, positive_float
+from selector.cli.args import add_common, flag_names, positive_float
 from selector.errors import InputError, SelectorError
 from selector.records import (
     CAUTION,
@@ -100,17 +100,20 @@ def _slot_ids(args) -> dict:
 
 
 def _cmd_simulate(args) -> int:
-    from selector.api import open_study, simulate
+    from selector.api import open_study
+    from selector.public import simulate
+
     study = open_study(args.problem)
     ids = _slot_ids(args)
-    res = simulate(study, **ids)
+    result = simulate(study, **ids)
     if getattr(args, "plot", None):
         from selector.io.plots import tractive_effort_plot
 
         tractive_effort_plot(study, path=args.plot, **ids)
-        res["plot"] = args.plot
+        result.add_output("plot", args.plot)
+    res = result.data
     if args.format == "json":
-        _out(args, res)
+        print(result.to_json())
         return 0
     d = res["design"]
     print(f"{res['problem']}\ndesign {design_name(d)}: "
@@ -174,32 +177,17 @@ def print_search_result(res: dict, title: str = "best design", diagnosis: list[s
 
 
 def _cmd_solve(args) -> int:
-    from selector.api import open_study, solve
+    from selector.api import open_study
+    from selector.public import solve
 
-    study = open_study(args.problem)
-    res = solve(study, time_limit_s=args.time_limit)
-    if res["status"] == "infeasible":
-        combos = study.parts.combinations  # two-unit studies: (units)^2 x tyres, the size explain enumerates
-        limit = DIAGNOSE_MAX_ENERGY if study.parts.problem.energy is not None else DIAGNOSE_MAX_COMBINATIONS
-        if args.time_limit is None and combos <= limit:
-            from selector.studies.explain import diagnose
-
-            res["diagnosis"] = diagnose(study, res.get("reason"))
-        else:  # the closest-design search enumerates the catalogue: leave it to `selector explain`
-            res["diagnosis"] = {"summary": [f"diagnosis skipped ({combos:,} combinations"
-                                            f"{' and a time limit' if args.time_limit else ''}): "
-                                            "run `selector explain` for it"]}
+    result = solve(open_study(args.problem), time_limit_s=args.time_limit)  # diagnosis included when infeasible
     if args.format == "json":
-        _out(args, res)
+        print(result.to_json())
     else:
+        res = result.data
         print_search_result(res, diagnosis=res.get("diagnosis", {}).get("summary"))
     return 0
 
-
-DIAGNOSE_MAX_COMBINATIONS = 2_000_000
-"""solve diagnoses an infeasible study (an exhaustive closest-design search) up to this size [-]."""
-DIAGNOSE_MAX_ENERGY = 20_000
-"""The same for energy studies, whose every design is simulated over the whole driving cycle [-]."""
 
 COMMANDS = {
     "check": (_setup_check, _cmd_check, "validate a problem file and its catalogues"),
@@ -237,8 +225,8 @@ def run(argv=None) -> int:
         warnings.simplefilter("always")
         try:
             return _dispatch(argv)
-        except InputError as exc:
-            print(f"error: {exc}", file=sys.stderr)
+        except InputError as exc:  # the library names parameters; the command line names its flags
+            print(f"error: {flag_names(str(exc))}", file=sys.stderr)
             return 2
         except SelectorError as exc:  # solver missing or broken, verification failure
             print(f"error: {exc}", file=sys.stderr)
@@ -258,7 +246,7 @@ def run(argv=None) -> int:
         finally:  # warnings are shown on every path, also before an error
             for w in caught:
                 if issubclass(w.category, UserWarning):
-                    print(f"warning: {w.message}", file=sys.stderr)
+                    print(f"warning: {flag_names(str(w.message))}", file=sys.stderr)
 
 
 def _dispatch(argv) -> int:

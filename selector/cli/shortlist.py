@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from selector.cli.args import add_common, number, positive_int
-from selector.records import CAUTION, dumps, fmt, table
+from selector.records import CAUTION, fmt, table
 
 
 def setup(p) -> None:
@@ -61,23 +61,20 @@ def print_shortlist(res: dict) -> None:
 def run_shortlist(args) -> int:
     """Handler of ``selector shortlist``."""
     from selector.io.export import check_output_path
-    from selector.studies.shortlist import (
-        open_shortlist_study,
-        shortlist,
-        shortlist_inputs,
-        write_shortlist,
-    )
+    from selector.public import shortlist
+    from selector.studies.shortlist import open_shortlist_study, shortlist_inputs, write_shortlist
 
     study = open_shortlist_study(args.problem, args.avoid_supplier, args.max_lead_time_weeks)
     if args.out:
         check_output_path(args.out, shortlist_inputs(study))  # fail before a long search
-    res = shortlist(study, args.count, distinct=args.distinct, vehicles=args.vehicles, time_limit_s=args.time_limit)
+    result = shortlist(study, args.count, distinct=args.distinct, vehicles=args.vehicles,
+                       time_limit_s=args.time_limit)
     if args.out:
-        res["output"] = write_shortlist(res, args.out, study)
+        result.add_output("output", write_shortlist(result.data, args.out, study))
     if args.format == "json":
-        print(dumps(res))
+        print(result.to_json())
     else:
-        print_shortlist(res)
+        print_shortlist(result.data)
     return 0
 
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 
 from selector.cli.args import add_common, positive_int
-from selector.records import CAUTION, dumps, fmt, table
+from selector.records import CAUTION, fmt, table
 
 HELP = "re-solve exactly over a grid of problem values (parameter sweep)"
 
@@ -26,37 +26,39 @@ def handle(args) -> int:
     """Run the sweep, print it, optionally write CSV and plot."""
     from pathlib import Path
 
+    from selector.api import open_study
     from selector.io.export import atomic_write
     from selector.io.export import check_output_path as check_out
     from selector.io.plots import check_output_path
-    from selector.studies.sweep import sweep, to_csv
+    from selector.public import sweep
+    from selector.studies.sweep import parse_varies, to_csv
 
     csv_only = {".csv": "csv"}
     protected = ()
+    parse_varies(args.vary)  # bad --vary texts are reported before the catalogues are read
     if args.plot:
         check_output_path(args.plot)
+    study = open_study(args.problem)
     if args.out:
-        from selector.io.problem import load_problem
-
-        problem = load_problem(args.problem)
+        problem = study.problem
         protected = (problem.path, *problem.catalog_paths.values())  # never overwrite an input
         check_out(args.out, protected, formats=csv_only)
     progress = args.format == "table" and sys.stderr.isatty()
-    res = sweep(args.problem, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
+    result = sweep(study, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
     if args.out:
-        text = to_csv(res)
+        text = to_csv(result.data)
         atomic_write(args.out, lambda tmp: Path(tmp).write_text(text, encoding="utf-8", newline=""),
                      protected, formats=csv_only)
-        res["csv"] = args.out
+        result.add_output("csv", args.out)
     if args.plot:
         from selector.io.plots import sweep_plot
 
-        sweep_plot(res, args.plot)
-        res["plot"] = args.plot
+        sweep_plot(result.data, args.plot)
+        result.add_output("plot", args.plot)
     if args.format == "json":
-        print(dumps(res))
+        print(result.to_json())
     else:
-        print(render(res))
+        print(render(result.data))
     return 0
 
 

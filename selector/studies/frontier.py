@@ -62,7 +62,7 @@ class FrontierTimeLimit(SelectorError):
 
 def _requirements_check(study: Study, axis: str):
     if axis not in AXES:
-        raise InputError(f"--axis {axis!r}: must be one of {', '.join(AXES)}.")
+        raise InputError(f"axis {axis!r}: must be one of {', '.join(AXES)}.")
     p = study.parts.problem
     if p.requirements.accel_to_kmh is None:
         where = f"{p.path}: " if p.path else ""
@@ -74,7 +74,7 @@ def _requirements_check(study: Study, axis: str):
 def _check_status(res, what: str):
     if res.status not in (STATUS_OPTIMAL, STATUS_INFEASIBLE):
         raise FrontierTimeLimit(f"the {what} search stopped at its time limit; the frontier would not be exact. "
-                                "Rerun without --time-limit or with a longer one.")
+                                "Rerun without time_limit_s or with a longer one.")
 
 
 def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -> tuple[list, dict]:
@@ -108,7 +108,7 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
                              LIMIT_SLACK, deadline)
         if res is None:
             raise FrontierTimeLimit("the frontier sweep stopped at its time limit; the frontier would not be exact. "
-                                    "Rerun without --time-limit or with a longer one.")
+                                    "Rerun without time_limit_s or with a longer one.")
         pts, st = res
         points = [(v, t, Design.of(t, key)) for v, t, key in pts]
         return points, {"method": "sweep", "searches": 1, "elapsed_s": round(time.perf_counter() - t0, 3),

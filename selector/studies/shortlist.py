@@ -90,7 +90,7 @@ def open_shortlist_study(path, avoid_suppliers=(), max_lead_time_weeks: float | 
     max_lead_time_weeks : longest acceptable lead time (replaces the problem's when given) [weeks]
     """
     if max_lead_time_weeks is not None and not max_lead_time_weeks >= 0:
-        raise InputError(f"--max-lead-time-weeks {max_lead_time_weeks}: must be >= 0 [weeks].")
+        raise InputError(f"max_lead_time_weeks {max_lead_time_weeks}: must be >= 0 [weeks].")
     avoid = tuple(s.strip() for s in avoid_suppliers if s.strip())
     study = open_study(path, procurement=Procurement(avoid_suppliers=avoid, max_lead_time_weeks=max_lead_time_weeks))
     if avoid:
@@ -101,7 +101,7 @@ def open_shortlist_study(path, avoid_suppliers=(), max_lead_time_weeks: float | 
             if s.casefold() not in folded:
                 hit = difflib.get_close_matches(s, known, n=1, cutoff=0.6)
                 did = f' Did you mean "{hit[0]}"?' if hit else ""
-                warnings.warn(f'--avoid-supplier "{s}": no catalogue lists this supplier, so it excludes '
+                warnings.warn(f'avoid_suppliers "{s}": no catalogue lists this supplier, so it excludes '
                               f"nothing.{did}", ShortlistWarning, stacklevel=2)
     return study
 
@@ -308,9 +308,9 @@ def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: i
     objective : override of the problem's objective
     """
     if int(count) < 1:
-        raise InputError(f"--count {count}: must be >= 1.")
+        raise InputError(f"count {count}: must be >= 1.")
     if int(vehicles) < 1:
-        raise InputError(f"--vehicles {vehicles}: must be >= 1.")
+        raise InputError(f"vehicles {vehicles}: must be >= 1.")
     rule = resolve_distinct(study, distinct)
     res = shortlist_search(study, int(count), rule, objective, time_limit_s)
     proc = study.parts.problem.procurement

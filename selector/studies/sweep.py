@@ -85,30 +85,30 @@ def parse_vary(text: str) -> tuple[str, np.ndarray]:
     Raises InputError for an unknown key (with a did-you-mean suggestion) or bad numbers.
     """
     if "=" not in text:
-        raise InputError(f"--vary {text!r}: expected KEY=START:STOP:N, "
-                         "e.g. --vary requirements.top_speed_kmh=100:140:5.")
+        raise InputError(f"vary {text!r}: expected KEY=START:STOP:N, "
+                         "e.g. requirements.top_speed_kmh=100:140:5.")
     key, _, spec = text.partition("=")
     key = key.strip()
     check_key(key)
     bits = spec.split(":")
     if len(bits) != 3:
-        raise InputError(f"--vary {text!r}: the range must be START:STOP:N (three values separated by ':'), "
+        raise InputError(f"vary {text!r}: the range must be START:STOP:N (three values separated by ':'), "
                          f"got {spec!r}.")
     try:
         start, stop = float(bits[0]), float(bits[1])
     except ValueError:
-        raise InputError(f"--vary {text!r}: START and STOP must be numbers, got {bits[0]!r} and {bits[1]!r}.") from None
+        raise InputError(f"vary {text!r}: START and STOP must be numbers, got {bits[0]!r} and {bits[1]!r}.") from None
     if not (math.isfinite(start) and math.isfinite(stop)):
-        raise InputError(f"--vary {text!r}: START and STOP must be finite numbers.")
+        raise InputError(f"vary {text!r}: START and STOP must be finite numbers.")
     try:
         n = int(bits[2])
     except ValueError:
-        raise InputError(f"--vary {text!r}: N must be a whole number >= 1 (the number of values), "
+        raise InputError(f"vary {text!r}: N must be a whole number >= 1 (the number of values), "
                          f"got {bits[2]!r}.") from None
     if n < 1:
-        raise InputError(f"--vary {text!r}: N must be >= 1 (the number of values), got {n}.")
+        raise InputError(f"vary {text!r}: N must be >= 1 (the number of values), got {n}.")
     if n == 1 and start != stop:
-        raise InputError(f"--vary {text!r}: N = 1 gives one value, but START != STOP. Use START:START:1 or N >= 2.")
+        raise InputError(f"vary {text!r}: N = 1 gives one value, but START != STOP. Use START:START:1 or N >= 2.")
     values = np.array([float(f"{v:.12g}") for v in np.linspace(start, stop, n)])
     return key, values
 
@@ -123,7 +123,7 @@ def check_key(key: str) -> None:
     hint = f" Did you mean {', '.join(repr(c) for c in close)}?" if close else ""
     if key == "vehicle.tyre_count":
         hint = " tyre_count must stay an even whole number; write one problem file per tyre count."
-    raise InputError(f"--vary {key!r}: not a problem key a sweep can vary.{hint} Sweepable keys: {', '.join(known)}.")
+    raise InputError(f"vary {key!r}: not a problem key a sweep can vary.{hint} Sweepable keys: {', '.join(known)}.")
 
 
 def _check_value(key: str, value: float) -> str | None:
@@ -139,26 +139,26 @@ def validate(problem: Problem, varies: list[tuple[str, np.ndarray]]) -> None:
     """Check a sweep against its problem: duplicates, conflicts and every value's rule."""
     keys = [k for k, _ in varies]
     if not varies:
-        raise InputError("give at least one --vary KEY=START:STOP:N.")
+        raise InputError("vary: give at least one key and its values (KEY=START:STOP:N).")
     dup = {k for k in keys if keys.count(k) > 1}
     if dup:
-        raise InputError(f"--vary {', '.join(sorted(dup))}: given more than once; give each key once.")
+        raise InputError(f"vary {', '.join(sorted(dup))}: given more than once; give each key once.")
     if "environment.air_density_kg_m3" in keys and any(k in keys for k in ISA_KEYS):
-        raise InputError("--vary environment.air_density_kg_m3 together with altitude_m / temperature_c: the ISA "
+        raise InputError("vary environment.air_density_kg_m3 together with altitude_m / temperature_c: the ISA "
                          "would overwrite the density. Vary either the density or the ISA keys.")
     req = problem.requirements
     if "requirements.accel_time_s" in keys and req.accel_to_kmh is None and "requirements.accel_to_kmh" not in keys:
-        raise InputError("--vary requirements.accel_time_s: the problem has no [requirements] accel_to_kmh "
+        raise InputError("vary requirements.accel_time_s: the problem has no [requirements] accel_to_kmh "
                          "(the target speed of the acceleration run). Add it to the problem file.")
     n = int(np.prod([len(v) for _, v in varies]))
     if n > MAX_POINTS:
-        raise InputError(f"the grid has {n:,} points (more than {MAX_POINTS:,}); use fewer values per --vary.")
+        raise InputError(f"the grid has {n:,} points (more than {MAX_POINTS:,}); use fewer values per vary key.")
     for key, values in varies:
         unit = SWEEPABLE[key][0]
         for v in values:
             rule = _check_value(key, float(v))
             if rule:
-                raise InputError(f"--vary {key}: value {v:g} [{unit}] {rule}; choose START and STOP inside the "
+                raise InputError(f"vary {key}: value {v:g} [{unit}] {rule}; choose START and STOP inside the "
                                  "allowed range.")
 
 
@@ -188,18 +188,23 @@ def apply_overrides(problem: Problem, overrides: dict) -> Problem:
                    procurement=replace(problem.procurement, **tables["procurement"]))
 
 
-def file_isa_context(problem: Problem, keys) -> dict:
+def file_isa_context(problem: Problem, keys, source: dict | None = None) -> dict:
     """Fixed ISA values from the problem file to add to every point when one ISA key is swept.
 
-    Sweeping ``altitude_m`` keeps the file's ``temperature_c`` (if any) and vice versa.
+    Sweeping ``altitude_m`` keeps the file's ``temperature_c`` (if any) and vice versa. ``source``:
+    the problem's tables as a dict (a study from in-memory data), read instead of the file.
     """
     swept = [k for k in ISA_KEYS if k in keys]
-    if not swept or problem.path is None:
+    if not swept or (problem.path is None and source is None):
         return {}
-    try:
-        env = tomllib.loads(Path(problem.path).read_text(encoding="utf-8-sig")).get("environment", {})
-    except (OSError, tomllib.TOMLDecodeError):  # the file was read and validated a moment ago
-        return {}
+    if source is not None:
+        env = source.get("environment", {})
+        env = env if isinstance(env, dict) else {}
+    else:
+        try:
+            env = tomllib.loads(Path(problem.path).read_text(encoding="utf-8-sig")).get("environment", {})
+        except (OSError, tomllib.TOMLDecodeError):  # the file was read and validated a moment ago
+            return {}
     out = {}
     for k in ISA_KEYS:
         name = k.split(".", 1)[1]
@@ -350,12 +355,12 @@ def _run_dask(problem, catalogs, points, address, bar) -> tuple[list[dict], dict
     try:
         from distributed import Client, as_completed
     except ImportError as exc:  # pragma: no cover - dask[distributed] is a dependency
-        raise InputError(f"--scheduler needs dask.distributed ({exc}). "
+        raise InputError(f"scheduler needs dask.distributed ({exc}). "
                          "Install it: pip install 'dask[distributed]'") from None
     try:
         client = Client(address, timeout=f"{DASK_CONNECT_TIMEOUT_S}s")
     except (OSError, TimeoutError) as exc:
-        raise InputError(f"--scheduler {address}: cannot connect to a Dask scheduler ({exc}). Check the address "
+        raise InputError(f"scheduler {address}: cannot connect to a Dask scheduler ({exc}). Check the address "
                          "(e.g. tcp://host:8786) and that the scheduler is running.") from None
     with client:
         n_workers = len(client.scheduler_info().get("workers", {}))
@@ -369,9 +374,40 @@ def _run_dask(problem, catalogs, points, address, bar) -> tuple[list[dict], dict
     return rows, {"mode": "dask", "scheduler": address, "workers": n_workers}
 
 
-def sweep(problem_path, vary: list[str], workers: int | None = None, scheduler: str | None = None,
+def parse_varies(vary) -> list[tuple[str, np.ndarray]]:
+    """The swept keys and their values from ``vary``.
+
+    Parameters
+    ----------
+    vary : list of str, or mapping of str to sequence of float
+        ``KEY=START:STOP:N`` texts (see `parse_vary`), or ``{dotted key: values}`` (values in the
+        key's unit, e.g. ``{"requirements.top_speed_kmh": [100, 110, 120]}``) [unit of each key].
+
+    Raises
+    ------
+    InputError
+        Naming the parameter ``vary``: an unknown key, bad numbers or an empty list of values.
+    """
+    if isinstance(vary, str):
+        vary = [vary]
+    if not hasattr(vary, "items"):
+        return [parse_vary(v) for v in vary]
+    out = []
+    for key, values in vary.items():
+        check_key(str(key))
+        try:
+            arr = np.atleast_1d(np.asarray(values, dtype=float))
+        except (TypeError, ValueError):
+            raise InputError(f"vary {key!r}: the values must be numbers, got {values!r}.") from None
+        if arr.ndim != 1 or arr.size == 0 or not np.isfinite(arr).all():
+            raise InputError(f"vary {key!r}: give a non-empty list of finite numbers, got {values!r}.")
+        out.append((str(key), arr))
+    return out
+
+
+def sweep(problem_path, vary, workers: int | None = None, scheduler: str | None = None,
           progress: bool = False) -> dict:
-    """Run a sweep given the problem file and ``--vary`` texts; the JSON-ready result.
+    """Run a sweep given the problem file and ``vary`` (see `parse_varies`); the JSON-ready result.
 
     Keys: the common head (selector_version, problem, problem_file, caution), ``objective``
     {minimize, unit}, ``parameters`` [{key, unit, start, stop, n, values}], ``columns`` (row keys in
@@ -380,22 +416,49 @@ def sweep(problem_path, vary: list[str], workers: int | None = None, scheduler: 
     """
     import warnings
 
-    from selector.api import OBJECTIVE_UNITS, header
-    from selector.engine.parts import PartTables
     from selector.io.problem import load_study
 
-    varies = [parse_vary(v) for v in vary]
+    varies = parse_varies(vary)
     with warnings.catch_warnings():
         warnings.simplefilter("default")
         problem, catalogs = load_study(problem_path)
+    return sweep_problem(problem, catalogs, varies, workers=workers, scheduler=scheduler, progress=progress)
+
+
+def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | None = None,
+                  scheduler: str | None = None, progress: bool = False, source: dict | None = None) -> dict:
+    """Run a sweep of a loaded problem and its catalogues; the JSON-ready result (as `sweep`).
+
+    Parameters
+    ----------
+    problem : Problem
+        The validated problem (its procurement filters apply at every point).
+    catalogs : Catalogs
+        The validated catalogues, shipped once to each worker.
+    vary : list of str, or mapping of str to sequence of float
+        See `parse_varies` [unit of each key].
+    workers : int, optional
+        Local worker processes (default: CPU count; 1 = in this process) [-].
+    scheduler : str, optional
+        Address of a Dask scheduler, e.g. ``tcp://host:8786``.
+    progress : bool
+        Show a progress bar on stderr.
+    source : dict, optional
+        The problem's tables as a dict when it came from memory (see `file_isa_context`).
+    """
+    from selector.api import OBJECTIVE_UNITS, header
+    from selector.engine.parts import PartTables
+
+    varies = parse_varies(vary) if not (isinstance(vary, list) and vary and isinstance(vary[0], tuple)) else vary
     validate(problem, varies)
     keys = [k for k, _ in varies]
-    context = file_isa_context(problem, keys)
+    context = file_isa_context(problem, keys, source)
     notes = []
     if any(k in keys for k in ISA_KEYS):
+        origin = "file" if source is None else "problem dict"
+        fixed = ", ".join(f"{k} = {v:g}" for k, v in context.items())
         notes.append("air density from the ISA at each point's altitude / temperature" +
-                     (f" (fixed from the file: {', '.join(f'{k} = {v:g}' for k, v in context.items())})"
-                      if context else ""))
+                     (f" (fixed from the {origin}: {fixed})" if context else ""))
     points = grid(varies)
     run_pts = [{**pt, **context} for pt in points]
     rows, runner = run_points(problem, catalogs, run_pts, workers=workers, scheduler=scheduler, progress=progress)

@@ -125,7 +125,16 @@ def _check_value(key: str, value: float) -> str | None:
 
     table, name = key.split(".", 1)
     spec = TABLES[table][name]
-    return None if spec.check is None else spec.check(value)
+    try:
+        finite = math.isfinite(value)
+    except (TypeError, OverflowError):
+        finite = False
+    if isinstance(value, bool) or not finite:
+        return "must be a finite number"
+    rule = None if spec.check is None else spec.check(value)
+    if rule is None and spec.limits is not None and not spec.limits[0] <= value <= spec.limits[1]:
+        rule = f"must be between {spec.limits[0]:g} and {spec.limits[1]:g} (the range selector accepts)"
+    return rule
 
 
 def validate(problem: Problem, varies: list[tuple[str, np.ndarray]]) -> None:
@@ -169,6 +178,9 @@ def apply_overrides(problem: Problem, overrides: dict) -> Problem:
     tables = {"vehicle": {}, "environment": {}, "requirements": {}, "procurement": {}}
     for key, value in overrides.items():
         check_key(key)
+        rule = _check_value(key, value)
+        if rule:
+            raise InputError(f"{key} = {value!r}: {rule} [{SWEEPABLE[key][0]}]. Give a value inside the allowed range.")
         table, name = key.split(".", 1)
         tables[table][name] = float(value)
     env = tables["environment"]

@@ -81,9 +81,15 @@ def _setup_simulate(p):
 def _cmd_simulate(args) -> int:
     from selector.api import open_study, simulate
 
+    if args.plot is not None:
+        from selector.io.plots import check_output_path
+
+        check_output_path(args.plot, protected=(args.problem,))  # fail before any work
     study = open_study(args.problem)
+    if args.plot is not None:  # the catalogues are read now: never write over one of them
+        check_output_path(args.plot)
     res = simulate(study, args.motor, args.reducer, args.tyre)
-    if getattr(args, "plot", None):
+    if args.plot is not None:
         from selector.io.plots import tractive_effort_plot
 
         tractive_effort_plot(study, args.motor, args.reducer, args.tyre, args.plot)
@@ -99,7 +105,7 @@ def _cmd_simulate(args) -> int:
     print(requirement_table(d))
     for u in d["unmet"]:
         print(f"not met: {u['name']}: {u['why']}")
-    if getattr(args, "plot", None):
+    if args.plot is not None:
         print(f"\nplot written to {args.plot}")
     print("\n" + CAUTION)
     return 0

@@ -66,10 +66,10 @@ def run_shortlist(args) -> int:
     )
 
     study = open_shortlist_study(args.problem, args.avoid_supplier, args.max_lead_time_weeks)
-    if args.out:
+    if args.out is not None:
         check_output_path(args.out, shortlist_inputs(study))  # fail before a long search
     res = shortlist(study, args.count, distinct=args.distinct, vehicles=args.vehicles, time_limit_s=args.time_limit)
-    if args.out:
+    if args.out is not None:
         res["output"] = write_shortlist(res, args.out, study)
     if args.format == "json":
         print(dumps(res))

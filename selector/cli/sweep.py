@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 
 from selector.cli.args import add_common, positive_int
+from selector.errors import InputError
 from selector.records import CAUTION, dumps, fmt, table
 
 HELP = "re-solve exactly over a grid of problem values (parameter sweep)"
@@ -32,23 +33,31 @@ def handle(args) -> int:
     from selector.studies.sweep import sweep, to_csv
 
     csv_only = {".csv": "csv"}
-    protected = ()
-    if args.plot:
-        check_output_path(args.plot)
-    if args.out:
+    protected = (args.problem,)
+    if args.scheduler is not None and not args.scheduler.strip():
+        raise InputError("--scheduler '': the address is empty. Give the Dask scheduler's address, e.g. "
+                         "tcp://host:8786, or leave the option out to run locally.")
+    if args.plot is not None:
+        check_output_path(args.plot, protected=protected)
+    if args.out is not None:
+        check_out(args.out, protected, formats=csv_only)
+    if args.out is not None or args.plot is not None:
         from selector.io.problem import load_problem
 
         problem = load_problem(args.problem)
         protected = (problem.path, *problem.catalog_paths.values())  # never overwrite an input
-        check_out(args.out, protected, formats=csv_only)
+        if args.out is not None:
+            check_out(args.out, protected, formats=csv_only)
+        if args.plot is not None:
+            check_output_path(args.plot, protected=protected)
     progress = args.format == "table" and sys.stderr.isatty()
     res = sweep(args.problem, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
-    if args.out:
+    if args.out is not None:
         text = to_csv(res)
         atomic_write(args.out, lambda tmp: Path(tmp).write_text(text, encoding="utf-8", newline=""),
                      protected, formats=csv_only)
         res["csv"] = args.out
-    if args.plot:
+    if args.plot is not None:
         from selector.io.plots import sweep_plot
 
         sweep_plot(res, args.plot)

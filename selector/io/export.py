@@ -3,7 +3,8 @@
 Every file is written to a temporary file in the target folder and moved over the target with
 `os.replace`, so a reader never sees a half-written file and a failed write leaves the old file
 (if any) untouched and no temporary file behind. Input files (the problem file, the catalogues)
-are never overwritten: pass them as ``protected``.
+are never overwritten: every file a loader read is remembered (`selector.io.files.input_files`)
+and refused as an output, with symbolic links resolved; callers may name more as ``protected``.
 
 Failures a user can fix (missing folder, read-only folder, the path is a folder, its parent is a
 file, unknown extension, the path is an input file) raise `selector.errors.InputError` with the
@@ -21,6 +22,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from selector.errors import InputError
+from selector.io.files import control_char, describe_os_error, input_files, shown
 
 FORMATS = {".csv": "csv", ".xlsx": "xlsx"}
 """File extension (lower case) -> format name."""
@@ -52,7 +54,10 @@ def _same_file(a: Path, b: Path) -> bool:
             return os.path.samefile(a, b)
     except OSError:
         pass
-    return a.resolve() == b.resolve()
+    try:
+        return os.path.realpath(a) == os.path.realpath(b)
+    except (OSError, ValueError):
+        return False
 
 
 def check_output_path(path, protected=(), option: str = "--out", formats: dict | None = None) -> Path:
@@ -70,11 +75,26 @@ def check_output_path(path, protected=(), option: str = "--out", formats: dict |
         Unknown extension; the path is a folder; its folder is missing or is a file; the path is
         one of the ``protected`` files.
     """
+    if path is None or not str(path).strip():
+        raise InputError(f"{option} {str(path or '')!r}: the file name is empty. Give a file name, or leave the "
+                         "option out.")
+    if control_char(str(path)) is not None:
+        raise InputError(f"{option} {shown(str(path))}: the file name contains a control character. Choose "
+                         "another file name.")
     p = Path(path).expanduser()
     output_format(p, option, formats)
     absolute = Path(os.path.abspath(p))
-    for q in protected:
-        if q is not None and _same_file(absolute, Path(q)):
+    try:  # follows symbolic links: a loop, an over-long name or a dangling folder shows here
+        os.stat(absolute)
+    except (FileNotFoundError, NotADirectoryError):
+        pass
+    except (OSError, ValueError) as exc:
+        cause = describe_os_error(exc) if isinstance(exc, OSError) else str(exc)
+        raise InputError(f"{option} {path}: cannot be used as an output file ({cause}). Choose another "
+                         "file name.") from None
+    real = Path(os.path.realpath(absolute))
+    for q in (*protected, *sorted(input_files())):
+        if q is not None and (_same_file(absolute, Path(q)) or _same_file(real, Path(q))):
             raise InputError(f"{option} {path}: this is an input file of the study ({q}); selector never "
                              "overwrites its inputs. Choose another output file name.")
     if absolute.is_dir():

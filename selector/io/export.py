@@ -147,6 +147,23 @@ def atomic_write(path, write, protected=(), option: str = "--out", formats: dict
     return target
 
 
+FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+"""Leading characters that make a spreadsheet read a CSV cell as a formula (OWASP, CSV injection)."""
+
+
+def neutral_text(text: str) -> str:
+    """``text`` safe as a CSV cell: a leading formula character is preceded by ``'`` (OWASP guidance
+    on CSV injection), so a spreadsheet shows the text instead of running it; plain numbers
+    ("-2.5") and a lone "-" are left as they are."""
+    if not text or not text.startswith(FORMULA_TRIGGERS) or text == "-":
+        return text
+    try:
+        float(text)
+        return text
+    except ValueError:
+        return "'" + text
+
+
 def _csv_cell(v):
     if v is None:
         return ""
@@ -154,6 +171,8 @@ def _csv_cell(v):
         return "true" if v else "false"
     if isinstance(v, float) and not math.isfinite(v):
         return ""
+    if isinstance(v, str):
+        return neutral_text(v)
     return v
 
 
@@ -169,9 +188,24 @@ def write_csv(path, sheet: Sheet, protected=(), option: str = "--out") -> Path:
     return atomic_write(path, write, protected, option)
 
 
+def _xlsx_text(text: str) -> str:
+    """Text an XLSX cell can hold: characters XML 1.0 forbids (C0 controls but tab, CR, LF) escaped."""
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    return ILLEGAL_CHARACTERS_RE.sub(lambda m: f"\\x{ord(m.group(0)):02x}", text)
+
+
+def _sheet_title(name: str) -> str:
+    """A valid sheet title: characters Excel forbids in titles and control characters become "_"."""
+    title = "".join("_" if ch in '\\/*?:[]' or ord(ch) < 32 or 127 <= ord(ch) < 160 else ch for ch in name)[:31]
+    return title.strip("'") or "Sheet"
+
+
 def _xlsx_cell(ws, r: int, c: int, v):
     if isinstance(v, float) and not math.isfinite(v):
         v = None
+    if isinstance(v, str):
+        v = _xlsx_text(v)
     cell = ws.cell(row=r, column=c, value=v)
     if isinstance(v, str) and v.startswith("="):
         cell.data_type = "s"  # text, never a formula
@@ -188,7 +222,7 @@ def write_xlsx(path, sheets: list[Sheet], protected=(), option: str = "--out") -
         wb.remove(wb.active)
         bold = Font(bold=True)
         for sheet in sheets:
-            ws = wb.create_sheet(title=sheet.name[:31])
+            ws = wb.create_sheet(title=_sheet_title(sheet.name))
             for c, name in enumerate(sheet.columns, 1):
                 _xlsx_cell(ws, 1, c, name).font = bold
             for r, row in enumerate(sheet.rows, 2):

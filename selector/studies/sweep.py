@@ -420,10 +420,13 @@ def sweep(problem_path, vary: list[str], workers: int | None = None, scheduler: 
 
 def to_csv(result: dict) -> str:
     """The rows of a sweep result as CSV text (header = ``columns``; empty cell = not applicable)."""
+    from selector.io.export import neutral_text
+
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(result["columns"])
-    for r in result["rows"]:
-        w.writerow(["" if r.get(c) is None else (repr(r[c]) if isinstance(r[c], float) else r[c])
+    for r in result["rows"]:  # text cells (part ids) neutralised against spreadsheet formulas
+        w.writerow(["" if r.get(c) is None else (repr(r[c]) if isinstance(r[c], float) else
+                                                  neutral_text(r[c]) if isinstance(r[c], str) else r[c])
                     for c in result["columns"]])
     return buf.getvalue()

@@ -332,6 +332,9 @@ def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
         if collapse:
             hint = (" Comment lines starting with # are allowed only above the header row."
                     if part.startswith("#") else "")
+            if any("," in rec.get(c.name, "") for c in schema if c.type == "str"):
+                hint += (" A cell holds commas: a double quote without its closing quote may have joined "
+                         "cells; check the quotes on this line.")
             errors.append(f"{loc}: {len(empty)} required cells are empty ({', '.join(empty)}). "
                           f"Fill them in or remove the row.{hint}")
             row_ok = False

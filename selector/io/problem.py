@@ -343,7 +343,24 @@ def _type_name(v) -> str:
     return type(v).__name__
 
 
-_TABLE_RE = re.compile(r"^\s*\[\s*([A-Za-z0-9_.\- ]+?)\s*\]\s*(#.*)?$")
+_TABLE_NAME_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_.- ")
+
+
+def _table_header(line: str) -> str | None:
+    """The table name of a ``[name]`` header line, or None (a linear scan: no regular expression, whose
+    backtracking on long runs of spaces took cubic time)."""
+    t = line.strip()
+    if not t.startswith("["):
+        return None
+    end = t.find("]")
+    if end < 0:
+        return None
+    name, rest = t[1:end].strip(), t[end + 1:].strip()
+    if not name or (rest and not rest.startswith("#")) or not set(name) <= _TABLE_NAME_CHARS:
+        return None
+    return name
+
+
 _KEY_RE = re.compile(r"""^\s*([A-Za-z0-9_\-]+|"[^"]*"|'[^']*')\s*=""")
 
 
@@ -352,9 +369,9 @@ def _key_lines(text: str) -> dict[tuple[str, str], int]:
     out: dict[tuple[str, str], int] = {}
     table = ""
     for n, line in enumerate(text.splitlines(), start=1):
-        m = _TABLE_RE.match(line)
-        if m:
-            table = m.group(1).strip()
+        header = _table_header(line)
+        if header is not None:
+            table = header
             out.setdefault(("", table.split(".")[0].strip()), n)
             continue
         m = _KEY_RE.match(line)

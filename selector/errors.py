@@ -16,3 +16,8 @@ class InputError(SelectorError):
 
 class SolverUnavailableError(SelectorError):
     """The MILP solver (HiGHS through Pyomo) is missing or broken (exit code 1)."""
+
+
+class Terminated(BaseException):
+    """SIGTERM arrived (raised by the command line's signal handler; exit code 143). A BaseException,
+    like KeyboardInterrupt, so that no ``except Exception`` swallows it and every ``finally`` runs."""

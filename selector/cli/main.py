@@ -10,12 +10,14 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import time
 import traceback
 import warnings
 
 from selector import __version__
 from selector.cli.args import add_common, positive_float
-from selector.errors import InputError, SelectorError
+from selector.errors import InputError, SelectorError, Terminated
+from selector.io.files import describe_os_error
 from selector.records import (
     CAUTION,
     dumps,
@@ -153,8 +155,9 @@ def print_search_result(res: dict, title: str = "best design", diagnosis: list[s
 def _cmd_solve(args) -> int:
     from selector.api import open_study, solve
 
+    t0 = time.monotonic()
     study = open_study(args.problem)
-    res = solve(study, time_limit_s=args.time_limit)
+    res = solve(study, time_limit_s=remaining_s(args.time_limit, t0))
     if res["status"] == "infeasible":
         combos = res["search"]["combinations"]
         if args.time_limit is None and combos <= DIAGNOSE_MAX_COMBINATIONS:
@@ -170,6 +173,14 @@ def _cmd_solve(args) -> int:
     else:
         print_search_result(res, diagnosis=res.get("diagnosis", {}).get("summary"))
     return 0
+
+
+def remaining_s(limit_s: float | None, t0: float) -> float | None:
+    """What is left of ``--time-limit`` after loading since ``t0`` (time.monotonic) [s]; the limit covers
+    reading the files and building the tables, not only the search (never below 1 ms)."""
+    if limit_s is None:
+        return None
+    return max(limit_s - (time.monotonic() - t0), 1e-3)
 
 
 DIAGNOSE_MAX_COMBINATIONS = 2_000_000
@@ -203,10 +214,28 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
+def _install_sigterm():
+    """SIGTERM raises `Terminated` (temporary files are removed by the writers' ``finally`` blocks, sweep
+    workers are stopped); returns the previous handler, or None when not in the main thread."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return None
+    return signal.signal(signal.SIGTERM, _on_sigterm)
+
+
 def run(argv=None) -> int:
-    """Run the CLI; returns the exit code (0 ok, 2 bad input, 1 internal error)."""
+    """Run the CLI; returns the exit code (0 ok, 2 bad input, 1 internal error, 130 Ctrl-C, 143 SIGTERM)."""
+    import signal
+
     argv = list(sys.argv[1:] if argv is None else argv)
     verbose = "--verbose" in argv
+    previous = _install_sigterm()
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
@@ -218,11 +247,19 @@ def run(argv=None) -> int:
             print(f"error: {exc}", file=sys.stderr)
             return 1
         except KeyboardInterrupt:
-            print("interrupted", file=sys.stderr)
+            print("interrupted (Ctrl-C)", file=sys.stderr)
             return 130
+        except Terminated:
+            print("terminated (SIGTERM)", file=sys.stderr)
+            return 143
         except BrokenPipeError:  # output piped into a reader that stopped early (e.g. `| head`)
             sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - silence the interpreter's final flush
             return 0
+        except OSError as exc:  # the environment, not the input or the code: a full disk, a closed terminal
+            print(f"error: {describe_os_error(exc)}"
+                  f"{f' ({exc.filename})' if getattr(exc, 'filename', None) else ''}. Nothing more was written; "
+                  "check the disk and the output paths.", file=sys.stderr)
+            return 2
         except Exception as exc:  # noqa: BLE001 - last resort: an internal error is a bug
             if verbose:
                 traceback.print_exc()
@@ -230,6 +267,8 @@ def run(argv=None) -> int:
                   "and report the output.", file=sys.stderr)
             return 1
         finally:  # warnings are shown on every path, also before an error
+            if previous is not None:
+                signal.signal(signal.SIGTERM, previous)
             for w in caught:
                 if issubclass(w.category, UserWarning):
                     print(f"warning: {w.message}", file=sys.stderr)

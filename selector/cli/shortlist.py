@@ -57,6 +57,9 @@ def print_shortlist(res: dict) -> None:
 
 def run_shortlist(args) -> int:
     """Handler of ``selector shortlist``."""
+    import time
+
+    from selector.cli.main import remaining_s
     from selector.io.export import check_output_path
     from selector.studies.shortlist import (
         open_shortlist_study,
@@ -65,10 +68,12 @@ def run_shortlist(args) -> int:
         write_shortlist,
     )
 
+    t0 = time.monotonic()
     study = open_shortlist_study(args.problem, args.avoid_supplier, args.max_lead_time_weeks)
     if args.out is not None:
         check_output_path(args.out, shortlist_inputs(study))  # fail before a long search
-    res = shortlist(study, args.count, distinct=args.distinct, vehicles=args.vehicles, time_limit_s=args.time_limit)
+    res = shortlist(study, args.count, distinct=args.distinct, vehicles=args.vehicles,
+                    time_limit_s=remaining_s(args.time_limit, t0))
     if args.out is not None:
         res["output"] = write_shortlist(res, args.out, study)
     if args.format == "json":

@@ -21,6 +21,8 @@ def setup(p):
     p.add_argument("--plot", metavar="FILE", help="write the objective against the first key (.png, .svg or .pdf)")
     p.add_argument("--workers", type=positive_int, metavar="N", help="local worker processes (default: CPU count)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://host:8786")
+    p.add_argument("--large", action="store_true",
+                   help="allow a grid above 5,000 points or more --workers than CPU cores")
 
 
 def handle(args) -> int:
@@ -51,7 +53,8 @@ def handle(args) -> int:
         if args.plot is not None:
             check_output_path(args.plot, protected=protected)
     progress = args.format == "table" and sys.stderr.isatty()
-    res = sweep(args.problem, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
+    res = sweep(args.problem, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress,
+                large=args.large)
     if args.out is not None:
         text = to_csv(res)
         atomic_write(args.out, lambda tmp: Path(tmp).write_text(text, encoding="utf-8", newline=""),

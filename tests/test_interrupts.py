@@ -109,3 +109,12 @@ def test_sweep_resource_guards(tmp_path, extra, words):
     proc = run_cli("sweep", problem, *extra)
     assert_clean_answer(proc, codes=(2,))
     assert words in proc.stderr
+
+
+@pytest.mark.skipif(not Path("/dev/full").exists(), reason="needs /dev/full")
+def test_full_disk_is_one_line_not_a_traceback():
+    with open("/dev/full", "w") as full:
+        proc = subprocess.run([sys.executable, "-m", "selector", "check", str(ROOT / "problems" / "parcel_van.toml")],
+                              stdout=full, stderr=subprocess.PIPE, text=True, cwd=ROOT, timeout=120)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+    assert "No space left on device" in proc.stderr

@@ -111,7 +111,7 @@ def mutate_cell(rng: random.Random, path: Path) -> str:
     if r < 0.55:
         value = rng.choice(HOSTILE_CELLS)
     elif r < 0.8:
-        value = f"{rng.uniform(-1, 1) * 10 ** rng.randint(-330, 330):.6g}"
+        value = f"{rng.uniform(-1, 1) * 10.0 ** rng.randint(-320, 308):.6g}"
     else:
         value = cells[rng.randrange(len(cells))]  # another cell of the row
     if any(ch in value for ch in ',"\n\r') and rng.random() < 0.5:
@@ -200,7 +200,7 @@ def mutate_problem_key(rng: random.Random, path: Path) -> str:
     if r < 0.6:
         value = rng.choice(HOSTILE_TOML)
     elif r < 0.85:
-        value = repr(rng.uniform(-1, 1) * 10 ** rng.randint(-330, 330)).replace("e+", "e")
+        value = repr(rng.uniform(-1, 1) * 10.0 ** rng.randint(-320, 308)).replace("e+", "e")
         value = value if "e" in value or "." in value else value + ".0"
     else:
         value = None  # delete the key

@@ -210,8 +210,9 @@ TYRE_DIAMETER_LIMITS_M = (0.2, 2.5)
 """Unloaded tyre diameters outside this range are refused [m] (common practice, no published source)."""
 TYRE_DIAMETER_USUAL_M = (0.4, 1.3)
 """Unloaded tyre diameters outside this range are warned about [m] (passenger car to light truck)."""
-CONSTANT_POWER_RATIO_USUAL = 10.0
-"""max_speed_rpm / corner speed above this is warned about [-] (traction motors: about 2..6)."""
+CONSTANT_POWER_RATIO_USUAL = 20.0
+"""max_speed_rpm / corner speed above this is warned about [-] (traction motors: about 2..6; hand-made
+test motors reach 13)."""
 CONSTANT_POWER_RATIO_LIMIT = 100.0
 """max_speed_rpm / corner speed above this is refused [-]: peak power and peak torque cannot belong
 to one motor (e.g. 2000 N m with 5 kW)."""

@@ -19,7 +19,7 @@ from selector import __version__
 from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, feasible
 from selector.engine.parts import PartTables
 from selector.engine.verify import design_keys, verify_designs
-from selector.errors import InputError
+from selector.errors import InputError, argument_error
 from selector.inputs import Catalogs, Problem, Procurement
 from selector.io.problem import load_study
 from selector.records import BINDING_RULE, CAUTION, as_design, clean, design_record, fmt
@@ -106,7 +106,15 @@ def open_study(path: str | os.PathLike, procurement: Procurement | None = None) 
     ------
     InputError
         Naming the file, line or row, key or column, what is wrong and what to do.
+    ArgumentError
+        Wrong argument types, naming the parameter (`selector.errors.ArgumentError`).
     """
+    import os
+
+    if not isinstance(path, (str, os.PathLike)):
+        raise argument_error("open_study", "path", path, "the path of a problem file (str or os.PathLike)")
+    if procurement is not None and not isinstance(procurement, Procurement):
+        raise argument_error("open_study", "procurement", procurement, "a selector.inputs.Procurement or None")
     with warnings.catch_warnings():
         warnings.simplefilter("default")
         problem, catalogs = load_study(path)
@@ -148,6 +156,8 @@ def find_part(parts: PartTables, kind: str, part_id: str, option: str | None = N
 
     ``option``: the command-line option that named the part (default ``--kind``).
     """
+    if not isinstance(part_id, str):
+        raise argument_error("simulate", kind, part_id, "a part id (text)")
     arr = {"motor": parts.motors, "reducer": parts.reducers, "tyre": parts.tyres}[kind]
     ids = [str(p) for p in arr.part]
     if part_id in ids:
@@ -234,11 +244,30 @@ def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> d
 
 
 def solve(study: Study, count: int = 1, time_limit_s: float | None = None, objective: str | None = None) -> dict:
-    """Best design(s) of a study, verified, as the JSON-ready result."""
+    """Best design(s) of a study, verified, as the JSON-ready result (`ArgumentError` for wrong arguments)."""
     from selector.engine.search import search  # the solver stack: imported only when a study is solved
+
+    check_study_args("solve", study, count=count, time_limit_s=time_limit_s, objective=objective)
 
     res = search(study.parts, objective=objective, count=count, allowed=study.allowed, time_limit_s=time_limit_s)
     return result_dict(study, res)
+
+
+def check_study_args(function: str, study, count=1, time_limit_s=None, objective=None) -> None:
+    """`ArgumentError` naming the parameter when a library call's study, count, time limit or objective is
+    of the wrong type or out of range."""
+    import math
+    import numbers
+
+    if not isinstance(study, Study):
+        raise argument_error(function, "study", study, "a Study from selector.api.open_study(path)")
+    if isinstance(count, bool) or not isinstance(count, numbers.Integral) or count < 1:
+        raise argument_error(function, "count", count, "a whole number >= 1")
+    if time_limit_s is not None and (isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real)
+                                     or not math.isfinite(time_limit_s) or time_limit_s <= 0):
+        raise argument_error(function, "time_limit_s", time_limit_s, "a number of seconds > 0, or None")
+    if objective is not None and objective not in OBJECTIVE_METRIC:
+        raise argument_error(function, "objective", objective, f"one of {', '.join(OBJECTIVE_METRIC)} or None")
 
 
 def simulate(study: Study, motor: str | None = None, reducer: str | None = None, tyre: str | None = None, *,
@@ -254,6 +283,7 @@ def simulate(study: Study, motor: str | None = None, reducer: str | None = None,
 
     The design record's keys (as in `solve`'s designs) are at the top level, and also under "design".
     """
+    check_study_args("simulate", study)
     parts = study.parts
     design = design_from_ids(parts, motor, reducer, tyre, front_motor, front_reducer, rear_motor, rear_reducer)
     metrics = evaluate(parts, [design.key], shifts=True)

@@ -14,5 +14,23 @@ class InputError(SelectorError):
     """
 
 
+class ArgumentError(InputError, TypeError):
+    """A library function was called with an argument of the wrong type or value (exit code 2 on the
+    command line). Also a TypeError, so ``except TypeError`` keeps working; the message names the
+    function, the parameter, what it got and what it takes."""
+
+
+def argument_error(function: str, name: str, value, expected: str) -> ArgumentError:
+    """The `ArgumentError` for ``function(name=value)`` that should have been ``expected``."""
+    shown = repr(value)
+    shown = shown if len(shown) <= 60 else shown[:57] + "..."
+    return ArgumentError(f"{function}({name}={shown}): {name} must be {expected}, not {type(value).__name__}.")
+
+
 class SolverUnavailableError(SelectorError):
     """The MILP solver (HiGHS through Pyomo) is missing or broken (exit code 1)."""
+
+
+class Terminated(BaseException):
+    """SIGTERM arrived (raised by the command line's signal handler; exit code 143). A BaseException,
+    like KeyboardInterrupt, so that no ``except Exception`` swallows it and every ``finally`` runs."""

@@ -71,6 +71,24 @@ class Procurement:
     avoid_suppliers: tuple[str, ...] = ()
     max_lead_time_weeks: float | None = None
 
+    def __post_init__(self):
+        import math
+
+        from selector.errors import argument_error
+
+        names = self.avoid_suppliers
+        if isinstance(names, str) or not isinstance(names, (tuple, list)) \
+                or not all(isinstance(x, str) for x in names):
+            raise argument_error("Procurement", "avoid_suppliers", names,
+                                 'a list of supplier names, e.g. ["Acme"] (a single name in a list)')
+        object.__setattr__(self, "avoid_suppliers", tuple(names))
+        if self.distinct is not None and self.distinct not in ("motor", "reducer", "tyre"):
+            raise argument_error("Procurement", "distinct", self.distinct, '"motor", "reducer", "tyre" or None')
+        w = self.max_lead_time_weeks
+        if w is not None and (isinstance(w, bool) or not isinstance(w, (int, float)) or not math.isfinite(w)
+                              or w < 0):
+            raise argument_error("Procurement", "max_lead_time_weeks", w, "a number >= 0 [weeks] or None")
+
 
 @dataclass(frozen=True)
 class DriveOptions:

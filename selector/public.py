@@ -176,7 +176,7 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
 
 
 def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], workers: int | None = None,
-          scheduler: str | None = None, progress: bool = False) -> SweepResult:
+          scheduler: str | None = None, progress: bool = False, large: bool = False) -> SweepResult:
     """Re-solve a study exactly over a grid of problem values.
 
     Parameters
@@ -193,6 +193,9 @@ def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], wor
         Address of a Dask scheduler, e.g. ``tcp://host:8786``.
     progress : bool
         Show a progress bar on stderr.
+    large : bool
+        Allow grids above `selector.studies.sweep.LARGE_POINTS` points and more local workers than
+        CPU cores (otherwise an error asks for it).
 
     Returns
     -------
@@ -206,7 +209,7 @@ def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], wor
     if study.catalogs is None:
         raise InputError("study: has no catalogues attached; make it with open_study or Study.from_frames.")
     return SweepResult(sweep_problem(study.problem, study.catalogs, vary, workers=workers, scheduler=scheduler,
-                                     progress=progress, source=study.problem_dict))
+                                     progress=progress, source=study.problem_dict, large=large))
 
 
 def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: int = 1,

@@ -257,9 +257,17 @@ def fmt(x, digits=4) -> str:
     return f"{x:.{digits}g}"
 
 
+def _printable(text: str) -> str:
+    """Text for a terminal: control characters (escape sequences, line breaks) shown escaped, never sent raw."""
+    from selector.io.files import control_char, shown
+
+    return text if control_char(text) is None else shown(text, limit=len(text))
+
+
 def table(headers: list[str], rows: list[list], align: str | None = None) -> str:
     """A plain monospace table; ``align`` is a string of 'l'/'r' per column (default: first l)."""
-    cells = [[str(h) for h in headers]] + [[c if isinstance(c, str) else fmt(c) for c in r] for r in rows]
+    cells = [[_printable(str(h)) for h in headers]] + [[_printable(c) if isinstance(c, str) else fmt(c) for c in r]
+                                                      for r in rows]
     widths = [max(len(r[c]) for r in cells) for c in range(len(headers))]
     align = align or ("l" + "r" * (len(headers) - 1))
     out = []

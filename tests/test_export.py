@@ -35,7 +35,7 @@ def test_csv_round_trip(tmp_path):
     assert frame["part"].tolist() == ["M-1", "M-2"]
     assert frame["supplier"].tolist() == ["Volta Drives", "Ampère Werke"]
     assert frame["unit_cost"].tolist() == [1250.5, 990.0]
-    assert pd.isna(frame["note"][0]) and frame["note"][1] == "=1+1"
+    assert pd.isna(frame["note"][0]) and frame["note"][1] == "'=1+1"  # neutralised: OWASP CSV injection
     assert listing(tmp_path) == ["out.csv"]
 
 

@@ -21,12 +21,15 @@ def handle(args) -> int:
     from selector.api import open_study
     from selector.public import frontier
 
-    if args.plot:
+    if args.plot is not None:
         from selector.io.plots import check_output_path
 
+        check_output_path(args.plot, protected=(args.problem,))
+    study = open_study(args.problem)
+    if args.plot is not None:  # the catalogues are read now: never write over one of them
         check_output_path(args.plot)
-    result = frontier(open_study(args.problem), axis=args.axis)
-    if args.plot:
+    result = frontier(study, axis=args.axis)
+    if args.plot is not None:
         from selector.io.plots import frontier_plot
 
         frontier_plot(result.data, args.plot)

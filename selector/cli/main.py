@@ -10,12 +10,14 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+import time
 import traceback
 import warnings
 
 from selector import __version__
 from selector.cli.args import add_common, flag_names, positive_float
-from selector.errors import InputError, SelectorError
+from selector.errors import InputError, SelectorError, Terminated
+from selector.io.files import describe_os_error
 from selector.records import (
     CAUTION,
     design_name,
@@ -103,10 +105,16 @@ def _cmd_simulate(args) -> int:
     from selector.api import open_study
     from selector.public import simulate
 
+    if args.plot is not None:
+        from selector.io.plots import check_output_path
+
+        check_output_path(args.plot, protected=(args.problem,))  # fail before any work
     study = open_study(args.problem)
     ids = _slot_ids(args)
+    if args.plot is not None:  # the catalogues are read now: never write over one of them
+        check_output_path(args.plot)
     result = simulate(study, **ids)
-    if getattr(args, "plot", None):
+    if args.plot is not None:
         from selector.io.plots import tractive_effort_plot
 
         tractive_effort_plot(study, path=args.plot, **ids)
@@ -127,7 +135,7 @@ def _cmd_simulate(args) -> int:
     print(requirement_table(d))
     for u in d["unmet"]:
         print(f"not met: {u['name']}: {u['why']}")
-    if getattr(args, "plot", None):
+    if args.plot is not None:
         print(f"\nplot written to {args.plot}")
     print("\n" + CAUTION)
     return 0
@@ -180,13 +188,23 @@ def _cmd_solve(args) -> int:
     from selector.api import open_study
     from selector.public import solve
 
-    result = solve(open_study(args.problem), time_limit_s=args.time_limit)  # diagnosis included when infeasible
+    t0 = time.monotonic()
+    study = open_study(args.problem)
+    result = solve(study, time_limit_s=remaining_s(args.time_limit, t0))  # diagnosis included when infeasible
     if args.format == "json":
         print(result.to_json())
     else:
         res = result.data
         print_search_result(res, diagnosis=res.get("diagnosis", {}).get("summary"))
     return 0
+
+
+def remaining_s(limit_s: float | None, t0: float) -> float | None:
+    """What is left of ``--time-limit`` after loading since ``t0`` (time.monotonic) [s]; the limit covers
+    reading the files and building the tables, not only the search (never below 1 ms)."""
+    if limit_s is None:
+        return None
+    return max(limit_s - (time.monotonic() - t0), 1e-3)
 
 
 COMMANDS = {
@@ -217,10 +235,28 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _on_sigterm(signum, frame):
+    raise Terminated()
+
+
+def _install_sigterm():
+    """SIGTERM raises `Terminated` (temporary files are removed by the writers' ``finally`` blocks, sweep
+    workers are stopped); returns the previous handler, or None when not in the main thread."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        return None
+    return signal.signal(signal.SIGTERM, _on_sigterm)
+
+
 def run(argv=None) -> int:
-    """Run the CLI; returns the exit code (0 ok, 2 bad input, 1 internal error)."""
+    """Run the CLI; returns the exit code (0 ok, 2 bad input, 1 internal error, 130 Ctrl-C, 143 SIGTERM)."""
+    import signal
+
     argv = list(sys.argv[1:] if argv is None else argv)
     verbose = "--verbose" in argv
+    previous = _install_sigterm()
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
@@ -232,11 +268,19 @@ def run(argv=None) -> int:
             print(f"error: {exc}", file=sys.stderr)
             return 1
         except KeyboardInterrupt:
-            print("interrupted", file=sys.stderr)
+            print("interrupted (Ctrl-C)", file=sys.stderr)
             return 130
+        except Terminated:
+            print("terminated (SIGTERM)", file=sys.stderr)
+            return 143
         except BrokenPipeError:  # output piped into a reader that stopped early (e.g. `| head`)
             sys.stdout = open(os.devnull, "w")  # noqa: SIM115 - silence the interpreter's final flush
             return 0
+        except OSError as exc:  # the environment, not the input or the code: a full disk, a closed terminal
+            print(f"error: {describe_os_error(exc)}"
+                  f"{f' ({exc.filename})' if getattr(exc, 'filename', None) else ''}. Nothing more was written; "
+                  "check the disk and the output paths.", file=sys.stderr)
+            return 2
         except Exception as exc:  # noqa: BLE001 - last resort: an internal error is a bug
             if verbose:
                 traceback.print_exc()
@@ -244,6 +288,8 @@ def run(argv=None) -> int:
                   "and report the output.", file=sys.stderr)
             return 1
         finally:  # warnings are shown on every path, also before an error
+            if previous is not None:
+                signal.signal(signal.SIGTERM, previous)
             for w in caught:
                 if issubclass(w.category, UserWarning):
                     print(f"warning: {flag_names(str(w.message))}", file=sys.stderr)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 
 from selector.cli.args import add_common, positive_int
+from selector.errors import InputError
 from selector.records import CAUTION, fmt, table
 
 HELP = "re-solve exactly over a grid of problem values (parameter sweep)"
@@ -20,6 +21,8 @@ def setup(p):
     p.add_argument("--plot", metavar="FILE", help="write the objective against the first key (.png, .svg or .pdf)")
     p.add_argument("--workers", type=positive_int, metavar="N", help="local worker processes (default: CPU count)")
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://host:8786")
+    p.add_argument("--large", action="store_true",
+                   help="allow a grid above 5,000 points or more --workers than CPU cores")
 
 
 def handle(args) -> int:
@@ -34,23 +37,37 @@ def handle(args) -> int:
     from selector.studies.sweep import parse_varies, to_csv
 
     csv_only = {".csv": "csv"}
-    protected = ()
+    protected = (args.problem,)
+    if args.scheduler is not None and not args.scheduler.strip():
+        raise InputError("--scheduler '': the address is empty. Give the Dask scheduler's address, e.g. "
+                         "tcp://host:8786, or leave the option out to run locally.")
     parse_varies(args.vary)  # bad --vary texts are reported before the catalogues are read
-    if args.plot:
-        check_output_path(args.plot)
+    if args.plot is not None:
+        check_output_path(args.plot, protected=protected)
+    if args.out is not None:
+        check_out(args.out, protected, formats=csv_only)
     study = open_study(args.problem)
-    if args.out:
+    if args.out is not None or args.plot is not None:
         problem = study.problem
         protected = (problem.path, *problem.catalog_paths.values())  # never overwrite an input
-        check_out(args.out, protected, formats=csv_only)
+        if args.out is not None:
+            check_out(args.out, protected, formats=csv_only)
+        if args.plot is not None:
+            check_output_path(args.plot, protected=protected)
+        protected = (problem.path, *problem.catalog_paths.values())  # never overwrite an input
+        if args.out is not None:
+            check_out(args.out, protected, formats=csv_only)
+        if args.plot is not None:
+            check_output_path(args.plot, protected=protected)
     progress = args.format == "table" and sys.stderr.isatty()
-    result = sweep(study, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress)
-    if args.out:
+    result = sweep(study, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress,
+                   large=args.large)
+    if args.out is not None:
         text = to_csv(result.data)
         atomic_write(args.out, lambda tmp: Path(tmp).write_text(text, encoding="utf-8", newline=""),
                      protected, formats=csv_only)
         result.add_output("csv", args.out)
-    if args.plot:
+    if args.plot is not None:
         from selector.io.plots import sweep_plot
 
         sweep_plot(result.data, args.plot)

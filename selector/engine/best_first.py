@@ -635,6 +635,9 @@ class SingleAxleSearch:
                     if pick is None:  # the relaxation proves that no open motor beats the pool
                         heap = []
                         break
+                    if pick >= 0 and done[pick]:  # the model excludes evaluated motors: a repeat is a bug
+                        raise RuntimeError(f"the MILP relaxation proposed motor row {pick} a second time; the "
+                                           "search stops instead of looping")
                     if pick >= 0 and pick != pos:  # evaluate the relaxation's motor first
                         heapq.heappush(heap, (float(lb[pos]), int(self.motors[pos])))
                         pos = pick

@@ -16,7 +16,6 @@ import difflib
 import io
 import math
 import os
-import re
 import warnings
 from pathlib import Path
 
@@ -26,7 +25,19 @@ import pandas as pd
 from selector.errors import InputError
 from selector.inputs import Catalogs
 from selector.io.efficiency_map import load_efficiency_map
-from selector.io.schema import DERIVED_COLUMNS, KINDS, SOURCE_ROW, Column, columns
+from selector.io.files import MAX_CELL_CHARS, control_char, printable_problem, read_input_text, shown
+from selector.io.schema import (
+    CONSTANT_POWER_RATIO_LIMIT,
+    CONSTANT_POWER_RATIO_USUAL,
+    DERIVED_COLUMNS,
+    KINDS,
+    MAX_SIZE_CHARS,
+    SOURCE_ROW,
+    TYRE_DIAMETER_LIMITS_M,
+    TYRE_DIAMETER_USUAL_M,
+    Column,
+    columns,
+)
 from selector.physics.losses import peak_efficiency
 from selector.physics.tyres import (
     LOAD_INDEX_KG,
@@ -182,20 +193,8 @@ def _report(disp: str, kind: str, errors: list[str]) -> str:
 
 
 def _read_text(path: Path, disp: str) -> str:
-    if not path.exists():
-        raise InputError(f"{disp}: file not found. Check the path (catalogue paths in a problem file "
-                         "are relative to the problem file).")
-    if path.is_dir():
-        raise InputError(f"{disp}: is a folder, not a CSV file. Give the path of the CSV file.")
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"{disp}: cannot be read ({exc.strerror or exc}). Check the file's permissions.") from None
-    try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"{disp}: is not UTF-8 text (undecodable byte at offset {exc.start}). "
-                         "Save the file as CSV UTF-8.") from None
+    return read_input_text(path, disp, f"{disp}: file not found. Check the path (catalogue paths in a problem "
+                           "file are relative to the problem file).", "CSV file", "CSV UTF-8")
 
 
 def _split_rows(text: str, disp: str):
@@ -215,16 +214,27 @@ def _split_rows(text: str, disp: str):
     header = None
     rows = []
     prev = 0
-    for cells in reader:
-        line = start + prev + 1
-        prev = reader.line_num
-        if header is None:
-            header = [c.strip() for c in cells]
-            continue
-        if not any(c.strip() for c in cells):
-            continue
-        rows.append((line, cells))
+    try:
+        for cells in reader:
+            line = start + prev + 1
+            prev = reader.line_num
+            if header is None and any("\n" in c for c in cells):  # a quoted header cell ran over a line break
+                raise InputError(_unclosed_quote(disp, line, start + prev))
+            if header is None:
+                header = [c.strip() for c in cells]
+                continue
+            if not any(c.strip() for c in cells):
+                continue
+            rows.append((line, cells, start + prev))
+    except csv.Error:  # a quoted cell longer than the csv module's field limit: also an unbalanced quote
+        raise InputError(_unclosed_quote(disp, start + prev + 1, None)) from None
     return header_line, header, rows
+
+
+def _unclosed_quote(disp: str, line: int, last: int | None) -> str:
+    span = f" (it runs to line {last})" if last and last > line else ""
+    return (f"{disp} line {line}: a double quote opens a cell that is not closed on the same line{span}. "
+            "Close the quote, or remove the stray \" (a quote inside a quoted cell is written \"\").")
 
 
 def _near(name: str, candidates) -> str | None:
@@ -252,7 +262,7 @@ def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
     keep = []
     for i, h in enumerate(header):
         if not h:
-            if any(i < len(cells) and cells[i].strip() for _, cells in rows):
+            if any(i < len(cells) and cells[i].strip() for _, cells, _ in rows):
                 errors.append(f"{hloc}: column {i + 1} has no name but holds data. Give it a name in the header row.")
             continue
         keep.append(i)
@@ -291,7 +301,12 @@ def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
     # cells
     ncol = len(header)
     records = []
-    for line, cells in rows:
+    for line, cells, last in rows:
+        spans = [i for i in keep if i < len(cells) and "\n" in cells[i] and header[i] in names]
+        if spans or any(len(c) > MAX_CELL_CHARS for c in cells):  # a quote left open swallows the lines after it
+            errors.append(_unclosed_quote(disp, line, last) if spans or last > line else
+                          f"{disp} line {line}: a cell holds more than {MAX_CELL_CHARS:,} characters. Check the row.")
+            continue
         if len(cells) > ncol:
             surplus = [c for c in cells[ncol:] if c.strip()]
             if surplus:
@@ -317,6 +332,9 @@ def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
         if collapse:
             hint = (" Comment lines starting with # are allowed only above the header row."
                     if part.startswith("#") else "")
+            if any("," in rec.get(c.name, "") for c in schema if c.type == "str"):
+                hint += (" A cell holds commas: a double quote without its closing quote may have joined "
+                         "cells; check the quotes on this line.")
             errors.append(f"{loc}: {len(empty)} required cells are empty ({', '.join(empty)}). "
                           f"Fill them in or remove the row.{hint}")
             row_ok = False
@@ -383,14 +401,52 @@ def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, 
 
 
 def _loc(disp: str, line: int, part: str) -> str:
-    who = f"part \"{part}\"" if part else "part id missing"
+    who = f"part \"{shown(part)}\"" if part else "part id missing"
     return f"{disp} line {line} ({who})"
 
 
 # --------------------------------------------------------------------------------------------
 # checks
 
-_NUM_WITH_UNIT = re.compile(r"^\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*[^\d\s.,+-].*$")
+def _number_with_unit(raw: str) -> bool:
+    """True when ``raw`` is a number followed by text, e.g. ``"250 Nm"`` (a linear scan, no regex)."""
+    t = raw.strip()
+    i = 1 if t[:1] in ("+", "-") else 0
+    j = i
+    while j < len(t) and (t[j].isdigit() or t[j] == "."):
+        j += 1
+    if j == i or t[i:j].count(".") > 1 or t[i:j] == ".":
+        return False
+    if j < len(t) and t[j] in "eE":  # an exponent, if digits follow
+        k = j + 1 + (j + 1 < len(t) and t[j + 1] in "+-")
+        m = k
+        while m < len(t) and t[m].isdigit():
+            m += 1
+        if m > k:
+            j = m
+    rest = t[j:].lstrip()
+    return bool(rest) and not (rest[0].isdigit() or rest[0] in ".,+-")
+
+
+def _comma_advice(raw: str) -> str | None:
+    """Advice for a number written with a comma, or None when it is not one."""
+    t = raw.strip()
+    body = t[1:] if t[:1] in "+-" else t
+    groups = body.split(",")
+    if len(groups) > 1 and all(g.isdigit() for g in groups) and 1 <= len(groups[0]) <= 3 \
+            and all(len(g) == 3 for g in groups[1:]):
+        plain = t.replace(",", "")
+        if len(groups) == 2:  # 2,600: a thousands separator, or a decimal comma
+            return (f"write {plain} (if the comma separates thousands) or {t.replace(',', '.')} (if it is a "
+                    "decimal comma); selector reads a plain number with a decimal point")
+        return f"write {plain} (no thousands separators)"
+    if t.count(",") == 1:
+        try:
+            float(t.replace(",", "."))
+        except ValueError:
+            return None
+        return f"write {t.replace(',', '.')}"
+    return None
 
 
 def _unit(c: Column) -> str:
@@ -399,6 +455,8 @@ def _unit(c: Column) -> str:
 
 def _check_cell(c: Column, raw: str, loc: str):
     """Convert one cell; return (value, error message or None)."""
+    if len(raw) > MAX_CELL_CHARS or control_char(raw) is not None:
+        return None, f"{loc}: {c.name} = \"{shown(raw)}\" {printable_problem(raw)}. Fix the cell."
     if raw == "":
         if c.required:
             return None, f"{loc}: {c.name} is empty; a value is required{_unit(c)}. Fill in the cell."
@@ -408,14 +466,11 @@ def _check_cell(c: Column, raw: str, loc: str):
     try:
         v = float(raw)
     except ValueError:
-        if "," in raw:
-            try:
-                float(raw.replace(",", "."))
-                return None, (f"{loc}: {c.name} = \"{raw}\"; must be a number with a decimal point{_unit(c)}. "
-                              f"Write {raw.replace(',', '.')}.")
-            except ValueError:
-                pass
-        if _NUM_WITH_UNIT.match(raw):
+        advice = _comma_advice(raw) if "," in raw else None
+        if advice:
+            return None, (f"{loc}: {c.name} = \"{raw}\"; must be a number with a decimal point{_unit(c)}. "
+                          f"{advice[0].upper()}{advice[1:]}.")
+        if _number_with_unit(raw):
             return None, (f"{loc}: {c.name} = \"{raw}\"; must be a plain number{_unit(c)}. Remove the unit "
                           "(the unit is in the column name).")
         return None, f"{loc}: {c.name} = \"{raw}\"; must be a number{_unit(c)}. Fix the value in the file."
@@ -441,11 +496,18 @@ def _check_rule(c: Column, v, raw: str, loc: str):
     if rule.startswith("load index") and v not in LOAD_INDEX_KG:
         return (f"{loc}: {c.name} = {raw}; must be a load index {LOAD_INDEX_MIN}..{LOAD_INDEX_MAX} "
                 f"(ISO 4000-1; selector tabulates only this range). Check the tyre's service description.")
+    if c.limits is not None and not c.limits[0] <= v <= c.limits[1]:
+        lo, hi = c.limits
+        return (f"{loc}: {c.name} = {shown(raw)}; must be between {lo:g} and {hi:g}{_unit(c)} (the range selector "
+                "accepts for a road-vehicle part). Check the value and its unit.")
     return None
 
 
 def _check_text(c: Column, raw: str, loc: str):
     if c.rule == "ISO metric size":
+        if len(raw) > MAX_SIZE_CHARS:
+            return None, (f"{loc}: {c.name} = \"{shown(raw)}\" is longer than {MAX_SIZE_CHARS} characters; "
+                          "an ISO metric size looks like 205/55R16. Fix the size in the file.")
         try:
             parse_tyre_size(raw)
         except ValueError as exc:
@@ -483,7 +545,24 @@ def distinct_numbers(*values, digits=None) -> list[str]:
 def _check_row(kind: str, v: dict, loc: str):
     """Cross-column rules and plausibility warnings for one row whose cells are all valid."""
     errors, odd = [], []
+    for c in columns(kind):
+        x = v.get(c.name)
+        if c.usual is not None and x is not None and not c.usual[0] <= x <= c.usual[1]:
+            a, b, d = distinct_numbers(x, *c.usual)
+            odd.append(f"{loc}: {c.name} = {a}; outside {b}..{d}{_unit(c)}, unusual. Check the value and its unit.")
     if kind == "motors":
+        corner_rad_s = v["peak_power_kw"] * 1000.0 / v["peak_torque_nm"]
+        ratio = v["max_speed_rpm"] * RPM_TO_RAD_S / corner_rad_s
+        if ratio > CONSTANT_POWER_RATIO_LIMIT:
+            errors.append(f"{loc}: peak_power_kw = {v['peak_power_kw']:g} with peak_torque_nm = "
+                          f"{v['peak_torque_nm']:g} gives full power only above {corner_rad_s / RPM_TO_RAD_S:.4g} rpm, "
+                          f"1/{ratio:.0f} of max_speed_rpm = {v['max_speed_rpm']:g}; power = torque x speed, so these "
+                          f"cannot belong to one motor (at most 1/{CONSTANT_POWER_RATIO_LIMIT:g}). Check the values "
+                          "and their units (kW, N m, rpm).")
+        elif ratio > CONSTANT_POWER_RATIO_USUAL:
+            odd.append(f"{loc}: max_speed_rpm / corner speed = {ratio:.3g} (corner speed = peak_power_kw x 1000 / "
+                       f"peak_torque_nm); above {CONSTANT_POWER_RATIO_USUAL:g}, unusual for a traction motor. "
+                       "Check peak_power_kw, peak_torque_nm and max_speed_rpm.")
         for cont, peak, unit in (("cont_torque_nm", "peak_torque_nm", "N m"), ("cont_power_kw", "peak_power_kw", "kW")):
             if v[cont] > v[peak] * (1 + _REL_TOL):
                 a, b = distinct_numbers(v[cont], v[peak])
@@ -546,6 +625,15 @@ def _check_row(kind: str, v: dict, loc: str):
         errors += gear_errors
         odd += gear_odd
     elif kind == "tyres":
+        w, a_pct, rim, _ = parse_tyre_size(v["size"])
+        dia = float(unloaded_diameter_m(w, a_pct, rim))
+        lo, hi = TYRE_DIAMETER_LIMITS_M
+        if not lo <= dia <= hi:
+            errors.append(f"{loc}: size = \"{v['size']}\" gives an unloaded diameter of {dia:.3g} m; must be "
+                          f"between {lo:g} and {hi:g} m for a road-vehicle tyre. Check the size.")
+        elif not TYRE_DIAMETER_USUAL_M[0] <= dia <= TYRE_DIAMETER_USUAL_M[1]:
+            odd.append(f"{loc}: size = \"{v['size']}\" gives an unloaded diameter of {dia:.3g} m; outside "
+                       f"{TYRE_DIAMETER_USUAL_M[0]:g}..{TYRE_DIAMETER_USUAL_M[1]:g} m, unusual. Check the size.")
         rr = v["rr_coefficient_n_per_kn"]
         lo, hi = RR_WARN_N_PER_KN
         if not lo <= rr <= hi:

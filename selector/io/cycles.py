@@ -28,6 +28,7 @@ from pathlib import Path
 import numpy as np
 
 from selector.errors import InputError
+from selector.io.files import read_input_text
 from selector.physics.cycles import cycle_distance_m
 from selector.units import KMH_PER_MPS
 
@@ -165,20 +166,8 @@ def _unknown_name_message(name: str) -> str:
 
 
 def _read_text(path: Path, disp: str) -> str:
-    if not path.exists():
-        raise InputError(f"{disp}: cycle file not found (looked for {path}). Check the path, or give a built-in "
-                         f"cycle name ({', '.join(BUILTIN_CYCLES)}).")
-    if path.is_dir():
-        raise InputError(f"{disp}: is a folder, not a cycle file. Give the path of the CSV file.")
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"{disp}: cannot be read ({exc.strerror or exc}). Check the file's permissions.") from None
-    try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"{disp}: is not UTF-8 text (undecodable byte at offset {exc.start}). "
-                         "Save the file as CSV UTF-8.") from None
+    return read_input_text(path, disp, f"{disp}: cycle file not found (looked for {path}). Check the path, or give "
+                           f"a built-in cycle name ({', '.join(BUILTIN_CYCLES)}).", "cycle CSV file", "CSV UTF-8")
 
 
 def _load_file(path: Path, name: str, disp: str) -> Cycle:

@@ -29,6 +29,7 @@ from pathlib import Path
 import numpy as np
 
 from selector.errors import InputError
+from selector.io.files import read_input_text
 from selector.physics.losses import EfficiencyGrid
 from selector.units import RPM_TO_RAD_S
 
@@ -161,20 +162,8 @@ def _report(disp: str, errors: list[str]) -> str:
 
 
 def _read_text(path: Path, disp: str) -> str:
-    if not path.exists():
-        raise InputError(f"{disp}: efficiency map not found (looked for {path}). Check the path; it is relative "
-                         "to the motors catalogue.")
-    if path.is_dir():
-        raise InputError(f"{disp}: is a folder, not an efficiency-map file. Give the path of the CSV file.")
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"{disp}: cannot be read ({exc.strerror or exc}). Check the file's permissions.") from None
-    try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"{disp}: is not UTF-8 text (undecodable byte at offset {exc.start}). "
-                         "Save the file as CSV UTF-8.") from None
+    return read_input_text(path, disp, f"{disp}: efficiency map not found (looked for {path}). Check the path; it "
+                           "is relative to the motors catalogue.", "efficiency-map CSV file", "CSV UTF-8")
 
 
 def _number(raw: str, column: str, where: str, errors: list[str]):

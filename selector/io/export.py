@@ -3,7 +3,8 @@
 Every file is written to a temporary file in the target folder and moved over the target with
 `os.replace`, so a reader never sees a half-written file and a failed write leaves the old file
 (if any) untouched and no temporary file behind. Input files (the problem file, the catalogues)
-are never overwritten: pass them as ``protected``.
+are never overwritten: every file a loader read is remembered (`selector.io.files.input_files`)
+and refused as an output, with symbolic links resolved; callers may name more as ``protected``.
 
 Failures a user can fix (missing folder, read-only folder, the path is a folder, its parent is a
 file, unknown extension, the path is an input file) raise `selector.errors.InputError` with the
@@ -21,6 +22,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from selector.errors import InputError
+from selector.io.files import control_char, describe_os_error, input_files, shown
 
 FORMATS = {".csv": "csv", ".xlsx": "xlsx"}
 """File extension (lower case) -> format name."""
@@ -52,7 +54,10 @@ def _same_file(a: Path, b: Path) -> bool:
             return os.path.samefile(a, b)
     except OSError:
         pass
-    return a.resolve() == b.resolve()
+    try:
+        return os.path.realpath(a) == os.path.realpath(b)
+    except (OSError, ValueError):
+        return False
 
 
 def check_output_path(path, protected=(), option: str = "--out", formats: dict | None = None) -> Path:
@@ -70,11 +75,26 @@ def check_output_path(path, protected=(), option: str = "--out", formats: dict |
         Unknown extension; the path is a folder; its folder is missing or is a file; the path is
         one of the ``protected`` files.
     """
+    if path is None or not str(path).strip():
+        raise InputError(f"{option} {str(path or '')!r}: the file name is empty. Give a file name, or leave the "
+                         "option out.")
+    if control_char(str(path)) is not None:
+        raise InputError(f"{option} {shown(str(path))}: the file name contains a control character. Choose "
+                         "another file name.")
     p = Path(path).expanduser()
     output_format(p, option, formats)
     absolute = Path(os.path.abspath(p))
-    for q in protected:
-        if q is not None and _same_file(absolute, Path(q)):
+    try:  # follows symbolic links: a loop, an over-long name or a dangling folder shows here
+        os.stat(absolute)
+    except (FileNotFoundError, NotADirectoryError):
+        pass
+    except (OSError, ValueError) as exc:
+        cause = describe_os_error(exc) if isinstance(exc, OSError) else str(exc)
+        raise InputError(f"{option} {path}: cannot be used as an output file ({cause}). Choose another "
+                         "file name.") from None
+    real = Path(os.path.realpath(absolute))
+    for q in (*protected, *sorted(input_files())):
+        if q is not None and (_same_file(absolute, Path(q)) or _same_file(real, Path(q))):
             raise InputError(f"{option} {path}: this is an input file of the study ({q}); selector never "
                              "overwrites its inputs. Choose another output file name.")
     if absolute.is_dir():
@@ -127,6 +147,23 @@ def atomic_write(path, write, protected=(), option: str = "--out", formats: dict
     return target
 
 
+FORMULA_TRIGGERS = ("=", "+", "-", "@", "\t", "\r")
+"""Leading characters that make a spreadsheet read a CSV cell as a formula (OWASP, CSV injection)."""
+
+
+def neutral_text(text: str) -> str:
+    """``text`` safe as a CSV cell: a leading formula character is preceded by ``'`` (OWASP guidance
+    on CSV injection), so a spreadsheet shows the text instead of running it; plain numbers
+    ("-2.5") and a lone "-" are left as they are."""
+    if not text or not text.startswith(FORMULA_TRIGGERS) or text == "-":
+        return text
+    try:
+        float(text)
+        return text
+    except ValueError:
+        return "'" + text
+
+
 def _csv_cell(v):
     if v is None:
         return ""
@@ -134,6 +171,8 @@ def _csv_cell(v):
         return "true" if v else "false"
     if isinstance(v, float) and not math.isfinite(v):
         return ""
+    if isinstance(v, str):
+        return neutral_text(v)
     return v
 
 
@@ -149,9 +188,24 @@ def write_csv(path, sheet: Sheet, protected=(), option: str = "--out") -> Path:
     return atomic_write(path, write, protected, option)
 
 
+def _xlsx_text(text: str) -> str:
+    """Text an XLSX cell can hold: characters XML 1.0 forbids (C0 controls but tab, CR, LF) escaped."""
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    return ILLEGAL_CHARACTERS_RE.sub(lambda m: f"\\x{ord(m.group(0)):02x}", text)
+
+
+def _sheet_title(name: str) -> str:
+    """A valid sheet title: characters Excel forbids in titles and control characters become "_"."""
+    title = "".join("_" if ch in '\\/*?:[]' or ord(ch) < 32 or 127 <= ord(ch) < 160 else ch for ch in name)[:31]
+    return title.strip("'") or "Sheet"
+
+
 def _xlsx_cell(ws, r: int, c: int, v):
     if isinstance(v, float) and not math.isfinite(v):
         v = None
+    if isinstance(v, str):
+        v = _xlsx_text(v)
     cell = ws.cell(row=r, column=c, value=v)
     if isinstance(v, str) and v.startswith("="):
         cell.data_type = "s"  # text, never a formula
@@ -168,7 +222,7 @@ def write_xlsx(path, sheets: list[Sheet], protected=(), option: str = "--out") -
         wb.remove(wb.active)
         bold = Font(bold=True)
         for sheet in sheets:
-            ws = wb.create_sheet(title=sheet.name[:31])
+            ws = wb.create_sheet(title=_sheet_title(sheet.name))
             for c, name in enumerate(sheet.columns, 1):
                 _xlsx_cell(ws, 1, c, name).font = bold
             for r, row in enumerate(sheet.rows, 2):

@@ -33,9 +33,9 @@ ACCEL_RUN_END = 0.98
 
 # ----------------------------------------------------------------------------- files
 
-def check_output_path(path, option: str = "--plot") -> Path:
-    """The output path, or an InputError when its folder is missing or its suffix unknown."""
-    return export.check_output_path(path, option=option, formats=PLOT_FORMATS)
+def check_output_path(path, option: str = "--plot", protected=()) -> Path:
+    """The output path, or an InputError when its folder is missing, its suffix unknown or it is an input file."""
+    return export.check_output_path(path, protected, option=option, formats=PLOT_FORMATS)
 
 
 def save_figure(fig, path) -> None:

@@ -44,6 +44,7 @@ from selector.inputs import (
 )
 from selector.io.catalog import load_catalogs
 from selector.io.cycles import BUILTIN_CYCLES, load_cycle
+from selector.io.files import describe_os_error, printable_problem, read_input_text, shown
 from selector.physics.atmosphere import (
     ISA_MAX_ALTITUDE_M,
     ISA_MIN_ALTITUDE_M,
@@ -88,6 +89,10 @@ class Key:
     check: Callable[[object], str | None] | None = None
     """Return the broken rule (``"must be > 0"``) or None."""
     help: str = ""
+    limits: tuple[float, float] | None = None
+    """(lo, hi): outside is impossible for a road vehicle or beyond the solver's numeric range (an error)."""
+    usual: tuple[float, float] | None = None
+    """(lo, hi): outside is loaded with a `ProblemWarning` (unusual: check it)."""
 
 
 def _positive(v):
@@ -197,6 +202,58 @@ TABLES: dict[str, dict[str, Key]] = {
 }
 """Allowed keys per table of the problem file."""
 
+RANGES: dict[str, dict[str, tuple]] = {
+    # table: {key: (limits, usual)} in the key's unit; common practice, no published source: wide enough for
+    # any road vehicle from a campus cart to a heavy truck, narrow enough to keep the model's numbers in range
+    "vehicle": {
+        "mass_kg": ((0.0, 1e6), (50.0, 60000.0)),
+        "drag_area_m2": ((0.0, 100.0), (0.05, 15.0)),
+        "drag_coefficient": ((0.0, 5.0), (0.1, 1.5)),
+        "frontal_area_m2": ((0.0, 100.0), (0.3, 15.0)),
+        "wheelbase_m": ((0.1, 30.0), (0.5, 10.0)),
+        "cg_height_m": ((0.01, 10.0), (0.1, 3.0)),
+        "tyre_count": ((2, 64), (2, 16)),
+        "wheel_inertia_kgm2": ((0.0, 1000.0), (0.0, 100.0)),
+    },
+    "environment": {
+        "air_density_kg_m3": ((0.01, 3.0), (0.3, 1.6)),
+    },
+    "requirements": {
+        "top_speed_kmh": ((0.0, 1000.0), (0.0, 400.0)),
+        "gradeability_pct": ((0.0, 500.0), (0.0, 100.0)),
+        "launch_accel_mps2": ((0.0, 100.0), (0.0, 15.0)),
+        "accel_to_kmh": ((0.0, 1000.0), (0.0, 400.0)),
+        "accel_time_s": ((0.0, 3600.0), None),
+        "max_mass_kg": ((0.0, 1e6), None),
+        "budget": ((0.0, 1e12), None),
+        "speed_limiter_kmh": ((0.0, 1000.0), None),
+    },
+    "procurement": {
+        "max_lead_time_weeks": ((0.0, 1e4), None),
+    },
+    "energy": {
+        "range_km": ((0.0, 1e5), (0.0, 3000.0)),
+        "specific_energy_wh_per_kg": ((0.0, 2000.0), (30.0, 500.0)),
+        "cost_per_kwh": ((0.0, 1e6), None),
+        "auxiliary_w": ((0.0, 1e6), (0.0, 30000.0)),
+        "regen_max_kw": ((0.0, 1e5), None),
+        "regen_min_speed_kmh": ((0.0, 200.0), None),
+    },
+}
+"""Limits (outside: an error) and usual ranges (outside: a warning) per problem key; the rule of the key
+(`Key.check`) applies as well. See also `CG_HEIGHT_WHEELBASE_USUAL` for the rule across keys."""
+CG_HEIGHT_WHEELBASE_USUAL = 0.6
+"""cg_height_m / wheelbase_m above this is warned about; at or above 1 it is refused (common practice,
+no published source: cars about 0.2, vans and buses up to about 0.4)."""
+MAX_PROBLEM_BYTES = 1024 * 1024
+"""Largest problem file read [bytes]."""
+MAX_TOML_DEPTH = 16
+"""Deepest nesting of arrays and inline tables accepted in a problem file (checked before parsing)."""
+
+for _table, _ranges in RANGES.items():
+    for _key, (_limits, _usual) in _ranges.items():
+        TABLES[_table][_key] = replace(TABLES[_table][_key], limits=_limits, usual=_usual)
+
 TOP_LEVEL: dict[str, str] = {"name": "str", **{t: "table" for t in TABLES}}
 """Allowed top-level keys: ``name`` (text) and the tables."""
 REQUIRED_TABLES = ("catalogs", "vehicle")
@@ -207,6 +264,55 @@ Ground Vehicles ch. 1, table of road adhesion, from memory)."""
 
 # --------------------------------------------------------------------------------------------
 # helpers
+
+
+def _short_number(v):
+    """A number for a message: a whole number of hundreds of digits is shown by its size."""
+    if isinstance(v, int) and not isinstance(v, bool) and abs(v) >= 10 ** 30:
+        return f"{str(v)[:12]}... ({len(str(abs(v)))} digits)"
+    return v
+
+
+def toml_depth_problem(text: str) -> str | None:
+    """Why ``text`` nests arrays / inline tables deeper than `MAX_TOML_DEPTH`, or None (a linear scan that
+    skips strings and comments; run before the TOML parser, which recurses)."""
+    depth = 0
+    i, n = 0, len(text)
+    line = 1
+    while i < n:
+        ch = text[i]
+        if ch == "\n":
+            line += 1
+        elif ch == "#":
+            j = text.find("\n", i)
+            i = n if j < 0 else j
+            continue
+        elif ch in "\"'":
+            triple = text.startswith(ch * 3, i)
+            end = ch * 3 if triple else ch
+            j = i + len(end)
+            while j < n:
+                if ch == '"' and text[j] == "\\":
+                    j += 2
+                    continue
+                if text.startswith(end, j):
+                    break
+                if text[j] == "\n":
+                    if not triple:
+                        break
+                    line += 1
+                j += 1
+            i = j + len(end)
+            continue
+        elif ch in "[{":
+            depth += 1
+            if depth > MAX_TOML_DEPTH:
+                return (f"line {line}: arrays or inline tables nested more than {MAX_TOML_DEPTH} deep; a problem "
+                        "file needs at most two levels. Fix the brackets")
+        elif ch in "]}":
+            depth = max(depth - 1, 0)
+        i += 1
+    return None
 
 
 def _toml_repr(v) -> str:
@@ -237,7 +343,24 @@ def _type_name(v) -> str:
     return type(v).__name__
 
 
-_TABLE_RE = re.compile(r"^\s*\[\s*([A-Za-z0-9_.\- ]+?)\s*\]\s*(#.*)?$")
+_TABLE_NAME_CHARS = frozenset("ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789_.- ")
+
+
+def _table_header(line: str) -> str | None:
+    """The table name of a ``[name]`` header line, or None (a linear scan: no regular expression, whose
+    backtracking on long runs of spaces took cubic time)."""
+    t = line.strip()
+    if not t.startswith("["):
+        return None
+    end = t.find("]")
+    if end < 0:
+        return None
+    name, rest = t[1:end].strip(), t[end + 1:].strip()
+    if not name or (rest and not rest.startswith("#")) or not set(name) <= _TABLE_NAME_CHARS:
+        return None
+    return name
+
+
 _KEY_RE = re.compile(r"""^\s*([A-Za-z0-9_\-]+|"[^"]*"|'[^']*')\s*=""")
 
 
@@ -246,9 +369,9 @@ def _key_lines(text: str) -> dict[tuple[str, str], int]:
     out: dict[tuple[str, str], int] = {}
     table = ""
     for n, line in enumerate(text.splitlines(), start=1):
-        m = _TABLE_RE.match(line)
-        if m:
-            table = m.group(1).strip()
+        header = _table_header(line)
+        if header is not None:
+            table = header
             out.setdefault(("", table.split(".")[0].strip()), n)
             continue
         m = _KEY_RE.match(line)
@@ -306,9 +429,23 @@ def _check_value(col: _Collector, table: str, spec: Key, v):
                 fix = f"Write {int(v)}." if math.isfinite(v) and v == int(v) else "Fix the value in the file."
             col.bad(table, spec.name, v, f"must be {want}, not {_type_name(v)}", spec.unit, fix)
             return None
-        if not math.isfinite(v):
-            col.bad(table, spec.name, v, "must be a finite number", spec.unit)
+        try:
+            finite = math.isfinite(v)
+        except OverflowError:  # a whole number too large for a float
+            finite = False
+        if not finite:
+            rule = "must be a finite number" + (" of ordinary size" if isinstance(v, int) else "")
+            col.bad(table, spec.name, _short_number(v), rule, spec.unit)
             return None
+        if spec.limits is not None and not spec.limits[0] <= v <= spec.limits[1] and (spec.check is None
+                                                                                      or spec.check(v) is None):
+            lo, hi = spec.limits
+            col.bad(table, spec.name, v, f"must be between {lo:g} and {hi:g} (the range selector accepts for a road "
+                    "vehicle)", spec.unit, "Check the value and its unit.")
+            return None
+        if spec.usual is not None and not spec.usual[0] <= v <= spec.usual[1]:
+            col.notes.append(f"{col.where(table, spec.name)} {spec.name} = {_toml_repr(v)}; outside "
+                             f"{spec.usual[0]:g}..{spec.usual[1]:g}{u}, unusual. Check the value and its unit.")
     elif spec.type == "bool":
         if not isinstance(v, bool):
             col.bad(table, spec.name, v, f"must be true or false, not {_type_name(v)}", "",
@@ -320,11 +457,20 @@ def _check_value(col: _Collector, table: str, spec: Key, v):
             col.bad(table, spec.name, v, f"must be text in double quotes, not {_type_name(v)}", "",
                     "Put the value in double quotes.")
             return None
+        why = printable_problem(v)
+        if why:
+            col.add(f"{col.where(table, spec.name)} {spec.name} = \"{shown(v)}\" {why}. Fix the text in the file.")
+            return None
     elif spec.type == "str list":
         if not isinstance(v, list) or not all(isinstance(x, str) and x.strip() for x in v):
             col.bad(table, spec.name, v, "must be a list of non-empty texts, e.g. [\"Acme\", \"Volta\"]", "",
                     "Fix the value in the file.")
             return None
+        for x in v:
+            why = printable_problem(x)
+            if why:
+                col.add(f"{col.where(table, spec.name)} {spec.name}: \"{shown(x)}\" {why}. Fix the text in the file.")
+                return None
         return tuple(x.strip() for x in v)
     if spec.check is not None:
         rule = spec.check(v)
@@ -362,9 +508,12 @@ def load_problem(path) -> Problem:
     path = Path(path)
     disp = str(path)
     text = _read_text(path, disp)
+    deep = toml_depth_problem(text)
+    if deep:
+        raise InputError(f"{disp} {deep}.")
     try:
         data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
+    except (tomllib.TOMLDecodeError, RecursionError) as exc:
         raise InputError(f"{disp}: TOML syntax error: {exc}. Fix the syntax (key = value, text in double "
                          "quotes, tables as [name]).") from None
 
@@ -383,6 +532,10 @@ def load_problem(path) -> Problem:
     if not isinstance(name, str):
         col.bad("", "name", name, f"must be text in double quotes, not {_type_name(name)}", "",
                 "Put the value in double quotes.")
+        name = path.stem
+    elif printable_problem(name):
+        col.add(f"{col.where('', 'name')} name = \"{shown(name)}\" {printable_problem(name)}. "
+                "Fix the text in the file.")
         name = path.stem
     for t in REQUIRED_TABLES:
         if t not in data:
@@ -480,19 +633,8 @@ def load_study(path) -> tuple[Problem, Catalogs]:
 
 
 def _read_text(path: Path, disp: str) -> str:
-    if not path.exists():
-        raise InputError(f"{disp}: problem file not found. Check the path.")
-    if path.is_dir():
-        raise InputError(f"{disp}: is a folder, not a problem file. Give the path of the .toml file.")
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(f"{disp}: cannot be read ({exc.strerror or exc}). Check the file's permissions.") from None
-    try:
-        return data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        raise InputError(f"{disp}: is not UTF-8 text (undecodable byte at offset {exc.start}). "
-                         "Save the file as UTF-8.") from None
+    return read_input_text(path, disp, f"{disp}: problem file not found. Check the path.", "problem file (.toml)",
+                           max_bytes=MAX_PROBLEM_BYTES)
 
 
 def _vehicle(col: _Collector, v: dict, data: dict) -> Vehicle | None:
@@ -520,6 +662,15 @@ def _vehicle(col: _Collector, v: dict, data: dict) -> Vehicle | None:
     needed = ("mass_kg", "wheelbase_m", "cg_height_m", "rear_axle_share", "driven_axle", "tyre_count")
     if drag is None or any(k not in v for k in needed):
         return None
+    h_over_l = v["cg_height_m"] / v["wheelbase_m"]
+    if h_over_l >= 1.0:
+        col.add(f"{col.where('vehicle', 'cg_height_m')} cg_height_m = {_toml_repr(v['cg_height_m'])} is not below "
+                f"wheelbase_m = {_toml_repr(v['wheelbase_m'])}; a road vehicle's centre of gravity is well below "
+                "its wheelbase (it would tip over under braking). Check both values [m].")
+        return None
+    if h_over_l > CG_HEIGHT_WHEELBASE_USUAL:
+        col.notes.append(f"{col.where('vehicle', 'cg_height_m')} cg_height_m / wheelbase_m = {h_over_l:.3g}; above "
+                         f"{CG_HEIGHT_WHEELBASE_USUAL:g}, unusual. Check both values [m].")
     extra = {k: v[k] for k in ("rolling_radius_factor", "wheel_inertia_kgm2") if k in v}
     return Vehicle(mass_kg=float(v["mass_kg"]), drag_area_m2=float(drag), wheelbase_m=float(v["wheelbase_m"]),
                    cg_height_m=float(v["cg_height_m"]), rear_axle_share=float(v["rear_axle_share"]),
@@ -617,6 +768,14 @@ def _catalog_paths(col: _Collector, path: Path, v: dict) -> dict[str, Path]:
             col.bad("catalogs", kind, given, "must not be empty", "", f"Give the path of {kind}.csv.")
             continue
         p = Path(os.path.normpath(base / given))
+        try:
+            p.stat()
+        except (FileNotFoundError, NotADirectoryError):
+            pass
+        except (OSError, ValueError) as exc:
+            col.add(f"{col.where('catalogs', kind)} {kind} = {_toml_repr(shown(given))}: cannot be used "
+                    f"({describe_os_error(exc) if isinstance(exc, OSError) else exc}). Fix the path.")
+            continue
         if not p.exists():
             col.add(f"{col.where('catalogs', kind)} {kind} = {_toml_repr(given)}: file not found (looked for {p}). "
                     "Fix the path; it is relative to the problem file.")

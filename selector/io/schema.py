@@ -15,6 +15,12 @@ Rules understood by the loader (`Column.rule`):
 - ``"load index 60..130"``: a whole number that is a key of `LOAD_INDEX_KG`;
 - ``"CSV file"``: text naming a file relative to the catalogue, loaded by the catalogue loader
   (``efficiency_map``: `selector.io.efficiency_map`).
+
+Every number also has ``limits`` (outside = impossible, exit 2) and may have ``usual`` (outside =
+a warning); `RANGES` holds them as one table (common practice, no published source: wide enough for
+any road vehicle from a campus cart to a heavy truck, narrow enough to keep every model coefficient
+within the solver's numeric range). Text cells must be printable (no control characters) and at
+most `selector.io.files.MAX_CELL_CHARS` long; tyre sizes at most `MAX_SIZE_CHARS`.
 """
 
 from __future__ import annotations
@@ -43,6 +49,12 @@ class Column:
     """Validity rule (see the module docstring)."""
     description: str
     """One line for the docs."""
+    limits: tuple[float, float] | None = None
+    """(lo, hi): a value outside is impossible for a road-vehicle part, or outside what the solver can
+    take in (exit 2, "must be between lo and hi"); None = only the rule."""
+    usual: tuple[float, float] | None = None
+    """(lo, hi): a value outside is loaded with a `CatalogWarning` (unusual: check it); None = no warning
+    beyond the catalogue's own plausibility checks."""
 
 
 _PART = Column("part", "str", "-", True, None, "unique, non-empty",
@@ -149,6 +161,75 @@ DERIVED_COLUMNS: dict[str, tuple[Column, ...]] = {
     ),
 }
 """Columns the loader adds (a file must not contain them)."""
+
+MAX_SIZE_CHARS = 40
+"""Longest tyre size designation accepted [characters] (``315/80 R22.5 C`` has 14)."""
+
+RANGES: dict[str, dict[str, tuple]] = {
+    # kind: {column: (limits, usual)}; common practice, no published source (see the module docstring)
+    "motors": {
+        "peak_torque_nm": ((0.0, 1e5), (1.0, 1e4)),
+        "peak_power_kw": ((0.0, 1e4), (0.1, 2000.0)),
+        "max_speed_rpm": ((0.0, 2e5), (500.0, 40000.0)),
+        "cont_torque_nm": ((0.0, 1e5), None),
+        "cont_power_kw": ((0.0, 1e4), None),
+        "decline_speed_rpm": ((0.0, 2e5), None),
+        "decline_exponent": ((0.0, 10.0), (0.2, 4.0)),
+        "mass_kg": ((0.0, 1e4), None),
+        "rotor_inertia_kgm2": ((0.0, 100.0), None),
+        "unit_cost": ((0.0, 1e9), None),
+        "lead_time_weeks": ((0.0, 520.0), (0.0, 104.0)),
+        "loss_copper_w_per_nm2": ((0.0, 1e3), None),
+        "loss_iron_nm": ((0.0, 1e4), None),
+        "loss_windage_w_s3": ((0.0, 1e3), None),
+        "loss_constant_w": ((0.0, 1e6), None),
+    },
+    "reducers": {
+        "ratio": ((0.0, 500.0), None),
+        "max_input_torque_nm": ((0.0, 1e6), None),
+        "max_input_speed_rpm": ((0.0, 2e5), None),
+        "mass_kg": ((0.0, 1e4), None),
+        "unit_cost": ((0.0, 1e9), None),
+        "lead_time_weeks": ((0.0, 520.0), (0.0, 104.0)),
+        "ratio_2": ((0.0, 500.0), None),
+        "ratio_3": ((0.0, 500.0), None),
+        "shift_time_s": ((0.0, 10.0), (0.0, 2.0)),
+    },
+    "tyres": {
+        "rr_coefficient_n_per_kn": ((0.0, 100.0), None),
+        "mass_kg": ((0.0, 1000.0), (0.0, 200.0)),
+        "unit_cost": ((0.0, 1e9), None),
+        "lead_time_weeks": ((0.0, 520.0), (0.0, 104.0)),
+    },
+}
+"""Limits (outside: an error) and usual ranges (outside: a warning) per numeric column, in the
+column's unit. Tyre diameters (derived from the size) are checked in the catalogue loader against
+`TYRE_DIAMETER_LIMITS_M` and `TYRE_DIAMETER_USUAL_M`."""
+
+TYRE_DIAMETER_LIMITS_M = (0.2, 2.5)
+"""Unloaded tyre diameters outside this range are refused [m] (common practice, no published source)."""
+TYRE_DIAMETER_USUAL_M = (0.4, 1.3)
+"""Unloaded tyre diameters outside this range are warned about [m] (passenger car to light truck)."""
+CONSTANT_POWER_RATIO_USUAL = 20.0
+"""max_speed_rpm / corner speed above this is warned about [-] (traction motors: about 2..6; hand-made
+test motors reach 13)."""
+CONSTANT_POWER_RATIO_LIMIT = 100.0
+"""max_speed_rpm / corner speed above this is refused [-]: peak power and peak torque cannot belong
+to one motor (e.g. 2000 N m with 5 kW)."""
+
+
+def _with_ranges(schema: dict) -> dict:
+    from dataclasses import replace
+
+    out = {}
+    for kind, cols in schema.items():
+        table = RANGES.get(kind, {})
+        out[kind] = tuple(replace(c, limits=table[c.name][0], usual=table[c.name][1]) if c.name in table else c
+                          for c in cols)
+    return out
+
+
+SCHEMA = _with_ranges(SCHEMA)
 
 SOURCE_ROW = "source_row"
 """Column the loader adds to every table: the line number of the row in its file."""

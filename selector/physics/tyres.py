@@ -49,6 +49,9 @@ against independent published reproductions of the table. Indices outside that r
 LOAD_INDEX_MIN = min(LOAD_INDEX_KG)
 LOAD_INDEX_MAX = max(LOAD_INDEX_KG)
 
+MAX_SIZE_TEXT = 64
+"""Longest text `parse_tyre_size` reads [characters] (real designations have at most about 15)."""
+
 _SIZE_RE = re.compile(
     r"""^\s*
     (?P<width>\d{3})\s*/\s*(?P<aspect>\d{2})      # section width [mm] / aspect ratio [%]
@@ -109,6 +112,8 @@ def parse_tyre_size(text: str) -> tuple[float, float, float, str]:
     """
     if not isinstance(text, str):
         raise ValueError(f"tyre size {text!r} is not text; expected e.g. 205/55R16")
+    if len(text) > MAX_SIZE_TEXT:  # bounded before any regular expression sees the text
+        raise ValueError(f"tyre size {text[:20]!r}...: longer than {MAX_SIZE_TEXT} characters; expected e.g. 205/55R16")
     m = _SIZE_RE.match(text)
     if m is None:
         raise ValueError(

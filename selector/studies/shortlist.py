@@ -91,6 +91,11 @@ def open_shortlist_study(path, avoid_suppliers=(), max_lead_time_weeks: float | 
     """
     if max_lead_time_weeks is not None and not max_lead_time_weeks >= 0:
         raise InputError(f"max_lead_time_weeks {max_lead_time_weeks}: must be >= 0 [weeks].")
+    if isinstance(avoid_suppliers, str) or not all(isinstance(s, str) for s in avoid_suppliers):
+        from selector.errors import argument_error
+
+        raise argument_error("open_shortlist_study", "avoid_suppliers", avoid_suppliers,
+                             'a list of supplier names, e.g. ["Acme"]')
     avoid = tuple(s.strip() for s in avoid_suppliers if s.strip())
     study = open_study(path, procurement=Procurement(avoid_suppliers=avoid, max_lead_time_weeks=max_lead_time_weeks))
     if avoid:

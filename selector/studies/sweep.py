@@ -75,6 +75,8 @@ DASK_CONNECT_TIMEOUT_S = 10
 
 MAX_POINTS = 100_000
 """Largest grid accepted (a typo guard) [-]."""
+LARGE_POINTS = 5_000
+"""Grids above this many points need ``large=True`` (``--large``) [-]."""
 
 
 # ----------------------------------------------------------------------------- parsing
@@ -132,7 +134,29 @@ def _check_value(key: str, value: float) -> str | None:
 
     table, name = key.split(".", 1)
     spec = TABLES[table][name]
-    return None if spec.check is None else spec.check(value)
+    try:
+        finite = math.isfinite(value)
+    except (TypeError, OverflowError):
+        finite = False
+    if isinstance(value, bool) or not finite:
+        return "must be a finite number"
+    rule = None if spec.check is None else spec.check(value)
+    if rule is None and spec.limits is not None and not spec.limits[0] <= value <= spec.limits[1]:
+        rule = f"must be between {spec.limits[0]:g} and {spec.limits[1]:g} (the range selector accepts)"
+    return rule
+
+
+def check_size(n_points: int, workers: int | None, large: bool) -> None:
+    """InputError for a grid above `LARGE_POINTS` or more workers than CPU cores, unless ``large``."""
+    if large:
+        return
+    if n_points > LARGE_POINTS:
+        raise InputError(f"the grid has {n_points:,} points (more than {LARGE_POINTS:,}), each an exact solve; "
+                         "that can take hours. Use fewer values per --vary, or add --large to run it anyway.")
+    cores = os.cpu_count() or 1
+    if workers is not None and workers > cores:
+        raise InputError(f"--workers {workers}: more than the {cores} CPU cores of this machine; extra processes "
+                         f"only compete for them. Use --workers {cores} or fewer, or add --large to insist.")
 
 
 def validate(problem: Problem, varies: list[tuple[str, np.ndarray]]) -> None:
@@ -176,6 +200,9 @@ def apply_overrides(problem: Problem, overrides: dict) -> Problem:
     tables = {"vehicle": {}, "environment": {}, "requirements": {}, "procurement": {}}
     for key, value in overrides.items():
         check_key(key)
+        rule = _check_value(key, value)
+        if rule:
+            raise InputError(f"{key} = {value!r}: {rule} [{SWEEPABLE[key][0]}]. Give a value inside the allowed range.")
         table, name = key.split(".", 1)
         tables[table][name] = float(value)
     env = tables["environment"]
@@ -338,16 +365,58 @@ def run_points(problem: Problem, catalogs: Catalogs, points: list[dict], workers
     return rows, runner
 
 
+def _ignore_interrupts() -> None:
+    """Worker processes leave Ctrl-C to the main process, which stops them (no traceback per worker)."""
+    import signal
+
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def _init_pool_worker(problem: Problem, catalogs: Catalogs) -> None:
+    import signal
+
+    _ignore_interrupts()
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)  # a forked worker must not inherit the CLI's SIGTERM handler
+    _init_worker(problem, catalogs)
+
+
+def stop_pool(ex) -> None:
+    """Stop a process pool now: cancel the queued points and terminate the running workers (an interrupt,
+    a failed point), instead of waiting for every running solve to finish."""
+    ex.shutdown(wait=False, cancel_futures=True)
+    for proc in list((getattr(ex, "_processes", None) or {}).values()):
+        try:
+            proc.terminate()
+        except (OSError, ValueError):
+            pass
+    for proc in list((getattr(ex, "_processes", None) or {}).values()):
+        try:
+            proc.join(5)
+        except (OSError, ValueError, AssertionError):
+            pass
+
+
 def _run_processes(problem, catalogs, points, workers, bar) -> list[dict]:
     from concurrent.futures import ProcessPoolExecutor, as_completed
+    from concurrent.futures.process import BrokenProcessPool
 
     rows = [None] * len(points)
-    with ProcessPoolExecutor(max_workers=workers, initializer=_init_worker, initargs=(problem, catalogs)) as ex:
+    ex = ProcessPoolExecutor(max_workers=workers, initializer=_init_pool_worker, initargs=(problem, catalogs))
+    try:
         futures = {ex.submit(sweep_point, problem, pt): n for n, pt in enumerate(points)}
         for fut in as_completed(futures):
             rows[futures[fut]] = fut.result()
             if bar is not None:
                 bar.update(1)
+    except BrokenProcessPool:
+        stop_pool(ex)
+        raise InputError(f"a sweep worker process stopped unexpectedly (killed, or out of memory) after "
+                         f"{sum(r is not None for r in rows)} of {len(points)} points; nothing was written. Rerun "
+                         "with fewer --workers.") from None
+    except BaseException:
+        stop_pool(ex)
+        raise
+    ex.shutdown(wait=True)
     return rows
 
 
@@ -359,17 +428,29 @@ def _run_dask(problem, catalogs, points, address, bar) -> tuple[list[dict], dict
                          "Install it: pip install 'dask[distributed]'") from None
     try:
         client = Client(address, timeout=f"{DASK_CONNECT_TIMEOUT_S}s")
-    except (OSError, TimeoutError) as exc:
+    except (OSError, TimeoutError, ValueError, TypeError) as exc:
         raise InputError(f"scheduler {address}: cannot connect to a Dask scheduler ({exc}). Check the address "
                          "(e.g. tcp://host:8786) and that the scheduler is running.") from None
     with client:
         n_workers = len(client.scheduler_info().get("workers", {}))
         cat = client.scatter(catalogs, broadcast=True)
         futures = [client.submit(sweep_point, problem, pt, cat, pure=False) for pt in points]
-        for _ in as_completed(futures):
-            if bar is not None:
-                bar.update(1)
-        rows = client.gather(futures)
+        try:
+            for _ in as_completed(futures):
+                if bar is not None:
+                    bar.update(1)
+            rows = client.gather(futures)
+        except (InputError, KeyboardInterrupt):
+            client.cancel(futures)
+            raise
+        except Exception as exc:  # noqa: BLE001 - a worker lost, the scheduler gone: the cluster's state
+            client.cancel(futures)
+            if type(exc).__module__.split(".")[0] not in ("distributed", "dask", "tornado", "asyncio") \
+                    and not isinstance(exc, (OSError, TimeoutError)):
+                raise
+            raise InputError(f"--scheduler {address}: the sweep stopped because the cluster failed "
+                             f"({type(exc).__name__}: {exc}). Check the workers (memory, logs) and rerun; "
+                             "nothing was written.") from None
         del futures, cat
     return rows, {"mode": "dask", "scheduler": address, "workers": n_workers}
 
@@ -406,13 +487,14 @@ def parse_varies(vary) -> list[tuple[str, np.ndarray]]:
 
 
 def sweep(problem_path, vary, workers: int | None = None, scheduler: str | None = None,
-          progress: bool = False) -> dict:
+          progress: bool = False, large: bool = False) -> dict:
     """Run a sweep given the problem file and ``vary`` (see `parse_varies`); the JSON-ready result.
 
     Keys: the common head (selector_version, problem, problem_file, caution), ``objective``
     {minimize, unit}, ``parameters`` [{key, unit, start, stop, n, values}], ``columns`` (row keys in
     order), ``rows`` (one per grid point, grid order), ``infeasible`` (count), ``notes`` and
-    ``runner`` (mode, workers, elapsed_s).
+    ``runner`` (mode, workers, elapsed_s). ``large``: allow grids above `LARGE_POINTS` points and more
+    local workers than CPU cores.
     """
     import warnings
 
@@ -422,11 +504,13 @@ def sweep(problem_path, vary, workers: int | None = None, scheduler: str | None 
     with warnings.catch_warnings():
         warnings.simplefilter("default")
         problem, catalogs = load_study(problem_path)
-    return sweep_problem(problem, catalogs, varies, workers=workers, scheduler=scheduler, progress=progress)
+    return sweep_problem(problem, catalogs, varies, workers=workers, scheduler=scheduler, progress=progress,
+                         large=large)
 
 
 def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | None = None,
-                  scheduler: str | None = None, progress: bool = False, source: dict | None = None) -> dict:
+                  scheduler: str | None = None, progress: bool = False, source: dict | None = None,
+                  large: bool = False) -> dict:
     """Run a sweep of a loaded problem and its catalogues; the JSON-ready result (as `sweep`).
 
     Parameters
@@ -445,12 +529,15 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
         Show a progress bar on stderr.
     source : dict, optional
         The problem's tables as a dict when it came from memory (see `file_isa_context`).
+    large : bool
+        Allow grids above `LARGE_POINTS` points and more local workers than CPU cores.
     """
     from selector.api import OBJECTIVE_UNITS, header
     from selector.engine.parts import PartTables
 
     varies = parse_varies(vary) if not (isinstance(vary, list) and vary and isinstance(vary[0], tuple)) else vary
     validate(problem, varies)
+    check_size(int(np.prod([len(v) for _, v in varies])), None if scheduler else workers, large)
     keys = [k for k, _ in varies]
     context = file_isa_context(problem, keys, source)
     notes = []
@@ -483,10 +570,13 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
 
 def to_csv(result: dict) -> str:
     """The rows of a sweep result as CSV text (header = ``columns``; empty cell = not applicable)."""
+    from selector.io.export import neutral_text
+
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(result["columns"])
-    for r in result["rows"]:
-        w.writerow(["" if r.get(c) is None else (repr(r[c]) if isinstance(r[c], float) else r[c])
+    for r in result["rows"]:  # text cells (part ids) neutralised against spreadsheet formulas
+        w.writerow(["" if r.get(c) is None else (repr(r[c]) if isinstance(r[c], float) else
+                                                  neutral_text(r[c]) if isinstance(r[c], str) else r[c])
                     for c in result["columns"]])
     return buf.getvalue()

@@ -1,0 +1,65 @@
+"""Library calls with wrong arguments raise selector's own errors naming the parameter; messages that
+could mislead are precise (issue: reliability)."""
+
+from __future__ import annotations
+
+import pytest
+from hostile import ROOT, assert_clean_answer, make_study, run_cli, set_cell
+
+from selector.api import open_study, simulate, solve
+from selector.errors import ArgumentError, InputError
+from selector.inputs import Procurement
+
+PROBLEM = ROOT / "problems" / "parcel_van.toml"
+
+
+@pytest.fixture(scope="module")
+def study():
+    return open_study(PROBLEM)
+
+
+def test_string_avoid_suppliers_is_refused_not_split_into_letters():
+    with pytest.raises(ArgumentError, match=r"avoid_suppliers='Acme'\): avoid_suppliers must be a list"):
+        Procurement(avoid_suppliers="Acme")
+    assert Procurement(avoid_suppliers=["Acme"]).avoid_suppliers == ("Acme",)
+
+
+def test_shortlist_string_avoid_suppliers():
+    from selector.studies.shortlist import open_shortlist_study
+
+    with pytest.raises(ArgumentError, match="avoid_suppliers"):
+        open_shortlist_study(PROBLEM, avoid_suppliers="Acme")
+
+
+@pytest.mark.parametrize("call, name", [
+    (lambda s: open_study(42), "path"),
+    (lambda s: open_study(PROBLEM, procurement={"avoid_suppliers": ["x"]}), "procurement"),
+    (lambda s: solve("study"), "study"),
+    (lambda s: solve(s, count="2"), "count"),
+    (lambda s: solve(s, count=0), "count"),
+    (lambda s: solve(s, time_limit_s=-1), "time_limit_s"),
+    (lambda s: solve(s, objective="speed"), "objective"),
+    (lambda s: simulate(s, 3, "x", "y"), "motor"),
+    (lambda s: Procurement(max_lead_time_weeks="4"), "max_lead_time_weeks"),
+    (lambda s: Procurement(distinct="colour"), "distinct"),
+])
+def test_wrong_arguments_name_the_parameter(study, call, name):
+    with pytest.raises(ArgumentError, match=rf"\({name}=") as info:
+        call(study)
+    assert isinstance(info.value, (InputError, TypeError))
+
+
+def test_thousands_separator_advice_is_not_a_decimal_point(tmp_path):
+    problem = make_study(tmp_path)
+    set_cell(tmp_path, "motors", "max_speed_rpm", "2,600")
+    proc = run_cli("check", problem)
+    assert_clean_answer(proc, codes=(2,))
+    assert "Write 2600 (if the comma separates thousands) or 2.600 (if it is a decimal comma)" in proc.stderr
+
+
+def test_grouped_thousands(tmp_path):
+    problem = make_study(tmp_path)
+    set_cell(tmp_path, "motors", "max_speed_rpm", "1,200,000")
+    proc = run_cli("check", problem)
+    assert_clean_answer(proc, codes=(2,))
+    assert "Write 1200000 (no thousands separators)" in proc.stderr

@@ -81,6 +81,7 @@ def compare(family: str, seed: int, directory: Path, count: int = 1):
     return True, bad
 
 
+@pytest.mark.slow  # randomised / many-study oracle check: run by CI, skipped by -m "not slow"
 @pytest.mark.parametrize("family", list(FAMILIES))
 def test_engine_equals_enumeration(family, tmp_path):
     seeds = FAMILIES[family][4]

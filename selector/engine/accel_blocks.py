@@ -40,6 +40,14 @@ MAX_BATCH = 512
 """Most blocks taken from the heap in one round [-]."""
 
 
+def _ranges(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
+    """Concatenation of the integer ranges [lo_i, hi_i) (vectorised)."""
+    sizes = hi - lo
+    total = int(sizes.sum())
+    starts = np.cumsum(sizes) - sizes
+    return np.repeat(lo - starts, sizes) + np.arange(total)
+
+
 class _Growing:
     """Columns of a table that grows by appending rows (amortised doubling)."""
 
@@ -106,8 +114,8 @@ class _Side:
     def _make(self, lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
         """New nodes over perm[lo:hi] (arrays), aggregates by segment reductions; returns node ids."""
         sizes = hi - lo
-        pos = np.concatenate([self.perm[a:b] for a, b in zip(lo, hi, strict=True)])
-        starts = np.concatenate([[0], np.cumsum(sizes)[:-1]])
+        pos = self.perm[_ranges(lo, hi)]
+        starts = np.cumsum(sizes) - sizes
         at = self.attr
         agg = {"a": np.maximum.reduceat(at["a"][pos], starts), "b": np.maximum.reduceat(at["b"][pos], starts),
                "m_hi": np.maximum.reduceat(at["m"][pos], starts), "fc": np.maximum.reduceat(at["fc"][pos], starts),
@@ -136,28 +144,22 @@ class _Side:
         """Order each node's entries by its attribute of largest relative spread (A, B or mass)."""
         nd = self.nodes
         lo, hi = nd.lo[nodes], nd.hi[nodes]
+        where = _ranges(lo, hi)
+        starts = np.cumsum(hi - lo) - (hi - lo)
         with np.errstate(divide="ignore", invalid="ignore"):
-            pos = np.concatenate([self.perm[a:b] for a, b in zip(lo, hi, strict=True)])
+            pos = self.perm[where]
             owner = np.repeat(np.arange(nodes.size), hi - lo)
             spread = []
             for key in ("a", "b"):
                 v = self.attr[key][pos]
-                top = np.maximum.reduceat(v, np.concatenate([[0], np.cumsum(hi - lo)[:-1]]))
-                bot = np.minimum.reduceat(v, np.concatenate([[0], np.cumsum(hi - lo)[:-1]]))
+                top = np.maximum.reduceat(v, starts)
+                bot = np.minimum.reduceat(v, starts)
                 spread.append(np.where(top > 0, (top - bot) / top, 0.0))
             spread.append((nd.m_hi[nodes] - nd.m_lo[nodes]) / self.mass_ref)
         pick = np.argmax(np.stack(spread), axis=0)  # 0: A, 1: B, 2: mass
         value = np.choose(pick[owner], [self.attr["a"][pos], self.attr["b"][pos], self.attr["m"][pos]])
         order = np.lexsort((pos, value, owner))  # ties in part order
-        sorted_pos = pos[order]
-        offset = 0
-        for a, b in zip(lo, hi, strict=True):
-            self.perm[a:b] = sorted_pos[offset:offset + (b - a)]
-            offset += b - a
-
-    def entries(self, node: int) -> np.ndarray:
-        """Entry positions of a node."""
-        return self.perm[self.nodes.lo[node]:self.nodes.hi[node]]
+        self.perm[where] = pos[order]
 
     def envelope(self, nodes: np.ndarray, speeds_mps: np.ndarray) -> np.ndarray:
         """min(A, B / v) of nodes at the speeds, (nodes, speeds) [N]."""
@@ -273,15 +275,14 @@ def _push(search, front, rear, speeds, blocks, heap, col, fn, rn, parent_bound):
 def _evaluate_leaves(search, tf, tr, front, rear, col, fn, rn, bound):
     """Every design of small blocks: cheap necessary conditions, then the exact evaluation in order of
     the block bounds, skipping designs whose exact-physics time bracket exceeds the pool's count-th best."""
-    fis, ris, kks, lbs = [], [], [], []
-    for c, f, r, b in zip(col.tolist(), fn.tolist(), rn.tolist(), bound.tolist(), strict=True):
-        fe, re = front.opt[front.entries(f)], rear.opt[rear.entries(r)]
-        fi, ri = (a.ravel() for a in np.meshgrid(fe, re, indexing="ij"))
-        fis.append(fi)
-        ris.append(ri)
-        kks.append(np.full(fi.size, c))
-        lbs.append(np.full(fi.size, b))
-    fi, ri, kk, lb = (np.concatenate(x) for x in (fis, ris, kks, lbs))
+    nf, nr = front.size(fn), rear.size(rn)
+    pairs = nf * nr
+    block = np.repeat(np.arange(col.size), pairs)
+    within = np.arange(int(pairs.sum())) - np.repeat(np.cumsum(pairs) - pairs, pairs)
+    f_at = front.nodes.lo[fn][block] + within // nr[block]
+    r_at = rear.nodes.lo[rn][block] + within % nr[block]
+    fi, ri = front.opt[front.perm[f_at]], rear.opt[rear.perm[r_at]]
+    kk, lb = col[block], bound[block]
     ok = search.conditions(tf, fi, tr, ri, kk)
     if not ok.any():
         return

@@ -167,6 +167,32 @@ def energy_metrics(parts: PartTables, keys, parts_mass_kg) -> dict:
             with np.errstate(divide="ignore", invalid="ignore"):
                 r_m = np.where(np.isfinite(c_m) & (c_m > 0), u * sigma * mb / c_m, 0.0)
             reach[miss] = np.maximum(reach[miss], r_m)
+    # a battery in the scan covers the range although the sizing's geometric scan stepped over it (the
+    # consumption is infinite where the design can no longer follow the cycle, so g(m) need not stay
+    # >= 0 above its root): size again below that battery, where the scan must find the root
+    redo = miss[reach[miss] >= st.range_km * (1.0 - 1e-12)] if miss.size else miss
+    if redo.size:
+        cap_r = np.full(redo.size, np.inf)
+        for frac in REACH_SCAN:
+            mb = np.full(redo.size, frac * cap)
+            c_m = consumption(mb, redo)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                r_m = np.where(np.isfinite(c_m) & (c_m > 0), u * sigma * mb / c_m, 0.0)
+            cap_r = np.where(np.isinf(cap_r) & (r_m >= st.range_km), mb, cap_r)
+        again = size_battery(lambda m_b, i: consumption(m_b, redo[i]), st.range_km, st.specific_energy_wh_per_kg,
+                             st.usable_fraction, redo.size, np.where(np.isfinite(cap_r), cap_r, cap))
+        got = np.nonzero(again.found)[0]
+        for name, values in (("energy_wh", again.energy_wh), ("mass_kg", again.mass_kg),
+                             ("consumption_wh_per_km", again.consumption_wh_per_km)):
+            getattr(sized, name)[redo[got]] = values[got]
+        found[redo[got]] = True
+        out["battery_kwh"][idx[redo[got]]] = again.energy_wh[got] / 1e3
+        out["battery_mass_kg"][idx[redo[got]]] = again.mass_kg[got]
+        out["battery_cost"][idx[redo[got]]] = battery_cost(again.energy_wh[got], st.cost_per_kwh)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            reach[redo[got]] = u * sigma * again.mass_kg[got] / again.consumption_wh_per_km[got]
+        lost = redo[~again.found]  # not expected; never leave a battery-less design meeting the range
+        reach[lost] = np.minimum(reach[lost], st.range_km * (1.0 - 1e-6))
     out["range_reach_km"][rows] = 0.0
     out["range_reach_km"][idx] = reach
     # consumption and regeneration at the sized mass

@@ -13,7 +13,7 @@ public loaders), with all objectives drawn; seeds are fixed so every run checks 
 - two units (``layout="both"``): 140 instances, 60 of them with two- and three-speed gearboxes;
 - ``same_unit`` (``layout="same"``): 60 instances (a share with gearboxes);
 - single axle with mixed single- and multi-speed gearboxes: 150 instances;
-- energy studies (``[energy]`` on the UDDS, a range on most) on both layouts: 20 instances;
+- energy studies (``[energy]`` on the UDDS, a range on most) on both layouts, 2-3 parts per kind: 60 instances;
 - ``count=3`` on every 4th seed of each family.
 
 Reproduce one instance outside pytest::
@@ -38,6 +38,8 @@ from selector.requirements import REL_TOL
 SMALL = ((3, 5), (3, 4), (3, 5))
 """Catalogue sizes of the two-unit instances: at most 20 units per axle, 2,000 designs."""
 SINGLE = ((3, 8), (3, 6), (3, 6))
+TINY = ((2, 3), (2, 3), (2, 3))
+"""Sizes of the energy instances (every design is simulated over the UDDS in the generator and the oracle)."""
 
 FAMILIES = {
     # name: (layout, gearbox share, energy, sizes, seeds)
@@ -45,8 +47,8 @@ FAMILIES = {
     "both-gears": ("both", 0.4, False, SMALL, range(7100, 7160)),
     "same": ("same", 0.3, False, SMALL, range(7200, 7260)),
     "single-gears": ("single", 0.5, False, SINGLE, range(7300, 7450)),
-    "energy-both": ("both", 0.3, True, SMALL, range(7500, 7510)),
-    "energy-single": ("single", 0.3, True, SINGLE, range(7600, 7610)),
+    "energy-both": ("both", 0.3, True, TINY, range(7500, 7530)),
+    "energy-single": ("single", 0.3, True, TINY, range(7600, 7630)),
 }
 
 

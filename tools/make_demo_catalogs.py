@@ -247,7 +247,7 @@ def add_motor_losses(motors: list[dict], rng: np.random.Generator) -> None:
         lo, hi = PEAK_EFFICIENCY_PCT[row["part"][:2]]
         if not (lo - 0.1) / 100 <= peak <= (hi + 0.1) / 100:
             raise ValueError(f"loss model of {row['part']} gives peak efficiency {peak:.4f}, outside {lo}-{hi} %")
-        row.update(zip(LOSS_COLUMNS, coef))
+        row.update(zip(LOSS_COLUMNS, coef, strict=True))
         row["efficiency_map"] = ""
 
 

@@ -1,8 +1,18 @@
-"""Every bundled demo problem solves, verifies, matches exhaustive enumeration, and its JSON
-follows the JSON contract documented in README.md (the demo data are invented and illustrative)."""
+"""Every bundled demo problem runs through every command, and each demo study shows what it is meant
+to show (the demo data are invented and illustrative).
+
+- single-axle studies without an energy table: `solve` matches exhaustive enumeration and follows
+  the JSON contract of README.md;
+- every problem: `solve`, `simulate` (the solve answer), `explain`, `shortlist` and `frontier`, as
+  JSON and as a table, exit 0 (frontier: exit 2 with a clear message when the problem has no
+  accel_to_kmh, which the frontier needs);
+- the claims of the README's "Examples" section, computed from the tool's own results (the runs
+  of tools/demo_examples.py), and the section itself equal to a fresh run.
+"""
 
 from __future__ import annotations
 
+import importlib.util
 import json
 import math
 from pathlib import Path
@@ -12,19 +22,49 @@ import pytest
 from selector.api import open_study
 from selector.cli import run
 from selector.engine.evaluate import enumerate_designs
+from selector.io.problem import load_problem
 
-PROBLEMS = sorted((Path(__file__).parent.parent / "problems").glob("*.toml"))
+ROOT = Path(__file__).parent.parent
+PROBLEMS = sorted((ROOT / "problems").glob("*.toml"))
 PERF_KEYS = {"max_speed_kmh", "sustained_top_speed_kmh", "gradeability_pct", "launch_accel_mps2", "accel_time_s"}
 REQ_KEYS = {"name", "required", "achieved", "unit", "margin_pct", "binding"}
 
 
+def _problem(path):
+    return load_problem(path)
+
+
+TWO_UNIT = [p for p in PROBLEMS if _problem(p).vehicle.driven_axle == "both"]
+SINGLE = [p for p in PROBLEMS if p not in TWO_UNIT]
+CLASSIC = [p for p in SINGLE if _problem(p).energy is None]  # small enough for the enumeration oracle
+
+# The command-line output of two-unit designs (records with `units`, simulate's --front-*/--rear-*
+# flags) is built on another branch; until it is merged the CLI stops with an internal error on a
+# two-unit design. Strict: these tests fail (XPASS) as soon as it works, so the marker is removed.
+TWO_UNIT_CLI_PENDING = pytest.mark.xfail(
+    strict=True, reason="two-unit design records in the CLI output are not on this branch yet")
+
+
+def _cases(paths):
+    return [pytest.param(p, id=p.stem, marks=[TWO_UNIT_CLI_PENDING] if p in TWO_UNIT else []) for p in paths]
+
+
+def _tools_module():
+    spec = importlib.util.spec_from_file_location("demo_examples", ROOT / "tools" / "demo_examples.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return mod
+
+
 def test_demo_problems_exist():
-    assert len(PROBLEMS) >= 3
+    assert len(PROBLEMS) >= 9
+    assert len(TWO_UNIT) >= 2 and len(CLASSIC) >= 4
+    for p in PROBLEMS:
+        assert "illustrative" in p.read_text(encoding="utf-8").lower(), p.name
 
 
-
-
-@pytest.mark.parametrize("path", PROBLEMS, ids=[p.stem for p in PROBLEMS])
+# ------------------------------------------------------------------------------ solve vs enumeration
+@pytest.mark.parametrize("path", CLASSIC, ids=[p.stem for p in CLASSIC])
 def test_solve_json_contract_and_enumeration(path, capsys):
     code = run(["solve", str(path), "--format", "json"])
     out, err = capsys.readouterr()
@@ -68,3 +108,170 @@ def test_simulate_json_has_performance_and_requirements(capsys):
     assert sim["performance"] == best["performance"]
     assert [r["name"] for r in sim["requirements"]] == [r["name"] for r in best["requirements"]]
     assert sim["feasible"] is True
+
+
+# ------------------------------------------------------------------------------ every command
+def _solve_json(path, capsys) -> dict:
+    code = run(["solve", str(path), "--format", "json"])
+    out, err = capsys.readouterr()
+    assert code == 0, err
+    return json.loads(out)
+
+
+def _design_flags(design: dict) -> list[str]:
+    """simulate's part flags for a solve design record (single axle: top level; two units: `units`)."""
+    if design.get("motor") is not None:
+        return ["--motor", design["motor"], "--reducer", design["reducer"], "--tyre", design["tyre"]]
+    flags = []
+    for unit in design["units"]:
+        flags += [f"--{unit['axle']}-motor", unit["motor"], f"--{unit['axle']}-reducer", unit["reducer"]]
+    return flags + ["--tyre", design["tyre"]]
+
+
+@pytest.mark.parametrize("path", _cases(PROBLEMS))
+def test_every_command_json_and_table(path, capsys):
+    """solve, simulate, explain, shortlist and frontier, as JSON and as a table (demo data invented)."""
+    problem = _problem(path)
+    res = _solve_json(path, capsys)
+    assert res["status"] == "optimal" and res["designs"], res.get("reason")
+    best = res["designs"][0]
+    assert all(r["met"] for r in best["requirements"])
+    assert "Caution" in res["caution"]
+    if problem.vehicle.driven_axle == "both":
+        assert best["motor"] is None and best["reducer"] is None
+        assert [u["axle"] for u in best["units"]] == ["front", "rear"]
+    # the table of solve names the same parts
+    assert run(["solve", str(path)]) == 0
+    table = capsys.readouterr().out
+    assert "Caution" in table and best["tyre"] in table
+
+    flags = _design_flags(best)
+    assert run(["simulate", str(path), *flags, "--format", "json"]) == 0
+    sim = json.loads(capsys.readouterr().out)
+    assert sim["feasible"] is True and sim["unmet"] == []
+    assert math.isclose(sim["cost"], best["cost"], rel_tol=1e-9)
+    assert run(["simulate", str(path), *flags]) == 0
+    assert best["tyre"] in capsys.readouterr().out
+
+    assert run(["explain", str(path), "--format", "json"]) == 0
+    exp = json.loads(capsys.readouterr().out)
+    assert exp["status"] == "optimal"
+    assert math.isclose(exp["objective"]["value"], res["objective"]["value"], rel_tol=1e-9)
+    assert run(["explain", str(path)]) == 0
+    assert "Caution" in capsys.readouterr().out
+
+    assert run(["shortlist", str(path), "--count", "3", "--format", "json"]) == 0
+    sl = json.loads(capsys.readouterr().out)
+    assert sl["designs"] and math.isclose(sl["designs"][0]["cost"], best["cost"], rel_tol=1e-9)
+    assert run(["shortlist", str(path), "--count", "3"]) == 0
+    assert "Caution" in capsys.readouterr().out
+
+    if problem.requirements.accel_to_kmh is None:  # the frontier's time axis needs a target speed
+        assert run(["frontier", str(path), "--format", "json"]) == 2
+        assert "accel_to_kmh" in capsys.readouterr().err
+        return
+    assert run(["frontier", str(path), "--format", "json"]) == 0
+    fr = json.loads(capsys.readouterr().out)
+    assert fr["points"], "a feasible study has at least one frontier point"
+    times = [p["accel_time_s"] for p in fr["points"]]
+    assert times == sorted(times, reverse=True)
+    assert run(["frontier", str(path)]) == 0
+    assert "Caution" in capsys.readouterr().out
+
+
+# ------------------------------------------------------------------------------ scenario claims
+@pytest.fixture(scope="module")
+def tools():
+    return _tools_module()
+
+
+@pytest.fixture(scope="module")
+def examples(tools):
+    """The runs behind the README's Examples section (exact searches through the engine)."""
+    return tools.run_all()
+
+
+def _by_name(group, name):
+    return next(s for s in group if s["name"] == name)
+
+
+def test_examples_cover_the_new_problems(examples, tools):
+    names = {s["name"] for g in examples.values() for s in g}
+    assert names == set(tools.TWO_AXLE_STUDIES + tools.GEARBOX_STUDIES + tools.ENERGY_STUDIES)
+    assert names <= {p.stem for p in PROBLEMS}
+
+
+def test_second_axle_beats_every_single_axle_design(examples):
+    """With both axles driven the optimum is better than the best front-only and rear-only designs
+    of the same study (or those studies have no design at all)."""
+    for s in examples["two_axles"]:
+        both = s["both"]
+        assert both["status"] == "optimal", s["name"]
+        assert both["design"]["front"] is not None and both["design"]["rear"] is not None
+        singles = [s[a]["value"] for a in ("front", "rear") if s[a]["status"] == "optimal"]
+        assert all(v > both["value"] for v in singles), s["name"]
+        for a in ("front", "rear"):
+            assert s[a]["status"] in ("optimal", "infeasible"), (s["name"], a)
+
+
+def test_vineyard_traction_decides(examples):
+    s = _by_name(examples["two_axles"], "vineyard_awd")
+    # at least one single-axle layout cannot meet the study at all on this surface
+    assert "infeasible" in (s["front"]["status"], s["rear"]["status"])
+    assert s["both"]["objective"] == "cost"
+
+
+def test_saloon_uses_different_ratios_front_and_rear(examples, tools):
+    s = _by_name(examples["two_axles"], "sports_saloon_awd")
+    assert s["objective"] == "accel_time"
+    both = s["both"]["design"]
+    problem, catalogs = tools.load("sports_saloon_awd")
+    parts = tools.tables(problem, catalogs)
+    ratio = dict(zip(parts.reducers.part, parts.reducers.ratio, strict=True))
+    assert ratio[both["front"][1]] != ratio[both["rear"][1]]
+
+
+def test_two_speed_wins_on_the_mountain_route(examples):
+    s = _by_name(examples["gearbox"], "mountain_van")
+    assert s["all"]["status"] == "optimal" and s["all"]["multi_speed"] is True
+    assert s["single"]["status"] == "optimal" and s["single"]["value"] > s["all"]["value"]
+    assert s["second_gear_price"] < 0  # the gearbox saves money
+
+
+def test_two_speed_loses_in_the_lowland(examples):
+    s = _by_name(examples["gearbox"], "lowland_van")
+    assert s["all"]["status"] == "optimal" and s["all"]["multi_speed"] is False
+    assert s["multi"]["status"] == "optimal"  # a two-speed design exists, it is just dearer
+    assert s["multi"]["value"] > s["all"]["value"]
+    assert s["second_gear_price"] > 0
+
+
+def test_energy_cheapest_parts_are_not_the_cheapest_vehicle(examples):
+    s = _by_name(examples["energy"], "delivery_van_energy")
+    opt, cheap = s["optimum"], s["cheapest_parts"]
+    assert opt["status"] == "optimal" and cheap["status"] == "optimal"
+    o, c = opt["figures"], cheap["figures"]
+    for f in (o, c):  # a sized battery, not a missing one
+        assert f["battery_kwh"] is not None and f["battery_kwh"] > 0
+        assert f["energy_wh_per_km"] is not None and f["energy_wh_per_km"] > 0
+    assert opt["design"] != cheap["design"]
+    assert c["parts_cost"] < o["parts_cost"]
+    assert c["cost"] > o["cost"]  # parts + battery
+    assert math.isclose(o["cost"], o["parts_cost"] + o["battery_cost"], rel_tol=1e-9)
+
+
+@pytest.mark.xfail(strict=True, reason="the design record's energy block (battery size, Wh/km, battery cost) in the "
+                   "JSON of solve is not on this branch yet")
+def test_energy_solve_json_reports_the_battery(capsys):
+    path = ROOT / "problems" / "delivery_van_energy.toml"
+    res = _solve_json(path, capsys)
+    assert res["status"] == "optimal"
+    d = res["designs"][0]
+    energy = d["energy"]
+    assert energy["battery_kwh"] > 0 and energy["wh_per_km"] > 0 and energy["battery_cost"] > 0
+
+
+def test_readme_examples_match_a_fresh_run(examples, tools):
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    assert tools.splice(readme, tools.markdown(examples)) == readme, (
+        "README.md examples differ from a fresh run: python tools/demo_examples.py --write")

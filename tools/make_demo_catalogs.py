@@ -32,6 +32,13 @@ Reducers
     input) and a speed rating (8000-20000 rpm) offered in a series of
     ratios between about 4 and 14.  Mass and cost rise with the torque
     rating; efficiency falls slightly with the ratio (two-stage variants).
+Gearboxes
+    A few two- and three-speed gearbox families appended to reducers.csv
+    (``ratio_2``, ``ratio_3``, per-gear efficiencies, ``shift_time_s``),
+    drawn from a third generator seeded with (seed, 2) so every earlier row is
+    unchanged: steps of 1.4-2.3 between gears, shift times 0.25-0.6 s, about
+    1.6x the mass and 2x the price of a single-speed reducer of the same
+    torque rating.  Single-speed rows leave these columns empty.
 Tyres
     A fixed list of ISO metric sizes on rim codes 13-22 (passenger and
     C-type van tyres) with a plausible load index and speed symbol for
@@ -240,7 +247,7 @@ def add_motor_losses(motors: list[dict], rng: np.random.Generator) -> None:
         lo, hi = PEAK_EFFICIENCY_PCT[row["part"][:2]]
         if not (lo - 0.1) / 100 <= peak <= (hi + 0.1) / 100:
             raise ValueError(f"loss model of {row['part']} gives peak efficiency {peak:.4f}, outside {lo}-{hi} %")
-        row.update(zip(LOSS_COLUMNS, coef))
+        row.update(zip(LOSS_COLUMNS, coef, strict=True))
         row["efficiency_map"] = ""
 
 
@@ -349,6 +356,77 @@ def make_reducers(rng: np.random.Generator) -> list[dict]:
     return rows
 
 
+# ------------------------------------------------------------------ multi-speed gearboxes
+# prefix, supplier, family code, max input torque [Nm], max input speed [rpm], first-gear
+# efficiency [%], efficiency gain per further gear [%-points], mass [kg], cost, shift time [s],
+# lead time range [weeks], ratio sets (first gear first)
+GEARBOX_FAMILIES = [
+    ("FG", "Fenwick Gearworks", "D45", 450, 14000, 96.2, 0.6, 31.0, 1850, 0.35, (6, 12),
+     [(12.1, 6.1), (10.3, 5.2)]),
+    ("AT", "Aldermoor Transmissions", "D60", 600, 18000, 96.6, 0.5, 35.0, 3600, 0.25, (12, 22),
+     [(10.6, 6.6), (12.4, 5.6)]),
+    ("AT", "Aldermoor Transmissions", "T10", 1000, 16000, 96.2, 0.4, 58.0, 6400, 0.30, (14, 24),
+     [(12.4, 7.8, 5.2)]),
+    ("SP", "Stenhouse Precision", "D50", 500, 10000, 94.6, 0.7, 45.0, 1250, 0.60, (3, 8),
+     [(13.0, 7.0), (11.0, 5.0)]),
+    ("CG", "Corvale Gear Co.", "D35", 350, 15000, 95.8, 0.7, 24.0, 1450, 0.45, (6, 12),
+     [(11.5, 5.5), (10.0, 7.0)]),
+    ("CG", "Corvale Gear Co.", "T35", 350, 15000, 95.6, 0.5, 31.0, 2300, 0.40, (8, 14),
+     [(14.0, 9.0, 5.5)]),
+]
+
+
+def make_gearboxes(rng: np.random.Generator) -> list[dict]:
+    """Build the two- and three-speed gearbox rows (appended to the reducer catalogue).
+
+    Each family is a torque and speed rating, a shift time (torque interruption per upshift) and
+    a few ratio sets with steps of 1.4-2.3.  A gearbox weighs and costs more than a single-speed
+    reducer of the same rating (about 1.6x the mass, 2x the price: shift actuator, clutches or
+    dog rings, a second gear pair); each further gear is a little more efficient (fewer meshes
+    carrying load in the taller gears).
+
+    Parameters
+    ----------
+    rng : numpy.random.Generator
+        Seeded generator; the only source of randomness.
+
+    Returns
+    -------
+    list of dict
+        One dict per gearbox, keyed by the reducers.csv column names (single-speed columns too).
+    """
+    rows = []
+    for (prefix, name, fam, t_max, n_max, eta1, d_eta, m0, c0, shift_s, (lt_lo, lt_hi),
+         ratio_sets) in GEARBOX_FAMILIES:
+        for ratios in ratio_sets:
+            etas = [round(float(np.clip(eta1 + g * d_eta + rng.uniform(-0.15, 0.15), 93.0, 98.5)), 1)
+                    for g in range(len(ratios))]
+            spread = ratios[0] / ratios[-1]
+            mass = m0 * (1 + 0.02 * (spread - 2.0)) * rng.uniform(0.97, 1.03)
+            cost = c0 * rng.uniform(0.96, 1.05)
+            row = {
+                "part": f"{prefix}-{fam}-{int(round(ratios[0] * 10)):03d}",
+                "supplier": name,
+                "ratio": ratios[0],
+                "efficiency_pct": etas[0],
+                "max_input_torque_nm": t_max,
+                "max_input_speed_rpm": n_max,
+                "mass_kg": round(float(mass), 1),
+                "unit_cost": int(round(float(cost), -1)),
+                "lead_time_weeks": int(rng.integers(lt_lo, lt_hi + 1)),
+                "ratio_2": ratios[1],
+                "ratio_3": ratios[2] if len(ratios) > 2 else "",
+                "efficiency_2_pct": etas[1],
+                "efficiency_3_pct": etas[2] if len(ratios) > 2 else "",
+                "shift_time_s": shift_s,
+            }
+            for a, b in zip(ratios[:-1], ratios[1:], strict=True):
+                if not 1.3 <= a / b <= 2.5:
+                    raise ValueError(f"gearbox {row['part']}: step {a}/{b} outside 1.3..2.5")
+            rows.append(row)
+    return rows
+
+
 # ---------------------------------------------------------------------------- tyres
 # size, load index, speed symbols offered (first = most common)
 TYRE_SIZES = [
@@ -436,6 +514,7 @@ def make_tyres(rng: np.random.Generator) -> list[dict]:
 
 
 # -------------------------------------------------------------------------- writing
+GEAR_COLUMNS = ["ratio_2", "ratio_3", "efficiency_2_pct", "efficiency_3_pct", "shift_time_s"]
 MOTOR_COLUMNS = [
     "part", "supplier", "peak_torque_nm", "peak_power_kw", "max_speed_rpm", "cont_torque_nm",
     "cont_power_kw", "decline_speed_rpm", "decline_exponent", "mass_kg", "rotor_inertia_kgm2",
@@ -443,7 +522,7 @@ MOTOR_COLUMNS = [
 ]
 REDUCER_COLUMNS = [
     "part", "supplier", "ratio", "efficiency_pct", "max_input_torque_nm", "max_input_speed_rpm",
-    "mass_kg", "unit_cost", "lead_time_weeks",
+    "mass_kg", "unit_cost", "lead_time_weeks", *GEAR_COLUMNS,
 ]
 TYRE_COLUMNS = [
     "part", "supplier", "size", "load_index", "speed_symbol", "rr_coefficient_n_per_kn",
@@ -477,7 +556,7 @@ def write_csv(path: Path, columns: list[str], rows: list[dict]) -> None:
         writer = csv.DictWriter(fh, fieldnames=columns, lineterminator="\n")
         writer.writeheader()
         for row in rows:
-            writer.writerow({c: row[c] for c in columns})
+            writer.writerow({c: row.get(c, "") for c in columns})
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -495,6 +574,8 @@ def main(argv: list[str] | None = None) -> int:
     loss_rng = np.random.default_rng((args.seed, 1))  # separate stream: the other columns stay unchanged
     add_motor_losses(motors, loss_rng)
     maps = make_maps(motors, loss_rng)
+    gear_rng = np.random.default_rng((args.seed, 2))  # separate stream again: earlier rows unchanged
+    reducers += make_gearboxes(gear_rng)
     args.out.mkdir(parents=True, exist_ok=True)
     (args.out / "maps").mkdir(exist_ok=True)
     for part, table in maps.items():

@@ -16,7 +16,9 @@ simulate and explain all reach it, through `api.records` or directly). It does t
      by solve_ivp as well), and at every speed the traction limit with load transfer of both axles,
      solved as the root of the force balance m_eff a + F_res = sum_axles min(F_axle, mu N_axle(a))
      (piecewise linear in a: its breakpoints are located and the root is taken on the bracketing
-     piece), not by the evaluator's minimum over traction combinations;
+     piece), not by the evaluator's minimum over traction combinations. Each call to solve_ivp
+     integrates one smooth regime (envelope branch per unit, set of slipping axles) and stops at an
+     event where the regime changes, so no step straddles a kink;
    - maximum and sustained top speed by `scipy.optimize.brentq` on the force balance
      (wheel force - road load) per gear, or on the summed best-gear forces of two units;
    - gradeability by `brentq` on the crawl force balance in the grade angle (axle loads on the

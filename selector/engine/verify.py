@@ -70,6 +70,11 @@ MAX_CUT_REL = 1e-12
 """The envelope's force is counted up to w_max (1 + this), as in `physics.motor` (the model's definition) [-]."""
 SHIFT_TIE = 1e-12
 """A unit upshifts where a_next >= a_now - SHIFT_TIE |a_now| (the model's tie rule) [-]."""
+PROBE_REL = 1e-12
+"""A restarted integration takes the regime found this fraction above the restart speed [-]."""
+LIMIT_EARLY_REL = 1e-10
+"""The forced shift at a gear's speed limit fires this fraction below it, so that an envelope corner
+at the same speed (decline speed = maximum speed) cannot end the gear's force first [-]."""
 MAX_RESTARTS = 400
 """Most regime changes of one integration phase before the re-check gives up (an internal error) [-]."""
 
@@ -246,9 +251,9 @@ class _Regime:
 
 
 def _regime_at(veh: _Vehicle, gears: dict, engaged: dict, v: float) -> _Regime:
-    """The regime just above speed v (probed 1e-9 m/s ahead, so a run restarted at a switch continues
+    """The regime just above speed v (probed `PROBE_REL` ahead, so a run restarted at a switch continues
     in the new regime)."""
-    vp = v + 1e-9 * max(v, 1.0)
+    vp = v + PROBE_REL * max(v, 1.0)
     branch = []
     forces = {}
     for name, u in veh.units.items():
@@ -404,8 +409,8 @@ def run_time_s(veh: _Vehicle, target: float, t_cap: float) -> float:
             for n in can:
                 events.append((n, lambda x, n=n: a_next(x, n) - a_now(x), 1.0))
                 lim = _gear_limit(veh, units[n], gears[n])
-                if lim < target:
-                    events.append((n, lambda x, lim=lim: x - lim, 1.0))
+                if lim < target:  # forced shift at the gear's speed limit (a hair early: before the force cut)
+                    events.append((n, lambda x, lim=lim: x - lim * (1.0 - LIMIT_EARLY_REL), 1.0))
             what, t, v = _integrate(veh, gears, engaged, t, v, t_cap, target, events)
             if what in ("stall", "end"):
                 return math.inf

@@ -1,13 +1,14 @@
 """The orchestrator: load a study, apply procurement filters, search, verify, and build results.
 
 Library users call these functions; the CLI is a thin layer over them. Every design returned
-here has been verified by `verify.verify_designs`.
+here has been verified by `verify.verify_designs` (exact evaluation and an independent re-check).
 """
 
 from __future__ import annotations
 
 import difflib
 import os
+import time
 import warnings
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -236,6 +237,10 @@ def result_dict(study: Study, res: SearchResult, extra: dict | None = None) -> d
                    "combinations": int(parts.combinations), "procurement_filters": list(study.filter_notes)},
         "designs": records(parts, res.designs, res.objective),
     })
+    t0 = time.perf_counter()
+    out["designs"] = records(parts, res.designs, res.objective)
+    res.timings["verify_s"] = res.timings.get("verify_s", 0.0) + time.perf_counter() - t0
+    out["search"]["verify_s"] = round(res.timings["verify_s"], 4)
     if res.status == STATUS_INFEASIBLE:
         out["reason"] = res.reason
     if extra:
@@ -286,9 +291,11 @@ def simulate(study: Study, motor: str | None = None, reducer: str | None = None,
     check_study_args("simulate", study)
     parts = study.parts
     design = design_from_ids(parts, motor, reducer, tyre, front_motor, front_reducer, rear_motor, rear_reducer)
+    objective = parts.problem.objective
+    # the exact evaluation, re-checked by the independent computation (figures only: it may be infeasible)
+    verify_designs(parts, [design], objective, expect_feasible=False)
     metrics = evaluate(parts, [design.key], shifts=True)
     rec = design_record(parts, design, metrics, 0, run=metrics.get("run"))
-    objective = parts.problem.objective
     layout = layout_unmet(parts, design)
     # the definition solve and explain use
     rec["feasible"] = bool(feasible(parts, metrics, objective)[0]) and not layout

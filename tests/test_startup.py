@@ -18,8 +18,10 @@ ROOT = Path(__file__).resolve().parent.parent
 VAN = str(ROOT / "problems" / "parcel_van.toml")
 
 SOLVER = {"pyomo", "highspy"}
-OPTIONAL = {"matplotlib", "dask", "distributed", "openpyxl", "tqdm", "scipy"}
-"""Plotting, Dask, spreadsheets, progress bars, scipy: needed only by the options that use them."""
+OPTIONAL = {"matplotlib", "dask", "distributed", "openpyxl", "tqdm"}
+"""Plotting, Dask, spreadsheets, progress bars: needed only by the options that use them."""
+RECHECK = {"scipy"}
+"""The independent re-check of reported designs (solve_ivp, brentq): only commands that report a design."""
 TABLES = {"numpy", "pandas"}
 
 PROBE = """
@@ -47,7 +49,8 @@ def loaded(argv: list[str]) -> tuple[int, set[str]]:
 def test_help_imports_no_heavy_library(argv):
     code, modules = loaded(argv)
     assert code in (0, 2)
-    assert not modules & (SOLVER | OPTIONAL | TABLES), sorted(modules & (SOLVER | OPTIONAL | TABLES))
+    heavy = SOLVER | OPTIONAL | TABLES | RECHECK
+    assert not modules & heavy, sorted(modules & heavy)
 
 
 @pytest.mark.parametrize("argv", [
@@ -59,6 +62,8 @@ def test_commands_without_a_search_do_not_import_the_solver(argv):
     assert code == 0
     assert TABLES <= modules  # the catalogues were read: the probe saw the work being done
     assert not modules & (SOLVER | OPTIONAL), sorted(modules & (SOLVER | OPTIONAL))
+    # a simulated design is re-checked (scipy); `check` reports no design, so it needs no re-check
+    assert (RECHECK <= modules) == (argv[0] == "simulate"), sorted(modules & RECHECK)
 
 
 def test_solve_imports_no_optional_library():

@@ -183,3 +183,27 @@ def test_load_capacity_vectorised():
 def test_load_index_outside_table_raises():
     assert_all_raise([59, 131, 91.5, -1, "91", True, float("nan")], load_capacity_kg, ValueError,
                      r"load index .* is not supported; .* 60\.\.130")
+
+
+
+# UN Regulation No. 30 load capacity against speed for the high speed symbols, as reproduced on a
+# handbook page on tyre load capacity: V 100 % at 210 km/h to 91 % at 240 km/h, W 100 % at 240 km/h to
+# 85 % at 270 km/h, "determined by linear interpolation" in between (so the intermediate values below
+# are interpolated, not table entries); Y 100 % at 270 km/h to 85 % at 300 km/h (from memory).
+@pytest.mark.parametrize("symbol,kmh,share", [
+    ("V", 200.0, 1.0), ("V", 210.0, 1.0), ("V", 220.0, 0.97), ("V", 230.0, 0.94), ("V", 240.0, 0.91),
+    ("W", 240.0, 1.0), ("W", 250.0, 0.95), ("W", 260.0, 0.90), ("W", 270.0, 0.85),
+    ("Y", 270.0, 1.0), ("Y", 285.0, 0.925), ("Y", 300.0, 0.85),
+    ("H", 210.0, 1.0), ("T", 150.0, 1.0),  # other symbols: the load index's capacity up to their speed
+])
+def test_load_capacity_reduction_above_210_kmh(symbol, kmh, share):
+    from selector.physics.tyres import load_capacity_factor
+
+    assert float(load_capacity_factor(symbol, kmh)) == pytest.approx(share, abs=1e-12)
+
+
+def test_load_capacity_reduction_is_vectorised_and_case_insensitive():
+    from selector.physics.tyres import load_capacity_factor
+
+    out = load_capacity_factor(np.array(["v", "W", "h"]), np.array([225.0, 225.0, 225.0]))
+    np.testing.assert_allclose(out, [0.955, 1.0, 1.0], atol=1e-12)  # UN R30 (linear between 210 and 240 km/h)

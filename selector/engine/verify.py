@@ -219,6 +219,13 @@ def _accel(veh: _Vehicle, gears: dict, engaged: dict, v: float) -> float:
     return _balance_accel(veh, forces, _road_load(veh, v), _m_eff(veh, gears, engaged))
 
 
+def _motor_accel(veh: _Vehicle, gears: dict, engaged: dict, v: float) -> float:
+    """Acceleration the engaged units' motors give at road speed v, traction limits aside [m/s^2]
+    (the model's shift rule compares gears by it)."""
+    forces = [_force(veh, u, gears[name], v) for name, u in veh.units.items() if engaged[name]]
+    return (sum(forces) - _road_load(veh, v)) / _m_eff(veh, gears, engaged)
+
+
 # ------------------------------------------------------------------------------------------ the run
 
 _BRANCHES = ("torque", "power", "decline")
@@ -377,7 +384,8 @@ def run_time_s(veh: _Vehicle, target: float, t_cap: float) -> float:
     """Time from rest to ``target`` [m/s] by solve_ivp in the time domain (inf if not reached by t_cap) [s].
 
     Every unit starts in first gear; a unit upshifts where its next gear gives at least as much
-    acceleration (an event on a_next - a_now) or at its gear's speed limit; during its shift time it
+    acceleration from the motors, traction limits aside (an event on a_next - a_now) or at its gear's
+    speed limit; during its shift time it
     gives no force and its rotor is decoupled (integrated as well); no downshifts.
     """
     units = veh.units
@@ -392,10 +400,10 @@ def run_time_s(veh: _Vehicle, target: float, t_cap: float) -> float:
         can = [n for n in ("front", "rear") if n in units and gears[n] < len(units[n].ratios) - 1]
 
         def a_now(x, g_now=g_now):
-            return _accel(veh, g_now, engaged, x)
+            return _motor_accel(veh, g_now, engaged, x)
 
         def a_next(x, name, g_now=g_now):
-            return _accel(veh, {**g_now, name: g_now[name] + 1}, engaged, x)
+            return _motor_accel(veh, {**g_now, name: g_now[name] + 1}, engaged, x)
 
         def holds(name, x):
             a1 = a_now(x)

@@ -38,15 +38,8 @@ TWO_UNIT = [p for p in PROBLEMS if _problem(p).vehicle.driven_axle == "both"]
 SINGLE = [p for p in PROBLEMS if p not in TWO_UNIT]
 CLASSIC = [p for p in SINGLE if _problem(p).energy is None]  # small enough for the enumeration oracle
 
-# The command-line output of two-unit designs (records with `units`, simulate's --front-*/--rear-*
-# flags) is built on another branch; until it is merged the CLI stops with an internal error on a
-# two-unit design. Strict: these tests fail (XPASS) as soon as it works, so the marker is removed.
-TWO_UNIT_CLI_PENDING = pytest.mark.xfail(
-    strict=True, reason="two-unit design records in the CLI output are not on this branch yet")
-
-
 def _cases(paths):
-    return [pytest.param(p, id=p.stem, marks=[TWO_UNIT_CLI_PENDING] if p in TWO_UNIT else []) for p in paths]
+    return [pytest.param(p, id=p.stem) for p in paths]
 
 
 def _tools_module():
@@ -260,8 +253,6 @@ def test_energy_cheapest_parts_are_not_the_cheapest_vehicle(examples):
     assert math.isclose(o["cost"], o["parts_cost"] + o["battery_cost"], rel_tol=1e-9)
 
 
-@pytest.mark.xfail(strict=True, reason="the design record's energy block (battery size, Wh/km, battery cost) in the "
-                   "JSON of solve is not on this branch yet")
 def test_energy_solve_json_reports_the_battery(capsys):
     path = ROOT / "problems" / "delivery_van_energy.toml"
     res = _solve_json(path, capsys)

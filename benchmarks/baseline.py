@@ -39,14 +39,54 @@ SLACK = 1e-6
 """Relative slack of the necessary screens (far above the 1e-9 pass tolerance) [-]."""
 
 
+def _part_screens(parts: PartTables):
+    """Boolean masks (motors, tyres) of parts that can be in some feasible design: necessary
+    conditions on one part with the rest at their most favourable (lightest parts, best efficiency,
+    least rolling resistance, largest usable G/r)."""
+    p = parts.problem
+    req, veh = p.requirements, p.vehicle
+    mo, re, ty = parts.motors, parts.reducers, parts.tyres
+    eta = float(np.nanmax(re.efficiencies))
+    m_min = veh.mass_kg + mo.mass_kg + re.mass_kg.min() + veh.tyre_count * ty.mass_kg.min()
+    crr = float(ty.crr.min())
+    motors = np.ones(mo.cost.size, dtype=bool)
+    if req.top_speed_kmh is not None:
+        v = kmh_to_mps(req.top_speed_kmh)
+        motors &= eta * mo.cont_power_w >= (m_min * G * crr + parts.q_n_s2_m2 * v * v) * v * (1 - SLACK)
+        motors &= mo.max_speed_rad_s * ty.radius_m.max() / re.tallest_ratio.min() >= v * (1 - SLACK)
+    gr_max = float((re.ratios[:, 0].max()) / ty.radius_m.min())
+    if req.gradeability_pct is not None:
+        th = np.arctan(req.gradeability_pct / 100.0)
+        motors &= eta * mo.torque_nm * gr_max >= m_min * G * (np.sin(th) + crr * np.cos(th)) * (1 - SLACK)
+    if req.launch_accel_mps2 is not None:
+        motors &= eta * mo.torque_nm * gr_max - m_min * G * crr >= m_min * req.launch_accel_mps2 * (1 - SLACK)
+    if req.max_mass_kg is not None:
+        motors &= m_min <= req.max_mass_kg * (1 + SLACK)
+    if req.budget is not None:
+        motors &= mo.cost + re.cost.min() + veh.tyre_count * ty.cost.min() <= req.budget * (1 + SLACK)
+    if req.accel_time_s is not None and req.accel_to_kmh is not None:
+        motors &= _motor_times(parts) <= req.accel_time_s * (1 + SLACK)
+    # static tyre load: the demand grows with the parts' masses; the lightest motor and reducer give its least
+    from selector.engine.evaluate import tyre_load_demand_kg
+
+    keys = parts.single_keys(int(np.argmin(mo.mass_kg)), int(np.argmin(re.mass_kg)), np.arange(ty.cost.size))
+    tyres = ty.load_capacity_kg * (1 + SLACK) >= tyre_load_demand_kg(parts, keys)
+    return motors, tyres
+
+
 def _sum_order_search(parts: PartTables, objective: str, stats: dict):
     v = parts.problem.vehicle
     mo, re, ty = parts.motors, parts.reducers, parts.tyres
+    ok_m, ok_t = _part_screens(parts)
     if objective == "cost":
         vals = (mo.cost, re.cost, v.tyre_count * ty.cost)
     else:
         vals = (v.mass_kg + mo.mass_kg, re.mass_kg, v.tyre_count * ty.mass_kg)
     orders = [np.argsort(x, kind="stable") for x in vals]
+    orders[0] = orders[0][ok_m[orders[0]]]
+    orders[2] = orders[2][ok_t[orders[2]]]
+    if orders[0].size == 0 or orders[2].size == 0:
+        return [], []
     sv = [x[o] for x, o in zip(vals, orders, strict=True)]
     n = [x.size for x in sv]
     heap = [(sv[0][0] + sv[1][0] + sv[2][0], 0, 0, 0)]
@@ -91,13 +131,12 @@ def _closed_form_time(v_t, f1, a_trac, p_w, m):
     return np.where(a1 > 0, t, np.inf)
 
 
-def _accel_search(parts: PartTables, stats: dict):
+def _motor_times(parts: PartTables) -> np.ndarray:
+    """Optimistic 0-accel_to_kmh time of each motor [s] (see the module docstring)."""
     p = parts.problem
     req, veh, env = p.requirements, p.vehicle, p.environment
     mo, re, ty = parts.motors, parts.reducers, parts.tyres
     v_t = kmh_to_mps(req.accel_to_kmh)
-    if parts.speed_limit_mps < v_t * (1 - 1e-9):
-        return [], []
     v_gear = max(v_t, kmh_to_mps(req.top_speed_kmh) if req.top_speed_kmh is not None else 0.0)
     mu = env.road_friction
     hl = veh.cg_height_m / veh.wheelbase_m
@@ -121,7 +160,29 @@ def _accel_search(parts: PartTables, stats: dict):
     gr_max = np.where(pos > 0, first_max[np.maximum(pos - 1, 0)], 0.0)
     m_min = veh.mass_kg + mo.mass_kg + re.mass_kg.min() + veh.tyre_count * ty.mass_kg.min()
     f1 = float(eta_max.max()) * mo.torque_nm * gr_max
-    t_motor = _closed_form_time(v_t, f1, a_trac_all, float(eta_max.max()) * mo.power_w, m_min)
+    return _closed_form_time(v_t, f1, a_trac_all, float(eta_max.max()) * mo.power_w, m_min)
+
+
+def _accel_search(parts: PartTables, stats: dict):
+    p = parts.problem
+    req, veh, env = p.requirements, p.vehicle, p.environment
+    mo, re, ty = parts.motors, parts.reducers, parts.tyres
+    v_t = kmh_to_mps(req.accel_to_kmh)
+    if parts.speed_limit_mps < v_t * (1 - 1e-9):
+        return [], []
+    v_gear = max(v_t, kmh_to_mps(req.top_speed_kmh) if req.top_speed_kmh is not None else 0.0)
+    mu = env.road_friction
+    hl = veh.cg_height_m / veh.wheelbase_m
+    n_r, n_t = re.cost.size, ty.cost.size
+    eta_max = np.nanmax(re.efficiencies, axis=1)
+    g1 = re.ratios[:, 0]
+    g_tall = re.ratios[np.arange(n_r), re.n_gears - 1]
+    jj, kk = np.meshgrid(np.arange(n_r), np.arange(n_t), indexing="ij")
+    jj, kk = jj.ravel(), kk.ravel()
+    cap = mo.max_speed_rad_s / v_gear  # G_tall / r must not exceed this
+    t_motor = _motor_times(parts)
+    ok_m, ok_t = _part_screens(parts)
+    t_motor = np.where(ok_m, t_motor, np.inf)
     limit = np.inf if req.accel_time_s is None else req.accel_time_s * (1 + SLACK)
     motors = np.nonzero(np.isfinite(t_motor) & (t_motor <= limit))[0]
     motors = motors[np.lexsort((motors, t_motor[motors]))]
@@ -135,7 +196,7 @@ def _accel_search(parts: PartTables, stats: dict):
         j, k = jj, kk
         ok = (mo.torque_nm[i] <= re.max_torque_nm[j] * (1 + SLACK)) \
             & (mo.max_speed_rad_s[i] <= re.max_speed_rad_s[j] * (1 + SLACK))
-        ok &= g_tall[j] / ty.radius_m[k] <= cap[i] * (1 + SLACK)
+        ok &= (g_tall[j] / ty.radius_m[k] <= cap[i] * (1 + SLACK)) & ok_t[k]
         j, k = j[ok], k[ok]
         keys = parts.single_keys(i, j, k)
         mass = parts.mass_kg(keys)

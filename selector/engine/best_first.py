@@ -605,7 +605,7 @@ class SingleAxleSearch:
         found_v, found_k = [], []
         kth = np.inf
         evaluated = 0
-        batch = 512
+        batch = 128
         while heap:
             if heap[0][0] > kth + tie_tolerance(kth):
                 break
@@ -634,7 +634,7 @@ class SingleAxleSearch:
             if not ok.any():
                 continue
             keys = parts.single_keys(motor[ok], p.j[pair[ok]], p.k[pair[ok]])
-            good, obj = screen(parts, keys, objective=self.objective)
+            good, obj = screen(parts, keys, objective=self.objective, keep_best=self.count)
             self.stats["evaluated"] += keys.shape[0]
             if good.any():
                 found_v.append(obj[good])

@@ -86,8 +86,18 @@ class PairTable:
     mass: np.ndarray
     crr: np.ndarray
     eta: np.ndarray
-    classes: list
+    build_classes: object
+    """Callable building the rating classes (sorted pairs and range-minimum tables) on first use."""
     multi_pairs: np.ndarray
+    _classes: list | None = None
+
+    @property
+    def classes(self) -> list:
+        """Single-speed pairs per reducer rating class (`_Class`), built on first use (the sum-order
+        probe of cost and mass studies often proves the result without them)."""
+        if self._classes is None:
+            self._classes = self.build_classes()
+        return self._classes
 
 
 def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
@@ -109,27 +119,31 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
     mass = re.mass_kg[j] + n * ty.mass_kg[k]
     crr = ty.crr[k]
     eta = np.nanmax(re.efficiencies, axis=1)[j]
-    classes = []
-    single = np.nonzero(~multi)[0]
-    if single.size:
-        # rating classes from the reducers (few rows), then every single-speed pair's class; one
-        # stable sort of the pairs by L, split per class (each class keeps L order, ties pair order)
-        rating = np.stack([re.max_torque_nm[rj], re.max_speed_rad_s[rj]], axis=1)
-        uniq, inv_r = np.unique(rating, axis=0, return_inverse=True)
-        inv_r = np.asarray(inv_r).ravel()
-        pos_r = np.full(re.max_torque_nm.size, -1, dtype=np.int64)
-        pos_r[rj] = np.arange(rj.size)
-        inv = inv_r[pos_r[j[single]]]
-        by_l = np.argsort(l_first[single], kind="stable")
-        single_l, inv_l = single[by_l], inv[by_l]
-        for c in range(uniq.shape[0]):
-            order = single_l[inv_l == c]
-            if order.size == 0:
-                continue
-            classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order],
-                                  RangeMin(cost[order]), RangeMin(mass[order]), RangeMin(crr[order]),
-                                  RangeMin(-eta[order])))
-    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, classes, np.nonzero(multi)[0])
+
+    def build_classes():
+        classes = []
+        single = np.nonzero(~multi)[0]
+        if single.size:
+            # rating classes from the reducers (few rows), then every single-speed pair's class; one
+            # stable sort of the pairs by L, split per class (each class keeps L order, ties pair order)
+            rating = np.stack([re.max_torque_nm[rj], re.max_speed_rad_s[rj]], axis=1)
+            uniq, inv_r = np.unique(rating, axis=0, return_inverse=True)
+            inv_r = np.asarray(inv_r).ravel()
+            pos_r = np.full(re.max_torque_nm.size, -1, dtype=np.int64)
+            pos_r[rj] = np.arange(rj.size)
+            inv = inv_r[pos_r[j[single]]]
+            by_l = np.argsort(l_first[single], kind="stable")
+            single_l, inv_l = single[by_l], inv[by_l]
+            for c in range(uniq.shape[0]):
+                order = single_l[inv_l == c]
+                if order.size == 0:
+                    continue
+                classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order],
+                                      RangeMin(cost[order]), RangeMin(mass[order]), RangeMin(crr[order]),
+                                      RangeMin(-eta[order])))
+        return classes
+
+    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0])
 
 
 class SingleAxleSearch:
@@ -561,7 +575,7 @@ class SingleAxleSearch:
         return int(np.nonzero(self.motors == i)[0][0])
 
     # ------------------------------------------------------------------ the sum-order probe
-    def sum_order_probe(self, lb: np.ndarray) -> bool:
+    def sum_order_probe(self) -> bool:
         """Cost and mass objectives (no [energy]): evaluate designs in increasing objective order.
 
         The objective is a sum of a motor value and a pair value (reducer + tyre_count x tyre), so a
@@ -577,16 +591,17 @@ class SingleAxleSearch:
         """
         parts, p = self.parts, self.pairs
         v = parts.problem.vehicle
-        open_m = np.nonzero(np.isfinite(lb))[0]
-        if self.accel and self.req.accel_time_s is not None and open_m.size:
-            # motors whose certified time bound over their whole L hull misses accel_time_s are out
-            h_lo, h_hi = self.hull(open_m)
-            t = np.full(open_m.size, np.inf)
-            has = h_lo <= h_hi
-            t[has] = self.time_bound(open_m[has], h_lo[has], h_hi[has])
-            out = ~(t <= self.req.accel_time_s * (1 + 2 * REL_TOL))
-            lb[open_m[out]] = np.inf
-            open_m = open_m[~out]
+        lo = np.maximum(self.win_speed[0], self.win_first[0])
+        hi = np.minimum(self.win_speed[1], self.win_first[1])
+        # motors with some admissible L: the single-speed window (clipped to the pairs' L range), or
+        # any multi-speed pair (their gears are checked per design by `screen`)
+        lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
+        open_m = np.nonzero((lo_c <= hi_c) | bool(p.multi_pairs.size))[0]
+        if self.accel and self.req.accel_time_s is not None and open_m.size and p.multi_pairs.size == 0:
+            # motors whose certified time bound over their whole admissible L interval misses
+            # accel_time_s are out (that interval holds every admissible pair's L)
+            t = self.time_bound(open_m, lo_c[open_m], hi_c[open_m])
+            open_m = open_m[t <= self.req.accel_time_s * (1 + 2 * REL_TOL)]
         if open_m.size == 0 or p.j.size == 0:
             return True
         mi = self.motors[open_m]
@@ -599,8 +614,6 @@ class SingleAxleSearch:
         m_sorted, p_sorted = m_val[m_ord].tolist(), p_val[p_ord].tolist()
         n_m, n_p = len(m_sorted), len(p_sorted)
         m_pos = open_m[m_ord]
-        lo = np.maximum(self.win_speed[0], self.win_first[0])
-        hi = np.minimum(self.win_speed[1], self.win_first[1])
         heap = [(m_sorted[0] + p_sorted[0], 0, 0)]
         found_v, found_k = [], []
         kth = np.inf
@@ -652,6 +665,11 @@ class SingleAxleSearch:
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
         n = self.motors.size
+        if self.objective in ("cost", "mass") and self.parts.problem.energy is None \
+                and self.per_slice == self.count and self.sum_order_probe():
+            order = order_best(self.pool_vals, self.pool_keys, self.count)
+            designs = designs_of(self.pool_vals, self.pool_keys, order)
+            return ("optimal" if designs else "infeasible"), designs, None
         lb = self.value_bounds() if self.objective in ("cost", "mass") else np.zeros(n)
         if self.objective in ("cost", "mass") and self.parts.problem.requirements.range_km is not None \
                 and self.parts.problem.energy is not None:
@@ -673,11 +691,6 @@ class SingleAxleSearch:
             mi = self.motors[has]
             lb[has] = self.energy_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
                                          self.use.crr_min, self.use.eta_max[mi])
-        if self.objective in ("cost", "mass") and self.parts.problem.energy is None \
-                and self.per_slice == self.count and self.sum_order_probe(lb):
-            order = order_best(self.pool_vals, self.pool_keys, self.count)
-            designs = designs_of(self.pool_vals, self.pool_keys, order)
-            return ("optimal" if designs else "infeasible"), designs, None
         refined = np.zeros(n, dtype=bool) if self.accel else np.ones(n, dtype=bool)
         if self.objective == "energy":
             # the motor-level energy bound refined over L cells (least pair mass per cell), in batches

@@ -42,14 +42,17 @@ REFINE_BATCH = 64
 """Motors whose acceleration bound is refined together [-]."""
 FIRST_CHUNK = 256
 """Designs of a block evaluated in its first chunk (later chunks double) [-]."""
+PROBE_DESIGNS = 16384
+"""Designs the sum-order probe of cost and mass studies evaluates at most before handing over [-]."""
 MILP_OPEN = 400
 """The MILP relaxation is consulted when more motors than this are still open below the incumbent [-]..."""
 MILP_MAX_OPEN = 2000
 """... but not more than this (the model's size and build time grow with them) ..."""
-MILP_AFTER_S = 5.0
-"""... and the bound search has already run this long [s] (measured: on the benchmark catalogues the
-bound search proves optimality sooner than a MILP round costs; the relaxation pays off only where
-per-motor bounds stay weak for long)."""
+MILP_AFTER_S = 60.0
+"""... and the bound search has already run this long [s] (measured, benchmarks/bench_engine.py: on
+the synthetic and many-variant catalogues the bound search proves optimality sooner than a MILP
+round costs, and a round after 5 s changed no block count while costing 4-14 s for the solver
+import and the model; the relaxation can pay off only where per-motor bounds stay weak for long)."""
 
 
 @dataclass
@@ -83,8 +86,18 @@ class PairTable:
     mass: np.ndarray
     crr: np.ndarray
     eta: np.ndarray
-    classes: list
+    build_classes: object
+    """Callable building the rating classes (sorted pairs and range-minimum tables) on first use."""
     multi_pairs: np.ndarray
+    _classes: list | None = None
+
+    @property
+    def classes(self) -> list:
+        """Single-speed pairs per reducer rating class (`_Class`), built on first use (the sum-order
+        probe of cost and mass studies often proves the result without them)."""
+        if self._classes is None:
+            self._classes = self.build_classes()
+        return self._classes
 
 
 def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
@@ -94,28 +107,43 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
     rj = np.asarray(reducers, dtype=np.int64)
     jj, kk = np.meshgrid(rj, use.tyres, indexing="ij")
     j, k = jj.ravel(), kk.ravel()
-    with np.errstate(invalid="ignore"):
-        gear_l = np.log(re.ratios[j]) - np.log(ty.radius_m[k])[:, None]
+    # logarithms and maxima per part (few rows), then indexed per pair (same values, less work)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        log_g = np.log(re.ratios)
+    log_r = np.log(ty.radius_m)
+    gear_l = log_g[j] - log_r[k][:, None]
     l_first = gear_l[:, 0]
     l_tall = gear_l[np.arange(j.size), re.n_gears[j] - 1]
     multi = re.n_gears[j] > 1
     cost = re.cost[j] + n * ty.cost[k]
     mass = re.mass_kg[j] + n * ty.mass_kg[k]
     crr = ty.crr[k]
-    eta = np.nanmax(re.efficiencies[j], axis=1)
-    classes = []
-    single = np.nonzero(~multi)[0]
-    if single.size:
-        rating = np.stack([re.max_torque_nm[j[single]], re.max_speed_rad_s[j[single]]], axis=1)
-        uniq, inv = np.unique(rating, axis=0, return_inverse=True)
-        inv = np.asarray(inv).ravel()
-        for c in range(uniq.shape[0]):
-            members = single[inv == c]
-            order = members[np.argsort(l_first[members], kind="stable")]
-            classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order],
-                                  RangeMin(cost[order]), RangeMin(mass[order]), RangeMin(crr[order]),
-                                  RangeMin(-eta[order])))
-    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, classes, np.nonzero(multi)[0])
+    eta = np.nanmax(re.efficiencies, axis=1)[j]
+
+    def build_classes():
+        classes = []
+        single = np.nonzero(~multi)[0]
+        if single.size:
+            # rating classes from the reducers (few rows), then every single-speed pair's class; one
+            # stable sort of the pairs by L, split per class (each class keeps L order, ties pair order)
+            rating = np.stack([re.max_torque_nm[rj], re.max_speed_rad_s[rj]], axis=1)
+            uniq, inv_r = np.unique(rating, axis=0, return_inverse=True)
+            inv_r = np.asarray(inv_r).ravel()
+            pos_r = np.full(re.max_torque_nm.size, -1, dtype=np.int64)
+            pos_r[rj] = np.arange(rj.size)
+            inv = inv_r[pos_r[j[single]]]
+            by_l = np.argsort(l_first[single], kind="stable")
+            single_l, inv_l = single[by_l], inv[by_l]
+            for c in range(uniq.shape[0]):
+                order = single_l[inv_l == c]
+                if order.size == 0:
+                    continue
+                classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order],
+                                      RangeMin(cost[order]), RangeMin(mass[order]), RangeMin(crr[order]),
+                                      RangeMin(-eta[order])))
+        return classes
+
+    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0])
 
 
 class SingleAxleSearch:
@@ -546,10 +574,102 @@ class SingleAxleSearch:
         i = int(m_rows[i])
         return int(np.nonzero(self.motors == i)[0][0])
 
+    # ------------------------------------------------------------------ the sum-order probe
+    def sum_order_probe(self) -> bool:
+        """Cost and mass objectives (no [energy]): evaluate designs in increasing objective order.
+
+        The objective is a sum of a motor value and a pair value (reducer + tyre_count x tyre), so a
+        heap over (motor rank, pair rank) into both lists sorted by value yields designs in
+        increasing objective order (from (a, b) come (a, b + 1) and, when b = 0, (a + 1, 0)). Popped
+        designs whose pair is outside the motor's requirement windows or whose reducer is not rated
+        for the motor fail a necessary condition; the rest go to `evaluate.screen` in batches. When
+        the next value exceeds the ``count``-th best feasible value beyond the tie tolerance (or the
+        heap is empty), every design not evaluated is provably worse or infeasible: a complete proof
+        and the pool is set. Otherwise, after `PROBE_DESIGNS` designs, it hands over to the block
+        search (keeping its best design when ``count`` is 1, where a design seen twice does no harm).
+        Returns True when the probe proved the result.
+        """
+        parts, p = self.parts, self.pairs
+        v = parts.problem.vehicle
+        lo = np.maximum(self.win_speed[0], self.win_first[0])
+        hi = np.minimum(self.win_speed[1], self.win_first[1])
+        # motors with some admissible L: the single-speed window (clipped to the pairs' L range), or
+        # any multi-speed pair (their gears are checked per design by `screen`)
+        lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
+        open_m = np.nonzero((lo_c <= hi_c) | bool(p.multi_pairs.size))[0]
+        if self.accel and self.req.accel_time_s is not None and open_m.size and p.multi_pairs.size == 0:
+            # motors whose certified time bound over their whole admissible L interval misses
+            # accel_time_s are out (that interval holds every admissible pair's L)
+            t = self.time_bound(open_m, lo_c[open_m], hi_c[open_m])
+            open_m = open_m[t <= self.req.accel_time_s * (1 + 2 * REL_TOL)]
+        if open_m.size == 0 or p.j.size == 0:
+            return True
+        mi = self.motors[open_m]
+        if self.objective == "cost":
+            m_val, p_val = parts.motors.cost[mi], p.cost
+        else:
+            m_val, p_val = v.mass_kg + parts.motors.mass_kg[mi], p.mass
+        m_ord = np.lexsort((mi, m_val))
+        p_ord = np.argsort(p_val, kind="stable")  # pairs are stored in (reducer, tyre) order: ties keep it
+        m_sorted, p_sorted = m_val[m_ord].tolist(), p_val[p_ord].tolist()
+        n_m, n_p = len(m_sorted), len(p_sorted)
+        m_pos = open_m[m_ord]
+        heap = [(m_sorted[0] + p_sorted[0], 0, 0)]
+        found_v, found_k = [], []
+        kth = np.inf
+        evaluated = 0
+        batch = 128
+        while heap:
+            if heap[0][0] > kth + tie_tolerance(kth):
+                break
+            if evaluated >= PROBE_DESIGNS:
+                if self.count == 1 and found_v:
+                    self._add(np.concatenate(found_v), np.concatenate(found_k))
+                return False
+            a_l, b_l = [], []
+            limit = kth + tie_tolerance(kth)
+            while heap and len(a_l) < batch and heap[0][0] <= limit:
+                _, a, b = heapq.heappop(heap)
+                a_l.append(a)
+                b_l.append(b)
+                if b + 1 < n_p:
+                    heapq.heappush(heap, (m_sorted[a] + p_sorted[b + 1], a, b + 1))
+                if b == 0 and a + 1 < n_m:
+                    heapq.heappush(heap, (m_sorted[a + 1] + p_sorted[0], a + 1, 0))
+            pos = m_pos[np.asarray(a_l, dtype=np.int64)]
+            pair = p_ord[np.asarray(b_l, dtype=np.int64)]
+            motor = self.motors[pos]
+            ok = self.use.compatible[motor, p.j[pair]]
+            single = ~p.multi[pair]
+            ok &= ~single | ((p.l_first[pair] >= lo[pos]) & (p.l_first[pair] <= hi[pos]))
+            evaluated += len(a_l)
+            batch = min(2 * batch, 8192)
+            if not ok.any():
+                continue
+            keys = parts.single_keys(motor[ok], p.j[pair[ok]], p.k[pair[ok]])
+            good, obj = screen(parts, keys, objective=self.objective, keep_best=self.count)
+            self.stats["evaluated"] += keys.shape[0]
+            if good.any():
+                found_v.append(obj[good])
+                found_k.append(keys[good])
+                fv = np.concatenate(found_v)
+                if fv.size >= self.count:
+                    fk = np.concatenate(found_k)
+                    kth = float(fv[order_best(fv, fk, self.count)[-1]])
+        if found_v:
+            self._add(np.concatenate(found_v), np.concatenate(found_k))
+        self.stats["probe"] = evaluated
+        return True
+
     # ------------------------------------------------------------------ the loop
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
         n = self.motors.size
+        if self.objective in ("cost", "mass") and self.parts.problem.energy is None \
+                and self.per_slice == self.count and self.sum_order_probe():
+            order = order_best(self.pool_vals, self.pool_keys, self.count)
+            designs = designs_of(self.pool_vals, self.pool_keys, order)
+            return ("optimal" if designs else "infeasible"), designs, None
         lb = self.value_bounds() if self.objective in ("cost", "mass") else np.zeros(n)
         if self.objective in ("cost", "mass") and self.parts.problem.requirements.range_km is not None \
                 and self.parts.problem.energy is not None:

@@ -17,9 +17,11 @@ feasible design lies inside the window:
 Acceleration time (`optimistic_time_s`). For every design of a motor whose gears lie in an L-hull
 [L_a, L_b] and every speed v, the net acceleration is at most
 
-    a_up(v) = min( (eta_max e^{L_b} T(v e^{L_a}) - F_res_min(v)) / (m_min + J eta_min e^{2 L_a}),  a_traction_max )
+    a_up(v) = min( (min(eta_max e^{L_b} T(v e^{L_a}), eta_max P / v) - F_res_min(v)) / (m_min + J eta_min e^{2 L_a}),
+                   a_traction_max )
 
-because T is non-increasing in shaft speed, e^L <= e^{L_b}, m_eff >= m_min + J eta_min e^{2 L_a}, and
+because T is non-increasing in shaft speed, e^L <= e^{L_b}, the wheel power eta T(w) w never exceeds
+eta P in any gear (the envelope's power limit), m_eff >= m_min + J eta_min e^{2 L_a}, and
 the traction-limited acceleration is at most the driven axle's bound (`traction_tan_bound`). a_up is
 non-increasing in v (force non-increasing, road load increasing), so 1/a_up is non-decreasing and
 the LEFT Riemann sum sum_k (v_{k+1} - v_k) / a_up(v_k) is a lower bound of integral dv / a_up, hence
@@ -329,7 +331,10 @@ def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_s
     vv = np.concatenate([v, args[-1][..., None]], axis=-1)  # the target itself: a_up(V) > 0 is necessary
     ea, eb = np.exp(la), np.exp(lb)
     torque = envelope_torque_nm(vv * ea, t_, p_, wd, k, wm)
-    f_up = e_hi * eb * torque
+    # every gear: wheel power eta T(w) w <= eta P, the envelope's power limit; so the force is also
+    # at most eta P / v (tighter than the L-hull product e^{L_b} T(v e^{L_a}) in the power region)
+    with np.errstate(divide="ignore"):
+        f_up = np.minimum(e_hi * eb * torque, np.where(vv > 0, e_hi * p_ / np.where(vv > 0, vv, 1.0), np.inf))
     f_res = m * G_N * c + q * vv * vv
     dj = j * e_lo * ea * ea
     m_eff = m + dj

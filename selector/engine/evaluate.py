@@ -149,7 +149,7 @@ def feasible(parts: PartTables, metrics: dict, objective: str | None = None) -> 
 
 
 def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", need_accel: bool | None = None,
-           accel_cutoff: float | None = None):
+           accel_cutoff: float | None = None, keep_best: int | None = None):
     """Feasibility and objective of many designs, computing expensive metrics only for survivors.
 
     Same decisions as `evaluate` + `feasible`, staged: mass, cost, ratings and the static tyre
@@ -158,7 +158,10 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
     (`accel_run.time_bracket`): a design whose lower bound already fails ``accel_time_s`` fails,
     one whose upper bound meets it passes without the exact integration (unless the objective is
     the time itself). With the accel_time objective, ``accel_cutoff`` [s] drops designs whose lower
-    bound exceeds it (they cannot improve on a known design; reported as not feasible here).
+    bound exceeds it (they cannot improve on a known design; reported as not feasible here). With
+    ``keep_best`` = N (cost and mass objectives), a design still undecided on ``accel_time_s`` whose
+    objective exceeds the N-th best design already proved feasible in this call (beyond the tie
+    tolerance) is not integrated: it cannot be among the N best (reported as not feasible here).
     Returns (feasible[n], objective[n]) with the objective +inf where infeasible.
     """
     keys = as_keys(parts, keys, rj, tk)
@@ -218,6 +221,10 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
                 sure = exact & (hi <= limit)
                 t[idx[sure]] = hi[sure]  # an upper bound that meets the limit: feasible, no exact time needed
                 exact &= ~sure
+                if keep_best is not None and objective in ("cost", "mass") and int(sure.sum()) >= keep_best:
+                    vals = m[OBJECTIVE_METRIC[objective]][idx]
+                    cut = float(np.partition(vals[sure], keep_best - 1)[keep_best - 1])
+                    exact &= ~(vals > cut + tie_tolerance(cut))
             rows = np.nonzero(exact)[0]
             if rows.size:
                 from selector.physics.drivetrain import take_axles, take_fields

@@ -27,8 +27,9 @@ NEW_CHECK_KEYS = {"axle"}
 """Keys added to every part-rating check row."""
 NEW_TOP_KEYS = {"layout", "gear_over_radius_1_m_per_axle"}
 VOLATILE = {"selector_version", "problem_file", "build_s", "solve_s", "verify_s", "elapsed_s", "bound_s",
-            "path", "evaluated"}
-"""Values that depend on the machine, the checkout or the version, not on the contract."""
+            "path", "evaluated", "iterations"}
+"""Values that depend on the machine, the checkout or the version, or on how the engine searched (its
+iteration count), not on the contract."""
 
 
 def _command(name: str) -> list[str]:

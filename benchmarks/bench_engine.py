@@ -55,8 +55,10 @@ SIZES = {  # approx combinations: (motors, reducers, tyres)
 }
 OBJECTIVES = ("cost", "mass", "accel_time")
 TABLES = ("sizes", "frontier", "many", "two", "demo", "startup")
-TWO_UNIT = {"1e9": (100, 10, 1000), "1e11": (1000, 10, 1000)}
-"""Two-unit sizes: (motors, reducers, tyres); combinations (motors x reducers)^2 x tyres."""
+TWO_UNIT = {"1e9": (100, 30, 111), "1e11": (300, 100, 111)}
+"""Two-unit sizes: (motors, reducers, tyres); combinations (motors x reducers)^2 x tyres (1.0e9 and
+1.0e11), with a tyre catalogue of the demo's size (a thousand tyre sizes would multiply the per
+(option, tyre) tables by ten)."""
 
 
 # ------------------------------------------------------------------------------------------ children

@@ -163,13 +163,19 @@ def test_every_command_json_and_table(path, capsys):
         assert run(["frontier", str(path), "--format", "json"]) == 2
         assert "accel_to_kmh" in capsys.readouterr().err
         return
+    if problem.vehicle.driven_axle == "both":
+        # Left out here: the exact frontier of a 1e9-design two-unit demo study takes minutes (one
+        # epsilon-constraint search per point). The two-unit frontier, JSON and table, is tested on a
+        # small two-unit study in test_records_slots.py::test_two_unit_frontier_and_tables.
+        return
+    from selector.cli.frontier import render
+
     assert run(["frontier", str(path), "--format", "json"]) == 0
     fr = json.loads(capsys.readouterr().out)
     assert fr["points"], "a feasible study has at least one frontier point"
     times = [p["accel_time_s"] for p in fr["points"]]
     assert times == sorted(times, reverse=True)
-    assert run(["frontier", str(path)]) == 0
-    assert "Caution" in capsys.readouterr().out
+    assert "Caution" in render(fr)  # the table the command prints for the same result
 
 
 # ------------------------------------------------------------------------------ scenario claims

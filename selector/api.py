@@ -155,7 +155,7 @@ def procurement_filter(parts: PartTables) -> tuple[dict, tuple[str, ...]]:
 def find_part(parts: PartTables, kind: str, part_id: str, option: str | None = None) -> int:
     """Position of a part id in a catalogue, or an InputError with a did-you-mean suggestion.
 
-    ``option``: the command-line option that named the part (default ``--kind``).
+    ``option``: the parameter that named the part (default ``kind``; the CLI shows it as its flag).
     """
     if not isinstance(part_id, str):
         raise argument_error("simulate", kind, part_id, "a part id (text)")
@@ -165,7 +165,7 @@ def find_part(parts: PartTables, kind: str, part_id: str, option: str | None = N
         return ids.index(part_id)
     close = difflib.get_close_matches(part_id, ids, n=3)
     hint = f" Did you mean {', '.join(repr(c) for c in close)}?" if close else ""
-    raise InputError(f"{option or '--' + kind} {part_id!r}: no such part in the {kind} catalogue "
+    raise InputError(f"{option or kind} {part_id!r}: no such part in the {kind} catalogue "
                      f"({parts.problem.catalog_paths.get(kind + 's', '')}).{hint}")
 
 
@@ -313,7 +313,7 @@ def simulate(study: Study, motor: str | None = None, reducer: str | None = None,
     return out
 
 
-SLOT_OPTIONS = {"front": ("--front-motor", "--front-reducer"), "rear": ("--rear-motor", "--rear-reducer")}
+SLOT_OPTIONS = {"front": ("front_motor", "front_reducer"), "rear": ("rear_motor", "rear_reducer")}
 """Command-line options naming each axle's unit (simulate, plots)."""
 
 
@@ -358,8 +358,8 @@ def design_from_ids(parts: PartTables, motor=None, reducer=None, tyre=None, fron
             raise InputError(f"{m_opt}: {axles_txt} has no {axle} drive unit; name the unit on the "
                              f"{' and '.join(parts.axles)} axle{'s' if parts.two_units else ''}.")
         m_col, r_col = AXLE_COLUMNS[axle]
-        key[m_col] = find_part(parts, "motor", m, m_opt if not single else "--motor")
-        key[r_col] = find_part(parts, "reducer", r, r_opt if not single else "--reducer")
+        key[m_col] = find_part(parts, "motor", m, m_opt if not single else "motor")
+        key[r_col] = find_part(parts, "reducer", r, r_opt if not single else "reducer")
     missing = [a for a in parts.axles if a not in given]
     if missing:
         m_opt, r_opt = SLOT_OPTIONS[missing[0]]

@@ -9,6 +9,8 @@ from selector.synthetic import (  # noqa: F401  (names the tests use, listed for
     HAND_ENVIRONMENT,
     HAND_VEHICLE,
     Study,
+    _all_keys,
+    _all_triples,
     motor_row,
     part_ids,
     random_study,

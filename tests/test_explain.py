@@ -67,8 +67,9 @@ def oracle(parts, req: Requirements, objective: str):
 def ids(parts, d) -> dict:
     """Part ids of a single-unit design (value, motor, reducer, tyre), as explain's design dicts show them."""
     motor, reducer = str(parts.motors.part[d[1]]), str(parts.reducers.part[d[2]])
+    gears = [float(x) for x in parts.reducers.ratios[d[2], :parts.reducers.n_gears[d[2]]]]
     return {"motor": motor, "reducer": reducer, "tyre": str(parts.tyres.part[d[3]]),
-            "units": [{"axle": parts.axles[0], "motor": motor, "reducer": reducer}]}
+            "units": [{"axle": parts.axles[0], "motor": motor, "reducer": reducer, "gear_ratios": gears}]}
 
 
 def all_designs(parts):

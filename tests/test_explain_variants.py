@@ -36,7 +36,8 @@ from selector.units import G_N
 
 def ids_of(parts, d: Design) -> dict:
     """Part ids of a design in explain's form (motor/reducer null for two units, plus ``units``)."""
-    units = [{"axle": a, "motor": str(parts.motors.part[m]), "reducer": str(parts.reducers.part[r])}
+    units = [{"axle": a, "motor": str(parts.motors.part[m]), "reducer": str(parts.reducers.part[r]),
+              "gear_ratios": [float(x) for x in parts.reducers.ratios[r, :parts.reducers.n_gears[r]]]}
              for a, m, r in d.units]
     one = units[0] if len(units) == 1 else {"motor": None, "reducer": None}
     return {"motor": one["motor"], "reducer": one["reducer"], "tyre": str(parts.tyres.part[d.tyre]), "units": units}

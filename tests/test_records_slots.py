@@ -134,13 +134,13 @@ def test_simulate_slot_errors(awd, tmp_path, capsys):
     study = open_study(awd)
     with pytest.raises(InputError, match="--front-motor"):
         simulate(study, "M-A", "R-08", "T-16")  # single-axle form in a two-unit study
-    with pytest.raises(InputError, match="--rear-motor, --rear-reducer: missing"):
+    with pytest.raises(InputError, match="rear_motor, rear_reducer: missing"):  # the library names parameters
         simulate(study, tyre="T-16", front_motor="M-A", front_reducer="R-08")
-    with pytest.raises(InputError, match="--rear-reducer: missing"):
+    with pytest.raises(InputError, match="rear_reducer: missing"):
         simulate(study, tyre="T-16", front_motor="M-A", front_reducer="R-08", rear_motor="M-A")
     with pytest.raises(InputError, match="not both"):
         simulate(study, motor="M-A", reducer="R-08", tyre="T-16", front_motor="M-A", front_reducer="R-08")
-    with pytest.raises(InputError, match="--rear-motor 'M-Z': no such part"):
+    with pytest.raises(InputError, match="rear_motor 'M-Z': no such part"):
         simulate(study, tyre="T-16", front_motor="M-A", front_reducer="R-08", rear_motor="M-Z", rear_reducer="R-08")
     single = write_study(tmp_path / "rwd", driven_axle="rear")
     with pytest.raises(InputError, match="no front drive unit"):

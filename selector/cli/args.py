@@ -48,6 +48,8 @@ PARAMETER_FLAGS = {
     "workers": "--workers", "scheduler": "--scheduler", "axis": "--axis", "time_limit_s": "--time-limit",
     "step_pct": "--step", "near_miss_pct": "--near-miss", "motor": "--motor", "reducer": "--reducer",
     "tyre": "--tyre", "avoid_suppliers": "--avoid-supplier", "max_lead_time_weeks": "--max-lead-time-weeks",
+    "front_motor": "--front-motor", "front_reducer": "--front-reducer", "rear_motor": "--rear-motor",
+    "rear_reducer": "--rear-reducer",
 }
 """Library parameter names (as the library's error messages start) -> the command line's flags."""
 

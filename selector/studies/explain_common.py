@@ -63,8 +63,10 @@ def motors_of(d: Design) -> tuple[int, int]:
 
 def design_ids(parts: PartTables, d: Design) -> dict:
     """Part ids of a design in the JSON contract's form: ``motor``, ``reducer`` (null for a two-unit
-    design), ``tyre`` and ``units: [{axle, motor, reducer}]``."""
-    units = [{"axle": a, "motor": str(parts.motors.part[m]), "reducer": str(parts.reducers.part[r])}
+    design), ``tyre`` and ``units: [{axle, motor, reducer, gear_ratios}]`` (as in the design records)."""
+    re = parts.reducers
+    units = [{"axle": a, "motor": str(parts.motors.part[m]), "reducer": str(re.part[r]),
+              "gear_ratios": [float(x) for x in re.ratios[r, :re.n_gears[r]]]}
              for a, m, r in d.units]
     one = units[0] if len(units) == 1 else {"motor": None, "reducer": None}
     return {"motor": one["motor"], "reducer": one["reducer"], "tyre": str(parts.tyres.part[d.tyre]), "units": units}

@@ -65,10 +65,17 @@ def test_schema_markdown_lists_every_column():
         for c in cols:
             assert f"| `{c.name}` |" in md
     one = schema_markdown("tyres")
-    assert one.startswith("| column | type | unit | required | default | rule | description |")
+    assert one.startswith("| column | type | unit | required | default | rule | limits (error) | usual (else warning) |")
     assert "`diameter_m`" in one and "`peak_torque_nm`" not in one
     with pytest.raises(ValueError, match="unknown catalogue kind"):
         columns("wheels")
+
+
+def test_readme_catalogue_tables_are_the_schema():
+    """The README's catalogue tables are the schema rendered (project convention: docs from data)."""
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    for kind in SCHEMA:
+        assert schema_markdown(kind) in readme, f"README table of {kind}.csv differs from schema_markdown({kind!r})"
 
 
 # ------------------------------------------------------------------------------ valid files

@@ -259,3 +259,18 @@ def test_energy_table_all_keys_and_a_user_cycle(tmp_path):
 def test_battery_keys_without_range_warn(tmp_path):
     with pytest.warns(ProblemWarning, match="specific_energy_wh_per_kg given without range_km: no battery is sized"):
         load_problem(minimal(tmp_path, '\n[energy]\ncycle = "udds"\nspecific_energy_wh_per_kg = 150\n'))
+
+
+def test_readme_lists_every_problem_key_range():
+    """The README's table of problem-key ranges is the `RANGES` data (project convention: docs from data)."""
+    from selector.io.problem import RANGES, TABLES
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+
+    def span(bounds):
+        return "" if bounds is None else f"{bounds[0]:g} .. {bounds[1]:g}"
+
+    for table, keys in RANGES.items():
+        for key, (limits, usual) in keys.items():
+            row = f"| `[{table}] {key}` | {TABLES[table][key].unit or '-'} | {span(limits)} | {span(usual)} |"
+            assert row in readme, f"README lacks the range row: {row}"

@@ -253,6 +253,11 @@ def columns(kind: str) -> tuple[Column, ...]:
         raise ValueError(f"unknown catalogue kind {kind!r}; expected one of {', '.join(KINDS)}") from None
 
 
+def _span(bounds: tuple[float, float] | None) -> str:
+    """``lo .. hi`` of a limits or usual range (closed interval, column unit); empty when None."""
+    return "" if bounds is None else f"{bounds[0]:g} .. {bounds[1]:g}"
+
+
 def schema_markdown(kind: str | None = None) -> str:
     """Render the schema as markdown tables (for README / DEVELOPERS.md).
 
@@ -272,14 +277,15 @@ def schema_markdown(kind: str | None = None) -> str:
         lines = []
         if kind is None:
             lines += [f"### {k}.csv", ""]
-        lines += ["| column | type | unit | required | default | rule | description |",
-                  "|---|---|---|---|---|---|---|"]
+        lines += ["| column | type | unit | required | default | rule | limits (error) | usual (else warning) | description |",
+                  "|---|---|---|---|---|---|---|---|---|"]
         for c in columns(k) + DERIVED_COLUMNS[k]:
             required = "derived" if c.rule == "derived" else ("yes" if c.required else "no")
             if c.default is None:
                 default = ""
             else:
                 default = f"= {c.default}" if isinstance(c.default, str) else f"{c.default:g}"
-            lines.append(f"| `{c.name}` | {c.type} | {c.unit} | {required} | {default} | {c.rule} | {c.description} |")
+            lines.append(f"| `{c.name}` | {c.type} | {c.unit} | {required} | {default} | {c.rule} | "
+                         f"{_span(c.limits)} | {_span(c.usual)} | {c.description} |")
         parts.append("\n".join(lines))
     return "\n\n".join(parts) + "\n"

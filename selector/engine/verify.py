@@ -686,6 +686,10 @@ def verify_designs(parts: PartTables, designs, objective: str, expect_feasible: 
         problems += [(b, msg) for msg in fig["disagreements"]]
         if expect_feasible:
             problems += [(b, msg) for msg in _recheck_passes(parts, fig, metrics, b, objective)]
+    if parts.problem.energy is not None:
+        from selector.engine.verify_energy import energy_disagreements
+
+        problems += energy_disagreements(parts, keys, metrics)
     if problems:
         b, msg = problems[0]
         more = f" (and {len(problems) - 1} more disagreement(s))" if len(problems) > 1 else ""

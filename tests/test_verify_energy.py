@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from generators import random_study
 
 from selector.api import open_study
 from selector.engine.energy import energy_metrics
@@ -19,7 +20,6 @@ from selector.engine.evaluate import evaluate
 from selector.engine.parts import FM, FR, RM, RR, TY
 from selector.engine.verify import VerificationError, verify_designs
 from selector.engine.verify_energy import ENERGY_REL_TOL, design_energy, energy_disagreements
-from generators import random_study
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -277,7 +277,8 @@ def schema_markdown(kind: str | None = None) -> str:
         lines = []
         if kind is None:
             lines += [f"### {k}.csv", ""]
-        lines += ["| column | type | unit | required | default | rule | limits (error) | usual (else warning) | description |",
+        lines += ["| column | type | unit | required | default | rule | limits (error) | usual (else warning) "
+                  "| description |",
                   "|---|---|---|---|---|---|---|---|---|"]
         for c in columns(k) + DERIVED_COLUMNS[k]:
             required = "derived" if c.rule == "derived" else ("yes" if c.required else "no")

@@ -203,8 +203,8 @@ def run_time_s(veh: _Vehicle, target: float, t_cap: float) -> float:
 
     Every unit starts in first gear; a unit upshifts where its next gear gives at least as much
     acceleration from the motors, traction limits aside (an event on a_next - a_now) or at its gear's
-    speed limit; during its shift time it
-    gives no force and its rotor is decoupled (integrated as well); no downshifts.
+    speed limit; during its shift time it gives no force and its rotor is decoupled (integrated as
+    well, `_shift`); no downshifts.
     """
     units = veh.units
     cap = min(_gear_limit(veh, u, len(u.ratios) - 1) for u in units.values())
@@ -243,19 +243,29 @@ def run_time_s(veh: _Vehicle, target: float, t_cap: float) -> float:
             if what == "reach" or v >= target:
                 return t
             which = what
-        # the shift: that unit gives no tractive force and its rotor is decoupled for its shift time
-        shift_s = units[which].shift_s
-        if shift_s > 0.0:
-            engaged[which] = False
-            what, t_end, v_end = _integrate(veh, gears, engaged, t, v, t + shift_s, target, [])
-            engaged[which] = True
-            if what == "reach":
-                return t_end
-            if what == "stall":  # coasting down: the speed after the shift, by the same integration
-                what, t_end, v_end = _coast(veh, gears, {**engaged, which: False}, t_end, v_end, t + shift_s)
-            t, v = t + shift_s, max(v_end, 0.0)
+        reached, t, v = _shift(veh, gears, engaged, which, t, v, target)
+        if reached:
+            return t
         gears[which] += 1
     return math.inf
+
+
+def _shift(veh: _Vehicle, gears: dict, engaged: dict, which: str, t: float, v: float,
+           target: float) -> tuple[bool, float, float]:
+    """The shift of unit ``which`` from (t [s], v [m/s]): that unit gives no tractive force and its rotor
+    is decoupled for its shift time. Returns (reached, t, v) after it; ``reached`` when the target speed
+    is reached during the shift (t is then the time it is reached)."""
+    shift_s = veh.units[which].shift_s
+    if not shift_s > 0.0:
+        return False, t, v
+    engaged[which] = False
+    what, t_end, v_end = _integrate(veh, gears, engaged, t, v, t + shift_s, target, [])
+    engaged[which] = True
+    if what == "reach":
+        return True, t_end, v_end
+    if what == "stall":  # coasting down: the speed after the shift, by the same integration
+        what, t_end, v_end = _coast(veh, gears, {**engaged, which: False}, t_end, v_end, t + shift_s)
+    return False, t + shift_s, max(v_end, 0.0)
 
 
 def _coast(veh: _Vehicle, gears: dict, engaged: dict, t0: float, v0: float, t1: float):

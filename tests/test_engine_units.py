@@ -158,6 +158,20 @@ def test_violated_rows_detects_an_excluded_design(tmp_path):
     assert any("Lm_lo" in b for b in violated_rows(model))
 
 
+
+def test_model_build_stops_at_its_deadline(tmp_path):
+    # the build checks the deadline before each family: a passed deadline leaves the model incomplete
+    # (flagged, no objective); a distant one builds the same families as no deadline
+    import time
+
+    st = random_study(5001, tmp_path, objective="cost")
+    full = SelectionModel(st.parts, "cost")
+    late = SelectionModel(st.parts, "cost", deadline=time.perf_counter() - 1.0)
+    assert late.expired and late.families == [] and not hasattr(late.m, "obj")
+    later = SelectionModel(st.parts, "cost", deadline=time.perf_counter() + 3600.0)
+    assert not later.expired and later.families == full.families and "tyre_load" in full.families
+
+
 # ------------------------------------------------------------------------------------------ (b) time bounds
 
 @pytest.mark.parametrize("seed", range(5100, 5112))

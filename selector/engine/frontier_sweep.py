@@ -29,6 +29,154 @@ SUB_CHUNK = 1024
 """Designs evaluated together (the caps tighten between sub-chunks) [-]."""
 
 
+class _Sweep:
+    """State of one sweep: the single-axle search's pairs and certified time bounds, a heap of motors by
+    their next axis value (``(value, position, loaded)``), the open cost group ``[value, limit,
+    [(time, key)]]``, the designs just slower than the cap (``near``: (value, time, key)), the cap
+    ``t_cap`` [s] and the points found."""
+
+    def __init__(self, parts: PartTables, axis_objective: str, base_req, allowed: dict, own_limit: float | None,
+                 any_finite_time_s: float, strictly_faster: float, limit_slack: float):
+        self.parts, self.base_req = parts, base_req
+        self.own_limit, self.strictly_faster, self.limit_slack = own_limit, strictly_faster, limit_slack
+        self.stats = {"blocks": 0, "refined": 0, "evaluated": 0}
+        s = SingleAxleSearch(parts, "accel_time", base_req, allowed, 1, None, None, self.stats, milp="never")
+        self.s, self.p = s, s.pairs
+        n = s.motors.size
+        self.own = parts.motors.cost if axis_objective == "cost" else parts.motors.mass_kg
+        self.pair_val = self.p.cost if axis_objective == "cost" else self.p.mass
+        self.extra = 0.0 if axis_objective == "cost" else parts.problem.vehicle.mass_kg
+        # certified time bound per motor and cell (and per multi-speed pair, through refine's multi bound)
+        self.t_cell, t_multi = s.refine(np.arange(n)) if n else (np.empty((0, CELLS)), np.empty(0))
+        self.stats["refined"] += n
+        self.edges = s.cell_edges()
+        self.motor_tmin = np.minimum(np.where(np.isfinite(self.t_cell), self.t_cell, np.inf).min(axis=1) if n
+                                     else np.empty(0), t_multi)
+        # per motor: candidates sorted by axis value, each with a certified time bound
+        self.cand: dict[int, list] = {}
+        lbv = s.value_bounds(axis_objective)
+        self.heap = [(float(lbv[pos]), pos, False) for pos in range(n)
+                     if np.isfinite(lbv[pos]) and np.isfinite(self.motor_tmin[pos])]
+        heapq.heapify(self.heap)
+        self.points = []
+        self.t_cap = any_finite_time_s
+        self.group = None
+        self.near = []
+        self.tol = 1 + REL_TOL
+
+    def load(self, pos: int):
+        """[pairs, axis values, time bounds, next index] of motor ``pos``'s candidates in axis order, or None."""
+        s, p = self.s, self.p
+        c = s.candidates(pos)
+        if c.size == 0:
+            return None
+        cell = np.clip(np.searchsorted(self.edges, p.l_first[c], side="right") - 1, 0, CELLS - 1)
+        tb = np.where(p.multi[c], 0.0, self.t_cell[pos][cell])
+        if p.multi[c].any():
+            mc = np.nonzero(p.multi[c])[0]
+            tb[mc] = s.time_bound(np.full(mc.size, pos), p.l_tall[c[mc]], p.l_first[c[mc]])
+        keep = np.isfinite(tb)
+        c, tb = c[keep], tb[keep]
+        if c.size == 0:
+            return None
+        val = self.extra + self.own[s.motors[pos]] + self.pair_val[c]
+        order = np.lexsort((p.k[c], p.j[c], val))
+        return [c[order], val[order], tb[order], 0]
+
+    def exhausted(self) -> bool:
+        """Every design still to come has time >= its motor's bound: True when none can qualify."""
+        live_tmin = min((self.motor_tmin[h[1]] for h in self.heap), default=np.inf)
+        return self.group is None and live_tmin > self.t_cap * self.tol
+
+    def gather(self) -> list:
+        """The next designs in axis order across motors: (value, motor position, pair, time bound)."""
+        heap, batch = self.heap, []
+        while heap and len(batch) < CHUNK:
+            v, pos, loaded = heapq.heappop(heap)
+            if not loaded:
+                entry = self.load(pos)
+                if entry is None:
+                    continue
+                self.cand[pos] = entry
+                heapq.heappush(heap, (float(entry[1][0]), pos, True))
+                continue
+            c, val, tb, i0 = self.cand[pos]
+            i1 = min(c.size, i0 + 64)
+            if heap:  # only as far as the next motor's value, to keep the global order
+                i1 = max(i0 + 1, min(i1, int(np.searchsorted(val, heap[0][0], side="right"))))
+            for q in range(i0, i1):
+                batch.append((val[q], pos, c[q], tb[q]))
+            self.cand[pos][3] = i1
+            if i1 < c.size:
+                heapq.heappush(heap, (float(val[i1]), pos, True))
+        return batch
+
+    def ordered(self, batch: list) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """(axis values, time bounds, key rows (n, 5)) of ``batch``, by value then part ids."""
+        vals = np.array([b[0] for b in batch])
+        poss = np.array([b[1] for b in batch], dtype=np.int64)
+        pcs = np.array([b[2] for b in batch], dtype=np.int64)
+        tbs = np.array([b[3] for b in batch])
+        keys = np.full((vals.size, 5), -1, dtype=np.int64)
+        keys[:, 2], keys[:, 3], keys[:, 4] = self.s.motors[poss], self.p.j[pcs], self.p.k[pcs]
+        if self.parts.axles[-1] == "front":
+            keys[:, [0, 1]], keys[:, [2, 3]] = keys[:, [2, 3]].copy(), -1
+        order = np.lexsort(tuple(keys[:, col] for col in range(4, -1, -1)) + (vals,))
+        return vals[order], tbs[order], keys[order]
+
+    def evaluate(self, vals: np.ndarray, tbs: np.ndarray, keys: np.ndarray):
+        """Evaluate the batch in sub-chunks (the caps tighten as points are found) and take each design."""
+        tol = self.tol
+        start = 0
+        while start < vals.size:
+            stop = min(vals.size, start + SUB_CHUNK)
+            cap = self.t_cap * tol * (1 + 4 * REL_TOL) if self.group is None else self._group_min() * tol * tol
+            need = tbs[start:stop] <= cap
+            idx = np.nonzero(need)[0] + start
+            times = np.full(stop - start, np.inf)
+            if idx.size:
+                ok, obj = screen(self.parts.with_requirements(self.base_req), keys[idx], objective="accel_time",
+                                 accel_cutoff=cap)
+                self.stats["evaluated"] += idx.size
+                times[idx - start] = np.where(ok, obj, np.inf)
+            for q in range(start, stop):
+                self._take(vals[q], times[q - start], tuple(int(x) for x in keys[q]))
+            start = stop
+
+    def _take(self, v, tq, key):
+        """One evaluated design (axis value, time [s] or inf, key) in axis order: closes the open group
+        beyond its limit, opens a group at a design within the cap, or joins the open group."""
+        tol = self.tol
+        if self.group is not None and v > self.group[1] * tol:
+            self.close_group()
+        if not np.isfinite(tq):
+            return
+        if self.group is not None:
+            self.group[2].append((tq, key))
+        elif tq <= self.t_cap * tol:
+            limit = v * (1.0 + self.limit_slack)
+            if self.own_limit is not None:
+                limit = min(limit, self.own_limit)
+            self.group = [v, limit, [(tq, key)]]
+            # cheaper designs just slower than the cap may tie with it on time
+            self.group[2] += [(nt, nk) for nv, nt, nk in self.near if nv <= limit * tol]
+            self.near = []
+        elif tq <= self.t_cap * tol * (1 + 3 * REL_TOL):
+            self.near.append((v, tq, key))
+
+    def _group_min(self):
+        return min(x[0] for x in self.group[2])
+
+    def close_group(self):
+        """The open group's fastest design (ties by part id) is a point; the cap drops below its time."""
+        ts = np.array([x[0] for x in self.group[2]])
+        ks = np.array([x[1] for x in self.group[2]], dtype=np.int64)
+        b = int(order_best(ts, ks, 1)[0])
+        self.points.append((float(self.group[0]), float(ts[b]), tuple(int(x) for x in ks[b])))
+        self.t_cap = float(ts[b]) * (1.0 - self.strictly_faster)
+        self.group = None
+
+
 def sweep_frontier(parts: PartTables, axis_objective: str, base_req, allowed: dict, own_limit: float | None,
                    any_finite_time_s: float, strictly_faster: float, limit_slack: float,
                    deadline: float | None = None):
@@ -38,135 +186,16 @@ def sweep_frontier(parts: PartTables, axis_objective: str, base_req, allowed: di
     ``own_limit``: the problem's budget (or max_mass_kg), already in ``base_req`` too.
     Returns (points, stats) or None when the deadline passed.
     """
-    stats = {"blocks": 0, "refined": 0, "evaluated": 0}
-    s = SingleAxleSearch(parts, "accel_time", base_req, allowed, 1, None, None, stats, milp="never")
-    p = s.pairs
-    n = s.motors.size
-    base_mass = parts.problem.vehicle.mass_kg
-    own = parts.motors.cost if axis_objective == "cost" else parts.motors.mass_kg
-    pair_val = p.cost if axis_objective == "cost" else p.mass
-    extra = 0.0 if axis_objective == "cost" else base_mass
-    # certified time bound per motor and cell (and per multi-speed pair, through refine's multi bound)
-    t_cell, t_multi = s.refine(np.arange(n)) if n else (np.empty((0, CELLS)), np.empty(0))
-    stats["refined"] += n
-    edges = s.cell_edges()
-    motor_tmin = np.minimum(np.where(np.isfinite(t_cell), t_cell, np.inf).min(axis=1) if n else np.empty(0), t_multi)
-    # per motor: candidates sorted by axis value, each with a certified time bound
-    cand: dict[int, tuple] = {}
-
-    def load(pos: int):
-        c = s.candidates(pos)
-        if c.size == 0:
-            return None
-        cell = np.clip(np.searchsorted(edges, p.l_first[c], side="right") - 1, 0, CELLS - 1)
-        tb = np.where(p.multi[c], 0.0, t_cell[pos][cell])
-        if p.multi[c].any():
-            mc = np.nonzero(p.multi[c])[0]
-            tb[mc] = s.time_bound(np.full(mc.size, pos), p.l_tall[c[mc]], p.l_first[c[mc]])
-        keep = np.isfinite(tb)
-        c, tb = c[keep], tb[keep]
-        if c.size == 0:
-            return None
-        val = extra + own[s.motors[pos]] + pair_val[c]
-        order = np.lexsort((p.k[c], p.j[c], val))
-        return [c[order], val[order], tb[order], 0]
-
-    heap = []
-    lbv = s.value_bounds(axis_objective)
-    for pos in range(n):
-        if np.isfinite(lbv[pos]) and np.isfinite(motor_tmin[pos]):
-            heap.append((float(lbv[pos]), pos, False))
-    heapq.heapify(heap)
-    points = []
-    t_cap = any_finite_time_s
-    group = None  # [c, limit, [(t, key)]]
-    near = []  # evaluated designs slower than t_cap but within the tie tolerance of it: (val, t, key)
-    tol = 1 + REL_TOL
-
-    def group_min():
-        return min(x[0] for x in group[2])
-
-    def close_group():
-        nonlocal group, t_cap
-        ts = np.array([x[0] for x in group[2]])
-        ks = np.array([x[1] for x in group[2]], dtype=np.int64)
-        b = int(order_best(ts, ks, 1)[0])
-        points.append((float(group[0]), float(ts[b]), tuple(int(x) for x in ks[b])))
-        t_cap = float(ts[b]) * (1.0 - strictly_faster)
-        group = None
-
-    while heap:
+    sw = _Sweep(parts, axis_objective, base_req, allowed, own_limit, any_finite_time_s, strictly_faster,
+                limit_slack)
+    while sw.heap:
         if deadline is not None and time.perf_counter() > deadline:
             return None
-        # every design still to come has time >= its motor's bound: stop when none can qualify
-        live_tmin = min((motor_tmin[h[1]] for h in heap), default=np.inf)
-        if group is None and live_tmin > t_cap * tol:
+        if sw.exhausted():
             break
-        # gather the next designs in axis order across motors
-        batch = []
-        while heap and len(batch) < CHUNK:
-            v, pos, loaded = heapq.heappop(heap)
-            if not loaded:
-                entry = load(pos)
-                if entry is None:
-                    continue
-                cand[pos] = entry
-                heapq.heappush(heap, (float(entry[1][0]), pos, True))
-                continue
-            c, val, tb, i0 = cand[pos]
-            i1 = min(c.size, i0 + 64)
-            if heap:  # only as far as the next motor's value, to keep the global order
-                i1 = max(i0 + 1, min(i1, int(np.searchsorted(val, heap[0][0], side="right"))))
-            for q in range(i0, i1):
-                batch.append((val[q], pos, c[q], tb[q]))
-            cand[pos][3] = i1
-            if i1 < c.size:
-                heapq.heappush(heap, (float(val[i1]), pos, True))
-        if not batch:
-            continue
-        vals = np.array([b[0] for b in batch])
-        poss = np.array([b[1] for b in batch], dtype=np.int64)
-        pcs = np.array([b[2] for b in batch], dtype=np.int64)
-        tbs = np.array([b[3] for b in batch])
-        keys = np.full((vals.size, 5), -1, dtype=np.int64)
-        keys[:, 2], keys[:, 3], keys[:, 4] = s.motors[poss], p.j[pcs], p.k[pcs]
-        if parts.axles[-1] == "front":
-            keys[:, [0, 1]], keys[:, [2, 3]] = keys[:, [2, 3]].copy(), -1
-        order = np.lexsort(tuple(keys[:, col] for col in range(4, -1, -1)) + (vals,))
-        vals, tbs, keys = vals[order], tbs[order], keys[order]
-        # evaluate in sub-chunks so that the caps tighten as points are found
-        start = 0
-        while start < vals.size:
-            stop = min(vals.size, start + SUB_CHUNK)
-            cap = t_cap * tol * (1 + 4 * REL_TOL) if group is None else group_min() * tol * tol
-            need = tbs[start:stop] <= cap
-            idx = np.nonzero(need)[0] + start
-            times = np.full(stop - start, np.inf)
-            if idx.size:
-                ok, obj = screen(parts.with_requirements(base_req), keys[idx], objective="accel_time",
-                                 accel_cutoff=cap)
-                stats["evaluated"] += idx.size
-                times[idx - start] = np.where(ok, obj, np.inf)
-            for q in range(start, stop):
-                v, tq, key = vals[q], times[q - start], tuple(int(x) for x in keys[q])
-                if group is not None and v > group[1] * tol:
-                    close_group()
-                if not np.isfinite(tq):
-                    continue
-                if group is None:
-                    if tq <= t_cap * tol:
-                        limit = v * (1.0 + limit_slack)
-                        if own_limit is not None:
-                            limit = min(limit, own_limit)
-                        group = [v, limit, [(tq, key)]]
-                        # cheaper designs just slower than the cap may tie with it on time
-                        group[2] += [(nt, nk) for nv, nt, nk in near if nv <= limit * tol]
-                        near = []
-                    elif tq <= t_cap * tol * (1 + 3 * REL_TOL):
-                        near.append((v, tq, key))
-                else:
-                    group[2].append((tq, key))
-            start = stop
-    if group is not None:
-        close_group()
-    return points, stats
+        batch = sw.gather()
+        if batch:
+            sw.evaluate(*sw.ordered(batch))
+    if sw.group is not None:
+        sw.close_group()
+    return sw.points, sw.stats

@@ -14,11 +14,14 @@ A drive unit (motor + reducer selection with its log-gearing copies) is a Pyomo 
 a second axle or a multi-speed reducer can be composed later; today the model has one unit.
 
 Every constraint family is one function registered in `FAMILIES` with its name, unit, the
-problem key that sets it and its formula; `explain` and DEVELOPERS.md read that registry.
+problem key that sets it and its formula; `explain` and DEVELOPERS.md read that registry. The build
+runs in steps (part choice, log gearing, mass and cost, each family, objective); with a ``deadline``
+the time is checked before each family, so a search's time limit also bounds the build.
 """
 
 from __future__ import annotations
 
+import time
 from dataclasses import dataclass
 from typing import Callable
 
@@ -136,12 +139,14 @@ class SelectionModel:
 
     Attributes: ``m`` (the ConcreteModel), ``unit`` (the drive-unit block), ``parts``,
     ``infeasible_reason`` (str when a requirement can be ruled out before solving, e.g. a top
-    speed above the speed limiter), ``families`` (names of the families built).
+    speed above the speed limiter), ``families`` (names of the families built), ``expired`` (the
+    ``deadline``, a `time.perf_counter` instant [s], passed between two family builds: the model is
+    incomplete and must not be solved; the caller returns the "time_limit" status with its incumbent).
     """
 
     def __init__(self, parts: PartTables, objective: str, windows: AccelWindows | None = None,
                  accel_target_kmh: float | None = None, accel_limit_s: float | None = None,
-                 allowed=None):
+                 allowed=None, deadline: float | None = None):
         self.parts = parts
         self.objective_name = objective
         self.req = parts.problem.requirements
@@ -151,17 +156,31 @@ class SelectionModel:
         self.infeasible_reason: str | None = None
         self.families: list[str] = []
         self.allowed = allowed
+        self.deadline = deadline
+        self.expired = False
         self._build()
 
     # -- structure ----------------------------------------------------------
     def _build(self):
-        p = self.parts
-        check_coefficients(p)
-        n_m, n_r, n_t = p.sizes
-        mo, re, ty = p.motors, p.reducers, p.tyres
-        v = p.problem.vehicle
-        m = pyo.ConcreteModel(name="selector")
-        self.m = m
+        check_coefficients(self.parts)
+        self.m = pyo.ConcreteModel(name="selector")
+        self._build_choice()
+        self._build_gearing()
+        self._build_mass()
+        for fam in FAMILIES.values():
+            if self.deadline is not None and time.perf_counter() > self.deadline:
+                self.expired = True
+                return
+            if fam.key is None or self._stated(fam.key):
+                fam.build(self)
+                self.families.append(fam.name)
+        self._build_objective()
+
+    def _build_choice(self):
+        """One-hot binaries: a tyre z_k on the model, a motor x_i and a reducer y_j on the drive-unit block;
+        parts outside ``allowed`` are fixed to 0."""
+        n_m, n_r, n_t = self.parts.sizes
+        m = self.m
         m.K = pyo.RangeSet(0, n_t - 1)
         m.z = pyo.Var(m.K, domain=pyo.Binary)
         m.one_tyre = pyo.Constraint(expr=pyo.quicksum(m.z[k] for k in m.K) == 1)
@@ -174,18 +193,20 @@ class SelectionModel:
         u.y = pyo.Var(u.J, domain=pyo.Binary)
         u.one_motor = pyo.Constraint(expr=pyo.quicksum(u.x[i] for i in u.I) == 1)
         u.one_reducer = pyo.Constraint(expr=pyo.quicksum(u.y[j] for j in u.J) == 1)
-        if self.allowed is not None:
-            for kind, var in (("motors", u.x), ("reducers", u.y), ("tyres", m.z)):
-                keep = self.allowed.get(kind)
-                if keep is not None:
-                    keep = set(int(a) for a in keep)
-                    for idx in var:
-                        if idx not in keep:
-                            var[idx].fix(0)
+        if self.allowed is None:
+            return
+        for kind, var in (("motors", u.x), ("reducers", u.y), ("tyres", m.z)):
+            keep = self.allowed.get(kind)
+            if keep is not None:
+                for idx in np.setdiff1d(np.arange(len(var)), np.asarray(keep, dtype=np.int64)):
+                    var[int(idx)].fix(0)
 
-        # log gearing of the first gear L = ln G_1 - ln r and of the tallest gear Lt = ln G_last - ln r,
-        # log efficiency of the first gear E and the best gear Emax, per-motor copies Lm_i = x_i L and
-        # Ltm_i = x_i Lt (single-speed reducers: Lt = L, Emax = E)
+    def _build_gearing(self):
+        """Log gearing of the first gear L = ln G_1 - ln r and of the tallest gear Lt = ln G_last - ln r,
+        log efficiency of the first gear E and the best gear Emax, per-motor copies Lm_i = x_i L and
+        Ltm_i = x_i Lt (single-speed reducers: Lt = L, Emax = E)."""
+        re, ty = self.parts.reducers, self.parts.tyres
+        m, u = self.m, self.unit
         self.ln_g = np.log(re.ratio)
         self.ln_gt = np.log(re.tallest_ratio)
         self.ln_r = np.log(ty.radius_m)
@@ -195,7 +216,7 @@ class SelectionModel:
         u.Lt = pyo.Expression(expr=_sum(self.ln_gt, u.y) - _sum(self.ln_r, m.z))
         u.E = pyo.Expression(expr=_sum(self.ln_eta, u.y))
         u.Emax = pyo.Expression(expr=_sum(self.ln_eta_max, u.y))
-        l_lo, l_hi = log_gearing_range(p)
+        l_lo, l_hi = log_gearing_range(self.parts)
         self.l_range = (l_lo, l_hi)
         u.Lm = pyo.Var(u.I, bounds=(min(l_lo, 0.0), max(l_hi, 0.0)))
         u.Lm_sum = pyo.Constraint(expr=pyo.quicksum(u.Lm[i] for i in u.I) == u.L)
@@ -208,7 +229,12 @@ class SelectionModel:
         u.Lm_lo = pyo.Constraint(u.I, rule=lambda b, i: b.Lm[i] >= b.Lm_lo_p[i] * b.x[i])
         u.Lm_hi = pyo.Constraint(u.I, rule=lambda b, i: b.Lm[i] <= b.Lm_hi_p[i] * b.x[i])
 
-        # mass [t] and its disaggregated copies per motor and per tyre
+    def _build_mass(self):
+        """Mass [t] with its per-motor and per-tyre ranges, its log and rolling-resistance under-estimators,
+        the axle masses [t] and the cost [k]."""
+        p, m, u = self.parts, self.m, self.unit
+        mo, re, ty = p.motors, p.reducers, p.tyres
+        v = p.problem.vehicle
         n = v.tyre_count
         self.mm_t = mo.mass_kg / 1000.0
         self.mr_t = re.mass_kg / 1000.0
@@ -237,12 +263,10 @@ class SelectionModel:
         m.front_mass = pyo.Expression(expr=(1 - share0) * m0 + tyres_half + (0.0 if rear_drive else drive_parts))
         m.cost = pyo.Expression(expr=(_sum(mo.cost, u.x) + _sum(re.cost, u.y) + n * _sum(ty.cost, m.z)) / 1000.0)
 
-        for fam in FAMILIES.values():
-            if fam.key is None or self._stated(fam.key):
-                fam.build(self)
-                self.families.append(fam.name)
-
-        # objective and cutoff
+    def _build_objective(self):
+        """The objective (cost [k], mass [t] or per-motor optimistic time [s]), its cutoff row (off) and
+        the acceleration windows."""
+        m, u = self.m, self.unit
         if self.objective_name == "cost":
             expr = m.cost
         elif self.objective_name == "mass":

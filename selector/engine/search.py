@@ -116,34 +116,18 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
         "never"
     """
     t_start = time.perf_counter()
-    problem = parts.problem
-    objective = objective or problem.objective
-    req = requirements or problem.requirements
-    if objective not in OBJECTIVE_METRIC:
-        raise InputError(f"objective {objective!r}: unknown; use one of {', '.join(OBJECTIVE_METRIC)}")
-    if objective == "accel_time" and req.accel_to_kmh is None:
-        raise InputError("objective accel_time needs [requirements] accel_to_kmh (the target speed of the run)")
+    objective = objective or parts.problem.objective
+    req = requirements or parts.problem.requirements
+    _check_objective(objective, req)
     parts = parts.with_requirements(req)
     result = SearchResult(status=STATUS_INFEASIBLE, objective=objective)
     allowed = allowed or {}
-    if any(a is not None and len(a) == 0 for a in allowed.values()):
-        result.reason = "no parts left after the procurement filters"
-        return result
-    reason = _impossible(parts, req)
-    if reason:
-        result.reason = reason
+    result.reason = _ruled_out(parts, req, allowed)
+    if result.reason:
         return result
     deadline = None if time_limit_s is None else t_start + time_limit_s
     stats = {"blocks": 0, "refined": 0, "evaluated": 0}
-    if parts.two_units:
-        from selector.engine.two_units import TwoUnitSearch
-
-        engine = TwoUnitSearch(parts, objective, req, allowed, count, per_motor, deadline, stats)
-    else:
-        from selector.engine.best_first import SingleAxleSearch
-
-        engine = SingleAxleSearch(parts, objective, req, allowed, count, per_motor, deadline, stats,
-                                  milp=milp if parts.problem.energy is None else "never")
+    engine = _engine(parts, objective, req, allowed, count, per_motor, deadline, stats, milp)
     result.timings["build_s"] = time.perf_counter() - t_start
     t0 = time.perf_counter()
     status, designs, bound = engine.run()
@@ -157,6 +141,34 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
     else:
         result.reason = "no design in the catalogues meets every requirement"
     return result
+
+
+def _check_objective(objective: str, req: Requirements) -> None:
+    """Raise `InputError` for an unknown objective or accel_time without a target speed."""
+    if objective not in OBJECTIVE_METRIC:
+        raise InputError(f"objective {objective!r}: unknown; use one of {', '.join(OBJECTIVE_METRIC)}")
+    if objective == "accel_time" and req.accel_to_kmh is None:
+        raise InputError("objective accel_time needs [requirements] accel_to_kmh (the target speed of the run)")
+
+
+def _ruled_out(parts: PartTables, req: Requirements, allowed: dict) -> str | None:
+    """Why the study is infeasible before any search (no parts left, a speed above the limiter), else None."""
+    if any(a is not None and len(a) == 0 for a in allowed.values()):
+        return "no parts left after the procurement filters"
+    return _impossible(parts, req)
+
+
+def _engine(parts: PartTables, objective: str, req: Requirements, allowed: dict, count: int, per_motor,
+            deadline: float | None, stats: dict, milp: str):
+    """The search engine of the study's layout (two units or one axle), set up and not yet run."""
+    if parts.two_units:
+        from selector.engine.two_units import TwoUnitSearch
+
+        return TwoUnitSearch(parts, objective, req, allowed, count, per_motor, deadline, stats)
+    from selector.engine.best_first import SingleAxleSearch
+
+    return SingleAxleSearch(parts, objective, req, allowed, count, per_motor, deadline, stats,
+                            milp=milp if parts.problem.energy is None else "never")
 
 
 def with_requirements(parts: PartTables, req: Requirements) -> PartTables:

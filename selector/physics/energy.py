@@ -324,7 +324,7 @@ class CycleEnergyModel:
             pos = np.flatnonzero(which == c)
             ch = self._chunks[c]
             rows = self._row_of[designs[pos]]
-            if rows.size >= 0.6 * ch.shape[0] and np.unique(rows).size == rows.size:
+            if rows.size >= 0.4 * ch.shape[0] and np.unique(rows).size == rows.size:
                 m_all = np.full(ch.shape[0], mass[pos[0]])  # rows not asked for: any finite mass
                 m_all[rows] = mass[pos]
                 sums.add(pos, ch, ch.evaluate(m_all, detail), rows)

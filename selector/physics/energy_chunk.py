@@ -67,15 +67,23 @@ def prepare(front, rear, vehicle, params, time_s, speed_mps):
     return n, steps, cyc
 
 
+def _mapped(u, n):
+    if u is None:
+        return np.zeros(n, dtype=np.int64)
+    return (np.asarray(u.present, dtype=bool) & (np.asarray(u.map_index) >= 0)).astype(np.int64)
+
+
 def groups(front, rear, n):
-    """Yield (rows, {"front": (unit, gears), "rear": (unit, gears)}) for designs sharing units and gear counts."""
+    """Yield (rows, {"front": (unit, gears), "rear": (unit, gears)}) for designs sharing units and gear
+    counts, map-based and polynomial-loss motors apart (each kind then runs its own arithmetic path for
+    the whole chunk; the results do not depend on the grouping)."""
     gf, gr = _gear_count(front, n), _gear_count(rear, n)
-    key = gf * 16 + gr
+    key = gf * 16 + gr + 256 * _mapped(front, n) + 512 * _mapped(rear, n)
     for k in np.unique(key):
         rows = np.flatnonzero(key == k)
         units = {}
-        if k // 16 > 0:
-            units["front"] = (front, int(k // 16))
+        if (k % 256) // 16 > 0:
+            units["front"] = (front, int((k % 256) // 16))
         if k % 16 > 0:
             units["rear"] = (rear, int(k % 16))
         yield rows, units
@@ -194,8 +202,7 @@ class PreparedChunk:
         m = np.broadcast_to(np.asarray(mass, dtype=float), (self.shape[0],))[:, None]
         force = self.wheel_force(m)
         oom = np.zeros(self.shape, dtype=bool)
-        t1s = {pos: [gearbox_torque(g, force) for g in self.states[pos]]
-               for pos, r in self.rows.items() if not r.any_map}
+        t1s = {pos: [gearbox_torque(g, force) for g in self.states[pos]] for pos in self.rows}
         total, choice, best, fracs = self._choose(force, t1s, oom)
         total, gsel, shift = self._shift_energy(total, best, choice)
         out = {"p_units": total, "force": force, "out_of_map": oom}
@@ -242,9 +249,12 @@ class PreparedChunk:
 
         for s_front in front:
             add(s_front)
-        if self.params.optimal_split and not (self.rows["front"].any_map or self.rows["rear"].any_map):
+        if self.params.optimal_split:
             k_half = int(np.argmin([abs(x - 0.5) if np.ndim(x) == 0 else 1.0 for x in front]))
             s_opt = stationary_split(self.states, t1s, {p: best[p][1][k_half] for p in self.rows})
+            mapped = (self.rows["front"].map_index >= 0) | (self.rows["rear"].map_index >= 0)
+            if mapped.any():  # a map-based unit: no stationary split; a copy of the grid point nearest 0.5
+                s_opt = np.where(mapped[:, None], front[k_half], s_opt)  # (never chosen: ties go to the first)
             front.append(s_opt)
             add(s_opt)
         fracs = {"front": front, "rear": [1.0 - x for x in front]}

@@ -123,9 +123,11 @@ def gear_state(r: UnitRows, ratio, eff, radius, steps: Steps, params: EnergyPara
     neg_t_lim = -t_env
     if k_c is not None:
         # loss model: braking harder than T = -w / (2 k_c) recovers less (copper loss grows faster than the
-        # recovered power), so the controller stops there and the friction brakes take the rest
+        # recovered power), so the controller stops there and the friction brakes take the rest (rows with
+        # the polynomial model only: a map wins over loss coefficients)
         with np.errstate(divide="ignore", invalid="ignore"):
-            neg_t_lim = np.fmax(neg_t_lim, -w_safe / (2.0 * k_c))
+            k_poly = k_c if not r.any_map else np.where((r.map_index < 0)[:, None], k_c, np.nan)
+            neg_t_lim = np.fmax(neg_t_lim, -w_safe / (2.0 * k_poly))
     neg_t_lim = np.where(steps.regen_ok, neg_t_lim, 0.0)
     t_lim_cap = None
     if np.isfinite(params.regen_max_w):
@@ -176,9 +178,7 @@ def unit_power(r: UnitRows, g: GearState, force, share, params: EnergyParams, de
     outside the map) and, with detail, the motor torque, electrical and shaft power and the
     gearbox loss and the wheel force the unit delivers.
     """
-    force_u = force * share
-    t_gb = np.where(force_u >= 0.0, force_u * g.r_over_g_eta, force_u * g.r_eta_over_g)
-    t_m = t_gb + g.t_rot
+    t_m = gearbox_torque(g, force) * share + g.t_rot  # the arithmetic of `unit_battery_power`
     motoring = t_m >= 0.0
     feasible = g.usable & (t_m <= g.t_env_tol)
     # generating: limits of the envelope, the regeneration cap and the minimum speed
@@ -188,7 +188,7 @@ def unit_power(r: UnitRows, g: GearState, force, share, params: EnergyParams, de
     pe = np.empty_like(p_shaft)
     oom = None
     if not r.all_map:
-        pe = p_shaft + g.k_c * t_act * t_act + g.spin_loss
+        pe = (g.k_c * t_act + g.w) * t_act + g.spin_loss  # the arithmetic of `unit_battery_power`
     if r.any_map:
         oom = _map_power(r, g, t_act, p_shaft, feasible, pe)
     eta_inv = params.inverter_efficiency

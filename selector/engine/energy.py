@@ -27,7 +27,7 @@ import numpy as np
 
 from selector.engine.parts import AXLE_COLUMNS, TY, PartTables
 from selector.physics.battery import battery_cost, size_battery
-from selector.physics.energy import CycleEnergyModel, EnergyParams, EnergyUnit, EnergyVehicle
+from selector.physics.energy import CycleEnergyModel, EnergyParams, EnergyUnit, EnergyVehicle, cycle_trace
 from selector.units import kmh_to_mps
 
 MAX_BATTERY_FACTOR = 3.0
@@ -110,6 +110,22 @@ def _model(parts: PartTables, st: EnergySetup, keys: np.ndarray, mass_kg: np.nda
                         radius_m=ty.radius_m[keys[:, TY]],
                         wheel_inertia_total_kgm2=v.tyre_count * v.wheel_inertia_kgm2)
     return CycleEnergyModel(units.get("front"), units.get("rear"), veh, st.params, st.time_s, st.speed_mps)
+
+
+def design_trace(parts: PartTables, key, mass_kg: float):
+    """Operating points of one design (key row) over the study's cycle at the vehicle mass ``mass_kg``
+    (with its battery) [kg]: `selector.physics.energy.cycle_trace` of that design."""
+    keys = np.asarray(key, dtype=np.int64).reshape(1, -1)
+    st = setup(parts)
+    model_units = {}
+    for axle, (m_col, r_col) in AXLE_COLUMNS.items():
+        if keys[0, m_col] >= 0:
+            model_units[axle] = energy_unit(parts, keys[:, m_col], keys[:, r_col])
+    v = parts.problem.vehicle
+    veh = EnergyVehicle(mass_kg=np.array([float(mass_kg)]), crr=parts.tyres.crr[keys[:, TY]],
+                        q_n_s2_m2=parts.q_n_s2_m2, radius_m=parts.tyres.radius_m[keys[:, TY]],
+                        wheel_inertia_total_kgm2=v.tyre_count * v.wheel_inertia_kgm2)
+    return cycle_trace(model_units.get("front"), model_units.get("rear"), veh, st.params, st.time_s, st.speed_mps)
 
 
 class _Consumption:

@@ -1,19 +1,30 @@
-"""Throughput of the cycle-energy model (selector.physics.energy): designs per second over a cycle.
+"""Energy studies: exact search against enumeration, and throughput of the cycle-energy model.
 
-Seeded random designs (invented data): one or two drive units, single-speed or three-speed gearboxes,
-polynomial loss model or efficiency maps. Each case is timed (best of `--repeat`) on the whole set
-and reported as designs per second, with the peak traced memory of one run.
+``--studies`` (default): the demo energy studies without a lead-time filter (about 3.7e5 combinations
+each: the delivery van of problems/delivery_van_energy.toml without its [procurement] table, and the
+parcel van of problems/parcel_van.toml with an [energy] table added), each solved by the engine
+(`selector.engine.search.search`) and by exhaustive enumeration (`evaluate.enumerate_designs`) in
+this one process, one after the other; printed: wall and CPU time of each, the ratio, and whether
+both found the same optimum (value and parts). The demo data are invented and illustrative.
+
+``--throughput``: seeded random designs (invented data): one or two drive units, single-speed or
+three-speed gearboxes, polynomial loss model or efficiency maps. Each case is timed (best of
+`--repeat`) on the whole set and reported as designs per second, with the peak traced memory.
 
 Usage::
 
-    python benchmarks/bench_energy.py [--cycle wltc_class3b] [--designs 4000] [--chunk 131072]
+    python benchmarks/bench_energy.py [--studies] [--no-enumeration] [--throughput [--cycle wltc_class3b]
+                                      [--designs 4000] [--chunk 131072]]
 """
 
 from __future__ import annotations
 
 import argparse
+import tempfile
 import time
 import tracemalloc
+import warnings
+from pathlib import Path
 
 import numpy as np
 
@@ -47,14 +58,85 @@ def units(n, rng, gears, maps=False, present=True):
                       loss_constant_w=loss[3], map_index=index, maps=grids)
 
 
+ROOT = Path(__file__).resolve().parents[1]
+
+PARCEL_ENERGY = """
+[energy]
+cycle = "wltc_class3b"
+range_km = 200
+specific_energy_wh_per_kg = 160
+cost_per_kwh = 150
+"""
+
+
+def demo_studies(folder: Path) -> dict:
+    """{name: problem file} of the demo energy studies without a lead-time filter, written to ``folder``."""
+    cat = f'"{ROOT / "catalogs"}/'
+    van = (ROOT / "problems" / "delivery_van_energy.toml").read_text().replace('"../catalogs/', cat)
+    van = van[:van.index("[procurement]")]
+    parcel = (ROOT / "problems" / "parcel_van.toml").read_text().replace('"../catalogs/', cat) + PARCEL_ENERGY
+    out = {}
+    for name, text in (("delivery_van_energy, no lead-time filter", van), ("parcel_van + [energy]", parcel)):
+        path = folder / (name.split(",")[0].split(" ")[0] + ".toml")
+        path.write_text(text)
+        out[name] = path
+    return out
+
+
+def _timed(call):
+    t0, c0 = time.perf_counter(), time.process_time()
+    res = call()
+    return res, time.perf_counter() - t0, time.process_time() - c0
+
+
+def run_studies(enumerate_too: bool = True) -> None:
+    """Engine against enumeration on the demo energy studies (see the module docstring)."""
+    from selector.api import open_study
+    from selector.engine.evaluate import enumerate_designs
+    from selector.engine.search import search
+
+    warnings.simplefilter("ignore")
+    print("| study | combinations | engine s (CPU s) | status | enumeration s (CPU s) | enumeration/engine "
+          "| same optimum |")
+    print("|---|---|---|---|---|---|---|")
+    with tempfile.TemporaryDirectory() as tmp:
+        for name, path in demo_studies(Path(tmp)).items():
+            study = open_study(path)
+            parts = study.parts
+            res, wall, cpu = _timed(lambda parts=parts, study=study: search(parts, allowed=study.allowed))
+            best = res.designs[0] if res.designs else None
+            enum = "not run"
+            ratio = same = "-"
+            if enumerate_too:
+                al = study.allowed
+                designs, e_wall, e_cpu = _timed(lambda parts=parts, al=al: enumerate_designs(
+                    parts, parts.problem.objective, motors=al.get("motors"), reducers=al.get("reducers"),
+                    tyres=al.get("tyres")))
+                e_best = designs[0] if designs else None
+                same = (best is None and e_best is None) or (
+                    best is not None and e_best is not None and tuple(best.key) == tuple(e_best.key)
+                    and abs(best.value - e_best.value) <= 1e-9 * abs(best.value))
+                enum = f"{e_wall:.1f} ({e_cpu:.1f})"
+                ratio = f"{e_wall / wall:.1f} ({e_cpu / cpu:.1f})"
+            print(f"| {name} | {parts.combinations:.2e} | {wall:.2f} ({cpu:.2f}) | {res.status} | {enum} | {ratio} | "
+                  f"{same} |", flush=True)
+
+
 def main(argv=None) -> int:
     """Run the benchmark; return a process exit code."""
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--studies", action="store_true", help="engine against enumeration on the demo studies")
+    ap.add_argument("--no-enumeration", action="store_true", help="with --studies: the engine only")
+    ap.add_argument("--throughput", action="store_true", help="designs per second of the cycle-energy model")
     ap.add_argument("--cycle", default="wltc_class3b")
     ap.add_argument("--designs", type=int, default=4000)
     ap.add_argument("--chunk", type=int, default=EnergyParams.__dataclass_fields__["chunk_elements"].default)
     ap.add_argument("--repeat", type=int, default=3)
     args = ap.parse_args(argv)
+    if args.studies or not args.throughput:
+        run_studies(not args.no_enumeration)
+    if not args.throughput:
+        return 0
     cyc = load_cycle(args.cycle)
     n = args.designs
     rng = np.random.default_rng(1)

@@ -115,8 +115,10 @@ def _cmd_simulate(args) -> int:
         check_output_path(args.plot)
     result = simulate(study, **ids)
     if args.plot is not None:
+        from selector.io.cycle_plot import write_cycle_plot
         from selector.io.plots import tractive_effort_plot
 
+        write_cycle_plot(study, args.plot, result, **ids)  # energy studies: the cycle's operating points
         tractive_effort_plot(study, path=args.plot, **ids)
         result.add_output("plot", args.plot)
     res = result.data

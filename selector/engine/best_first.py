@@ -295,7 +295,8 @@ class SingleAxleSearch:
         def c_lb(m):
             return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
 
-        mb, _ = E.battery_lower_bound(st, c_lb, np.asarray(mass_kg, dtype=float), E.MAX_BATTERY_FACTOR * v.mass_kg)
+        mb, _ = E.battery_lower_bound(st, c_lb, np.asarray(mass_kg, dtype=float), E.MAX_BATTERY_FACTOR * v.mass_kg,
+                                      rounds=2, consumption=False)
         return mb, mb * st.specific_energy_wh_per_kg / 1000.0 * st.cost_per_kwh
 
     def hull(self, m_pos):
@@ -406,13 +407,22 @@ class SingleAxleSearch:
                 val[ok] = mc if what == "cost" else mb
         out = val[np.searchsorted(used, cell)]
         multi = p.multi[cand]
-        if multi.any() and what == "energy":  # a multi-speed pair: the bound over its gear hull
+        if multi.any():  # a multi-speed pair: the bound over its gear hull
             mc_ = np.nonzero(multi)[0]
             mass_m = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + p.mass[cand[mc_]]
-            out[mc_] = self.energy_bounds(np.full(mc_.size, i), p.l_tall[cand[mc_]], p.l_first[cand[mc_]], mass_m,
-                                          p.crr[cand[mc_]], p.eta[cand[mc_]])
-            return np.where(np.isfinite(out), out, np.inf)
-        return np.where(multi, 0.0, np.where(np.isfinite(out), out, np.inf))
+            args = (np.full(mc_.size, i), p.l_tall[cand[mc_]], p.l_first[cand[mc_]], mass_m, p.crr[cand[mc_]],
+                    p.eta[cand[mc_]])
+            if what == "energy":
+                out[mc_] = self.energy_bounds(*args)
+            else:  # only pairs whose own value can still count need the battery (0 is a bound for the others)
+                own = self.parts.motors.cost[i] + p.cost[cand[mc_]] if what == "cost" else mass_m
+                kth = self.kth()
+                need = np.nonzero(own <= kth + tie_tolerance(kth))[0]
+                out[mc_] = 0.0
+                if need.size:
+                    mb, mc = self.battery_bounds(*(a[need] for a in args))
+                    out[mc_[need]] = mc if what == "cost" else mb
+        return np.where(np.isfinite(out), out, np.inf)
 
     # ------------------------------------------------------------------ the pool
     def kth(self) -> float:

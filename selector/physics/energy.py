@@ -64,6 +64,13 @@ and reported per design (``out_of_map``), never extrapolated, and the design's e
 
 Designs are grouped by which units they have and by gear count, and evaluated in chunks of about
 `EnergyParams.chunk_elements` (design x interval) elements to bound memory.
+
+Module layout: `selector.physics.energy_inputs` (the input records), `selector.physics.energy_points`
+(operating points of one unit in one gear: steps 3-5 per unit), `selector.physics.energy_chunk`
+(steps 1-2, the gear and split choice, shift energy and the replay of a chunk of designs) and this
+module (the public functions and the per-design sums). `CycleEnergyModel` keeps the part of the work
+that does not depend on the vehicle mass, for evaluating the same designs at many masses (battery
+sizing); `cycle_energy` is one such evaluation.
 """
 
 from __future__ import annotations
@@ -73,13 +80,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from selector.physics.cycles import cycle_steps
-from selector.physics.losses import EfficiencyGrid, map_efficiency
-from selector.physics.motor import envelope_torque_nm
-from selector.physics.road import grade_angle_rad
-from selector.units import G_N
+from selector.physics.energy_chunk import PreparedChunk, chunks, groups, prepare
+from selector.physics.energy_inputs import DEFAULT_SPLIT_FRACTIONS, EnergyParams, EnergyUnit, EnergyVehicle
 
 __all__ = [
     "DEFAULT_SPLIT_FRACTIONS",
+    "CycleEnergyModel",
     "EnergyParams",
     "EnergyResult",
     "EnergyTrace",
@@ -88,156 +94,6 @@ __all__ = [
     "cycle_energy",
     "cycle_trace",
 ]
-
-DEFAULT_SPLIT_FRACTIONS = (0.0, 0.25, 0.5, 0.75, 1.0)
-"""Front share of the wheel force tried at each interval when a design has two units [-]."""
-
-_TOL = 1e-9  # relative tolerance of the envelope and speed checks (as requirements.REL_TOL)
-
-
-# --------------------------------------------------------------------------------------------
-# inputs
-
-
-@dataclass(frozen=True, eq=False)
-class EnergyUnit:
-    """One drive unit position (front or rear) of n designs: motor, gearbox and loss model.
-
-    All arrays have one row per design. Where ``present`` is False the unit does not exist for
-    that design and its other values are ignored (they may be NaN).
-
-    Attributes
-    ----------
-    present : ndarray of bool, shape (n,)
-        True where the design has this unit.
-    torque_nm : ndarray, shape (n,)
-        Motor peak torque [N m].
-    power_w : ndarray, shape (n,)
-        Motor peak power [W].
-    decline_rad_s : ndarray, shape (n,)
-        Speed where the peak power starts to decline [rad/s] (= max speed for none).
-    decline_exponent : ndarray, shape (n,)
-        Exponent of the power decline [-].
-    max_speed_rad_s : ndarray, shape (n,)
-        Motor maximum speed [rad/s].
-    rotor_inertia_kgm2 : ndarray, shape (n,)
-        Rotor polar moment of inertia [kg m^2].
-    ratios : ndarray, shape (n, g)
-        Gear ratios G = motor speed / wheel speed, g >= 1 columns (3 for a 1-3 speed gearbox),
-        NaN-padded at the end for fewer gears [-]. A present unit has at least the first.
-    gear_efficiency : ndarray, shape (n, g)
-        Mechanical efficiency of each gear, in (0, 1], NaN where no gear [-].
-    loss_copper_w_per_nm2, loss_iron_nm, loss_windage_w_s3, loss_constant_w : ndarray, shape (n,)
-        Polynomial loss model k_c [W/(N m)^2], k_i [N m], k_w [W s^3], C0 [W]
-        (`selector.physics.losses.motor_loss_w`); used where ``map_index`` is -1.
-    map_index : ndarray of int, shape (n,)
-        Index into `maps` of the motor's efficiency map, -1 for the polynomial model.
-    maps : tuple of EfficiencyGrid
-        The efficiency maps referred to by ``map_index`` (may be shared between units).
-    """
-
-    present: np.ndarray
-    torque_nm: np.ndarray
-    power_w: np.ndarray
-    decline_rad_s: np.ndarray
-    decline_exponent: np.ndarray
-    max_speed_rad_s: np.ndarray
-    rotor_inertia_kgm2: np.ndarray
-    ratios: np.ndarray
-    gear_efficiency: np.ndarray
-    loss_copper_w_per_nm2: np.ndarray
-    loss_iron_nm: np.ndarray
-    loss_windage_w_s3: np.ndarray
-    loss_constant_w: np.ndarray
-    map_index: np.ndarray
-    maps: tuple[EfficiencyGrid, ...] = ()
-
-    def __len__(self) -> int:
-        return len(np.asarray(self.present))
-
-
-@dataclass(frozen=True, eq=False)
-class EnergyVehicle:
-    """Vehicle data of n designs for the energy model (arrays of shape (n,) or scalars).
-
-    Attributes
-    ----------
-    mass_kg : array_like
-        Vehicle mass with every part (and the battery, where sized) [kg].
-    crr : array_like
-        Rolling-resistance coefficient [-].
-    q_n_s2_m2 : array_like
-        Aerodynamic coefficient 0.5 rho CdA, F_aero = q v^2 [N s^2/m^2].
-    radius_m : array_like
-        Rolling radius of the tyres (one size on every wheel) [m].
-    wheel_inertia_total_kgm2 : array_like
-        Sum of the polar moments of inertia of all wheels and tyres [kg m^2].
-    """
-
-    mass_kg: np.ndarray
-    crr: np.ndarray
-    q_n_s2_m2: np.ndarray
-    radius_m: np.ndarray
-    wheel_inertia_total_kgm2: np.ndarray = 0.0
-
-
-@dataclass(frozen=True)
-class EnergyParams:
-    """Energy-study settings shared by all designs.
-
-    Attributes
-    ----------
-    inverter_efficiency : float
-        Inverter efficiency, in (0, 1] [-] (the same in both directions).
-    auxiliary_w : float
-        Auxiliary load drawn from the battery at all times [W].
-    regen_max_w : float
-        Cap on the total regenerated shaft power of the motors [W]; ``inf`` = envelope only,
-        0 = no regeneration.
-    regen_min_speed_mps : float
-        Below this vehicle speed there is no regeneration (friction brakes only) [m/s].
-    grade_pct : float
-        Constant road grade over the whole cycle [%] (0 for the standard cycles).
-    split_fractions : tuple of float
-        Front shares of the wheel force tried for two-unit designs, in [0, 1] [-].
-    capability_split : bool
-        Also try the capability split (see the module docstring) for two-unit designs; False
-        restricts the split to `split_fractions` (e.g. ``(1.0,)`` forces front-only traction).
-    optimal_split : bool
-        Also try the stationary split of the loss-model power (see the module docstring) for
-        two-unit designs whose motors both have the polynomial loss model.
-    chunk_elements : int
-        Designs per chunk x intervals of the cycle; bounds the memory (about 100 bytes per
-        element and unit) [-].
-    """
-
-    inverter_efficiency: float
-    auxiliary_w: float
-    regen_max_w: float = float("inf")
-    regen_min_speed_mps: float = 0.0
-    grade_pct: float = 0.0
-    split_fractions: tuple[float, ...] = DEFAULT_SPLIT_FRACTIONS
-    capability_split: bool = True
-    optimal_split: bool = True
-    chunk_elements: int = 1 << 17
-
-    def __post_init__(self):
-        if not 0.0 < self.inverter_efficiency <= 1.0:
-            raise ValueError(f"inverter_efficiency = {self.inverter_efficiency}; must be in (0, 1]")
-        if not self.auxiliary_w >= 0.0:
-            raise ValueError(f"auxiliary_w = {self.auxiliary_w}; must be >= 0 [W]")
-        if not self.regen_max_w >= 0.0:
-            raise ValueError(f"regen_max_w = {self.regen_max_w}; must be >= 0 [W]")
-        if not self.regen_min_speed_mps >= 0.0:
-            raise ValueError(f"regen_min_speed_mps = {self.regen_min_speed_mps}; must be >= 0 [m/s]")
-        if not self.split_fractions or not all(0.0 <= s <= 1.0 for s in self.split_fractions):
-            raise ValueError(f"split_fractions = {self.split_fractions}; must be values in [0, 1]")
-        if self.chunk_elements < 1:
-            raise ValueError(f"chunk_elements = {self.chunk_elements}; must be >= 1")
-
-
-# --------------------------------------------------------------------------------------------
-# outputs
 
 
 @dataclass(frozen=True, eq=False)
@@ -291,6 +147,10 @@ class EnergyResult:
         absorbed by the friction brakes [Wh]. With the rotor kinetic energy (zero over a cycle
         that starts and ends at rest) they close the balance
         battery = auxiliary + inverter + motor + gearbox + friction + traction - braking.
+    infeasible_when_heavier : ndarray of bool
+        True where an interval the design cannot follow stays unfollowable at every larger vehicle
+        mass (one unit, an interval where every term of the wheel force grows with mass): the design
+        is then infeasible at any larger mass too.
     """
 
     wh_per_km: np.ndarray
@@ -313,6 +173,7 @@ class EnergyResult:
     inverter_loss_wh: np.ndarray | None = None
     gearbox_loss_wh: np.ndarray | None = None
     friction_brake_wh: np.ndarray | None = None
+    infeasible_when_heavier: np.ndarray | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -364,80 +225,6 @@ class EnergyTrace:
 
 
 # --------------------------------------------------------------------------------------------
-# internal state
-
-
-@dataclass
-class _Steps:
-    """The moving intervals of the cycle (standstill intervals dropped), shapes (S,)."""
-
-    dt: np.ndarray
-    v: np.ndarray
-    a: np.ndarray
-    v_high: np.ndarray
-    v_end: np.ndarray
-    t0: np.ndarray
-    regen_ok: np.ndarray
-    contiguous: np.ndarray
-    """(S - 1,): interval k + 1 starts where interval k ends (no standstill between them)."""
-
-
-@dataclass
-class _Gear:
-    """One unit in one gear (or with per-element gears) over a chunk: shapes (D, S) or (D, 1)."""
-
-    ratio: np.ndarray
-    eff: np.ndarray
-    w: np.ndarray
-    t_env: np.ndarray
-    t_rot: np.ndarray
-    usable: np.ndarray
-    """Gear exists and the motor does not over-speed."""
-    spin_loss: np.ndarray | None
-    """k_i w + k_w w^3 + C0 (polynomial rows), else None."""
-    k_c: np.ndarray | None
-    r_over_g_eta: np.ndarray
-    r_eta_over_g: np.ndarray
-    t_env_tol: np.ndarray
-    """Envelope torque with the pass tolerance."""
-    neg_t_lim: np.ndarray
-    """Minus the braking-torque limit of the envelope, 0 where regeneration is off."""
-    t_lim_cap: np.ndarray | None
-    """regen_max_w / w (0 where regeneration is off), scaled by the unit's share; None = no cap."""
-    t1: np.ndarray | None
-    """Motor torque through the gearbox for the whole wheel force (share 1), without the rotor term."""
-
-
-@dataclass
-class _Rows:
-    """Per-design data of one chunk for one unit, shapes (D, 1) unless stated."""
-
-    idx: np.ndarray
-    torque_nm: np.ndarray
-    power_w: np.ndarray
-    decline_rad_s: np.ndarray
-    decline_exponent: np.ndarray
-    max_speed_rad_s: np.ndarray
-    rotor_inertia_kgm2: np.ndarray
-    ratios: np.ndarray  # (D, g)
-    gear_efficiency: np.ndarray  # (D, g)
-    k: tuple  # (k_c, k_i, k_w, c0), each (D, 1)
-    map_index: np.ndarray  # (D,)
-    maps: tuple
-    any_map: bool
-    all_map: bool
-
-
-@dataclass
-class _Chunk:
-    """Vehicle data of one chunk, shapes (D, 1), and the wheel force (D, S)."""
-
-    radius: np.ndarray
-    force: np.ndarray
-    inv_r: np.ndarray
-
-
-# --------------------------------------------------------------------------------------------
 # public API
 
 
@@ -473,49 +260,78 @@ def cycle_energy(front: EnergyUnit | None, rear: EnergyUnit | None, vehicle: Ene
         Inconsistent array shapes, a design without a unit, a present unit without a gear or
         without a loss model.
     """
-    n, steps, cyc = _prepare(front, rear, vehicle, params, time_s, speed_mps)
-    acc = {k: np.zeros(n) for k in ("drive", "regen", "trac", "brake", "motor", "inv", "gear", "fric")}
-    infeasible = np.zeros(n, dtype=np.int64)
-    first_inf = np.full(n, np.nan)
-    oom = np.zeros(n, dtype=np.int64)
-    first_oom = np.full(n, np.nan)
-    for rows, units in _groups(front, rear, n):
-        for chunk_rows in _chunks(rows, len(steps.v), params.chunk_elements, units):
-            out = _evaluate_chunk(units, chunk_rows, vehicle, params, steps, detail, trace=False)
-            p = out["p_units"]
-            om = out["out_of_map"]
-            bad = ~np.isfinite(p)
-            pf = np.where(bad, 0.0, p)
-            dt = steps.dt
-            acc["drive"][chunk_rows] = np.sum(np.maximum(pf, 0.0) * dt, axis=1) / 3600.0
-            acc["regen"][chunk_rows] = np.sum(np.maximum(-pf, 0.0) * dt, axis=1) / 3600.0
-            wheel = out["force"] * steps.v
-            acc["trac"][chunk_rows] = np.sum(np.maximum(wheel, 0.0) * dt, axis=1) / 3600.0
-            acc["brake"][chunk_rows] = np.sum(np.maximum(-wheel, 0.0) * dt, axis=1) / 3600.0
-            infeasible[chunk_rows] = (bad & ~om).sum(axis=1)
-            first_inf[chunk_rows] = _first_time(bad & ~om, steps.t0)
-            oom[chunk_rows] = om.sum(axis=1)
-            first_oom[chunk_rows] = _first_time(om, steps.t0)
-            if detail:
-                for key in ("motor", "inv", "gear", "fric"):
-                    acc[key][chunk_rows] = np.sum(np.where(bad, 0.0, out[key]) * dt, axis=1) / 3600.0
-    aux_wh = params.auxiliary_w * cyc["duration"] / 3600.0
-    feasible = infeasible == 0
-    ok = feasible & (oom == 0)
-    battery = np.where(ok, acc["drive"] - acc["regen"] + aux_wh, np.nan)
-    dist_km = cyc["distance"] / 1000.0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        share = np.where(acc["drive"] > 0, acc["regen"] / acc["drive"], 0.0)
-        per_km = battery / dist_km if dist_km > 0 else np.full(n, np.nan)
-    extra = {}
-    if detail:
-        extra = dict(motor_loss_wh=acc["motor"], inverter_loss_wh=acc["inv"], gearbox_loss_wh=acc["gear"],
-                     friction_brake_wh=acc["fric"])
-    return EnergyResult(wh_per_km=per_km, battery_wh=battery, drive_wh=acc["drive"], regen_wh=acc["regen"],
-                        regen_share=share, auxiliary_wh=float(aux_wh), traction_wh=acc["trac"],
-                        braking_wh=acc["brake"], distance_km=float(dist_km), duration_s=float(cyc["duration"]),
-                        feasible=feasible, infeasible_steps=infeasible, first_infeasible_s=first_inf,
-                        out_of_map=oom > 0, out_of_map_steps=oom, first_out_of_map_s=first_oom, **extra)
+    n, steps, cyc = prepare(front, rear, vehicle, params, time_s, speed_mps)
+    mass = _per_design(vehicle.mass_kg, n)
+    sums = _Sums(n, detail)
+    for rows, units in groups(front, rear, n):
+        for chunk_rows in chunks(rows, len(steps.v), params.chunk_elements, units):
+            ch = PreparedChunk(units, chunk_rows, vehicle, params, steps)  # one evaluation: nothing to keep
+            sums.add(chunk_rows, ch, ch.evaluate(mass[chunk_rows], detail))
+    return sums.result(params, cyc)
+
+
+class CycleEnergyModel:
+    """Designs prepared once for the backward model and evaluated at any vehicle masses.
+
+    What does not depend on the mass (motor speeds, envelopes, rotor torques, spin losses, braking
+    limits) is computed when the model is built, so each further evaluation costs roughly half of a
+    `cycle_energy` call. The model keeps about 100 bytes per design, moving interval and gear of each
+    unit: build it for a batch of designs (a few hundred on a standard cycle), not for thousands.
+
+    Parameters
+    ----------
+    front, rear, vehicle, params, time_s, speed_mps
+        As for `cycle_energy`; ``vehicle.mass_kg`` is the default mass of `energy`.
+    """
+
+    def __init__(self, front: EnergyUnit | None, rear: EnergyUnit | None, vehicle: EnergyVehicle,
+                 params: EnergyParams, time_s, speed_mps):
+        self.n, self.steps, self.cyc = prepare(front, rear, vehicle, params, time_s, speed_mps)
+        self.params = params
+        self.mass_kg = _per_design(vehicle.mass_kg, self.n)
+        self._chunks = [PreparedChunk(units, chunk_rows, vehicle, params, self.steps)
+                        for rows, units in groups(front, rear, self.n)
+                        for chunk_rows in chunks(rows, len(self.steps.v), params.chunk_elements, units)]
+        self._chunk_of = np.empty(self.n, dtype=np.int64)
+        self._row_of = np.empty(self.n, dtype=np.int64)
+        for c, ch in enumerate(self._chunks):
+            self._chunk_of[ch.idx] = c
+            self._row_of[ch.idx] = np.arange(ch.idx.size)
+
+    def energy(self, mass_kg=None, designs=None, detail: bool = False) -> EnergyResult:
+        """Energy of the designs ``designs`` (positions, default all) at the vehicle masses ``mass_kg``.
+
+        Parameters
+        ----------
+        mass_kg : array_like or None
+            Vehicle mass of each selected design (or one for all) [kg]; default the vehicle's.
+        designs : array_like of int or None
+            Positions of the designs to evaluate, in the order of the result [-].
+        detail : bool
+            Also the loss breakdown (as `cycle_energy`).
+
+        Returns
+        -------
+        EnergyResult
+            Arrays in the order of ``designs``; identical to `cycle_energy` of those designs.
+        """
+        designs = np.arange(self.n) if designs is None else np.asarray(designs, dtype=np.int64).ravel()
+        mass = self.mass_kg[designs] if mass_kg is None else \
+            np.broadcast_to(np.asarray(mass_kg, dtype=float), designs.shape)
+        sums = _Sums(designs.size, detail)
+        which = self._chunk_of[designs]
+        for c in np.unique(which):
+            pos = np.flatnonzero(which == c)
+            ch = self._chunks[c]
+            rows = self._row_of[designs[pos]]
+            if rows.size >= 0.4 * ch.shape[0] and np.unique(rows).size == rows.size:
+                m_all = np.full(ch.shape[0], mass[pos[0]])  # rows not asked for: any finite mass
+                m_all[rows] = mass[pos]
+                sums.add(pos, ch, ch.evaluate(m_all, detail), rows)
+            else:
+                sub = ch.subset(rows)
+                sums.add(pos, sub, sub.evaluate(mass[pos], detail))
+        return sums.result(self.params, self.cyc)
 
 
 def cycle_trace(front: EnergyUnit | None, rear: EnergyUnit | None, vehicle: EnergyVehicle,
@@ -529,35 +345,19 @@ def cycle_trace(front: EnergyUnit | None, rear: EnergyUnit | None, vehicle: Ener
     -------
     EnergyTrace
     """
-    n, steps, cyc = _prepare(front, rear, vehicle, params, time_s, speed_mps)
+    n, steps, _ = prepare(front, rear, vehicle, params, time_s, speed_mps)
     all_dt, all_v, all_a, _ = cycle_steps(time_s, speed_mps)
-    moving = all_v > 0
-    m = len(all_v)
-    shape = (n, m)
+    shape = (n, len(all_v))
     tr = dict(force=np.zeros(shape), share=np.zeros(shape), gear=np.zeros((2,) + shape, dtype=np.int64),
               w=np.zeros((2,) + shape), t=np.zeros((2,) + shape), pe=np.zeros((2,) + shape),
               pb=np.full(shape, params.auxiliary_w), fric=np.zeros(shape), feasible=np.ones(shape, dtype=bool),
               oom=np.zeros(shape, dtype=bool))
-    cols = np.flatnonzero(moving)
-    for rows, units in _groups(front, rear, n):
-        for chunk_rows in _chunks(rows, len(steps.v), params.chunk_elements, units):
-            out = _evaluate_chunk(units, chunk_rows, vehicle, params, steps, True, trace=True)
-            ix = np.ix_(chunk_rows, cols)
-            p = out["p_units"]
-            bad = ~np.isfinite(p)
-            tr["force"][ix] = out["force"]
-            tr["share"][ix] = out["share"]
-            tr["pb"][ix] = np.where(bad, np.nan, p + params.auxiliary_w)
-            tr["fric"][ix] = np.where(bad, np.nan, out["fric"])
-            tr["feasible"][ix] = ~bad | out["out_of_map"]
-            tr["oom"][ix] = out["out_of_map"]
-            for k, pos in enumerate(("front", "rear")):
-                if pos in out["units"]:
-                    u = out["units"][pos]
-                    tr["gear"][k][ix] = np.where(bad, 0, u["gear"])
-                    tr["w"][k][ix] = u["w"]
-                    tr["t"][k][ix] = np.where(bad, np.nan, u["t"])
-                    tr["pe"][k][ix] = np.where(bad, np.nan, u["pe"])
+    cols = np.flatnonzero(all_v > 0)
+    mass = _per_design(vehicle.mass_kg, n)
+    for rows, units in groups(front, rear, n):
+        for chunk_rows in chunks(rows, len(steps.v), params.chunk_elements, units):
+            out = PreparedChunk(units, chunk_rows, vehicle, params, steps).evaluate(mass[chunk_rows], detail=True)
+            _trace_chunk(tr, np.ix_(chunk_rows, cols), out, params)
     return EnergyTrace(time_s=np.asarray(time_s, dtype=float)[:-1], speed_mps=all_v, accel_mps2=all_a,
                        wheel_force_n=tr["force"], front_share=tr["share"], gear=tr["gear"],
                        motor_speed_rad_s=tr["w"], motor_torque_nm=tr["t"], electrical_w=tr["pe"],
@@ -566,116 +366,12 @@ def cycle_trace(front: EnergyUnit | None, rear: EnergyUnit | None, vehicle: Ener
 
 
 # --------------------------------------------------------------------------------------------
-# preparation
+# per-design sums
 
 
-def _prepare(front, rear, vehicle, params, time_s, speed_mps):
-    t = np.asarray(time_s, dtype=float)
-    v = np.asarray(speed_mps, dtype=float)
-    if t.ndim != 1 or t.shape != v.shape or len(t) < 2:
-        raise ValueError("time_s and speed_mps must be 1-D arrays of the same length >= 2")
-    if not (np.all(np.diff(t) > 0) and np.all(np.isfinite(v)) and np.all(v >= 0)):
-        raise ValueError("time_s must increase and speed_mps must be finite and >= 0")
-    units = [u for u in (front, rear) if u is not None]
-    if not units:
-        raise ValueError("a design needs a front or a rear drive unit; both are None")
-    n = len(units[0])
-    for u in units:
-        _check_unit(u, n)
-    for name in ("mass_kg", "crr", "q_n_s2_m2", "radius_m", "wheel_inertia_total_kgm2"):
-        shape = np.shape(getattr(vehicle, name))
-        if shape not in ((), (n,)):
-            raise ValueError(f"vehicle.{name} has shape {shape}; expected () or ({n},)")
-    present = np.zeros(n, dtype=bool)
-    for u in units:
-        present |= np.asarray(u.present, dtype=bool)
-    if not present.all():
-        raise ValueError(f"designs {np.flatnonzero(~present)[:10].tolist()} have no drive unit")
-    dt, vm, a, vh = cycle_steps(t, v)
-    moving = vm > 0
-    regen_ok = vm[moving] >= params.regen_min_speed_mps
-    t0 = t[:-1][moving]
-    dtm = dt[moving]
-    steps = _Steps(dt=dtm, v=vm[moving], a=a[moving], v_high=vh[moving], v_end=v[1:][moving], t0=t0,
-                   regen_ok=regen_ok, contiguous=np.isclose(t0[1:], t0[:-1] + dtm[:-1], rtol=0.0, atol=1e-9))
-    cyc = dict(duration=float(t[-1] - t[0]), distance=float(np.sum(vm * dt)))
-    return n, steps, cyc
-
-
-def _check_unit(u: EnergyUnit, n: int):
-    if len(u) != n:
-        raise ValueError(f"the front and rear units describe {len(u)} and {n} designs; they must match")
-    for name in ("torque_nm", "power_w", "decline_rad_s", "decline_exponent", "max_speed_rad_s",
-                 "rotor_inertia_kgm2", "loss_copper_w_per_nm2", "loss_iron_nm", "loss_windage_w_s3",
-                 "loss_constant_w", "map_index"):
-        if np.shape(getattr(u, name)) != (n,):
-            raise ValueError(f"EnergyUnit.{name} has shape {np.shape(getattr(u, name))}; expected ({n},)")
-    ratios = np.asarray(u.ratios, dtype=float)
-    if ratios.ndim != 2 or ratios.shape[0] != n or np.shape(u.gear_efficiency) != ratios.shape:
-        raise ValueError("EnergyUnit.ratios and gear_efficiency must have the same shape (designs, gears)")
-    pres = np.asarray(u.present, dtype=bool)
-    has = np.isfinite(ratios)
-    if np.any(pres & ~has[:, 0]):
-        raise ValueError(f"designs {np.flatnonzero(pres & ~has[:, 0])[:10].tolist()} have a drive unit without "
-                         "a first gear (ratios[:, 0] is NaN)")
-    gaps = has[:, 1:] & ~has[:, :-1]
-    if np.any(pres[:, None] & gaps):
-        raise ValueError("EnergyUnit.ratios must be NaN-padded at the end (a gear after a missing gear)")
-    mi = np.asarray(u.map_index)
-    if np.any(pres & (mi >= len(u.maps))):
-        raise ValueError("EnergyUnit.map_index refers past the end of maps")
-    poly = np.isfinite(np.stack([u.loss_copper_w_per_nm2, u.loss_iron_nm, u.loss_windage_w_s3,
-                                 u.loss_constant_w])).all(axis=0)
-    missing = pres & (mi < 0) & ~poly
-    if np.any(missing):
-        raise ValueError(f"designs {np.flatnonzero(missing)[:10].tolist()} have a motor with neither loss "
-                         "coefficients nor an efficiency map")
-
-
-def _gear_count(u: EnergyUnit | None, n: int) -> np.ndarray:
-    if u is None:
-        return np.zeros(n, dtype=np.int64)
-    return np.where(np.asarray(u.present, dtype=bool), np.isfinite(np.asarray(u.ratios, dtype=float)).sum(axis=1), 0)
-
-
-def _groups(front, rear, n):
-    """Yield (rows, {"front": unit, "rear": unit}) for designs sharing units and gear counts."""
-    gf, gr = _gear_count(front, n), _gear_count(rear, n)
-    key = gf * 16 + gr
-    for k in np.unique(key):
-        rows = np.flatnonzero(key == k)
-        units = {}
-        if k // 16 > 0:
-            units["front"] = (front, int(k // 16))
-        if k % 16 > 0:
-            units["rear"] = (rear, int(k % 16))
-        yield rows, units
-
-
-def _chunks(rows, steps, chunk_elements, units):
-    weight = 1 if len(units) == 1 else 4  # two units keep a candidate array per split fraction
-    per = max(1, int(chunk_elements // max(1, steps * weight)))
-    for s in range(0, len(rows), per):
-        yield rows[s:s + per]
-
-
-def _rows(u: EnergyUnit, idx: np.ndarray, gears: int) -> _Rows:
-    def col(a):
-        return np.asarray(a, dtype=float)[idx][:, None]
-    mi = np.asarray(u.map_index, dtype=np.int64)[idx]
-    return _Rows(idx=idx, torque_nm=col(u.torque_nm), power_w=col(u.power_w), decline_rad_s=col(u.decline_rad_s),
-                 decline_exponent=col(u.decline_exponent), max_speed_rad_s=col(u.max_speed_rad_s),
-                 rotor_inertia_kgm2=col(u.rotor_inertia_kgm2),
-                 ratios=np.asarray(u.ratios, dtype=float)[idx, :gears],
-                 gear_efficiency=np.asarray(u.gear_efficiency, dtype=float)[idx, :gears],
-                 k=(col(u.loss_copper_w_per_nm2), col(u.loss_iron_nm), col(u.loss_windage_w_s3),
-                    col(u.loss_constant_w)),
-                 map_index=mi, maps=tuple(u.maps), any_map=bool(np.any(mi >= 0)), all_map=bool(np.all(mi >= 0)))
-
-
-def _vec(x, idx):
+def _per_design(x, n):
     a = np.asarray(x, dtype=float)
-    return (a[idx] if a.ndim else np.full(len(idx), float(a)))[:, None]
+    return a.copy() if a.ndim else np.full(n, float(a))
 
 
 def _first_time(mask, t0):
@@ -686,298 +382,81 @@ def _first_time(mask, t0):
     return np.where(any_, t0[first], np.nan)
 
 
-# --------------------------------------------------------------------------------------------
-# one chunk
+def _trace_chunk(tr, ix, out, params):
+    """Write one chunk's replayed operating points into the trace arrays ``tr`` at ``ix``."""
+    p = out["p_units"]
+    bad = ~np.isfinite(p)
+    tr["force"][ix] = out["force"]
+    tr["share"][ix] = out["share"]
+    tr["pb"][ix] = np.where(bad, np.nan, p + params.auxiliary_w)
+    tr["fric"][ix] = np.where(bad, np.nan, out["fric"])
+    tr["feasible"][ix] = ~bad | out["out_of_map"]
+    tr["oom"][ix] = out["out_of_map"]
+    for k, pos in enumerate(("front", "rear")):
+        if pos in out["units"]:
+            u = out["units"][pos]
+            tr["gear"][k][ix] = np.where(bad, 0, u["gear"])
+            tr["w"][k][ix] = u["w"]
+            tr["t"][k][ix] = np.where(bad, np.nan, u["t"])
+            tr["pe"][k][ix] = np.where(bad, np.nan, u["pe"])
 
 
-def _gear_state(r: _Rows, ratio, eff, ch: _Chunk, steps: _Steps, params: EnergyParams,
-                with_force: bool = False) -> _Gear:
-    """Motor speed, envelope and rotor torque of one unit in a gear (ratio/eff (D,1) or (D,S))."""
-    g_over_r = ratio * ch.inv_r
-    w = steps.v * g_over_r
-    exists = np.isfinite(ratio)
-    with np.errstate(invalid="ignore"):
-        usable = exists & (steps.v_high * g_over_r <= r.max_speed_rad_s * (1.0 + _TOL))
-    w_safe = np.where(exists, w, 0.0)
-    t_env = envelope_torque_nm(w_safe, r.torque_nm, r.power_w, r.decline_rad_s, r.decline_exponent,
-                               r.max_speed_rad_s)
-    t_rot = r.rotor_inertia_kgm2 * steps.a * np.where(exists, g_over_r, 0.0)
-    spin = k_c = None
-    if not r.all_map:
-        k_c, k_i, k_w, c0 = r.k
-        spin = k_i * w_safe + k_w * w_safe * w_safe * w_safe + c0
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r_over_g_eta = ch.radius / (ratio * eff)
-        r_eta_over_g = ch.radius * eff / ratio
-    neg_t_lim = -t_env
-    if k_c is not None:
-        # loss model: braking harder than T = -w / (2 k_c) recovers less (copper loss grows faster than the
-        # recovered power), so the controller stops there and the friction brakes take the rest
-        with np.errstate(divide="ignore", invalid="ignore"):
-            neg_t_lim = np.fmax(neg_t_lim, -w_safe / (2.0 * k_c))
-    neg_t_lim = np.where(steps.regen_ok, neg_t_lim, 0.0)
-    t_lim_cap = t1 = None
-    if np.isfinite(params.regen_max_w):
-        with np.errstate(divide="ignore", invalid="ignore"):
-            t_lim_cap = np.where(steps.regen_ok & (w_safe > 0), params.regen_max_w / w_safe, 0.0)
-    if with_force:
-        t1 = ch.force * np.where(ch.force >= 0.0, r_over_g_eta, r_eta_over_g)
-    return _Gear(ratio=ratio, eff=eff, w=w_safe, t_env=t_env, t_rot=t_rot, usable=usable, spin_loss=spin, k_c=k_c,
-                 r_over_g_eta=r_over_g_eta, r_eta_over_g=r_eta_over_g, t_env_tol=t_env * (1.0 + _TOL),
-                 neg_t_lim=neg_t_lim, t_lim_cap=t_lim_cap, t1=t1)
+class _Sums:
+    """Per-design sums over the intervals, filled chunk by chunk."""
 
+    KEYS = ("drive", "regen", "trac", "brake", "motor", "inv", "gear", "fric")
 
-def _unit_pb(g: _Gear, f: float, eta_inv: float):
-    """Battery power of a polynomial-loss unit taking the share f of the wheel force (fast path).
+    def __init__(self, n: int, detail: bool):
+        self.detail = detail
+        self.acc = {k: np.zeros(n) for k in self.KEYS}
+        self.infeasible = np.zeros(n, dtype=np.int64)
+        self.first_inf = np.full(n, np.nan)
+        self.oom = np.zeros(n, dtype=np.int64)
+        self.first_oom = np.full(n, np.nan)
+        self.heavier = np.zeros(n, dtype=bool)
 
-    Same result as `_unit_power` (which it must match): motor torque f T1 + T_rot; braking torque
-    limited by the envelope, the loss optimum -w / (2 k_c), the unit's share of the regeneration cap
-    and the minimum speed; inf where the gear is unusable.
-    """
-    t_m = g.t1.copy() if np.ndim(f) == 0 and f == 1.0 else g.t1 * f
-    t_m += g.t_rot
-    if g.t_lim_cap is None:
-        t_act = np.maximum(t_m, g.neg_t_lim)
-    else:
-        t_act = np.maximum(t_m, np.maximum(g.neg_t_lim, -f * g.t_lim_cap))
-    pe = g.k_c * t_act
-    pe += g.w
-    pe *= t_act
-    pe += g.spin_loss
-    pb = pe / eta_inv
-    np.multiply(pe, eta_inv, out=pb, where=pe < 0.0)
-    feasible = t_m <= g.t_env_tol
-    feasible &= g.usable
-    np.copyto(pb, np.inf, where=~feasible)
-    return pb
+    def add(self, pos, ch: PreparedChunk, out: dict, rows=None):
+        """Sums of a chunk's evaluation ``out`` into positions ``pos`` (of the chunk's ``rows``, default all)."""
+        sel = slice(None) if rows is None else rows
+        p = out["p_units"][sel]
+        om = out["out_of_map"][sel]
+        bad = ~np.isfinite(p)
+        pf = np.where(bad, 0.0, p)
+        dt = ch.steps.dt
+        self.acc["drive"][pos] = np.sum(np.maximum(pf, 0.0) * dt, axis=1) / 3600.0
+        self.acc["regen"][pos] = np.sum(np.maximum(-pf, 0.0) * dt, axis=1) / 3600.0
+        wheel = out["force"][sel] * ch.steps.v
+        self.acc["trac"][pos] = np.sum(np.maximum(wheel, 0.0) * dt, axis=1) / 3600.0
+        self.acc["brake"][pos] = np.sum(np.maximum(-wheel, 0.0) * dt, axis=1) / 3600.0
+        stuck = bad & ~om
+        self.infeasible[pos] = stuck.sum(axis=1)
+        self.first_inf[pos] = _first_time(stuck, ch.steps.t0)
+        self.oom[pos] = om.sum(axis=1)
+        self.first_oom[pos] = _first_time(om, ch.steps.t0)
+        self.heavier[pos] = ch.heavier_stays_infeasible(stuck, rows)
+        if self.detail:
+            for key in ("motor", "inv", "gear", "fric"):
+                self.acc[key][pos] = np.sum(np.where(bad, 0.0, out[key][sel]) * dt, axis=1) / 3600.0
 
-
-def _unit_power(r: _Rows, g: _Gear, force, share, params: EnergyParams, detail: bool):
-    """Battery power of one unit carrying the wheel force force_u in gear state g.
-
-    Returns a dict: ``pb`` (battery power, inf where unusable), ``oom`` (envelope-feasible points
-    outside the map) and, with detail, the motor torque, electrical and shaft power and the
-    gearbox loss and the wheel force the unit delivers.
-    """
-    force_u = force * share
-    t_gb = np.where(force_u >= 0.0, force_u * g.r_over_g_eta, force_u * g.r_eta_over_g)
-    t_m = t_gb + g.t_rot
-    motoring = t_m >= 0.0
-    feasible = g.usable & (t_m <= g.t_env_tol)
-    # generating: limits of the envelope, the regeneration cap and the minimum speed
-    neg_lim = g.neg_t_lim if g.t_lim_cap is None else np.maximum(g.neg_t_lim, -share * g.t_lim_cap)
-    t_act = np.where(motoring, t_m, np.maximum(t_m, neg_lim))
-    p_shaft = t_act * g.w
-    pe = np.empty_like(p_shaft)
-    oom = None
-    if not r.all_map:
-        pe = p_shaft + g.k_c * t_act * t_act + g.spin_loss
-    if r.any_map:
-        oom = np.zeros(p_shaft.shape, dtype=bool)
-        for m in np.unique(r.map_index[r.map_index >= 0]):
-            sel = np.flatnonzero(r.map_index == m)
-            eta, outside = map_efficiency(r.maps[m], g.w[sel], t_act[sel])
-            p_s = p_shaft[sel]
-            zero_eta = (p_s > 0) & ~outside & ~(eta > 0)
-            bad = (outside & (p_s != 0)) | zero_eta
-            with np.errstate(divide="ignore", invalid="ignore"):
-                pe_s = np.where(p_s > 0, p_s / eta, np.where(p_s < 0, p_s * eta, 0.0))
-            pe[sel] = np.where(bad, np.inf, pe_s)
-            oom[sel] = bad & feasible[sel]
-    eta_inv = params.inverter_efficiency
-    pb = np.where(pe >= 0.0, pe / eta_inv, pe * eta_inv)
-    pb = np.where(feasible, pb, np.inf)
-    if oom is not None:
-        pb = np.where(oom, np.inf, pb)
-    out = {"pb": pb, "oom": oom}
-    if detail:
-        t_through = t_act - g.t_rot  # torque the motor sends into the gearbox
-        w_mot = g.w
-        gear_loss = np.where(t_through >= 0.0, t_through * w_mot * (1.0 - g.eff),
-                             -t_through * w_mot * (1.0 / g.eff - 1.0))
+    def result(self, params: EnergyParams, cyc: dict) -> EnergyResult:
+        """The `EnergyResult` of the sums."""
+        acc = self.acc
+        n = self.infeasible.size
+        aux_wh = params.auxiliary_w * cyc["duration"] / 3600.0
+        feasible = self.infeasible == 0
+        ok = feasible & (self.oom == 0)
+        battery = np.where(ok, acc["drive"] - acc["regen"] + aux_wh, np.nan)
+        dist_km = cyc["distance"] / 1000.0
         with np.errstate(invalid="ignore", divide="ignore"):
-            wheel_force = np.where(t_through >= 0.0, t_through / g.r_over_g_eta, t_through / g.r_eta_over_g)
-        out.update(t=t_act, pe=pe, p_shaft=p_shaft, gear_loss=np.where(feasible, gear_loss, 0.0),
-                   wheel_force=np.where(feasible, wheel_force, 0.0))
-    return out
-
-
-def _evaluate_chunk(units, idx, vehicle, params, steps, detail, trace):
-    """Evaluate one chunk of designs; returns per-interval arrays (D, S)."""
-    radius = _vec(vehicle.radius_m, idx)
-    mass = _vec(vehicle.mass_kg, idx)
-    crr = _vec(vehicle.crr, idx)
-    q = _vec(vehicle.q_n_s2_m2, idx)
-    jw = _vec(vehicle.wheel_inertia_total_kgm2, idx)
-    theta = float(grade_angle_rad(params.grade_pct))
-    force = ((mass + jw / (radius * radius)) * steps.a
-             + mass * G_N * (crr * np.cos(theta) + np.sin(theta)) + q * steps.v * steps.v)
-    ch = _Chunk(radius=radius, force=force, inv_r=1.0 / radius)
-    rows = {pos: _rows(u, idx, gears) for pos, (u, gears) in units.items()}
-    shape = force.shape
-    # gear states of every unit in every gear, shared by all candidate splits
-    states = {pos: [_gear_state(r, r.ratios[:, gi:gi + 1], r.gear_efficiency[:, gi:gi + 1], ch, steps, params,
-                                with_force=not r.any_map) for gi in range(r.ratios.shape[1])]
-              for pos, r in rows.items()}
-    oom = np.zeros(shape, dtype=bool)
-
-    def candidate(pos, f):
-        """Battery power of unit `pos` at share f (scalar or (D, S)) in its best gear, and that gear."""
-        r = rows[pos]
-        pb_best = gear_best = None
-        for gi, g in enumerate(states[pos]):
-            if r.any_map:
-                out = _unit_power(r, g, force, f, params, False)
-                pb = out["pb"]
-                oom[...] |= out["oom"]
-            else:
-                pb = _unit_pb(g, f, params.inverter_efficiency)
-            if gi == 0:
-                pb_best, gear_best = pb, np.zeros(shape, dtype=np.int8)
-            else:
-                better = pb < pb_best
-                np.copyto(pb_best, pb, where=better)
-                gear_best[better] = gi
-        return pb_best, gear_best
-
-    if len(rows) == 1:
-        pos = next(iter(rows))
-        frac_values = {pos: [1.0]}
-        pb, gb = candidate(pos, 1.0)
-        best = {pos: ([pb], [gb])}
-        total = pb
-        choice = np.zeros(shape, dtype=np.int64)
-    else:
-        front = [float(x) for x in params.split_fractions]
-        if params.capability_split:
-            front.append(_capability_split(states, ch))
-        best = {"front": ([], []), "rear": ([], [])}
-
-        def add(s_front):
-            for pos, f in (("front", s_front), ("rear", 1.0 - s_front)):
-                pb, gb = candidate(pos, f)
-                best[pos][0].append(pb)
-                best[pos][1].append(gb)
-
-        for s_front in front:
-            add(s_front)
-        if params.optimal_split and not (rows["front"].any_map or rows["rear"].any_map):
-            k_half = int(np.argmin([abs(x - 0.5) if np.ndim(x) == 0 else 1.0 for x in front]))
-            s_opt = _stationary_split(states, {p: best[p][1][k_half] for p in rows})
-            front.append(s_opt)
-            add(s_opt)
-        frac_values = {"front": front, "rear": [1.0 - x for x in front]}
-        totals = np.stack([best["front"][0][k] + best["rear"][0][k] for k in range(len(front))])
-        choice = np.argmin(totals, axis=0)
-        total = np.take_along_axis(totals, choice[None], axis=0)[0]
-    # gear changes: the rotor's kinetic energy jumps with the ratio at the shift
-    eta_inv = params.inverter_efficiency
-    gsel = {}
-    shift_in = shift_out = None
-    for pos, r in rows.items():
-        if r.ratios.shape[1] == 1:
-            gsel[pos] = np.zeros(shape, dtype=np.int64)
-            continue
-        gsel[pos] = np.take_along_axis(np.stack(best[pos][1]), choice[None], axis=0)[0].astype(np.int64)
-        if shape[1] < 2:
-            continue
-        ratio = np.take_along_axis(r.ratios, gsel[pos], axis=1)
-        both = np.isfinite(total[:, 1:]) & np.isfinite(total[:, :-1]) & steps.contiguous
-        w2 = (steps.v_end[:-1] * ch.inv_r) ** 2
-        jump = np.where(both, 0.5 * r.rotor_inertia_kgm2 * w2 * (ratio[:, 1:] ** 2 - ratio[:, :-1] ** 2), 0.0)
-        if shift_in is None:
-            shift_in, shift_out = np.zeros(shape), np.zeros(shape)
-        shift_in[:, 1:] += np.maximum(jump, 0.0)
-        shift_out[:, 1:] += np.maximum(-jump, 0.0)
-    if shift_in is not None:
-        total = total + (shift_in / eta_inv - shift_out * eta_inv) / steps.dt
-    result = {"p_units": total, "force": force, "out_of_map": oom}
-    if not (detail or trace):
-        return result
-    # replay the chosen operating points
-    fric_force = force.copy()
-    motor = inv = gear_loss = np.zeros(shape)
-    unit_out = {}
-    share = None
-    for pos, r in rows.items():
-        fr = frac_values[pos]
-        f_el = _select(fr, choice, shape)
-        gs = gsel[pos]
-        g = _gear_state(r, np.take_along_axis(r.ratios, gs, axis=1), np.take_along_axis(r.gear_efficiency, gs, axis=1),
-                        ch, steps, params)
-        out = _unit_power(r, g, force, f_el, params, True)
-        pe = np.where(np.isfinite(out["pb"]), out["pe"], 0.0)
-        pb = np.where(pe >= 0.0, pe / eta_inv, pe * eta_inv)
-        motor = motor + np.where(np.isfinite(out["pb"]), out["pe"] - out["p_shaft"], 0.0)
-        inv = inv + (pb - pe)
-        gear_loss = gear_loss + out["gear_loss"]
-        fric_force = fric_force - out["wheel_force"]
-        unit_out[pos] = {"gear": gs + 1, "w": g.w, "t": out["t"], "pe": out["pe"]}
-        if pos == "front":
-            share = f_el if np.ndim(f_el) == 2 else np.full(shape, float(f_el))
-    if share is None:
-        share = np.zeros(shape)
-    fric = np.maximum(-fric_force * steps.v, 0.0)
-    if shift_in is not None:
-        inv = inv + (shift_in * (1.0 / eta_inv - 1.0) + shift_out * (1.0 - eta_inv)) / steps.dt
-    result.update(motor=motor, inv=inv, gear=gear_loss, fric=fric, units=unit_out, share=share)
-    return result
-
-
-def _select(values, choice, shape):
-    """Per-element value of the chosen candidate; values are scalars or (D, S) arrays."""
-    if len(values) == 1:
-        v = values[0]
-        return np.broadcast_to(np.asarray(v, dtype=float), shape) if np.ndim(v) else float(v)
-    out = np.empty(shape)
-    for k, v in enumerate(values):
-        mask = choice == k
-        out[mask] = v[mask] if np.ndim(v) == 2 else v
-    return out
-
-
-def _capability_split(states, ch: _Chunk):
-    """Front share F_f,max / (F_f,max + F_r,max) of each interval (D, S), each unit in its strongest gear."""
-    fmax = {}
-    for pos, gears in states.items():
-        best = np.zeros(ch.force.shape)
-        for g in gears:
-            with np.errstate(invalid="ignore"):
-                f = np.where(g.usable, (g.t_env - g.t_rot) / g.r_over_g_eta, 0.0)
-            best = np.maximum(best, f)
-        fmax[pos] = best
-    tot = fmax["front"] + fmax["rear"]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(tot > 0, fmax["front"] / tot, 0.5)
-
-
-def _stationary_split(states, gears):
-    """Front share where the loss-model battery power of the two units is stationary, clipped to [0, 1].
-
-    With the motor torques T_f = s a_f + b_f and T_r = (1 - s) a_r + b_r (a: torque for the whole wheel
-    force through the gear, b: rotor term) and P_el = T (w + k_c T) + spin losses, dP/ds = 0 gives
-
-        s = (a_r w_r + 2 k_r a_r (a_r + b_r) - a_f w_f - 2 k_f a_f b_f) / (2 (k_f a_f^2 + k_r a_r^2)),
-
-    the optimum when both units run in the same direction within their limits (the inverter factor is
-    then common). Each unit uses the gear given per interval in `gears`.
-    """
-    terms = {}
-    for pos, gear in gears.items():
-        gs = states[pos]
-        a, b, w, k = gs[0].t1, gs[0].t_rot, gs[0].w, gs[0].k_c
-        if len(gs) > 1:
-            a, b, w, k = (np.array(np.broadcast_to(x, gear.shape)) for x in (a, b, w, k))
-            for gi in range(1, len(gs)):
-                m = gear == gi
-                for arr, src in ((a, gs[gi].t1), (b, gs[gi].t_rot), (w, gs[gi].w),
-                                 (k, np.broadcast_to(gs[gi].k_c, gear.shape))):
-                    arr[m] = np.broadcast_to(src, gear.shape)[m]
-        terms[pos] = (a, b, w, k)
-    af, bf, wf, kf = terms["front"]
-    ar, br, wr, kr = terms["rear"]
-    num = ar * wr + 2.0 * kr * ar * (ar + br) - af * wf - 2.0 * kf * af * bf
-    den = 2.0 * (kf * af * af + kr * ar * ar)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        s = np.where(den > 0, num / den, 0.5)
-    return np.clip(np.nan_to_num(s, nan=0.5), 0.0, 1.0)
+            share = np.where(acc["drive"] > 0, acc["regen"] / acc["drive"], 0.0)
+            per_km = battery / dist_km if dist_km > 0 else np.full(n, np.nan)
+        extra = {}
+        if self.detail:
+            extra = dict(motor_loss_wh=acc["motor"], inverter_loss_wh=acc["inv"], gearbox_loss_wh=acc["gear"],
+                         friction_brake_wh=acc["fric"])
+        return EnergyResult(wh_per_km=per_km, battery_wh=battery, drive_wh=acc["drive"], regen_wh=acc["regen"],
+                            regen_share=share, auxiliary_wh=float(aux_wh), traction_wh=acc["trac"],
+                            braking_wh=acc["brake"], distance_km=float(dist_km), duration_s=float(cyc["duration"]),
+                            feasible=feasible, infeasible_steps=self.infeasible, first_infeasible_s=self.first_inf,
+                            out_of_map=self.oom > 0, out_of_map_steps=self.oom, first_out_of_map_s=self.first_oom,
+                            infeasible_when_heavier=self.heavier & ~feasible, **extra)

@@ -249,7 +249,7 @@ class PreparedChunk:
 
         for s_front in front:
             add(s_front)
-        if self.params.optimal_split:
+        if self.params.optimal_split and not (self.rows["front"].all_map or self.rows["rear"].all_map):
             k_half = int(np.argmin([abs(x - 0.5) if np.ndim(x) == 0 else 1.0 for x in front]))
             s_opt = stationary_split(self.states, t1s, {p: best[p][1][k_half] for p in self.rows})
             mapped = (self.rows["front"].map_index >= 0) | (self.rows["rear"].map_index >= 0)

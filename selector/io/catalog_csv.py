@@ -12,7 +12,7 @@ import io
 from pathlib import Path
 
 from selector.errors import InputError
-from selector.io.files import MAX_CELL_CHARS, read_input_text, shown
+from selector.io.files import MAX_CELL_CHARS, read_input_text, shown, split_lines_after_comments
 from selector.io.schema import DERIVED_COLUMNS, SOURCE_ROW, Column
 
 __all__ = ["cell_records", "check_header", "location", "read_rows", "report"]
@@ -32,11 +32,7 @@ def _read_text(path: Path, disp: str) -> str:
 def read_rows(path: Path, disp: str):
     """Return (header_line, header, rows) with rows = [(line, cells, last line)], or raise for unreadable or
     empty files."""
-    text = _read_text(path, disp).replace("\r\n", "\n").replace("\r", "\n")
-    lines = text.split("\n")
-    start = 0
-    while start < len(lines) and (not lines[start].strip() or lines[start].lstrip().startswith("#")):
-        start += 1
+    lines, start = split_lines_after_comments(_read_text(path, disp))
     if start >= len(lines):
         if any(line.strip() for line in lines):
             raise InputError(f"{disp}: no header row (the file holds only comment lines). "

@@ -65,33 +65,14 @@ def load_frames(motors: pd.DataFrame, reducers: pd.DataFrame, tyres: pd.DataFram
         Every problem found, naming the frame, its row (index label), part id and column, or the
         problem dict's table and key.
     """
-    import pandas as pd
-
     frames = {"motors": motors, "reducers": reducers, "tyres": tyres}
-    for kind, df in frames.items():
-        if not isinstance(df, pd.DataFrame):
-            raise InputError(f"{kind}: expected a pandas DataFrame (one row per part), got {type(df).__name__}.")
-    if not isinstance(problem, dict):
-        raise InputError(f"problem: expected a dict of the problem file's tables, got {type(problem).__name__}.")
-    if "catalogs" in problem:
-        raise InputError(f"{PROBLEM_LABEL} [catalogs]: the catalogues come from the motors, reducers and tyres "
-                         "frames. Remove the catalogs table.")
+    _check_arguments(frames, problem)
     from selector.io.problem import load_study
 
     base = Path(os.path.abspath(base_dir if base_dir is not None else os.getcwd()))
     with tempfile.TemporaryDirectory(prefix="selector-frames-") as tmp:
         folder = Path(tmp)
-        labels: dict[str, list] = {}
-        for kind, df in frames.items():
-            (folder / f"{kind}.csv").write_text(_csv_text(kind, df, base), encoding="utf-8")
-            labels[kind] = list(df.index)
-        data = {"name": DEFAULT_NAME, **problem,
-                "catalogs": {kind: f"{kind}.csv" for kind in KINDS}}
-        energy = data.get("energy")
-        if isinstance(energy, dict) and isinstance(energy.get("cycle"), str):
-            data["energy"] = {**energy, "cycle": _absolute_or_name(energy["cycle"], base)}
-        (folder / "problem.toml").write_text(_toml_text(data), encoding="utf-8")
-        translate = _translator(folder, labels)
+        translate = _write_inputs(folder, frames, problem, base)
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             try:
@@ -105,6 +86,35 @@ def load_frames(motors: pd.DataFrame, reducers: pd.DataFrame, tyres: pd.DataFram
     catalogs = replace(catalogs, paths=paths)
     return prob, catalogs
 
+
+def _check_arguments(frames: dict, problem) -> None:
+    """Three DataFrames and a dict without a catalogs table, or `InputError` naming the argument."""
+    import pandas as pd
+
+    for kind, df in frames.items():
+        if not isinstance(df, pd.DataFrame):
+            raise InputError(f"{kind}: expected a pandas DataFrame (one row per part), got {type(df).__name__}.")
+    if not isinstance(problem, dict):
+        raise InputError(f"problem: expected a dict of the problem file's tables, got {type(problem).__name__}.")
+    if "catalogs" in problem:
+        raise InputError(f"{PROBLEM_LABEL} [catalogs]: the catalogues come from the motors, reducers and tyres "
+                         "frames. Remove the catalogs table.")
+
+
+def _write_inputs(folder: Path, frames: dict, problem: dict, base: Path):
+    """Write the frames as CSV catalogues and the dict as problem.toml into ``folder``; return the function
+    that rewrites the loaders' messages to name frames, rows and keys."""
+    labels: dict[str, list] = {}
+    for kind, df in frames.items():
+        (folder / f"{kind}.csv").write_text(_csv_text(kind, df, base), encoding="utf-8")
+        labels[kind] = list(df.index)
+    data = {"name": DEFAULT_NAME, **problem,
+            "catalogs": {kind: f"{kind}.csv" for kind in KINDS}}
+    energy = data.get("energy")
+    if isinstance(energy, dict) and isinstance(energy.get("cycle"), str):
+        data["energy"] = {**energy, "cycle": _absolute_or_name(energy["cycle"], base)}
+    (folder / "problem.toml").write_text(_toml_text(data), encoding="utf-8")
+    return _translator(folder, labels)
 
 def _absolute_or_name(value: str, base: Path) -> str:
     from selector.io.cycles import BUILTIN_CYCLES

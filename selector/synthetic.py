@@ -33,31 +33,41 @@ Large catalogues for benchmarks are built in memory instead (no files):
 `synthetic_study(n_motors, n_reducers, n_tyres, seed)` -> (Problem, Catalogs), and
 `variant_motors(n_rows, ...)` for catalogues of many near-variant motor rows (windings, voltages,
 mountings) with exact duplicates, as real supplier catalogues have.
+
+The writers and hand-made blocks live in `selector.synthetic_files`, the in-memory catalogues in
+`selector.synthetic_large`; this module re-exports their names, so ``selector.synthetic`` is the one
+place to import the generator from.
 """
 
 from __future__ import annotations
 
-import csv
 import dataclasses
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
-import pandas as pd
 
 from selector.engine import evaluate
 from selector.engine.parts import PartTables
-from selector.inputs import Catalogs, Environment, Problem, Requirements, Vehicle
+from selector.inputs import Catalogs, Problem
 from selector.io.problem import load_study
-from selector.io.schema import columns
-from selector.physics.tyres import (
-    LOAD_INDEX_KG,
-    SPEED_SYMBOL_KMH,
-    load_capacity_kg,
-    speed_rating_kmh,
-    unloaded_diameter_m,
-)
+from selector.physics.tyres import LOAD_INDEX_KG, SPEED_SYMBOL_KMH
+from selector.synthetic_files import HAND_ENVIRONMENT as HAND_ENVIRONMENT
+from selector.synthetic_files import HAND_VEHICLE as HAND_VEHICLE
+from selector.synthetic_files import HEADER_COMMENT as HEADER_COMMENT
+from selector.synthetic_files import motor_row as motor_row
+from selector.synthetic_files import part_ids as part_ids
+from selector.synthetic_files import reducer_row as reducer_row
+from selector.synthetic_files import tyre_row as tyre_row
+from selector.synthetic_files import write_and_load as write_and_load
+from selector.synthetic_files import write_csv, write_problem
+from selector.synthetic_large import SYMBOLS as SYMBOLS
+from selector.synthetic_large import synthetic_catalogs as synthetic_catalogs
+from selector.synthetic_large import synthetic_problem as synthetic_problem
+from selector.synthetic_large import synthetic_study as synthetic_study
+from selector.synthetic_large import variant_motors as variant_motors
+from selector.synthetic_large import variant_study as variant_study
 from selector.units import RPM_TO_RAD_S
 
 OBJECTIVE_WEIGHTS = {"cost": 1 / 3, "mass": 1 / 3, "accel_time": 1 / 3}
@@ -73,7 +83,6 @@ SPEED_SYMBOLS = tuple(s for s, v in SPEED_SYMBOL_KMH.items() if v >= 100.0)
 DEFAULT_SIZES = ((3, 8), (3, 6), (3, 6))
 """Inclusive (min, max) counts of motors, reducers and tyres."""
 
-HEADER_COMMENT = "# Invented data for selector's tests ({what}); illustrative, not real products."
 
 
 @dataclass
@@ -276,53 +285,6 @@ def random_environment(rng) -> dict:
     return env
 
 
-# ------------------------------------------------------------------------------------------ files
-
-def write_csv(path: Path, kind: str, rows: list[dict], what: str = "hand-made") -> None:
-    """Write one catalogue CSV with the canonical header and an invented-data comment naming ``what``.
-
-    Missing keys of a row are written as empty cells (optional columns take their defaults).
-    """
-    names = [c.name for c in columns(kind)]
-    with open(path, "w", newline="", encoding="utf-8") as fh:
-        fh.write(HEADER_COMMENT.format(what=what) + "\n")
-        w = csv.writer(fh, lineterminator="\n")
-        w.writerow(names)
-        for r in rows:
-            w.writerow([r.get(n, "") for n in names])
-
-
-def _toml_value(v) -> str:
-    if isinstance(v, str):
-        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
-    if isinstance(v, bool):
-        return "true" if v else "false"
-    if isinstance(v, (int, np.integer)):
-        return str(int(v))
-    f = float(v)
-    if not math.isfinite(f):
-        raise ValueError(f"cannot write {f!r} to TOML")
-    return repr(f)
-
-
-def write_problem(path: Path, name: str, vehicle: dict, environment: dict, requirements: dict,
-                  objective: str, what: str = "hand-made", drive: dict | None = None,
-                  energy: dict | None = None) -> None:
-    """Write a problem TOML naming motors.csv, reducers.csv and tyres.csv beside it."""
-    lines = [HEADER_COMMENT.format(what=what), f"name = {_toml_value(name)}", "", "[catalogs]",
-             'motors = "motors.csv"', 'reducers = "reducers.csv"', 'tyres = "tyres.csv"', "", "[vehicle]"]
-    lines += [f"{k} = {_toml_value(x)}" for k, x in vehicle.items()]
-    if drive:
-        lines += ["", "[drive]"] + [f"{k} = {_toml_value(x)}" for k, x in drive.items()]
-    lines += ["", "[environment]"] + [f"{k} = {_toml_value(x)}" for k, x in environment.items()]
-    if requirements:
-        lines += ["", "[requirements]"] + [f"{k} = {_toml_value(x)}" for k, x in requirements.items()]
-    if energy:
-        lines += ["", "[energy]"] + [f"{k} = {_toml_value(x)}" for k, x in energy.items()]
-    lines += ["", "[objective]", f"minimize = {_toml_value(objective)}", ""]
-    path.write_text("\n".join(lines), encoding="utf-8")
-
-
 # ------------------------------------------------------------------------------------------ levels
 
 def _sig(x: float, digits: int = 4) -> float:
@@ -411,10 +373,38 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     Study
     """
     rng = np.random.default_rng(seed)
-    objective_arg = objective
     directory = Path(directory)
     directory.mkdir(parents=True, exist_ok=True)
     counts = [s if isinstance(s, (int, np.integer)) else int(rng.integers(s[0], s[1] + 1)) for s in sizes]
+    vehicle, environment, drive, energy_table = _write_random_catalogues(rng, seed, counts, directory, layout,
+                                                                         gearbox_share, energy)
+    weights = OBJECTIVE_WEIGHTS if objective_weights is None else objective_weights
+    names = sorted(weights)
+    p = np.array([weights[k] for k in names], dtype=float)
+    drawn = str(rng.choice(names, p=p / p.sum()))
+    chosen = objective or drawn
+    share = REQUIREMENT_SHARE if requirement_share is None else requirement_share
+    if not isinstance(share, dict):
+        share = {k: float(share) for k in REQUIREMENT_KEYS}
+    stated = [k for k in REQUIREMENT_KEYS if rng.random() < share.get(k, 0.0)]
+
+    # calibration: load the catalogues with the requirement-free problem, enumerate every design
+    path = directory / "problem.toml"
+    name = f"Random study {seed} (invented data)"
+    write_problem(path, name, vehicle, environment, {}, "cost", f"seed {seed}", drive, energy_table)
+    req, levels = _calibrated_levels(rng, path, layout, stated, chosen)
+    if energy and objective is None and np.random.default_rng([seed, 19]).random() < 0.4:
+        chosen = "energy"
+    write_problem(path, name, vehicle, environment, req, chosen, f"seed {seed}", drive, energy_table)
+    problem, catalogs = load_study(path)
+    return Study(seed=seed, problem_path=path, problem=problem, catalogs=catalogs,
+                 parts=PartTables.build(problem, catalogs), levels=levels)
+
+
+def _write_random_catalogues(rng, seed: int, counts: list[int], directory: Path, layout: str, gearbox_share: float,
+                             energy: bool):
+    """Draw the vehicle and the parts, write the three catalogues; return (vehicle, environment, drive table,
+    energy table) for the problem file (the draws from ``rng`` in a fixed order: same seed, same study)."""
     vehicle = random_vehicle(rng)
     environment = random_environment(rng)
     motors = random_motors(rng, counts[0])
@@ -441,20 +431,12 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
     tyres = random_tyres(rng, counts[2], tyre_load)
     for kind, rows in (("motors", motors), ("reducers", reducers), ("tyres", tyres)):
         write_csv(directory / f"{kind}.csv", kind, rows, f"seed {seed}")
-    weights = OBJECTIVE_WEIGHTS if objective_weights is None else objective_weights
-    names = sorted(weights)
-    p = np.array([weights[k] for k in names], dtype=float)
-    drawn = str(rng.choice(names, p=p / p.sum()))
-    objective = objective or drawn
-    share = REQUIREMENT_SHARE if requirement_share is None else requirement_share
-    if not isinstance(share, dict):
-        share = {k: float(share) for k in REQUIREMENT_KEYS}
-    stated = [k for k in REQUIREMENT_KEYS if rng.random() < share.get(k, 0.0)]
+    return vehicle, environment, drive, energy_table
 
-    # calibration: load the catalogues with the requirement-free problem, enumerate every design
-    path = directory / "problem.toml"
-    name = f"Random study {seed} (invented data)"
-    write_problem(path, name, vehicle, environment, {}, "cost", f"seed {seed}", drive, energy_table)
+
+def _calibrated_levels(rng, path: Path, layout: str, stated: list[str], objective: str) -> tuple[dict, dict]:
+    """Requirement levels of the ``stated`` families drawn from the exact metrics of every compatible design of
+    the requirement-free problem at ``path``; returns (requirements, how each level was drawn)."""
     base, catalogs = load_study(path)
     parts = PartTables.build(base, catalogs)
     mi, rj, tk = _all_triples(parts)
@@ -485,198 +467,19 @@ def random_study(seed: int, directory, sizes=DEFAULT_SIZES, objective: str | Non
         req["accel_to_kmh"] = float(max(10, int(top * rng.uniform(0.35, 0.85) / 5) * 5))
         parts = calibrated(req)
         met = evaluate.evaluate(parts, mi, rj, tk, accel=True)
-    families = {"top_speed_kmh": ("sustained_top_speed_kmh", "min"), "gradeability_pct": ("gradeability_pct", "min"),
-                "launch_accel_mps2": ("launch_accel_mps2", "min"), "accel_time_s": ("accel_time_s", "max"),
-                "max_mass_kg": ("mass_kg", "max"), "budget": ("cost", "max")}
-    for key, (metric, sense) in families.items():
+    for key, (metric, sense) in _FAMILIES.items():
         if key not in stated:
             continue
         level, kind = draw_level(rng, met[metric][pool], sense)
         if level is not None:
             req[key] = level
         levels[key] = kind
-
-    if energy and objective_arg is None and np.random.default_rng([seed, 19]).random() < 0.4:
-        objective = "energy"
-    write_problem(path, name, vehicle, environment, req, objective, f"seed {seed}", drive, energy_table)
-    problem, catalogs = load_study(path)
-    return Study(seed=seed, problem_path=path, problem=problem, catalogs=catalogs,
-                 parts=PartTables.build(problem, catalogs), levels=levels)
+    return req, levels
 
 
-def write_and_load(directory, motors: list[dict], reducers: list[dict], tyres: list[dict], vehicle: dict,
-                   environment: dict, requirements: dict | None = None, objective: str = "cost",
-                   name: str = "Hand-made study (invented data)") -> PartTables:
-    """Write hand-made catalogue rows and a problem to ``directory``, load them, return the part tables.
+_FAMILIES = {"top_speed_kmh": ("sustained_top_speed_kmh", "min"), "gradeability_pct": ("gradeability_pct", "min"),
+             "launch_accel_mps2": ("launch_accel_mps2", "min"), "accel_time_s": ("accel_time_s", "max"),
+             "max_mass_kg": ("mass_kg", "max"), "budget": ("cost", "max")}
+"""Requirement key -> (metric it bounds, "min" = achieved >= level or "max" = achieved <= level)."""
 
-    Rows are dicts keyed by catalogue column (missing optional columns are left empty).
-    """
-    directory = Path(directory)
-    directory.mkdir(parents=True, exist_ok=True)
-    for kind, rows in (("motors", motors), ("reducers", reducers), ("tyres", tyres)):
-        write_csv(directory / f"{kind}.csv", kind, rows)
-    path = directory / "problem.toml"
-    write_problem(path, name, vehicle, environment, requirements or {}, objective)
-    problem, catalogs = load_study(path)
-    return PartTables.build(problem, catalogs)
-
-
-def part_ids(parts: PartTables, design) -> tuple[str, str, str]:
-    """(motor, reducer, tyre) part ids of a design (value, mi, rj, tk)."""
-    _, i, j, k = design
-    return str(parts.motors.part[i]), str(parts.reducers.part[j]), str(parts.tyres.part[k])
-
-
-# ------------------------------------------------------------------------------------------ hand-made blocks
-# Building blocks of the hand-made engine tests (test_engine_families.py, test_engine_ties.py):
-# an invented 1500 kg vehicle and one part of each kind, overridable field by field.
-
-HAND_VEHICLE = {"mass_kg": 1500.0, "drag_area_m2": 0.8, "wheelbase_m": 2.8, "cg_height_m": 0.6,
-                "rear_axle_share": 0.5, "driven_axle": "rear", "tyre_count": 4}
-HAND_ENVIRONMENT = {"road_friction": 0.9, "air_density_kg_m3": 1.2}
-
-
-def motor_row(part, **kw):
-    """Motor row: 250 N m / 80 kW peak, 130 N m / 40 kW continuous, 12000 rpm, no decline, 40 kg, 2000."""
-    row = {"part": part, "supplier": "Volta Drives", "peak_torque_nm": 250, "peak_power_kw": 80,
-           "max_speed_rpm": 12000, "cont_torque_nm": 130, "cont_power_kw": 40, "decline_speed_rpm": "",
-           "decline_exponent": "", "mass_kg": 40, "rotor_inertia_kgm2": 0.02, "unit_cost": 2000,
-           "lead_time_weeks": 4}
-    row.update(kw)
-    return row
-
-
-def reducer_row(part, **kw):
-    """Reducer row: ratio 8, 97 %, 400 N m, 16000 rpm, 15 kg, 500."""
-    row = {"part": part, "supplier": "Geartech", "ratio": 8, "efficiency_pct": 97, "max_input_torque_nm": 400,
-           "max_input_speed_rpm": 16000, "mass_kg": 15, "unit_cost": 500, "lead_time_weeks": 2}
-    row.update(kw)
-    return row
-
-
-def tyre_row(part, **kw):
-    """Tyre row: 205/55R16 91V, 8.0 N/kN, 9 kg, 100."""
-    row = {"part": part, "supplier": "Roundway", "size": "205/55R16", "load_index": 91, "speed_symbol": "V",
-           "rr_coefficient_n_per_kn": 8.0, "mass_kg": 9, "unit_cost": 100, "lead_time_weeks": 1}
-    row.update(kw)
-    return row
-
-
-# ------------------------------------------------------------------------------------------ large, in memory
-# Benchmark-size catalogues built in memory (no files, no calibration pass).
-
-SYMBOLS = np.array(["Q", "R", "S", "T", "H", "V", "W", "Y"])
-
-
-def synthetic_catalogs(n_motors: int, n_reducers: int, n_tyres: int, seed: int = 0) -> Catalogs:
-    """Random but rule-abiding motor, reducer and tyre tables (sorted by part id)."""
-    rng = np.random.default_rng(seed)
-    p_kw = np.exp(rng.uniform(np.log(40), np.log(250), n_motors))
-    t_nm = p_kw * rng.uniform(1.6, 3.2, n_motors)
-    corner_rpm = p_kw * 1000 / t_nm * 60 / (2 * np.pi)
-    max_rpm = np.maximum(corner_rpm * rng.uniform(2.0, 4.0, n_motors), rng.uniform(8000, 16000, n_motors))
-    decline = np.where(rng.random(n_motors) < 0.3, rng.uniform(corner_rpm, max_rpm), np.nan)
-    motors = pd.DataFrame({
-        "part": [f"SM-{i:05d}" for i in range(n_motors)],
-        "supplier": [f"Synthetic Motors {i % 7}" for i in range(n_motors)],
-        "peak_torque_nm": t_nm.round(1), "peak_power_kw": p_kw.round(2), "max_speed_rpm": max_rpm.round(0),
-        "cont_torque_nm": (t_nm * rng.uniform(0.45, 0.7, n_motors)).round(1),
-        "cont_power_kw": (p_kw * rng.uniform(0.45, 0.7, n_motors)).round(2),
-        "decline_speed_rpm": np.where(np.isnan(decline), max_rpm.round(0), np.ceil(decline)),
-        "decline_exponent": np.where(np.isnan(decline), 1.0, rng.uniform(0.5, 1.5, n_motors).round(2)),
-        "mass_kg": (p_kw * rng.uniform(0.4, 1.2, n_motors) + 10).round(1),
-        "rotor_inertia_kgm2": (t_nm * rng.uniform(1e-4, 3e-4, n_motors)).round(5),
-        "unit_cost": (p_kw * rng.uniform(25, 60, n_motors) + 300).round(0),
-        "lead_time_weeks": rng.integers(2, 30, n_motors).astype(float),
-    })
-    reducers = pd.DataFrame({
-        "part": [f"SR-{j:05d}" for j in range(n_reducers)],
-        "supplier": [f"Synthetic Gears {j % 4}" for j in range(n_reducers)],
-        "ratio": rng.uniform(4.0, 14.0, n_reducers).round(3),
-        "efficiency_pct": rng.uniform(94.0, 98.0, n_reducers).round(1),
-        "max_input_torque_nm": rng.choice([250, 400, 600, 800, 1000], n_reducers).astype(float),
-        "max_input_speed_rpm": rng.choice([10000, 14000, 18000, 20000], n_reducers).astype(float),
-        "mass_kg": rng.uniform(8, 50, n_reducers).round(1),
-        "unit_cost": rng.uniform(400, 3000, n_reducers).round(0),
-        "lead_time_weeks": rng.integers(2, 20, n_reducers).astype(float),
-    })
-    width = rng.choice(np.arange(165, 306, 10), n_tyres)
-    aspect = rng.choice(np.arange(35, 81, 5), n_tyres)
-    rim = rng.integers(14, 21, n_tyres)
-    li = rng.integers(80, 121, n_tyres)
-    sym = rng.choice(SYMBOLS, n_tyres)
-    tyres = pd.DataFrame({
-        "part": [f"ST-{k:05d}" for k in range(n_tyres)],
-        "supplier": [f"Synthetic Tyres {k % 5}" for k in range(n_tyres)],
-        "size": [f"{w}/{a}R{r}" for w, a, r in zip(width, aspect, rim, strict=True)],
-        "load_index": li, "speed_symbol": sym,
-        "rr_coefficient_n_per_kn": rng.uniform(6.0, 12.0, n_tyres).round(1),
-        "mass_kg": rng.uniform(7, 16, n_tyres).round(1),
-        "unit_cost": rng.uniform(60, 300, n_tyres).round(0),
-        "lead_time_weeks": rng.integers(1, 12, n_tyres).astype(float),
-    })
-    tyres["diameter_m"] = unloaded_diameter_m(width.astype(float), aspect.astype(float), rim.astype(float))
-    tyres["speed_rating_kmh"] = speed_rating_kmh(sym)
-    tyres["load_capacity_kg"] = load_capacity_kg(li)
-    return Catalogs(motors=motors, reducers=reducers, tyres=tyres)
-
-
-def synthetic_problem(objective: str = "cost") -> Problem:
-    """A light commercial van study (illustrative) with all requirement families stated."""
-    return Problem(
-        name="Synthetic van benchmark (illustrative data)", path=None, catalog_paths={},
-        vehicle=Vehicle(mass_kg=1900.0, drag_area_m2=1.1, wheelbase_m=3.0, cg_height_m=0.65,
-                        rear_axle_share=0.5, driven_axle="rear", tyre_count=4),
-        environment=Environment(air_density_kg_m3=1.2, road_friction=0.85),
-        requirements=Requirements(top_speed_kmh=130, gradeability_pct=25, launch_accel_mps2=2.5,
-                                  accel_to_kmh=100, accel_time_s=11.0, max_mass_kg=2300, budget=12000),
-        objective=objective)
-
-
-def synthetic_study(n_motors: int, n_reducers: int, n_tyres: int, seed: int = 0, objective: str = "cost"):
-    """(Problem, Catalogs) of the given sizes."""
-    return synthetic_problem(objective), synthetic_catalogs(n_motors, n_reducers, n_tyres, seed)
-
-
-def variant_motors(motors: pd.DataFrame, n_rows: int, seed: int = 0) -> pd.DataFrame:
-    """``n_rows`` motor rows made as near-variants of the rows of ``motors`` (invented data).
-
-    Each row copies a random base row and then, at random: stays an exact copy (a duplicate under
-    its own part id, 25 %), costs 0-15 % more and weighs 0-5 % more (a dominated copy, 35 %), or is
-    another winding (peak and continuous torque times f, every speed divided by f, f in 0.95..1.05,
-    the same powers; price within +-5 %; 40 %). Part ids are drawn at random so that file order and
-    part-id order differ from the base order.
-    """
-    rng = np.random.default_rng([seed, 23])
-    base = motors.reset_index(drop=True)
-    src = rng.integers(0, len(base), n_rows)
-    out = base.iloc[src].reset_index(drop=True).copy()
-    kind = rng.random(n_rows)
-    dom = (kind >= 0.25) & (kind < 0.6)
-    wind = kind >= 0.6
-    out.loc[dom, "unit_cost"] = (out.loc[dom, "unit_cost"] * rng.uniform(1.0, 1.15, dom.sum())).round(0)
-    out.loc[dom, "mass_kg"] = (out.loc[dom, "mass_kg"] * rng.uniform(1.0, 1.05, dom.sum())).round(1)
-    f = rng.uniform(0.95, 1.05, wind.sum())
-    for col in ("peak_torque_nm", "cont_torque_nm"):
-        out.loc[wind, col] = (out.loc[wind, col] * f).round(1)
-    out.loc[wind, "max_speed_rpm"] = (out.loc[wind, "max_speed_rpm"] / f).round(0)
-    corner = out["peak_power_kw"] * 1000 / out["peak_torque_nm"] * 60 / (2 * np.pi)
-    fw = np.ones(n_rows)
-    fw[wind] = f
-    decline = np.minimum(np.maximum(np.ceil(out["decline_speed_rpm"] / fw), np.ceil(corner)), out["max_speed_rpm"])
-    out["decline_speed_rpm"] = np.where(wind, decline, out["decline_speed_rpm"])
-    out.loc[wind, "unit_cost"] = (out.loc[wind, "unit_cost"] * rng.uniform(0.95, 1.05, wind.sum())).round(0)
-    ids = rng.choice(np.arange(10 * n_rows), n_rows, replace=False)
-    out["part"] = [f"SV-{int(x):07d}" for x in ids]
-    return out.sort_values("part", kind="stable").reset_index(drop=True)
-
-
-def variant_study(n_rows: int, n_reducers: int, n_tyres: int, families: int | None = None, seed: int = 0,
-                  objective: str = "cost"):
-    """(Problem, Catalogs): ``n_rows`` motor rows, near-variants of ``families`` base motors (default
-    n_rows / 10), with the synthetic reducers and tyres (invented data)."""
-    families = families or max(1, n_rows // 10)
-    cat = synthetic_catalogs(families, n_reducers, n_tyres, seed)
-    motors = variant_motors(cat.motors, n_rows, seed)
-    return synthetic_problem(objective), Catalogs(motors=motors, reducers=cat.reducers, tyres=cat.tyres)
 

@@ -13,9 +13,9 @@ import threading
 import pytest
 from hostile import assert_clean_answer, make_study, run_cli, set_cell, set_key
 
-from selector.io.catalog import _number_with_unit
+from selector.io.catalog_cells import _number_with_unit
 from selector.io.files import MAX_CELL_CHARS, MAX_LINE_CHARS
-from selector.io.problem import _table_header
+from selector.io.problem_checks import _table_header
 
 
 @pytest.mark.parametrize("kind, column, value, words", [

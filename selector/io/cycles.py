@@ -28,7 +28,7 @@ from pathlib import Path
 import numpy as np
 
 from selector.errors import InputError
-from selector.io.files import read_input_text
+from selector.io.files import read_input_text, split_lines_after_comments
 from selector.physics.cycles import cycle_distance_m
 from selector.units import KMH_PER_MPS
 
@@ -171,14 +171,8 @@ def _read_text(path: Path, disp: str) -> str:
 
 
 def _load_file(path: Path, name: str, disp: str) -> Cycle:
-    text = _read_text(path, disp).replace("\r\n", "\n").replace("\r", "\n")
-    lines = text.split("\n")
-    source = []
-    start = 0
-    while start < len(lines) and (not lines[start].strip() or lines[start].lstrip().startswith("#")):
-        if lines[start].strip():
-            source.append(lines[start].strip().lstrip("#").strip())
-        start += 1
+    lines, start = split_lines_after_comments(_read_text(path, disp))
+    source = [line.strip().lstrip("#").strip() for line in lines[:start] if line.strip()]
     if start >= len(lines):
         raise InputError(f"{disp}: no header row. The file needs the header {','.join(HEADER)} and one row per "
                          "second.")
@@ -190,7 +184,16 @@ def _load_file(path: Path, name: str, disp: str) -> Cycle:
             hint = " The file seems to be separated by semicolons or tabs; save it as comma-separated CSV."
         raise InputError(f"{disp} line {head_no}: header is {lines[start].strip()!r}; must be exactly "
                          f"{','.join(HEADER)} (time in seconds, speed in km/h).{hint} Fix the header row.")
+    times, speeds = _rows(lines, head_no, disp)
+    t_arr = np.asarray(times, dtype=float)
+    v_arr = np.asarray(speeds, dtype=float) / KMH_PER_MPS
+    t_arr.flags.writeable = False
+    v_arr.flags.writeable = False
+    return Cycle(name=name, time_s=t_arr, speed_mps=v_arr, source=tuple(source), path=path)
 
+
+def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[float]]:
+    """Times [s] and speeds [km/h] of the rows after the header, or `InputError` listing every bad row."""
     errors: list[str] = []
     times: list[float] = []
     speeds: list[float] = []
@@ -214,13 +217,7 @@ def _load_file(path: Path, name: str, disp: str) -> Cycle:
             v = None
         if t is not None:
             expected = 0.0 if not times else (prev_t + 1.0 if prev_t is not None else float(len(times)))
-            if abs(t - expected) > _TIME_TOL_S:
-                if not times:
-                    errors.append(f"{where}: time_s = {cells[0].strip()}; the first time must be 0 [s]. "
-                                  "Shift the times to start at 0.")
-                else:
-                    errors.append(f"{where}: time_s = {cells[0].strip()}; must be {expected:g} [s] (one row per "
-                                  "second, times increasing by exactly 1 s). Resample the cycle at 1 Hz.")
+            _check_time(t, expected, bool(times), cells[0].strip(), where, errors)
         prev_t = t
         times.append(t if t is not None else math.nan)
         speeds.append(v if v is not None else math.nan)
@@ -233,12 +230,18 @@ def _load_file(path: Path, name: str, disp: str) -> Cycle:
         more = [f"... and {n - _MAX_LISTED} more"] if n > _MAX_LISTED else []
         raise InputError(f"{disp}: {n} error{'s' if n > 1 else ''} in the cycle file; it was not loaded.\n"
                          + "\n".join(f"  {e}" for e in shown + more))
-    t_arr = np.asarray(times, dtype=float)
-    v_arr = np.asarray(speeds, dtype=float) / KMH_PER_MPS
-    t_arr.flags.writeable = False
-    v_arr.flags.writeable = False
-    return Cycle(name=name, time_s=t_arr, speed_mps=v_arr, source=tuple(source), path=path)
+    return times, speeds
 
+
+def _check_time(t: float, expected: float, later: bool, raw: str, where: str, errors: list[str]) -> None:
+    """The first time must be 0 s and each later one 1 s after the row before."""
+    if abs(t - expected) > _TIME_TOL_S:
+        if not later:
+            errors.append(f"{where}: time_s = {raw}; the first time must be 0 [s]. "
+                          "Shift the times to start at 0.")
+        else:
+            errors.append(f"{where}: time_s = {raw}; must be {expected:g} [s] (one row per "
+                          "second, times increasing by exactly 1 s). Resample the cycle at 1 Hz.")
 
 def _number(raw: str, column: str, unit: str, where: str, errors: list[str]):
     s = raw.strip()

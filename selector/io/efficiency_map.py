@@ -29,7 +29,7 @@ from pathlib import Path
 import numpy as np
 
 from selector.errors import InputError
-from selector.io.files import read_input_text
+from selector.io.files import read_input_text, split_lines_after_comments
 from selector.physics.losses import EfficiencyGrid
 from selector.units import RPM_TO_RAD_S
 
@@ -65,34 +65,43 @@ def load_efficiency_map(path, disp: str | None = None) -> EfficiencyGrid:
     """
     path = Path(path)
     disp = str(path) if disp is None else disp
-    text = _read_text(path, disp).replace("\r\n", "\n").replace("\r", "\n")
-    lines = text.split("\n")
-    start = 0
-    while start < len(lines) and (not lines[start].strip() or lines[start].lstrip().startswith("#")):
-        start += 1
+    lines, start = split_lines_after_comments(_read_text(path, disp))
     if start >= len(lines):
         raise InputError(f"{disp}: no header row. An efficiency map needs the header "
                          f"{','.join(MAP_COLUMNS)} and one row per grid point.")
     head_no = start + 1
     header = [c.strip() for c in lines[start].split(",")]
+    col = _header_columns(header, f"{disp} line {head_no} (header row)", disp)
+    points, values = _grid_points(lines, head_no, len(header), col, disp)
+    return _grid(points, values, disp)
+
+
+def _header_columns(header: list[str], hloc: str, disp: str) -> dict[str, int]:
+    """The index of each map column in the header row, or `InputError` listing unknown, missing and repeated
+    columns."""
     errors: list[str] = []
     for h in header:
         if h not in MAP_COLUMNS:
             hit = difflib.get_close_matches(h, MAP_COLUMNS, n=1, cutoff=0.6)
             did = f' (did you mean "{hit[0]}"?)' if hit else ""
-            errors.append(f"{disp} line {head_no} (header row): unknown column \"{h}\"{did}. "
+            errors.append(f"{hloc}: unknown column \"{h}\"{did}. "
                           f"The columns are {', '.join(MAP_COLUMNS)}.")
     for c in MAP_COLUMNS:
         n = header.count(c)
         if n == 0:
-            errors.append(f"{disp} line {head_no} (header row): column \"{c}\" is missing. "
+            errors.append(f"{hloc}: column \"{c}\" is missing. "
                           f"The columns are {', '.join(MAP_COLUMNS)}.")
         elif n > 1:
-            errors.append(f"{disp} line {head_no} (header row): column \"{c}\" appears {n} times. Keep one.")
+            errors.append(f"{hloc}: column \"{c}\" appears {n} times. Keep one.")
     if errors:
         raise InputError(_report(disp, errors))
-    col = {c: header.index(c) for c in MAP_COLUMNS}
+    return {c: header.index(c) for c in MAP_COLUMNS}
 
+
+def _grid_points(lines: list[str], head_no: int, ncol: int, col: dict[str, int], disp: str):
+    """The rows after the header as ``{(speed_rpm, torque_nm): line}`` and ``{(speed_rpm, torque_nm):
+    efficiency_pct}``, or `InputError` listing every bad row."""
+    errors: list[str] = []
     points: dict[tuple[float, float], int] = {}
     values: dict[tuple[float, float], float] = {}
     for line_no in range(head_no + 1, len(lines) + 1):
@@ -101,23 +110,14 @@ def load_efficiency_map(path, disp: str | None = None) -> EfficiencyGrid:
             continue
         where = f"{disp} line {line_no}"
         cells = [c.strip() for c in row.split(",")]
-        if len(cells) != len(header):
-            errors.append(f"{where}: {len(cells)} cells but the header has {len(header)} columns. Fix the row "
+        if len(cells) != ncol:
+            errors.append(f"{where}: {len(cells)} cells but the header has {ncol} columns. Fix the row "
                           "(numbers take a decimal point, not a decimal comma).")
             continue
-        got = {}
-        for c in MAP_COLUMNS:
-            got[c] = _number(cells[col[c]], c, where, errors)
-        s, t, e = got["speed_rpm"], got["torque_nm"], got["efficiency_pct"]
-        if s is not None and s < 0:
-            errors.append(f"{where}: speed_rpm = {cells[col['speed_rpm']]}; must be >= 0 [rpm]. Fix the value.")
-            s = None
-        if e is not None and not 0 <= e <= 100:
-            errors.append(f"{where}: efficiency_pct = {cells[col['efficiency_pct']]}; must be in [0, 100] [%]. "
-                          "Give the efficiency in percent, e.g. 94.5.")
-            e = None
-        if s is None or t is None or e is None:
+        point = _grid_point(cells, col, where, errors)
+        if point is None:
             continue
+        s, t, e = point
         key = (s, t)
         if key in points:
             errors.append(f"{where}: the point speed_rpm = {s:g}, torque_nm = {t:g} is also on line {points[key]}; "
@@ -127,6 +127,29 @@ def load_efficiency_map(path, disp: str | None = None) -> EfficiencyGrid:
         values[key] = e
     if errors:
         raise InputError(_report(disp, errors))
+    return points, values
+
+
+def _grid_point(cells: list[str], col: dict[str, int], where: str, errors: list[str]):
+    """(speed_rpm, torque_nm, efficiency_pct) of one row, or None (its problems added to ``errors``)."""
+    got = {}
+    for c in MAP_COLUMNS:
+        got[c] = _number(cells[col[c]], c, where, errors)
+    s, t, e = got["speed_rpm"], got["torque_nm"], got["efficiency_pct"]
+    if s is not None and s < 0:
+        errors.append(f"{where}: speed_rpm = {cells[col['speed_rpm']]}; must be >= 0 [rpm]. Fix the value.")
+        s = None
+    if e is not None and not 0 <= e <= 100:
+        errors.append(f"{where}: efficiency_pct = {cells[col['efficiency_pct']]}; must be in [0, 100] [%]. "
+                      "Give the efficiency in percent, e.g. 94.5.")
+        e = None
+    if s is None or t is None or e is None:
+        return None
+    return s, t, e
+
+
+def _grid(points: dict, values: dict, disp: str) -> EfficiencyGrid:
+    """The rectangular grid of the points (at least 2 x 2, efficiencies in percent) in SI, read-only arrays."""
     speeds = sorted({k[0] for k in points})
     torques = sorted({k[1] for k in points})
     if len(speeds) < 2 or len(torques) < 2:
@@ -152,7 +175,6 @@ def load_efficiency_map(path, disp: str | None = None) -> EfficiencyGrid:
     for a in (eff, spd, trq):
         a.flags.writeable = False
     return EfficiencyGrid(speed_rad_s=spd, torque_nm=trq, efficiency=eff, name=disp)
-
 
 def _report(disp: str, errors: list[str]) -> str:
     n = len(errors)

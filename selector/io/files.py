@@ -91,21 +91,7 @@ def read_input_text(path, disp: str, not_found: str, what: str = "file", save_as
         `MAX_LINE_CHARS`.
     """
     p = Path(path)
-    try:
-        st = os.stat(p)
-    except (FileNotFoundError, NotADirectoryError):
-        raise InputError(not_found) from None
-    except (OSError, ValueError) as exc:
-        cause = describe_os_error(exc) if isinstance(exc, OSError) else str(exc)
-        raise InputError(f"{disp}: cannot be read ({cause}). Check the path.") from None
-    if stat.S_ISDIR(st.st_mode):
-        raise InputError(f"{disp}: is a folder, not a {what}. Give the path of the {what}.")
-    if not stat.S_ISREG(st.st_mode):
-        raise InputError(f"{disp}: is not a regular file (a pipe, device or socket); selector reads only "
-                         f"regular files. Save the {what} to disk and give its path.")
-    if st.st_size > max_bytes:
-        raise InputError(f"{disp}: {st.st_size:,} bytes, larger than the {max_bytes:,} bytes selector reads "
-                         f"for a {what}. Check that this is the right file, or split it.")
+    _check_regular_file(p, disp, not_found, what, max_bytes)
     try:
         with open(p, "rb") as fh:
             data = fh.read(max_bytes + 1)
@@ -126,6 +112,36 @@ def read_input_text(path, disp: str, not_found: str, what: str = "file", save_as
                              f"selector accepts in one line of a {what}. Check the file (a missing line break or "
                              "a pasted blob?).")
     return text
+
+
+def _check_regular_file(p: Path, disp: str, not_found: str, what: str, max_bytes: int) -> None:
+    """`InputError` unless ``p`` is an existing regular file of at most ``max_bytes`` (checked with ``stat``,
+    before opening, so that nothing blocks)."""
+    try:
+        st = os.stat(p)
+    except (FileNotFoundError, NotADirectoryError):
+        raise InputError(not_found) from None
+    except (OSError, ValueError) as exc:
+        cause = describe_os_error(exc) if isinstance(exc, OSError) else str(exc)
+        raise InputError(f"{disp}: cannot be read ({cause}). Check the path.") from None
+    if stat.S_ISDIR(st.st_mode):
+        raise InputError(f"{disp}: is a folder, not a {what}. Give the path of the {what}.")
+    if not stat.S_ISREG(st.st_mode):
+        raise InputError(f"{disp}: is not a regular file (a pipe, device or socket); selector reads only "
+                         f"regular files. Save the {what} to disk and give its path.")
+    if st.st_size > max_bytes:
+        raise InputError(f"{disp}: {st.st_size:,} bytes, larger than the {max_bytes:,} bytes selector reads "
+                         f"for a {what}. Check that this is the right file, or split it.")
+
+
+def split_lines_after_comments(text: str) -> tuple[list[str], int]:
+    """The lines of ``text`` (``\\r\\n``, ``\\r`` or ``\\n`` endings) and the index of the first that is neither
+    blank nor a ``#`` comment (``len(lines)`` when every line is): where a CSV's header row is."""
+    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    start = 0
+    while start < len(lines) and (not lines[start].strip() or lines[start].lstrip().startswith("#")):
+        start += 1
+    return lines, start
 
 
 def control_char(text: str) -> int | None:

@@ -66,32 +66,19 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
     road_level_n, road_grade_n (None without gradeability_pct), grade_pct, max_speed_mps,
     gearing_limit_mps, run_speed_mps and run_time_s (the acceleration run: time to reach each
     speed, computed by `physics.performance.accel_time_s`, so the last point is the reported
-    accel_time_s), accel_target_mps.
+    accel_time_s), accel_target_mps. The curves come from `physics.tractive_effort.single_axle_curves_n`.
     """
     from selector.physics import performance as perf
-    from selector.physics.road import road_load_n
-    from selector.physics.tractive_effort import traction_limited_force_n
-    from selector.units import kmh_to_mps
+    from selector.physics.tractive_effort import diagram_end_speed_mps, run_end_speed_mps, single_axle_curves_n
 
     drive, body = perf.broadcast(*parts.single_drive(np.array([i]), np.array([j]), np.array([k])))
-    p = parts.problem
+    req = parts.problem.requirements
     v_max = float(perf.max_speed_mps(drive, body)[0])
     v_gear = float(perf.gearing_speed_limit_mps(drive)[0])
-    v_end = min(v_gear, v_max * 1.25 if np.isfinite(v_max) and v_max > 0 else v_gear)
-    if p.requirements.top_speed_kmh is not None:
-        v_end = max(v_end, kmh_to_mps(p.requirements.top_speed_kmh) * 1.1)
-    v = np.linspace(0.0, v_end, SPEED_SAMPLES)
-    peak = perf.wheel_force(drive, v)
-    cont = perf.wheel_force(drive, v, continuous=True)
-    f_level = perf.level_road_load(body, v)
-    m_eff = perf.effective_mass(drive, body)
-    kap = perf.kappa(drive, body, m_eff)
-    w_d = perf.driven_weight_n(body)
-    trac = traction_limited_force_n(body.road_friction, w_d, kap, f_level)
-    grade = p.requirements.gradeability_pct
-    f_grade = None if grade is None else road_load_n(body.mass_kg, body.crr, body.q_n_s2_m2, v, grade)
-    target = None if p.requirements.accel_to_kmh is None else kmh_to_mps(p.requirements.accel_to_kmh)
-    run_end = target if target is not None and target <= v_max else ACCEL_RUN_END * v_max
+    v = np.linspace(0.0, diagram_end_speed_mps(v_max, v_gear, _kmh_or_none(req.top_speed_kmh)), SPEED_SAMPLES)
+    curves = single_axle_curves_n(drive, body, v, req.gradeability_pct)
+    target = _kmh_or_none(req.accel_to_kmh)
+    run_end = run_end_speed_mps(target, v_max, ACCEL_RUN_END)
     run_v = np.linspace(0.0, max(run_end, 0.0), ACCEL_RUN_SAMPLES)
     if run_end > 0:
         n = run_v.size - 1
@@ -100,9 +87,16 @@ def tractive_effort_data(parts, i: int, j: int, k: int) -> dict:
     else:
         run_v, run_t = np.zeros(1), np.zeros(1)
     ok = np.isfinite(run_t)
-    return {"speed_mps": v, "peak_n": peak, "cont_n": cont, "traction_n": trac, "road_level_n": f_level,
-            "road_grade_n": f_grade, "grade_pct": grade, "max_speed_mps": v_max, "gearing_limit_mps": v_gear,
-            "run_speed_mps": run_v[ok], "run_time_s": run_t[ok], "accel_target_mps": target}
+    return {"speed_mps": v, **curves, "grade_pct": req.gradeability_pct, "max_speed_mps": v_max,
+            "gearing_limit_mps": v_gear, "run_speed_mps": run_v[ok], "run_time_s": run_t[ok],
+            "accel_target_mps": target}
+
+
+def _kmh_or_none(kmh):
+    """A road speed [km/h] in m/s, None stays None."""
+    from selector.units import kmh_to_mps
+
+    return None if kmh is None else kmh_to_mps(kmh)
 
 
 def tractive_effort_plot(study, motor: str | None = None, reducer: str | None = None, tyre: str | None = None,
@@ -142,17 +136,24 @@ def tractive_effort_plot(study, motor: str | None = None, reducer: str | None = 
         return slot_tractive_effort_plot(study, design, path)
     _, i, j = units[0]
     k = design.tyre
-    motor_id, reducer_id, tyre_id = (str(parts.motors.part[i]), str(parts.reducers.part[j]),
-                                     str(parts.tyres.part[k]))
+    ids = (str(parts.motors.part[i]), str(parts.reducers.part[j]), str(parts.tyres.part[k]))
     d = tractive_effort_data(parts, i, j, k)
-    p = parts.problem
     fig, (ax, ax2) = _figure(1, 2, size=(12.0, 5.0))
     kmh = mps_to_kmh(d["speed_mps"])
     ax.plot(kmh, d["peak_n"] / 1e3, color="C0", lw=2, label="peak envelope")
     ax.plot(kmh, d["cont_n"] / 1e3, color="C0", lw=1.5, ls="--", label="continuous envelope")
-    finite = [a for a in (d["peak_n"], d["road_level_n"], d["road_grade_n"]) if a is not None]
-    ymax = max(float(np.max(a)) for a in finite) / 1e3
-    trac = d["traction_n"]
+    ymax = max(float(np.max(d["peak_n"])) / 1e3, _road_ymax_kn(d))
+    ymax = _draw_traction_limit(ax, kmh, d["traction_n"], ymax)
+    _draw_road_and_speeds(ax, kmh, d, parts.problem.requirements)
+    _finish_force_axes(ax, kmh, ymax, " + ".join(ids), legend_size=8)
+    _draw_run(ax2, d, parts.problem.requirements)
+    save_figure(fig, path)
+    return fig
+
+
+def _draw_traction_limit(ax, kmh, trac, ymax: float) -> float:
+    """Draw the single-axle traction limit on the level; return the force axis' top [kN] (stretched by
+    the curve up to `TRACTION_SHOWN` times the other curves; a curve wholly above is named in the legend)."""
     fin = np.isfinite(trac)
     if fin.any():
         t_max = float(np.max(trac[fin])) / 1e3
@@ -164,31 +165,55 @@ def tractive_effort_plot(study, motor: str | None = None, reducer: str | None = 
                                                  if above else ""))
     else:
         ax.plot([], [], color="C3", lw=1.2, ls="-.", label="traction limit, level: none (rear drive, kappa >= 1)")
+    return ymax
+
+
+def _road_ymax_kn(d: dict) -> float:
+    """The largest road load drawn (level, and grade when required) [kN]."""
+    return max(float(np.max(a)) for a in (d["road_level_n"], d["road_grade_n"]) if a is not None) / 1e3
+
+
+def _draw_road_and_speeds(ax, kmh, d: dict, req) -> None:
+    """Road load on the level and on the required grade; the top-speed requirement and the maximum speed."""
+    from selector.units import mps_to_kmh
+
     ax.plot(kmh, d["road_level_n"] / 1e3, color="0.3", lw=1.2, label="road load, level")
     if d["road_grade_n"] is not None:
         ax.plot(kmh, d["road_grade_n"] / 1e3, color="0.55", lw=1.2, ls=":",
                 label=f"road load, {d['grade_pct']:g} % grade")
-    top = p.requirements.top_speed_kmh
+    top = req.top_speed_kmh
     if top is not None:
         ax.axvline(top, color="C2", lw=1.2, ls="--", label=f"top_speed_kmh required ({top:g} km/h)")
     if np.isfinite(d["max_speed_mps"]):
         ax.axvline(mps_to_kmh(d["max_speed_mps"]), color="C1", lw=1.0, ls=":",
                    label=f"maximum speed ({mps_to_kmh(d['max_speed_mps']):.1f} km/h)")
+
+
+def _finish_force_axes(ax, kmh, ymax: float, name: str, legend_size: int) -> None:
+    """Limits, labels, title, grid and legend of the force chart."""
     ax.set_ylim(0.0, ymax * 1.15 if ymax > 0 else 1.0)
     ax.set_xlim(0.0, float(kmh[-1]))
     ax.set_xlabel("road speed [km/h]")
     ax.set_ylabel("wheel force [kN]")
-    ax.set_title(f"Tractive effort: {motor_id} + {reducer_id} + {tyre_id}", fontsize=10)
+    ax.set_title(f"Tractive effort: {name}", fontsize=10)
     ax.grid(True, alpha=0.3)
-    ax.legend(fontsize=8, loc="upper right")
+    ax.legend(fontsize=legend_size, loc="upper right")
+
+
+def _draw_run(ax2, d: dict, req) -> None:
+    """The acceleration run (road speed against time) with its shifts, the target speed and the required time."""
+    from selector.units import mps_to_kmh
 
     t, vs = d["run_time_s"], mps_to_kmh(d["run_speed_mps"])
     ax2.plot(t, vs, color="C0", lw=2, label="acceleration run, level")
+    for n, s in enumerate(d.get("shifts", ())):
+        ax2.plot([s["time_s"]], [s["speed_kmh"]], ls="none", marker="o", ms=6, mfc="none",
+                 mec=AXLE_COLORS[s["axle"]], label="shifts" if n == 0 else "_shift")
     target = d["accel_target_mps"]
     if target is not None:
         ax2.axhline(mps_to_kmh(target), color="0.5", lw=1.0, ls=":",
                     label=f"accel_to_kmh ({mps_to_kmh(target):g} km/h)")
-    req_t = p.requirements.accel_time_s
+    req_t = req.accel_time_s
     if req_t is not None:
         ax2.axvline(req_t, color="C2", lw=1.2, ls="--", label=f"accel_time_s required ({req_t:g} s)")
     if t.size > 1:
@@ -200,8 +225,6 @@ def tractive_effort_plot(study, motor: str | None = None, reducer: str | None = 
     ax2.set_title("Acceleration from rest", fontsize=10)
     ax2.grid(True, alpha=0.3)
     ax2.legend(fontsize=8, loc="lower right")
-    save_figure(fig, path)
-    return fig
 
 
 def slot_tractive_effort_data(parts, design) -> dict:
@@ -218,9 +241,9 @@ def slot_tractive_effort_data(parts, design) -> dict:
     """
     from selector.engine.evaluate import evaluate
     from selector.physics.accel_run import accel_run
-    from selector.physics.drivetrain import best_gear_force_n, speed_cap_mps, take_axles, take_fields
+    from selector.physics.drivetrain import speed_cap_mps, take_axles, take_fields
     from selector.physics.road import road_load_n
-    from selector.physics.tractive_effort import axle_forces_n, gear_force_curves_n, run_gears
+    from selector.physics.tractive_effort import design_axle_curves_n, diagram_end_speed_mps, run_end_speed_mps
     from selector.records import shift_rows
     from selector.units import kmh_to_mps
 
@@ -229,15 +252,10 @@ def slot_tractive_effort_data(parts, design) -> dict:
     m = evaluate(parts, key, accel=False)
     axles, body = parts.design(key, mass_kg=m["mass_kg"] if p.energy is not None else None)
     v_max = float(kmh_to_mps(m["max_speed_kmh"][0]))
-    v_cap = float(speed_cap_mps(axles)[0])
-    v_end = min(v_cap, v_max * 1.25 if np.isfinite(v_max) and v_max > 0 else v_cap)
-    if p.requirements.top_speed_kmh is not None:
-        v_end = max(v_end, kmh_to_mps(p.requirements.top_speed_kmh) * 1.1)
-    if not np.isfinite(v_end):
-        v_end = 100.0
+    v_end = diagram_end_speed_mps(v_max, float(speed_cap_mps(axles)[0]), _kmh_or_none(p.requirements.top_speed_kmh))
     v = np.linspace(0.0, v_end, SPEED_SAMPLES)
-    target = None if p.requirements.accel_to_kmh is None else kmh_to_mps(p.requirements.accel_to_kmh)
-    run_end = target if target is not None and target <= v_max else ACCEL_RUN_END * v_max
+    target = _kmh_or_none(p.requirements.accel_to_kmh)
+    run_end = run_end_speed_mps(target, v_max, ACCEL_RUN_END)
     # the run to the end speed gives the shifts; runs to every grid speed give the time curve
     rep = np.zeros(ACCEL_RUN_SAMPLES - 1, dtype=np.int64)
     run_v = np.linspace(0.0, max(run_end, 0.0), ACCEL_RUN_SAMPLES)
@@ -247,19 +265,8 @@ def slot_tractive_effort_data(parts, design) -> dict:
     else:
         run_v, run_t = np.zeros(1), np.zeros(1)
     ok = np.isfinite(run_t)
-    sa, sg, ss = full.shift_axle[0], full.shift_from_gear[0], full.shift_speed_mps[0]
-    g_f = run_gears(sa, sg, ss, 0, v)
-    g_r = run_gears(sa, sg, ss, 1, v)
-    many = np.zeros(v.size, dtype=np.int64)
-    ax_s, bd_s = take_axles(axles, many), take_fields(body, many)
-    forces = axle_forces_n(ax_s, bd_s, v, g_f, g_r)
-    units = []
-    for axle, unit, gears in (("front", axles.front, g_f), ("rear", axles.rear, g_r)):
-        if not bool(unit.present[0]):
-            continue
-        units.append({"axle": axle, "gears": gear_force_curves_n(unit, axles.radius_m, v)[0],
-                      "cont_best_n": best_gear_force_n(unit, axles.radius_m, v[None, :], continuous=True)[0],
-                      "run_gear": gears, "force_n": forces[f"{axle}_n"], "limit_n": forces[f"{axle}_limit_n"]})
+    units, forces = design_axle_curves_n(axles, body, v, full.shift_axle[0], full.shift_from_gear[0],
+                                         full.shift_speed_mps[0])
     grade = p.requirements.gradeability_pct
     f_grade = None if grade is None else road_load_n(body.mass_kg[0], body.crr[0], body.q_n_s2_m2[0], v, grade)
     return {"speed_mps": v, "units": units, "total_n": forces["total_n"], "accel_mps2": forces["accel_mps2"],
@@ -289,26 +296,11 @@ def slot_tractive_effort_plot(study, design, path):
 
     check_output_path(path)
     parts = study.parts
-    p = parts.problem
     d = slot_tractive_effort_data(parts, design)
     kmh = mps_to_kmh(d["speed_mps"])
     fig, (ax, ax2) = _figure(1, 2, size=(12.0, 5.0))
     two = len(d["units"]) > 1
-    ymax = 0.0
-    for u in d["units"]:
-        color = AXLE_COLORS[u["axle"]]
-        name = u["axle"] if two else "unit"
-        n_g = u["gears"].shape[0]
-        n_real = int(np.sum(np.any(np.isfinite(u["gears"]), axis=1)))
-        for g in range(n_g):
-            if not np.any(np.isfinite(u["gears"][g])):
-                continue
-            label = f"{name} peak envelope, gear {g + 1}" if n_real > 1 else f"{name} peak envelope"
-            ax.plot(kmh, u["gears"][g] / 1e3, color=color, lw=1.0 + 0.5 * (n_real == 1), alpha=0.8, label=label)
-            ymax = max(ymax, float(np.nanmax(u["gears"][g])) / 1e3)
-        ax.plot(kmh, u["cont_best_n"] / 1e3, color=color, lw=1.0, ls="--", label=f"{name} continuous envelope")
-        if two:
-            ax.plot(kmh, u["limit_n"] / 1e3, color=color, lw=1.2, ls="-.", label=f"{u['axle']} friction limit, level")
+    ymax = max([0.0] + [_draw_unit(ax, kmh, u, two) for u in d["units"]])
     if two:
         ax.plot(kmh, d["total_n"] / 1e3, color="k", lw=2.0, label="sum of axle forces (delivered)")
         ymax = max(ymax, float(np.max(d["total_n"])) / 1e3)
@@ -320,52 +312,34 @@ def slot_tractive_effort_plot(study, design, path):
                 label="shift points (acceleration run)" if n == 0 else "_shift")
         ax.annotate(f"{s['from_gear']}->{s['to_gear']}", (v_s, f_s), textcoords="offset points", xytext=(4, 4),
                     fontsize=7)
-    ax.plot(kmh, d["road_level_n"] / 1e3, color="0.3", lw=1.2, label="road load, level")
-    ymax = max(ymax, float(np.max(d["road_level_n"])) / 1e3)
-    if d["road_grade_n"] is not None:
-        ax.plot(kmh, d["road_grade_n"] / 1e3, color="0.55", lw=1.2, ls=":",
-                label=f"road load, {d['grade_pct']:g} % grade")
-        ymax = max(ymax, float(np.max(d["road_grade_n"])) / 1e3)
-    top = p.requirements.top_speed_kmh
-    if top is not None:
-        ax.axvline(top, color="C2", lw=1.2, ls="--", label=f"top_speed_kmh required ({top:g} km/h)")
-    if np.isfinite(d["max_speed_mps"]):
-        ax.axvline(mps_to_kmh(d["max_speed_mps"]), color="C1", lw=1.0, ls=":",
-                   label=f"maximum speed ({mps_to_kmh(d['max_speed_mps']):.1f} km/h)")
-    ax.set_ylim(0.0, ymax * 1.15 if ymax > 0 else 1.0)
-    ax.set_xlim(0.0, float(kmh[-1]))
-    ax.set_xlabel("road speed [km/h]")
-    ax.set_ylabel("wheel force [kN]")
+    ymax = max(ymax, _road_ymax_kn(d))
+    _draw_road_and_speeds(ax, kmh, d, parts.problem.requirements)
     rec = {"motor": None, "units": unit_rows(parts, design), "tyre": str(parts.tyres.part[design.tyre])}
     if not two:
         rec["motor"], rec["reducer"] = rec["units"][0]["motor"], rec["units"][0]["reducer"]
-    ax.set_title(f"Tractive effort: {design_name(rec)}", fontsize=10)
-    ax.grid(True, alpha=0.3)
-    ax.legend(fontsize=7, loc="upper right")
-
-    t, vs = d["run_time_s"], mps_to_kmh(d["run_speed_mps"])
-    ax2.plot(t, vs, color="C0", lw=2, label="acceleration run, level")
-    for n, s in enumerate(d["shifts"]):
-        ax2.plot([s["time_s"]], [s["speed_kmh"]], ls="none", marker="o", ms=6, mfc="none",
-                 mec=AXLE_COLORS[s["axle"]], label="shifts" if n == 0 else "_shift")
-    target = d["accel_target_mps"]
-    if target is not None:
-        ax2.axhline(mps_to_kmh(target), color="0.5", lw=1.0, ls=":",
-                    label=f"accel_to_kmh ({mps_to_kmh(target):g} km/h)")
-    req_t = p.requirements.accel_time_s
-    if req_t is not None:
-        ax2.axvline(req_t, color="C2", lw=1.2, ls="--", label=f"accel_time_s required ({req_t:g} s)")
-    if t.size > 1:
-        ax2.annotate(f"{t[-1]:.2f} s", (t[-1], vs[-1]), textcoords="offset points", xytext=(4, -12), fontsize=8)
-    ax2.set_xlabel("time [s]")
-    ax2.set_ylabel("road speed [km/h]")
-    ax2.set_xlim(left=0.0)
-    ax2.set_ylim(bottom=0.0)
-    ax2.set_title("Acceleration from rest", fontsize=10)
-    ax2.grid(True, alpha=0.3)
-    ax2.legend(fontsize=8, loc="lower right")
+    _finish_force_axes(ax, kmh, ymax, design_name(rec), legend_size=7)
+    _draw_run(ax2, d, parts.problem.requirements)
     save_figure(fig, path)
     return fig
+
+
+def _draw_unit(ax, kmh, u: dict, two: bool) -> float:
+    """One unit's peak envelope per gear, its continuous envelope and (two units) its friction limit;
+    return the largest peak force drawn [kN]."""
+    color = AXLE_COLORS[u["axle"]]
+    name = u["axle"] if two else "unit"
+    ymax = 0.0
+    n_real = int(np.sum(np.any(np.isfinite(u["gears"]), axis=1)))
+    for g in range(u["gears"].shape[0]):
+        if not np.any(np.isfinite(u["gears"][g])):
+            continue
+        label = f"{name} peak envelope, gear {g + 1}" if n_real > 1 else f"{name} peak envelope"
+        ax.plot(kmh, u["gears"][g] / 1e3, color=color, lw=1.0 + 0.5 * (n_real == 1), alpha=0.8, label=label)
+        ymax = max(ymax, float(np.nanmax(u["gears"][g])) / 1e3)
+    ax.plot(kmh, u["cont_best_n"] / 1e3, color=color, lw=1.0, ls="--", label=f"{name} continuous envelope")
+    if two:
+        ax.plot(kmh, u["limit_n"] / 1e3, color=color, lw=1.2, ls="-.", label=f"{u['axle']} friction limit, level")
+    return ymax
 
 
 # ----------------------------------------------------------------------------- frontier

@@ -182,25 +182,52 @@ def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fracti
     -------
     BatterySizing
     """
-    rng = np.broadcast_to(np.asarray(range_km, dtype=float), (n,))
     sigma = np.broadcast_to(np.asarray(specific_energy_wh_per_kg, dtype=float), (n,))
     u = np.broadcast_to(np.asarray(usable_fraction, dtype=float), (n,))
     m_max = np.broadcast_to(np.asarray(max_battery_kg, dtype=float), (n,)).copy()
-    calls = 0
+    g = _Surplus(consumption, np.broadcast_to(np.asarray(range_km, dtype=float), (n,)), sigma, u)
+    br = _bracket(g, n, m_max)
+    found = np.isfinite(br.hi)
+    _illinois(g, br, found, rtol, max_iter)
+    mass = np.where(found, br.hi, np.nan)
+    return BatterySizing(found=found, energy_wh=mass * sigma, mass_kg=mass,
+                         consumption_wh_per_km=np.where(found, br.c_hi, np.nan), evaluations=g.calls)
 
-    def g(m, idx):
-        nonlocal calls
-        calls += 1
-        c = np.asarray(consumption(m, idx), dtype=float)
-        val = u[idx] * sigma[idx] * m - rng[idx] * c
+
+class _Surplus:
+    """g(m) = u sigma m - R c(m) of the designs ``idx`` at battery masses ``m`` [Wh] (-inf where not finite),
+    with the consumption c(m) [Wh/km]; counts its calls."""
+
+    def __init__(self, consumption, range_km, sigma, u):
+        self.consumption, self.range_km, self.sigma, self.u = consumption, range_km, sigma, u
+        self.calls = 0
+
+    def __call__(self, m, idx):
+        self.calls += 1
+        c = np.asarray(self.consumption(m, idx), dtype=float)
+        val = self.u[idx] * self.sigma[idx] * m - self.range_km[idx] * c
         return np.where(np.isfinite(val), val, -np.inf), c
 
+
+@dataclass
+class _Bracket:
+    """Per design: g(lo) < 0 <= g(hi) (hi NaN where no battery up to the limit covers the range)."""
+
+    lo: np.ndarray
+    g_lo: np.ndarray
+    hi: np.ndarray
+    g_hi: np.ndarray
+    c_hi: np.ndarray
+
+
+def _bracket(g: _Surplus, n: int, m_max: np.ndarray) -> _Bracket:
+    """Bracket each design's smallest root: m = 0, a probe at 1 % of the limit, then a geometric scan
+    upward (factor 1.6) from the linear estimate through those two points."""
     all_idx = np.arange(n)
     lo = np.zeros(n)
     g_lo, c_lo = g(lo, all_idx)
-    hi = np.full(n, np.nan)
-    g_hi = np.full(n, np.nan)
-    c_hi = np.full(n, np.nan)
+    br = _Bracket(lo=lo, g_lo=g_lo, hi=np.full(n, np.nan), g_hi=np.full(n, np.nan), c_hi=np.full(n, np.nan))
+    hi, g_hi, c_hi = br.hi, br.g_hi, br.c_hi
     # m = 0 already covers the range (zero consumption)
     done0 = g_lo >= 0
     hi[done0], g_hi[done0], c_hi[done0] = 0.0, g_lo[done0], c_lo[done0]
@@ -230,9 +257,17 @@ def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fracti
         active[below[at_max]] = False
         grow = below[~at_max]
         m[grow] = np.minimum(m[grow] * 1.6, m_max[grow])
-    found = np.isfinite(hi)
-    # Illinois regula falsi on [lo, hi]
+    return br
+
+
+def _illinois(g: _Surplus, br: _Bracket, found: np.ndarray, rtol: float, max_iter: int) -> None:
+    """Narrow the brackets of the found designs in place by the Illinois variant of regula falsi, until
+    hi - lo <= rtol hi or g(hi) <= rtol u sigma hi."""
+    lo, g_lo, hi, g_hi, c_hi = br.lo, br.g_lo, br.hi, br.g_hi, br.c_hi
+    u, sigma = g.u, g.sigma
+    n = hi.size
     side = np.zeros(n, dtype=np.int8)
+
     def wide(i):
         return (hi[i] - lo[i] > rtol * hi[i]) & (g_hi[i] > rtol * u[i] * sigma[i] * hi[i])
 
@@ -260,6 +295,3 @@ def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fracti
         g_hi[i_dn[side[i_dn] == -1]] *= 0.5
         side[i_up], side[i_dn] = 1, -1
         narrow[idx] = wide(idx)
-    mass = np.where(found, hi, np.nan)
-    return BatterySizing(found=found, energy_wh=mass * sigma, mass_kg=mass,
-                         consumption_wh_per_km=np.where(found, c_hi, np.nan), evaluations=calls)

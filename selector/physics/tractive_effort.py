@@ -11,20 +11,27 @@ that the evaluator uses, so a curve drawn from them is the force the evaluation 
   split, load transfer m a h/L), each axle's delivered force min(F_axle, mu N_axle) and their sum
   (`axle_forces_n`), which equals m_eff a + F_res;
 - the single-axle traction-limited force on the level, (mu W_d - kappa F_res) / (1 - kappa)
-  (`traction_limited_force_n`).
+  (`traction_limited_force_n`);
+- the curves of one design as `selector.io.plots` draws them (`single_axle_curves_n`,
+  `design_axle_curves_n`) and the speed range of the diagram and of the drawn acceleration run.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
+from selector.physics import performance as perf
 from selector.physics.drivetrain import (
     Axles,
+    best_gear_force_n,
     combination_accels,
     gear_limit_mps,
     state_effective_mass_kg,
+    take_axles,
+    take_fields,
     unit_force_n,
 )
+from selector.physics.road import road_load_n
 from selector.physics.vehicle import traction_force_limit_n
 from selector.units import G_N
 
@@ -118,3 +125,62 @@ def traction_limited_force_n(road_friction, driven_weight_n, kappa, road_load_n)
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(1.0 - kappa > 0, (road_friction * driven_weight_n - kappa * road_load_n) / (1.0 - kappa),
                         np.inf)
+
+
+def diagram_end_speed_mps(max_speed_mps: float, limit_mps: float, top_speed_mps: float | None = None) -> float:
+    """Road speed where the tractive-effort diagram ends [m/s].
+
+    1.25 x the vehicle's maximum speed (the limit itself when the maximum speed is not finite or not
+    positive), at most ``limit_mps`` (the gearing limit), at least 1.1 x the required top speed
+    ``top_speed_mps`` when there is one; 100 m/s when that leaves no finite end.
+    """
+    v_end = min(limit_mps, max_speed_mps * 1.25 if np.isfinite(max_speed_mps) and max_speed_mps > 0 else limit_mps)
+    if top_speed_mps is not None:
+        v_end = max(v_end, top_speed_mps * 1.1)
+    if not np.isfinite(v_end):
+        v_end = 100.0
+    return v_end
+
+
+def run_end_speed_mps(target_mps: float | None, max_speed_mps: float, share: float) -> float:
+    """Road speed where the drawn acceleration run ends [m/s]: the target speed when it is reachable,
+    else ``share`` of the maximum speed (the time to the maximum speed itself is infinite)."""
+    return target_mps if target_mps is not None and target_mps <= max_speed_mps else share * max_speed_mps
+
+
+def single_axle_curves_n(drive, body, v, grade_pct: float | None) -> dict:
+    """Force curves of a single-axle design at road speeds ``v`` [N] (`selector.physics.performance` views).
+
+    Returns peak_n, cont_n (wheel force of the peak and continuous envelopes), traction_n
+    (`traction_limited_force_n` on the level; inf when unlimited), road_level_n and road_grade_n (road load
+    on the grade ``grade_pct`` [%]; None without one).
+    """
+    f_level = perf.level_road_load(body, v)
+    m_eff = perf.effective_mass(drive, body)
+    kap = perf.kappa(drive, body, m_eff)
+    trac = traction_limited_force_n(body.road_friction, perf.driven_weight_n(body), kap, f_level)
+    f_grade = None if grade_pct is None else road_load_n(body.mass_kg, body.crr, body.q_n_s2_m2, v, grade_pct)
+    return {"peak_n": perf.wheel_force(drive, v), "cont_n": perf.wheel_force(drive, v, continuous=True),
+            "traction_n": trac, "road_level_n": f_level, "road_grade_n": f_grade}
+
+
+def design_axle_curves_n(axles: Axles, body, v, shift_axle, shift_from_gear, shift_speed_mps):
+    """Curves of each axle of one design at road speeds ``v`` during its acceleration run [N].
+
+    ``axles``, ``body``: one design; ``shift_*``: its run's shifts (`run_gears`). Returns (units, forces):
+    units = [{axle, gears (G, s) peak force per gear (`gear_force_curves_n`), cont_best_n (continuous
+    envelope, best gear), run_gear, force_n (force in the run's gear), limit_n (friction limit at the
+    vehicle's acceleration)}] for the axles with a unit; forces = `axle_forces_n` at the run's gears.
+    """
+    g_f = run_gears(shift_axle, shift_from_gear, shift_speed_mps, 0, v)
+    g_r = run_gears(shift_axle, shift_from_gear, shift_speed_mps, 1, v)
+    many = np.zeros(v.size, dtype=np.int64)
+    forces = axle_forces_n(take_axles(axles, many), take_fields(body, many), v, g_f, g_r)
+    units = []
+    for axle, unit, gears in (("front", axles.front, g_f), ("rear", axles.rear, g_r)):
+        if not bool(unit.present[0]):
+            continue
+        units.append({"axle": axle, "gears": gear_force_curves_n(unit, axles.radius_m, v)[0],
+                      "cont_best_n": best_gear_force_n(unit, axles.radius_m, v[None, :], continuous=True)[0],
+                      "run_gear": gears, "force_n": forces[f"{axle}_n"], "limit_n": forces[f"{axle}_limit_n"]})
+    return units, forces

@@ -396,68 +396,87 @@ def accel_run(axles: Axles, body, target_mps, chunk: int = 20000) -> RunResult:
 
 
 def _run_chunk(axles: Axles, body, target, res: RunResult, out_rows):
+    """One chunk of `accel_run`: segments between shift events until every design finished or failed;
+    results are written into ``res`` at rows ``out_rows``."""
     n = axles.n
-    g_f = np.zeros(n, dtype=np.int64)
-    g_r = np.zeros(n, dtype=np.int64)
-    v0 = np.zeros(n)
-    t0 = np.zeros(n)
-    k_shift = np.zeros(n, dtype=np.int64)
-    reach = (target <= speed_cap_mps(axles) * (1 + 1e-12)) & (target <= body.speed_limit_mps)
-    active = reach.copy()
-    n_f, n_r = axles.front.n_gears, axles.rear.n_gears
+    run = _RunState(np.zeros(n, dtype=np.int64), np.zeros(n, dtype=np.int64), np.zeros(n), np.zeros(n),
+                    np.zeros(n, dtype=np.int64), res, out_rows)
+    active = (target <= speed_cap_mps(axles) * (1 + 1e-12)) & (target <= body.speed_limit_mps)
     for _ in range(res.shift_axle.shape[1] + 2):
         rows = np.nonzero(active)[0]
         if rows.size == 0:
             break
         ax, bd = take_axles(axles, rows), take_fields(body, rows)
-        st = _state(ax, bd, g_f[rows], g_r[rows])
-        v_lo, v_t = v0[rows], target[rows]
-        shift_at = {}
-        for which, g, ng in (("front", g_f[rows], n_f[rows]), ("rear", g_r[rows], n_r[rows])):
-            can = ng > g + 1
-            s_at = np.full(rows.size, np.inf)
-            if can.any():
-                lim = gear_limit_mps(getattr(ax, which), ax.radius_m, g)
-                hi = np.minimum(lim, v_t)
-                cr = np.nonzero(can)[0]
-                sp = _shift_point(_take_state(st, cr), which, v_lo[cr], np.maximum(hi[cr], v_lo[cr]))
-                # forced shift where the motor reaches its maximum speed in this gear (before the target)
-                sp = np.where(np.isinf(sp) & (lim[cr] < v_t[cr]), lim[cr], sp)
-                s_at[cr] = sp
-            shift_at[which] = s_at
+        st = _state(ax, bd, run.g_front[rows], run.g_rear[rows])
+        v_lo, v_t = run.v0[rows], target[rows]
+        shift_at = _next_shifts(st, axles.front.n_gears[rows], axles.rear.n_gears[rows], v_lo, v_t)
         v_end = np.minimum(v_t, np.minimum(shift_at["front"], shift_at["rear"]))
         seg = integrate_segment(st, v_lo, np.maximum(v_end, v_lo))
-        t_new = t0[rows] + seg
+        t_new = run.t0[rows] + seg
         failed = ~np.isfinite(seg)
         finished = ~failed & (v_end >= v_t)
         res.time_s[out_rows[rows[finished]]] = t_new[finished]
         shifting = ~failed & ~finished
         which_f = shifting & (shift_at["front"] <= shift_at["rear"])
-        which_r = shifting & ~which_f
         active[rows[failed | finished]] = False
-        for which, mask in (("front", which_f), ("rear", which_r)):
+        for which, mask in (("front", which_f), ("rear", shifting & ~which_f)):
             idx = np.nonzero(mask)[0]
-            if idx.size == 0:
-                continue
-            sub = _take_state(st, idx)
-            v_after, t_hit = _shift_phase(sub, which, v_end[idx], v_t[idx])
-            glob = rows[idx]
-            kk = k_shift[glob]
-            res.shift_axle[out_rows[glob], kk] = 0 if which == "front" else 1
-            res.shift_from_gear[out_rows[glob], kk] = (g_f if which == "front" else g_r)[glob]
-            res.shift_speed_mps[out_rows[glob], kk] = v_end[idx]
-            res.shift_time_s[out_rows[glob], kk] = t_new[idx]
-            k_shift[glob] += 1
-            hit = np.isfinite(t_hit)
-            res.time_s[out_rows[glob[hit]]] = t_new[idx][hit] + t_hit[hit]
-            active[glob[hit]] = False
-            unit = getattr(sub.axles, which)
-            t0[glob] = t_new[idx] + unit.shift_time_s
-            v0[glob] = v_after
-            if which == "front":
-                g_f[glob] += 1
-            else:
-                g_r[glob] += 1
+            if idx.size:
+                done = _shift(run, _take_state(st, idx), which, rows[idx], v_end[idx], v_t[idx], t_new[idx])
+                active[done] = False
+
+
+@dataclass(frozen=True)
+class _RunState:
+    """Per-design progress of a chunk's run (arrays updated in place): current gears, start speed and
+    time of the current segment, shifts made; and where the results go."""
+
+    g_front: np.ndarray
+    g_rear: np.ndarray
+    v0: np.ndarray
+    t0: np.ndarray
+    k_shift: np.ndarray
+    res: RunResult
+    out_rows: np.ndarray
+
+
+def _next_shifts(st: _State, n_front, n_rear, v_lo, v_t) -> dict:
+    """Speed of each unit's next upshift in the current segment (inf: none before the target) [m/s]:
+    the shift rule's point, or where its motor reaches its maximum speed in this gear."""
+    shift_at = {}
+    for which, g, ng in (("front", st.g_front, n_front), ("rear", st.g_rear, n_rear)):
+        can = ng > g + 1
+        s_at = np.full(v_lo.size, np.inf)
+        if can.any():
+            lim = gear_limit_mps(getattr(st.axles, which), st.axles.radius_m, g)
+            hi = np.minimum(lim, v_t)
+            cr = np.nonzero(can)[0]
+            sp = _shift_point(_take_state(st, cr), which, v_lo[cr], np.maximum(hi[cr], v_lo[cr]))
+            # forced shift where the motor reaches its maximum speed in this gear (before the target)
+            s_at[cr] = np.where(np.isinf(sp) & (lim[cr] < v_t[cr]), lim[cr], sp)
+        shift_at[which] = s_at
+    return shift_at
+
+
+def _shift(run: _RunState, sub: _State, which: str, glob, v_shift, v_t, t_shift) -> np.ndarray:
+    """Record the upshift of unit ``which`` of designs ``glob`` (chunk rows) at ``v_shift``, reached at
+    ``t_shift``; integrate the shift phase and start the next segment. Returns the chunk rows that
+    passed the target during the shift (their time is written)."""
+    res, out = run.res, run.out_rows
+    v_after, t_hit = _shift_phase(sub, which, v_shift, v_t)
+    kk = run.k_shift[glob]
+    gears = run.g_front if which == "front" else run.g_rear
+    res.shift_axle[out[glob], kk] = 0 if which == "front" else 1
+    res.shift_from_gear[out[glob], kk] = gears[glob]
+    res.shift_speed_mps[out[glob], kk] = v_shift
+    res.shift_time_s[out[glob], kk] = t_shift
+    run.k_shift[glob] += 1
+    hit = np.isfinite(t_hit)
+    res.time_s[out[glob[hit]]] = t_shift[hit] + t_hit[hit]
+    run.t0[glob] = t_shift + getattr(sub.axles, which).shift_time_s
+    run.v0[glob] = v_after
+    gears[glob] += 1
+    return glob[hit]
 
 
 def accel_time_s(axles: Axles, body, target_mps, chunk: int = 20000) -> np.ndarray:

@@ -20,6 +20,11 @@ from selector.physics.tyres import load_capacity_factor
 from selector.requirements import REL_TOL, check_rows, passes, stated
 from selector.units import kmh_to_mps, mps_to_kmh, rad_s_to_rpm
 
+COARSE_FIRST = 256
+"""`screen` bounds the time of more designs than this on `COARSE_NODES` speed nodes first [-]."""
+COARSE_NODES = 12
+"""Speed nodes of the coarse time bound (a left Riemann sum on any partition is a proved bound) [-]."""
+
 OBJECTIVE_METRIC = {"cost": "cost", "mass": "mass_kg", "accel_time": "accel_time_s", "energy": "energy_wh_per_km"}
 """Metric minimised by each objective."""
 
@@ -175,17 +180,33 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
         keep = passes("min", req.top_speed_kmh, mps_to_kmh(speeds.sustained_top_speed_mps(axles, body)))
         ok[sel[~keep]] = False
         sel = sel[keep]
-    if sel.size == 0:
-        return ok, obj
     if need_accel is None:
         need_accel = req.accel_time_s is not None or objective == "accel_time"
+    bracket = None
+    if sel.size and need_accel and p.energy is None:
+        # the proved time bracket before the speeds: designs whose lower bound already fails the time
+        # limit (or the cutoff) are out without the top-speed evaluation (the mass needs no battery here)
+        target = kmh_to_mps(req.accel_to_kmh)
+        if sel.size > COARSE_FIRST:  # a coarse partition first (also a proved bound), the fine one for the rest
+            axles, body = parts.design(keys[sel])
+            lo, _ = accel_run.time_bracket(axles, body, target, nodes=COARSE_NODES)
+            keep = ~_time_out(lo, req.accel_time_s, objective, accel_cutoff)
+            ok[sel[~keep]] = False
+            sel = sel[keep]
+        axles, body = parts.design(keys[sel])
+        lo, hi = accel_run.time_bracket(axles, body, target)
+        keep = ~_time_out(lo, req.accel_time_s, objective, accel_cutoff)
+        ok[sel[~keep]] = False
+        sel, bracket = sel[keep], (lo[keep], hi[keep])
+    if sel.size == 0:
+        return ok, obj
     m = evaluate(parts, keys[sel], accel=False)
     sub_ok = np.ones(sel.size, dtype=bool)
     for name, v in check_results(parts, m).items():
         if name != "accel_time_s":
             sub_ok &= v
     if need_accel:
-        m["accel_time_s"] = _accel_stage(parts, keys[sel], m, sub_ok, objective, accel_cutoff, keep_best)
+        m["accel_time_s"] = _accel_stage(parts, keys[sel], m, sub_ok, objective, accel_cutoff, keep_best, bracket)
         if req.accel_time_s is not None:
             sub_ok &= passes("max", req.accel_time_s, m["accel_time_s"])
     val = m[OBJECTIVE_METRIC[objective]]
@@ -213,7 +234,23 @@ def _cheap_checks(parts: PartTables, keys) -> np.ndarray:
     return ok
 
 
-def _accel_stage(parts: PartTables, keys, m: dict, sub_ok, objective: str, accel_cutoff, keep_best) -> np.ndarray:
+def _time_out(lo, limit, objective: str, accel_cutoff) -> np.ndarray:
+    """Designs whose proved lower time bound ``lo`` [s] settles them without the exact run: the target
+    is unreachable while a time is needed (a stated ``limit`` or the accel_time objective), the bound
+    fails ``limit`` [s], or under the accel_time objective it exceeds ``accel_cutoff`` [s]."""
+    tol = 1 + 2 * REL_TOL
+    out = np.zeros(np.shape(lo), dtype=bool)
+    if limit is not None or objective == "accel_time":
+        out |= ~np.isfinite(lo)
+    if limit is not None:
+        out |= ~(lo <= limit * tol)
+    if objective == "accel_time" and accel_cutoff is not None:
+        out |= ~(lo <= accel_cutoff * tol)
+    return out
+
+
+def _accel_stage(parts: PartTables, keys, m: dict, sub_ok, objective: str, accel_cutoff, keep_best,
+                 bracket=None) -> np.ndarray:
     """Acceleration times of the designs ``keys`` that passed every other check (``sub_ok``) [s].
 
     Every design first gets a proved bracket of its time (`accel_run.time_bracket`; designs with a
@@ -221,7 +258,8 @@ def _accel_stage(parts: PartTables, keys, m: dict, sub_ok, objective: str, accel
     accel_time objective, exceeds ``accel_cutoff``) gets inf without the exact run; one whose upper
     bound meets ``accel_time_s`` gets that upper bound (feasible, its time is not the objective); the
     rest are integrated exactly (with ``keep_best``, only those that can still be among the N best).
-    Designs not integrated carry inf or their proved upper bound.
+    Designs not integrated carry inf or their proved upper bound. ``bracket``: (lo, hi) of every row
+    of ``keys`` when the caller has it already.
     """
     req = parts.problem.requirements
     t = np.full(keys.shape[0], np.inf)
@@ -231,16 +269,14 @@ def _accel_stage(parts: PartTables, keys, m: dict, sub_ok, objective: str, accel
     mass = None if parts.problem.energy is None else m["mass_kg"][idx]
     axles, body = parts.design(keys[idx], mass_kg=mass)
     target = kmh_to_mps(req.accel_to_kmh)
-    lo, hi = accel_run.time_bracket(axles, body, target)
+    if bracket is None:
+        lo, hi = accel_run.time_bracket(axles, body, target)
+    else:
+        lo, hi = bracket[0][idx], bracket[1][idx]
     exact = np.isfinite(lo)
     limit = req.accel_time_s
-    tol = 1 + 2 * REL_TOL
-    if limit is not None:
-        exact &= lo <= limit * tol
-    if objective == "accel_time":
-        if accel_cutoff is not None:
-            exact &= lo <= accel_cutoff * tol
-    elif limit is not None:
+    exact &= ~_time_out(lo, limit, objective, accel_cutoff)
+    if objective != "accel_time" and limit is not None:
         sure = exact & (hi <= limit)
         t[idx[sure]] = hi[sure]  # an upper bound that meets the limit: feasible, no exact time needed
         exact &= ~sure

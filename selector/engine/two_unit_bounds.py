@@ -72,14 +72,16 @@ def best_first_gear_force(unit, radius) -> np.ndarray:
 
 
 def _min_rotor_mass(unit, radius) -> np.ndarray:
-    """Least reflected rotor inertia over the unit's gears, min_g J (G_g/r)^2 eta_g [kg]."""
+    """Least reflected rotor inertia of the unit in any state of the run [kg]: min_g J (G_g/r)^2 eta_g
+    for a single-speed unit, 0 for a gearbox (its rotor is decoupled while it shifts, and meanwhile the
+    other unit keeps accelerating the vehicle without it)."""
     from selector.physics.drivetrain import rotor_mass_kg
 
     best = np.full(unit.n, np.inf)
     for g in range(unit.ratio.shape[1]):
         has = unit.n_gears > g
         best = np.where(has, np.minimum(best, rotor_mass_kg(unit, radius, np.where(has, g, 0))), best)
-    return np.where(np.isfinite(best), best, 0.0)
+    return np.where(np.isfinite(best) & (unit.n_gears <= 1), best, 0.0)
 
 
 def _option_energy_terms(parts: PartTables, table: OptionTable, rows, tyres) -> dict:

@@ -164,3 +164,40 @@ def test_traction_limited_launch_does_not_shift_at_rest():
     res = run(unit([G1, G2], j=0.1, shift_s=0.3), 27.8, b)
     assert np.isfinite(res.time_s[0])
     assert res.shift_speed_mps[0, 0] > 1.0
+
+
+@pytest.mark.parametrize("layout", ["single", "both"])
+def test_multi_speed_time_bracket_is_a_lower_bound(tmp_path, layout):
+    # `time_bracket` on designs with gearboxes: its lower bound (max over gear states, plus the shift
+    # times a single unit must coast through) never exceeds the run's time, and the run itself is
+    # checked against solve_ivp above and in test_verify.py. Random invented studies, every design.
+    from selector.physics.accel_run import accel_time_s, time_bracket
+    from selector.units import kmh_to_mps
+    from generators import random_study
+
+    checked = tight = 0
+    for seed in range(4):
+        st = random_study(7300 + seed, tmp_path / f"{layout}{seed}", sizes=(4, 6, 3), layout=layout,
+                          gearbox_share=0.6, objective="accel_time")
+        parts = st.parts
+        n_m, n_r, n_t = parts.sizes
+        rng = np.random.default_rng(seed)
+        k = 400
+        if layout == "single":
+            keys = parts.single_keys(rng.integers(0, n_m, k), rng.integers(0, n_r, k), rng.integers(0, n_t, k))
+        else:
+            keys = np.stack([rng.integers(0, n_m, k), rng.integers(0, n_r, k), rng.integers(0, n_m, k),
+                             rng.integers(0, n_r, k), rng.integers(0, n_t, k)], axis=1)
+        axles, b = parts.design(keys)
+        multi = (axles.front.n_gears > 1) | (axles.rear.n_gears > 1)
+        target = kmh_to_mps(parts.problem.requirements.accel_to_kmh)
+        lo, hi = time_bracket(axles, b, target)
+        t = accel_time_s(axles, b, target)
+        assert np.all(lo <= t), (seed, keys[lo > t][:3].tolist())
+        assert np.all(t <= hi)
+        assert np.all(np.isinf(hi[multi]))  # no upper bound for gearboxes
+        fin = multi & np.isfinite(t)
+        checked += int(fin.sum())
+        tight += int((lo[fin] >= 0.8 * t[fin]).sum())
+    assert checked >= 200
+    assert tight >= 0.5 * checked  # not vacuous: mostly within 20 % of the run's time

@@ -167,7 +167,7 @@ class _Side:
             return np.minimum(self.nodes.a[nodes][:, None], self.nodes.b[nodes][:, None] / speeds_mps[None, :])
 
     def extremes(self, nodes: np.ndarray) -> dict:
-        """Aggregates read by `TwoUnitSearch._group_conditions`: largest forces, least cost."""
+        """Aggregates read by `TwoUnitSearch.requirement_sums`: largest forces, least cost."""
         nd = self.nodes
         return {"f0": nd.f0[nodes], "cost": nd.cost[nodes], "fc": nd.fc[nodes], "fa": nd.fa[nodes]}
 
@@ -257,7 +257,10 @@ def _push(search, front, rear, speeds, blocks, heap, col, fn, rn, parent_bound):
     v = p.problem.vehicle
     fnd, rnd = front.nodes, rear.nodes
     m_lo = v.mass_kg + fnd.m_lo[fn] + rnd.m_lo[rn] + v.tyre_count * p.tyres.mass_kg[search.tyres[col]]
-    possible = search._group_conditions(col, m_lo, front.extremes(fn), rear.extremes(rn))
+    ef, er = front.extremes(fn), rear.extremes(rn)
+    # the groups' extremes: largest forces, least mass and cost bound every design of the block pair
+    possible = search.requirement_sums(col, m_lo, ef["fc"] + er["fc"], ef["fa"] + er["fa"], ef["f0"] + er["f0"],
+                                       ef["cost"] + er["cost"])
     keep = np.nonzero(possible)[0]
     if keep.size == 0:
         return

@@ -20,6 +20,11 @@ from selector.physics.tyres import load_capacity_factor
 from selector.requirements import REL_TOL, check_rows, passes, stated
 from selector.units import kmh_to_mps, mps_to_kmh, rad_s_to_rpm
 
+COARSE_FIRST = 256
+"""`screen` bounds the time of more designs than this on `COARSE_NODES` speed nodes first [-]."""
+COARSE_NODES = 12
+"""Speed nodes of the coarse time bound (a left Riemann sum on any partition is a proved bound) [-]."""
+
 OBJECTIVE_METRIC = {"cost": "cost", "mass": "mass_kg", "accel_time": "accel_time_s", "energy": "energy_wh_per_km"}
 """Metric minimised by each objective."""
 
@@ -153,25 +158,71 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
     """Feasibility and objective of many designs, computing expensive metrics only for survivors.
 
     Same decisions as `evaluate` + `feasible`, staged: mass, cost, ratings and the static tyre
-    load first, then speeds, grade, launch and the speed-dependent tyre checks, then the
-    acceleration run. Single-speed designs first get a proved bracket of their time
-    (`accel_run.time_bracket`): a design whose lower bound already fails ``accel_time_s`` fails,
-    one whose upper bound meets it passes without the exact integration (unless the objective is
-    the time itself). With the accel_time objective, ``accel_cutoff`` [s] drops designs whose lower
-    bound exceeds it (they cannot improve on a known design; reported as not feasible here). With
-    ``keep_best`` = N (cost and mass objectives), a design still undecided on ``accel_time_s`` whose
-    objective exceeds the N-th best design already proved feasible in this call (beyond the tie
-    tolerance) is not integrated: it cannot be among the N best (reported as not feasible here).
+    load first (`_cheap_checks`), then speeds, grade, launch and the speed-dependent tyre checks,
+    then the acceleration run (`_accel_stage`: proved time brackets first, see there). With the
+    accel_time objective, ``accel_cutoff`` [s] drops designs whose lower bound exceeds it (they
+    cannot improve on a known design; reported as not feasible here). With ``keep_best`` = N (cost
+    and mass objectives), a design still undecided on ``accel_time_s`` whose objective exceeds the
+    N-th best design already proved feasible in this call (beyond the tie tolerance) is not
+    integrated: it cannot be among the N best (reported as not feasible here).
     Returns (feasible[n], objective[n]) with the objective +inf where infeasible.
     """
     keys = as_keys(parts, keys, rj, tk)
     p = parts.problem
     req = p.requirements
-    n = keys.shape[0]
-    obj = np.full(n, np.inf)
+    obj = np.full(keys.shape[0], np.inf)
+    ok = _cheap_checks(parts, keys)
+    sel = np.nonzero(ok)[0]
+    if sel.size and p.energy is not None and req.top_speed_kmh is not None:
+        # the battery only adds mass, and the sustained top speed falls with mass: a design that
+        # misses it without the battery misses it with one (spares the energy evaluation)
+        axles, body = parts.design(keys[sel])
+        keep = passes("min", req.top_speed_kmh, mps_to_kmh(speeds.sustained_top_speed_mps(axles, body)))
+        ok[sel[~keep]] = False
+        sel = sel[keep]
+    if need_accel is None:
+        need_accel = req.accel_time_s is not None or objective == "accel_time"
+    bracket = None
+    if sel.size and need_accel and p.energy is None:
+        # the proved time bracket before the speeds: designs whose lower bound already fails the time
+        # limit (or the cutoff) are out without the top-speed evaluation (the mass needs no battery here)
+        target = kmh_to_mps(req.accel_to_kmh)
+        if sel.size > COARSE_FIRST:  # a coarse partition first (also a proved bound), the fine one for the rest
+            axles, body = parts.design(keys[sel])
+            lo, _ = accel_run.time_bracket(axles, body, target, nodes=COARSE_NODES)
+            keep = ~_time_out(lo, req.accel_time_s, objective, accel_cutoff)
+            ok[sel[~keep]] = False
+            sel = sel[keep]
+        axles, body = parts.design(keys[sel])
+        lo, hi = accel_run.time_bracket(axles, body, target)
+        keep = ~_time_out(lo, req.accel_time_s, objective, accel_cutoff)
+        ok[sel[~keep]] = False
+        sel, bracket = sel[keep], (lo[keep], hi[keep])
+    if sel.size == 0:
+        return ok, obj
+    m = evaluate(parts, keys[sel], accel=False)
+    sub_ok = np.ones(sel.size, dtype=bool)
+    for name, v in check_results(parts, m).items():
+        if name != "accel_time_s":
+            sub_ok &= v
+    if need_accel:
+        m["accel_time_s"] = _accel_stage(parts, keys[sel], m, sub_ok, objective, accel_cutoff, keep_best, bracket)
+        if req.accel_time_s is not None:
+            sub_ok &= passes("max", req.accel_time_s, m["accel_time_s"])
+    val = m[OBJECTIVE_METRIC[objective]]
+    sub_ok &= np.isfinite(val)
+    ok[sel] = sub_ok
+    obj[sel] = np.where(sub_ok, val, np.inf)
+    return ok, obj
+
+
+def _cheap_checks(parts: PartTables, keys) -> np.ndarray:
+    """Necessary checks that need no physics: per-axle reducer ratings, mass, budget and the static
+    tyre load against the load index's full capacity (an upper bound of the speed-reduced one)."""
+    req = parts.problem.requirements
     cheap: dict = {}
     _unit_ratings(parts, keys, cheap)
-    ok = np.ones(n, dtype=bool)
+    ok = np.ones(keys.shape[0], dtype=bool)
     for c, _axle, limit, demand in check_rows(parts.axles):
         if c.per_axle:
             ok &= passes("max", cheap[limit], cheap[demand])
@@ -179,65 +230,66 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
         ok &= passes("max", req.max_mass_kg, parts.mass_kg(keys))
     if req.budget is not None:
         ok &= passes("max", req.budget, parts.cost(keys))
-    # the load index's full capacity is an upper bound of the speed-reduced one
     ok &= passes("max", parts.tyres.load_capacity_kg[keys[:, TY]], tyre_load_demand_kg(parts, keys))
-    sel = np.nonzero(ok)[0]
-    if sel.size == 0:
-        return ok, obj
-    if need_accel is None:
-        need_accel = req.accel_time_s is not None or objective == "accel_time"
-    if p.energy is not None and req.top_speed_kmh is not None:
-        # the battery only adds mass, and the sustained top speed falls with mass: a design that
-        # misses it without the battery misses it with one (spares the energy evaluation)
-        axles, body = parts.design(keys[sel])
-        top = mps_to_kmh(speeds.sustained_top_speed_mps(axles, body))
-        keep = passes("min", req.top_speed_kmh, top)
-        ok[sel[~keep]] = False
-        sel = sel[keep]
-        if sel.size == 0:
-            return ok, obj
-    m = evaluate(parts, keys[sel], accel=False)
-    sub_ok = np.ones(sel.size, dtype=bool)
-    for name, v in check_results(parts, m).items():
-        if name != "accel_time_s":
-            sub_ok &= v
-    if need_accel:
-        idx = np.nonzero(sub_ok)[0]
-        t = np.full(sel.size, np.inf)
-        if idx.size:
-            mass = None if p.energy is None else m["mass_kg"][idx]
-            axles, body = parts.design(keys[sel][idx], mass_kg=mass)
-            target = kmh_to_mps(req.accel_to_kmh)
-            lo, hi = accel_run.time_bracket(axles, body, target)
-            exact = np.isfinite(lo)
-            limit = req.accel_time_s
-            tol = 1 + 2 * REL_TOL
-            if limit is not None:
-                exact &= lo <= limit * tol
-            if objective == "accel_time":
-                if accel_cutoff is not None:
-                    exact &= lo <= accel_cutoff * tol
-            elif limit is not None:
-                sure = exact & (hi <= limit)
-                t[idx[sure]] = hi[sure]  # an upper bound that meets the limit: feasible, no exact time needed
-                exact &= ~sure
-                if keep_best is not None and objective in ("cost", "mass") and int(sure.sum()) >= keep_best:
-                    vals = m[OBJECTIVE_METRIC[objective]][idx]
-                    cut = float(np.partition(vals[sure], keep_best - 1)[keep_best - 1])
-                    exact &= ~(vals > cut + tie_tolerance(cut))
-            rows = np.nonzero(exact)[0]
-            if rows.size:
-                from selector.physics.drivetrain import take_axles, take_fields
+    return ok
 
-                t[idx[rows]] = accel_run.accel_time_s(take_axles(axles, rows), take_fields(body, rows), target)
-        m["accel_time_s"] = t
-        if req.accel_time_s is not None:
-            sub_ok &= passes("max", req.accel_time_s, t)
-    val = m[OBJECTIVE_METRIC[objective]]
-    sub_ok &= np.isfinite(val)
-    ok[sel] = sub_ok
-    obj[sel] = np.where(sub_ok, val, np.inf)
-    return ok, obj
+
+def _time_out(lo, limit, objective: str, accel_cutoff) -> np.ndarray:
+    """Designs whose proved lower time bound ``lo`` [s] settles them without the exact run: the target
+    is unreachable while a time is needed (a stated ``limit`` or the accel_time objective), the bound
+    fails ``limit`` [s], or under the accel_time objective it exceeds ``accel_cutoff`` [s]."""
+    tol = 1 + 2 * REL_TOL
+    out = np.zeros(np.shape(lo), dtype=bool)
+    if limit is not None or objective == "accel_time":
+        out |= ~np.isfinite(lo)
+    if limit is not None:
+        out |= ~(lo <= limit * tol)
+    if objective == "accel_time" and accel_cutoff is not None:
+        out |= ~(lo <= accel_cutoff * tol)
+    return out
+
+
+def _accel_stage(parts: PartTables, keys, m: dict, sub_ok, objective: str, accel_cutoff, keep_best,
+                 bracket=None) -> np.ndarray:
+    """Acceleration times of the designs ``keys`` that passed every other check (``sub_ok``) [s].
+
+    Every design first gets a proved bracket of its time (`accel_run.time_bracket`; designs with a
+    gearbox a lower bound only): one whose lower bound already fails ``accel_time_s`` (or, under the
+    accel_time objective, exceeds ``accel_cutoff``) gets inf without the exact run; one whose upper
+    bound meets ``accel_time_s`` gets that upper bound (feasible, its time is not the objective); the
+    rest are integrated exactly (with ``keep_best``, only those that can still be among the N best).
+    Designs not integrated carry inf or their proved upper bound. ``bracket``: (lo, hi) of every row
+    of ``keys`` when the caller has it already.
+    """
+    req = parts.problem.requirements
+    t = np.full(keys.shape[0], np.inf)
+    idx = np.nonzero(sub_ok)[0]
+    if idx.size == 0:
+        return t
+    mass = None if parts.problem.energy is None else m["mass_kg"][idx]
+    axles, body = parts.design(keys[idx], mass_kg=mass)
+    target = kmh_to_mps(req.accel_to_kmh)
+    if bracket is None:
+        lo, hi = accel_run.time_bracket(axles, body, target)
+    else:
+        lo, hi = bracket[0][idx], bracket[1][idx]
+    exact = np.isfinite(lo)
+    limit = req.accel_time_s
+    exact &= ~_time_out(lo, limit, objective, accel_cutoff)
+    if objective != "accel_time" and limit is not None:
+        sure = exact & (hi <= limit)
+        t[idx[sure]] = hi[sure]  # an upper bound that meets the limit: feasible, no exact time needed
+        exact &= ~sure
+        if keep_best is not None and objective in ("cost", "mass") and int(sure.sum()) >= keep_best:
+            vals = m[OBJECTIVE_METRIC[objective]][idx]
+            cut = float(np.partition(vals[sure], keep_best - 1)[keep_best - 1])
+            exact &= ~(vals > cut + tie_tolerance(cut))
+    rows = np.nonzero(exact)[0]
+    if rows.size:
+        from selector.physics.drivetrain import take_axles, take_fields
+
+        t[idx[rows]] = accel_run.accel_time_s(take_axles(axles, rows), take_fields(body, rows), target)
+    return t
 
 
 def tie_tolerance(best: float) -> float:

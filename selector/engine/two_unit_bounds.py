@@ -72,14 +72,51 @@ def best_first_gear_force(unit, radius) -> np.ndarray:
 
 
 def _min_rotor_mass(unit, radius) -> np.ndarray:
-    """Least reflected rotor inertia over the unit's gears, min_g J (G_g/r)^2 eta_g [kg]."""
+    """Least reflected rotor inertia of the unit in any state of the run [kg]: min_g J (G_g/r)^2 eta_g
+    for a single-speed unit, 0 for a gearbox (its rotor is decoupled while it shifts, and meanwhile the
+    other unit keeps accelerating the vehicle without it)."""
     from selector.physics.drivetrain import rotor_mass_kg
 
     best = np.full(unit.n, np.inf)
     for g in range(unit.ratio.shape[1]):
         has = unit.n_gears > g
         best = np.where(has, np.minimum(best, rotor_mass_kg(unit, radius, np.where(has, g, 0))), best)
-    return np.where(np.isfinite(best), best, 0.0)
+    return np.where(np.isfinite(best) & (unit.n_gears <= 1), best, 0.0)
+
+
+def _option_energy_terms(parts: PartTables, table: OptionTable, rows, tyres) -> dict:
+    """What the energy bound reads of options ``rows`` on tyres ``tyres`` (part positions, broadcast):
+    mass [kg]; L of the tallest gear, ln(G_top / r) [ln(1/m)]; spin-loss coefficients ki [N m],
+    kw [N m s/rad], c0 [W] (0 for a motor with an efficiency map); reflected first-gear rotor inertia
+    J (G_1 / r)^2 [kg] (eta 1: the most, for braking)."""
+    mo, re = parts.motors, parts.reducers
+    mi, rj = table.options[rows, 0], table.options[rows, 1]
+    poly = mo.map_index[mi] < 0
+    log_r = np.log(parts.tyres.radius_m[tyres])
+    l_first = np.log(re.ratios[rj, 0]) - log_r
+    return {"mass": np.array(table.mass[rows], dtype=float), "l_tall": np.log(re.tallest_ratio[rj]) - log_r,
+            "ki": np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0),
+            "kw": np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0),
+            "c0": np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0),
+            "j": mo.rotor_inertia_kgm2[mi] * np.exp(2 * l_first)}
+
+
+def _rear_extremes(parts: PartTables, tyres, tr: OptionTable, rear_ok) -> dict:
+    """Per tyre column, the extremes of `_option_energy_terms` over the usable rear options
+    (``rear_ok`` (options, tyre columns)): least mass, L_tall and spin coefficients, most inertia;
+    inf mass where no rear option is usable."""
+    nt = tyres.size
+    out = {name: np.full(nt, np.inf) for name in ("mass", "l_tall", "ki", "kw", "c0")}
+    out["j"] = np.zeros(nt)
+    for c in range(nt):
+        ro = np.nonzero(rear_ok[:, c])[0]
+        if ro.size == 0:
+            continue
+        terms = _option_energy_terms(parts, tr, ro, np.full(ro.size, tyres[c]))
+        for name in ("mass", "l_tall", "ki", "kw", "c0"):
+            out[name][c] = terms[name].min()
+        out["j"][c] = terms["j"].max()
+    return out
 
 
 class TwoUnitBounds:
@@ -88,39 +125,57 @@ class TwoUnitBounds:
 
     # ------------------------------------------------------------------ necessary conditions
     def conditions(self, tf: OptionTable, fi, tr: OptionTable, ri, kk) -> np.ndarray:
-        """Cheap necessary conditions of designs (front option fi, rear option ri, tyre column kk) (broadcast)."""
+        """Cheap necessary conditions of designs (front option fi, rear option ri, tyre column kk) (broadcast):
+        `requirement_sums` with the designs' own sums, both units' gearing limits and the static tyre load."""
         p = self.parts
         v = p.problem.vehicle
-        req = self.req
         ty = p.tyres
         k = self.tyres[kk]
         n = v.tyre_count
         m = v.mass_kg + tf.mass[fi] + tr.mass[ri] + n * ty.mass_kg[k]
-        ok = np.ones(np.broadcast_shapes(np.shape(fi), np.shape(ri), np.shape(kk)), dtype=bool)
+        f_top = None if tf.fc_top is None else tf.fc_top[fi, kk] + tr.fc_top[ri, kk]
+        f_acc = None if tf.f_acc is None else tf.f_acc[fi, kk] + tr.f_acc[ri, kk]
+        ok = self.requirement_sums(kk, m, f_top, f_acc, tf.f0[fi, kk] + tr.f0[ri, kk], tf.cost[fi] + tr.cost[ri])
         tol = 1 + 4 * REL_TOL
         for spd in self.speeds:
             ok &= (tf.lim[fi, kk] * tol >= spd) & (tr.lim[ri, kk] * tol >= spd)
-        crr = ty.crr[k]
-        if tf.fc_top is not None:
-            vt = kmh_to_mps(req.top_speed_kmh)
-            ok &= (tf.fc_top[fi, kk] + tr.fc_top[ri, kk]) * tol >= m * G_N * crr + p.q_n_s2_m2 * vt * vt
-        if self.accel:
-            va = self.target
-            ok &= (tf.f_acc[fi, kk] + tr.f_acc[ri, kk]) * tol > m * G_N * crr + p.q_n_s2_m2 * va * va
-        f0 = tf.f0[fi, kk] + tr.f0[ri, kk]
-        if req.gradeability_pct is not None:
-            th = np.arctan(req.gradeability_pct / 100.0)
-            ok &= f0 * tol >= m * G_N * (crr * np.cos(th) + np.sin(th))
-        if req.launch_accel_mps2 is not None:
-            ok &= (f0 - m * G_N * crr) * tol >= req.launch_accel_mps2 * m
-        if req.max_mass_kg is not None:
-            ok &= m <= req.max_mass_kg * tol
-        if req.budget is not None:
-            ok &= tf.cost[fi] + tr.cost[ri] + n * ty.cost[k] <= req.budget * tol
         half = 0.5 * n * ty.mass_kg[k]
         rear = v.rear_axle_share * v.mass_kg + half + tr.mass[ri]
         front = (1.0 - v.rear_axle_share) * v.mass_kg + half + tf.mass[fi]
         ok &= np.maximum(rear, front) / (0.5 * n) <= ty.load_capacity_kg[k] * tol
+        return ok
+
+    def requirement_sums(self, kk, mass_kg, f_top, f_acc, f0, cost) -> np.ndarray:
+        """Necessary conditions on sums over both units, at tyre column kk (arrays broadcast together).
+
+        ``mass_kg`` is the designs' mass (or a lower bound of it), ``f_top`` the summed best-gear
+        continuous force at the required top speed, ``f_acc`` the summed best-gear peak force at the
+        acceleration target, ``f0`` the summed first-gear crawl force [N] (or upper bounds of them;
+        None where not tabulated), ``cost`` both units' cost (or a lower bound). Each condition holds
+        for every design the arguments bound: forces only help, mass and cost only hurt.
+        """
+        p = self.parts
+        req = self.req
+        ty = p.tyres
+        k = self.tyres[kk]
+        crr = ty.crr[k]
+        tol = 1 + 4 * REL_TOL
+        ok = np.ones(np.broadcast_shapes(np.shape(kk), np.shape(mass_kg), np.shape(f0), np.shape(cost)), dtype=bool)
+        if f_top is not None and req.top_speed_kmh is not None:
+            vt = kmh_to_mps(req.top_speed_kmh)
+            ok &= f_top * tol >= mass_kg * G_N * crr + p.q_n_s2_m2 * vt * vt
+        if f_acc is not None and self.accel:
+            va = self.target
+            ok &= f_acc * tol > mass_kg * G_N * crr + p.q_n_s2_m2 * va * va
+        if req.gradeability_pct is not None:
+            th = np.arctan(req.gradeability_pct / 100.0)
+            ok &= f0 * tol >= mass_kg * G_N * (crr * np.cos(th) + np.sin(th))
+        if req.launch_accel_mps2 is not None:
+            ok &= (f0 - mass_kg * G_N * crr) * tol >= req.launch_accel_mps2 * mass_kg
+        if req.max_mass_kg is not None:
+            ok &= mass_kg <= req.max_mass_kg * tol
+        if req.budget is not None:
+            ok &= cost + p.problem.vehicle.tyre_count * ty.cost[k] <= req.budget * tol
         return ok
 
     # ------------------------------------------------------------------ acceleration bound
@@ -253,94 +308,31 @@ class TwoUnitBounds:
         p = self.parts
         st = E.setup(p)
         v = p.problem.vehicle
-        ty, mo = p.tyres, p.motors
-        nt = self.tyres.size
+        ty = p.tyres
         k = self.tyres[kk]
-
-        def spin(table, rows):
-            mi = table.options[rows, 0]
-            poly = mo.map_index[mi] < 0
-            return (np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0),
-                    np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0),
-                    np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0))
-
-        def l_tall(table, rows, cols):
-            rj = table.options[rows, 1]
-            log_r = np.log(ty.radius_m[self.tyres[cols]])
-            return np.log(p.reducers.tallest_ratio[rj]) - log_r, np.log(p.reducers.ratios[rj, 0]) - log_r
-
-        # rear extremes per tyre column over the usable rear options
-        r_mass = np.full(nt, np.inf)
-        r_lt = np.full(nt, np.inf)
-        r_l1 = np.full(nt, -np.inf)
-        r_ki = np.full(nt, np.inf)
-        r_kw = np.full(nt, np.inf)
-        r_c0 = np.full(nt, np.inf)
-        r_j = np.zeros(nt)
-        for c in range(nt):
-            ro = np.nonzero(rear_ok[:, c])[0]
-            if ro.size == 0:
-                continue
-            lt, l1 = l_tall(tr, ro, np.full(ro.size, c))
-            ki, kw, c0 = spin(tr, ro)
-            r_mass[c], r_lt[c], r_l1[c] = tr.mass[ro].min(), lt.min(), l1.max()
-            r_ki[c], r_kw[c], r_c0[c] = ki.min(), kw.min(), c0.min()
-            r_j[c] = (mo.rotor_inertia_kgm2[tr.options[ro, 0]] * np.exp(2 * l1)).max()
-        f_lt, f_l1 = l_tall(tf, fi, kk)
-        f_ki, f_kw, f_c0 = spin(tf, fi)
-        f_mass = tf.mass[fi]
-        f_j = mo.rotor_inertia_kgm2[tf.options[fi, 0]] * np.exp(2 * f_l1)
+        rear = _rear_extremes(p, self.tyres, tr, rear_ok)
+        front = _option_energy_terms(p, tf, fi, k)
         if per_tyre:  # the least over every front option at that tyre
-            out = np.full(fi.size, np.inf)
             for c in np.unique(kk):
                 rows = kk == c
-                f_mass[rows] = f_mass[rows].min()
-                f_lt[rows] = f_lt[rows].min()
-                f_ki[rows], f_kw[rows], f_c0[rows] = f_ki[rows].min(), f_kw[rows].min(), f_c0[rows].min()
-                f_j[rows] = f_j[rows].max()
-            del out
-        mass = v.mass_kg + f_mass + r_mass[kk] + v.tyre_count * ty.mass_kg[k]
-        l_a = np.minimum(f_lt, r_lt[kk])
-        brake = f_j + r_j[kk] + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
+                for name in ("mass", "l_tall", "ki", "kw", "c0"):
+                    front[name][rows] = front[name][rows].min()
+                front["j"][rows] = front["j"][rows].max()
+        mass = v.mass_kg + front["mass"] + rear["mass"][kk] + v.tyre_count * ty.mass_kg[k]
+        l_a = np.minimum(front["l_tall"], rear["l_tall"][kk])
+        brake = front["j"] + rear["j"][kk] + v.tyre_count * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
         ok = np.isfinite(mass)
         out = np.full(fi.size, np.inf)
         if not ok.any():
             return out
+        spin = {name: (front[name] + rear[name][kk])[ok] for name in ("ki", "kw", "c0")}
 
         def c_lb(m):
-            return E.consumption_lower_bound(st, m, ty.crr[k][ok], l_a[ok], 1.0, f_ki[ok] + r_ki[kk][ok],
-                                             f_kw[ok] + r_kw[kk][ok], f_c0[ok] + r_c0[kk][ok], brake[ok])
+            return E.consumption_lower_bound(st, m, ty.crr[k][ok], l_a[ok], 1.0, spin["ki"], spin["kw"], spin["c0"],
+                                             brake[ok])
 
         if st.range_km is None:
             out[ok] = c_lb(mass[ok])[0]
         else:
             out[ok] = E.battery_lower_bound(st, c_lb, mass[ok], E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
         return out
-
-    def _group_conditions(self, kk, mass_lo, ef, er):
-        """Necessary conditions of blocks from the groups' extremes (largest forces, least mass and cost)."""
-        p = self.parts
-        v = p.problem.vehicle
-        req = self.req
-        ty = p.tyres
-        k = self.tyres[kk]
-        crr = ty.crr[k]
-        tol = 1 + 4 * REL_TOL
-        ok = np.ones(kk.size, dtype=bool)
-        if ef["fc"][0] is not None and req.top_speed_kmh is not None:
-            vt = kmh_to_mps(req.top_speed_kmh)
-            ok &= (ef["fc"] + er["fc"]) * tol >= mass_lo * G_N * crr + p.q_n_s2_m2 * vt * vt
-        if ef["fa"][0] is not None:
-            va = self.target
-            ok &= (ef["fa"] + er["fa"]) * tol > mass_lo * G_N * crr + p.q_n_s2_m2 * va * va
-        f0 = ef["f0"] + er["f0"]
-        if req.gradeability_pct is not None:
-            th = np.arctan(req.gradeability_pct / 100.0)
-            ok &= f0 * tol >= mass_lo * G_N * (crr * np.cos(th) + np.sin(th))
-        if req.launch_accel_mps2 is not None:
-            ok &= (f0 - mass_lo * G_N * crr) * tol >= req.launch_accel_mps2 * mass_lo
-        if req.max_mass_kg is not None:
-            ok &= mass_lo <= req.max_mass_kg * tol
-        if req.budget is not None:
-            ok &= ef["cost"] + er["cost"] + v.tyre_count * ty.cost[k] <= req.budget * tol
-        return ok

@@ -83,6 +83,8 @@ class TwoUnitSearch(TwoUnitBounds):
             both = {tuple(x) for x in r.tolist()}
             keep = np.array([tuple(x) in both for x in f.tolist()], dtype=bool)
             self.options["front"] = self.options["rear"] = f[keep] if f.size else f
+        self.allowed = allowed
+        self.floor = -np.inf  # cost (mass) below which every design is known infeasible (`_floor_memo`)
         self.pool_vals = np.empty(0)
         self.pool_keys = np.empty((0, 5), dtype=np.int64)
         self.speeds = [kmh_to_mps(v) for v in (req.top_speed_kmh, req.accel_to_kmh if self.accel else None)
@@ -120,12 +122,46 @@ class TwoUnitSearch(TwoUnitBounds):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
         if self.tyres.size == 0 or self.options["front"].shape[0] == 0 or self.options["rear"].shape[0] == 0:
             return "infeasible", [], None
-        tr = OptionTable(self.parts, self.options["rear"], self.tyres, self.req, self.target)
+        memo = self._floor_memo()
+        if memo is not None:
+            self.floor = max((v for cap, v in memo.items() if cap >= self.req.accel_time_s), default=-np.inf)
+            if self.floor == np.inf:  # infeasible under a looser time limit: infeasible under this one
+                return "infeasible", [], None
+        tr = self._table(self.options["rear"])
         same_options = self.same or np.array_equal(self.options["front"], self.options["rear"])
-        tf = tr if same_options else OptionTable(self.parts, self.options["front"], self.tyres, self.req, self.target)
-        if self.same:
-            return self._run_same(tf)
-        return self._run_pairs(tf, tr)
+        tf = tr if same_options else self._table(self.options["front"])
+        result = self._run_same(tf) if self.same else self._run_pairs(tf, tr)
+        if memo is not None and result[0] in ("optimal", "infeasible"):
+            best = result[1][0].value if result[1] else np.inf
+            memo[self.req.accel_time_s] = best * (1 - 4 * REL_TOL) if np.isfinite(best) else np.inf
+        return result
+
+    def _table(self, options: np.ndarray) -> OptionTable:
+        """The `OptionTable` of an axle's options, memoised in the part tables' cache (a frontier or a
+        sweep repeats searches that differ only in limits the tables do not read)."""
+        key = ("two_unit_table", options.tobytes(), self.tyres.tobytes(), self.req.top_speed_kmh, self.target)
+        if key not in self.parts.cache:
+            self.parts.cache[key] = OptionTable(self.parts, options, self.tyres, self.req, self.target)
+        return self.parts.cache[key]
+
+    def _floor_memo(self) -> dict | None:
+        """Proved optima of earlier cost (mass) searches of these part tables with the same requirements
+        apart from ``accel_time_s`` and the same allowed parts: {time limit [s]: optimum less the tie
+        tolerance (inf: infeasible)}; None when the search is of another kind.
+
+        A tighter time limit only removes designs, so every design whose value lies below the optimum
+        under a looser (or equal) limit is infeasible here: the search skips them (``floor``). This is
+        what the frontier's epsilon steps (min cost under ever tighter time limits) repeat.
+        """
+        if self.objective not in ("cost", "mass") or self.req.accel_time_s is None or \
+                self.parts.problem.energy is not None:
+            return None
+        from dataclasses import replace
+
+        allowed = tuple((k, None if a is None else np.asarray(a, dtype=np.int64).tobytes())
+                        for k, a in sorted(self.allowed.items()))
+        key = ("two_unit_floor", self.objective, repr(replace(self.req, accel_time_s=None)), allowed)
+        return self.parts.cache.setdefault(key, {})
 
     def _finish(self, status, heap_min):
         bound = None
@@ -348,9 +384,10 @@ class TwoUnitSearch(TwoUnitBounds):
             order, sval = self._rear_sorted(tr)
             kth = self.kth()
             base = self._own_value(tf, fb, tr, np.full(fb.size, order[0]), kb) - sval[0]
-            cnt = np.searchsorted(sval, kth + tie_tolerance(kth) - base, side="right")
+            first = np.searchsorted(sval, self.floor - base, side="left")  # below the floor: known infeasible
+            cnt = np.maximum(np.searchsorted(sval, kth + tie_tolerance(kth) - base, side="right") - first, 0)
         else:
-            order, cnt = np.arange(nr), np.full(fb.size, nr)
+            order, first, cnt = np.arange(nr), np.zeros(fb.size, dtype=np.int64), np.full(fb.size, nr)
         bis, ris = [], []
         b0 = 0
         csum = np.concatenate([[0], np.cumsum(cnt)])
@@ -361,7 +398,7 @@ class TwoUnitSearch(TwoUnitBounds):
             total = int(c.sum())
             if total:
                 bi = np.repeat(np.arange(b0, b1), c)
-                pos = np.arange(total) - np.repeat(csum[b0:b1] - csum[b0], c)
+                pos = np.arange(total) - np.repeat(csum[b0:b1] - csum[b0], c) + np.repeat(first[b0:b1], c)
                 ri = order[pos]
                 ok = self.conditions(tf, fb[bi], tr, ri, kb[bi])
                 bis.append(bi[ok])

@@ -51,7 +51,9 @@ GL_NODES = 20
 CROSS_SAMPLES = 17
 """Samples per piece when looking for a change of the limiting traction combination [-]."""
 BISECT_STEPS = 42
-"""Bisection halvings of a combination change (2^-42 of the sample spacing) [-]."""
+"""Resolution of a combination change: 2^-42 of the sample spacing [-]."""
+REFINE_POINTS = 15
+"""Interior samples per refinement round of a combination change or a shift point (4 bits a round) [-]."""
 GRADE_RATIO = 0.35
 """Geometric grading ratio towards the end of a segment: each graded piece lies at least
 GRADE_RATIO / (1 - GRADE_RATIO) of its width from the end [-]."""
@@ -62,7 +64,7 @@ GRADE_MAX_LEVELS = 60
 SHIFT_SAMPLES = 33
 """Samples of a(next gear) - a(current gear) per segment when looking for a shift point [-]."""
 SHIFT_BISECT = 60
-"""Bisection halvings of a shift point [-]."""
+"""Resolution of a shift point: 2^-60 of the sample spacing [-]."""
 SHIFT_TIE = 1e-12
 """The next gear 'gives at least as much acceleration' when a_next >= a_now (1 - SHIFT_TIE) [-]."""
 SHIFT_RK_STEPS = 64
@@ -167,6 +169,29 @@ def _unit_breaks(st: _State, v_lo, v_hi):
 
 # ----------------------------------------------------------------------------------------- one segment
 
+def refine_first_true(pred, a, b, bits: int, points: int = REFINE_POINTS):
+    """Shrink brackets [a, b] (n,) where ``pred`` is False at a and True at b by ``points`` interior
+    samples per round until they are 2^-bits of their width: returns the final (a, b).
+
+    ``pred(v)`` takes speeds (n, s) and returns bool (n, s). Each round keeps the sub-interval ending
+    at the first sample where ``pred`` holds (the bisection rule with ``points`` + 1 sub-intervals per
+    round, so far fewer vectorised calls than halving one bit at a time).
+    """
+    a, b = a.copy(), b.copy()
+    frac = np.arange(1, points + 1) / (points + 1)
+    shrink = np.log2(points + 1)
+    for _ in range(int(np.ceil(bits / shrink))):
+        vs = a[:, None] + (b - a)[:, None] * frac[None, :]
+        h = pred(vs)
+        anyh = h.any(axis=1)
+        first = np.argmax(h, axis=1)
+        rows = np.arange(a.size)
+        new_b = np.where(anyh, vs[rows, first], b)
+        new_a = np.where(anyh, np.where(first > 0, vs[rows, np.maximum(first - 1, 0)], a), vs[:, -1])
+        a, b = new_a, new_b
+    return a, b
+
+
 def _crossings(st: _State, lo, hi, v_end):
     """First and last change of the limiting combination on each piece [lo, hi] (v_end where none)."""
     col = lambda a: a[:, None]  # noqa: E731
@@ -183,15 +208,9 @@ def _crossings(st: _State, lo, hi, v_end):
         cross = v_end.copy()
         if rows.size:
             sub = _take_state(st, rows)
-            a = vs[rows, idx[rows]].copy()
-            b = vs[rows, idx[rows] + 1].copy()
-            lab_a = lab[rows, idx[rows]]
-            for _ in range(BISECT_STEPS):
-                mid = 0.5 * (a + b)
-                _, lm = state_accel(sub, mid[:, None], labels=True)
-                same = lm[:, 0] == lab_a
-                a = np.where(same, mid, a)
-                b = np.where(same, b, mid)
+            lab_a = lab[rows, idx[rows]][:, None]
+            a, b = refine_first_true(lambda v, sub=sub, lab_a=lab_a: state_accel(sub, v, labels=True)[1] != lab_a,
+                                     vs[rows, idx[rows]], vs[rows, idx[rows] + 1], BISECT_STEPS)
             cross[rows] = 0.5 * (a + b)
         out.append(cross)
     return out
@@ -286,14 +305,8 @@ def _shift_point(st: _State, which: str, v_lo, v_hi):
     rows = np.nonzero(anyh & (first > 0))[0]
     if rows.size:
         s1, s2 = _take_state(st, rows), _take_state(nxt, rows)
-        a = vs[rows, first[rows] - 1].copy()
-        b = vs[rows, first[rows]].copy()
-        for _ in range(SHIFT_BISECT):
-            mid = 0.5 * (a + b)
-            hm = holds(s1, s2, mid[:, None])[:, 0]
-            b = np.where(hm, mid, b)
-            a = np.where(hm, a, mid)
-        out[rows] = b
+        _, out[rows] = refine_first_true(lambda v: holds(s1, s2, v), vs[rows, first[rows] - 1],
+                                         vs[rows, first[rows]], SHIFT_BISECT)
     return out
 
 
@@ -383,68 +396,87 @@ def accel_run(axles: Axles, body, target_mps, chunk: int = 20000) -> RunResult:
 
 
 def _run_chunk(axles: Axles, body, target, res: RunResult, out_rows):
+    """One chunk of `accel_run`: segments between shift events until every design finished or failed;
+    results are written into ``res`` at rows ``out_rows``."""
     n = axles.n
-    g_f = np.zeros(n, dtype=np.int64)
-    g_r = np.zeros(n, dtype=np.int64)
-    v0 = np.zeros(n)
-    t0 = np.zeros(n)
-    k_shift = np.zeros(n, dtype=np.int64)
-    reach = (target <= speed_cap_mps(axles) * (1 + 1e-12)) & (target <= body.speed_limit_mps)
-    active = reach.copy()
-    n_f, n_r = axles.front.n_gears, axles.rear.n_gears
+    run = _RunState(np.zeros(n, dtype=np.int64), np.zeros(n, dtype=np.int64), np.zeros(n), np.zeros(n),
+                    np.zeros(n, dtype=np.int64), res, out_rows)
+    active = (target <= speed_cap_mps(axles) * (1 + 1e-12)) & (target <= body.speed_limit_mps)
     for _ in range(res.shift_axle.shape[1] + 2):
         rows = np.nonzero(active)[0]
         if rows.size == 0:
             break
         ax, bd = take_axles(axles, rows), take_fields(body, rows)
-        st = _state(ax, bd, g_f[rows], g_r[rows])
-        v_lo, v_t = v0[rows], target[rows]
-        shift_at = {}
-        for which, g, ng in (("front", g_f[rows], n_f[rows]), ("rear", g_r[rows], n_r[rows])):
-            can = ng > g + 1
-            s_at = np.full(rows.size, np.inf)
-            if can.any():
-                lim = gear_limit_mps(getattr(ax, which), ax.radius_m, g)
-                hi = np.minimum(lim, v_t)
-                cr = np.nonzero(can)[0]
-                sp = _shift_point(_take_state(st, cr), which, v_lo[cr], np.maximum(hi[cr], v_lo[cr]))
-                # forced shift where the motor reaches its maximum speed in this gear (before the target)
-                sp = np.where(np.isinf(sp) & (lim[cr] < v_t[cr]), lim[cr], sp)
-                s_at[cr] = sp
-            shift_at[which] = s_at
+        st = _state(ax, bd, run.g_front[rows], run.g_rear[rows])
+        v_lo, v_t = run.v0[rows], target[rows]
+        shift_at = _next_shifts(st, axles.front.n_gears[rows], axles.rear.n_gears[rows], v_lo, v_t)
         v_end = np.minimum(v_t, np.minimum(shift_at["front"], shift_at["rear"]))
         seg = integrate_segment(st, v_lo, np.maximum(v_end, v_lo))
-        t_new = t0[rows] + seg
+        t_new = run.t0[rows] + seg
         failed = ~np.isfinite(seg)
         finished = ~failed & (v_end >= v_t)
         res.time_s[out_rows[rows[finished]]] = t_new[finished]
         shifting = ~failed & ~finished
         which_f = shifting & (shift_at["front"] <= shift_at["rear"])
-        which_r = shifting & ~which_f
         active[rows[failed | finished]] = False
-        for which, mask in (("front", which_f), ("rear", which_r)):
+        for which, mask in (("front", which_f), ("rear", shifting & ~which_f)):
             idx = np.nonzero(mask)[0]
-            if idx.size == 0:
-                continue
-            sub = _take_state(st, idx)
-            v_after, t_hit = _shift_phase(sub, which, v_end[idx], v_t[idx])
-            glob = rows[idx]
-            kk = k_shift[glob]
-            res.shift_axle[out_rows[glob], kk] = 0 if which == "front" else 1
-            res.shift_from_gear[out_rows[glob], kk] = (g_f if which == "front" else g_r)[glob]
-            res.shift_speed_mps[out_rows[glob], kk] = v_end[idx]
-            res.shift_time_s[out_rows[glob], kk] = t_new[idx]
-            k_shift[glob] += 1
-            hit = np.isfinite(t_hit)
-            res.time_s[out_rows[glob[hit]]] = t_new[idx][hit] + t_hit[hit]
-            active[glob[hit]] = False
-            unit = getattr(sub.axles, which)
-            t0[glob] = t_new[idx] + unit.shift_time_s
-            v0[glob] = v_after
-            if which == "front":
-                g_f[glob] += 1
-            else:
-                g_r[glob] += 1
+            if idx.size:
+                done = _shift(run, _take_state(st, idx), which, rows[idx], v_end[idx], v_t[idx], t_new[idx])
+                active[done] = False
+
+
+@dataclass(frozen=True)
+class _RunState:
+    """Per-design progress of a chunk's run (arrays updated in place): current gears, start speed and
+    time of the current segment, shifts made; and where the results go."""
+
+    g_front: np.ndarray
+    g_rear: np.ndarray
+    v0: np.ndarray
+    t0: np.ndarray
+    k_shift: np.ndarray
+    res: RunResult
+    out_rows: np.ndarray
+
+
+def _next_shifts(st: _State, n_front, n_rear, v_lo, v_t) -> dict:
+    """Speed of each unit's next upshift in the current segment (inf: none before the target) [m/s]:
+    the shift rule's point, or where its motor reaches its maximum speed in this gear."""
+    shift_at = {}
+    for which, g, ng in (("front", st.g_front, n_front), ("rear", st.g_rear, n_rear)):
+        can = ng > g + 1
+        s_at = np.full(v_lo.size, np.inf)
+        if can.any():
+            lim = gear_limit_mps(getattr(st.axles, which), st.axles.radius_m, g)
+            hi = np.minimum(lim, v_t)
+            cr = np.nonzero(can)[0]
+            sp = _shift_point(_take_state(st, cr), which, v_lo[cr], np.maximum(hi[cr], v_lo[cr]))
+            # forced shift where the motor reaches its maximum speed in this gear (before the target)
+            s_at[cr] = np.where(np.isinf(sp) & (lim[cr] < v_t[cr]), lim[cr], sp)
+        shift_at[which] = s_at
+    return shift_at
+
+
+def _shift(run: _RunState, sub: _State, which: str, glob, v_shift, v_t, t_shift) -> np.ndarray:
+    """Record the upshift of unit ``which`` of designs ``glob`` (chunk rows) at ``v_shift``, reached at
+    ``t_shift``; integrate the shift phase and start the next segment. Returns the chunk rows that
+    passed the target during the shift (their time is written)."""
+    res, out = run.res, run.out_rows
+    v_after, t_hit = _shift_phase(sub, which, v_shift, v_t)
+    kk = run.k_shift[glob]
+    gears = run.g_front if which == "front" else run.g_rear
+    res.shift_axle[out[glob], kk] = 0 if which == "front" else 1
+    res.shift_from_gear[out[glob], kk] = gears[glob]
+    res.shift_speed_mps[out[glob], kk] = v_shift
+    res.shift_time_s[out[glob], kk] = t_shift
+    run.k_shift[glob] += 1
+    hit = np.isfinite(t_hit)
+    res.time_s[out[glob[hit]]] = t_shift[hit] + t_hit[hit]
+    run.t0[glob] = t_shift + getattr(sub.axles, which).shift_time_s
+    run.v0[glob] = v_after
+    gears[glob] += 1
+    return glob[hit]
 
 
 def accel_time_s(axles: Axles, body, target_mps, chunk: int = 20000) -> np.ndarray:
@@ -452,38 +484,8 @@ def accel_time_s(axles: Axles, body, target_mps, chunk: int = 20000) -> np.ndarr
     return accel_run(axles, body, target_mps, chunk).time_s
 
 
-BRACKET_NODES = 48
-"""Speed nodes of `time_bracket` [-]."""
+def time_bracket(axles: Axles, body, target_mps, nodes: int | None = None):
+    """Proved lower and upper bounds of the 0-to-target time [s]: see `selector.physics.accel_bounds`."""
+    from selector.physics import accel_bounds
 
-
-def time_bracket(axles: Axles, body, target_mps, nodes: int = BRACKET_NODES):
-    """Proved lower and upper bounds of the 0-to-target time of single-speed designs [s].
-
-    With every unit single-speed there is one gear state, and a(v) is non-increasing in v (each
-    axle's force is non-increasing, road load increasing, every traction combination decreasing), so
-    1/a is non-decreasing and the left and right Riemann sums of dv/a over any partition of [0, V]
-    bracket the exact integral. Both are inf when the target cannot be reached (a <= 0 at a node, or
-    the target above the gearing limit or the limiter). Designs with a multi-speed unit get (0, inf).
-    """
-    n = axles.n
-    target = np.broadcast_to(np.asarray(target_mps, dtype=float), (n,))
-    lo = np.zeros(n)
-    hi = np.full(n, np.inf)
-    single = (axles.front.n_gears <= 1) & (axles.rear.n_gears <= 1)
-    rows = np.nonzero(single)[0]
-    if rows.size == 0:
-        return lo, hi
-    ax, bd = take_axles(axles, rows), take_fields(body, rows)
-    st = _state(ax, bd, np.zeros(rows.size, dtype=np.int64), np.zeros(rows.size, dtype=np.int64))
-    v_t = target[rows]
-    s = 1.0 - (1.0 - np.arange(nodes + 1) / nodes) ** 2
-    v = v_t[:, None] * s[None, :]
-    a = state_accel(st, v)
-    dv = np.diff(v, axis=1)
-    reach = (a > 0).all(axis=1) & (v_t <= speed_cap_mps(ax) * (1 + 1e-12)) & (v_t <= bd.speed_limit_mps)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        t_lo = (dv / a[:, :-1]).sum(axis=1)
-        t_hi = (dv / a[:, 1:]).sum(axis=1)
-    lo[rows] = np.where(reach, t_lo, np.inf)
-    hi[rows] = np.where(reach, t_hi, np.inf)
-    return lo, hi
+    return accel_bounds.time_bracket(axles, body, target_mps, accel_bounds.BRACKET_NODES if nodes is None else nodes)

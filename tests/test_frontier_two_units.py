@@ -1,0 +1,64 @@
+"""The exact frontier of two-unit studies against exhaustive enumeration (invented random studies).
+
+The two-unit frontier is traced by epsilon-constraint searches that share option tables and the
+proved optima of earlier min-cost searches (`TwoUnitSearch._floor_memo`); the oracle evaluates every
+(front unit, rear unit, tyre) design with the exact physics and filters the non-dominated set from
+the definition (no other design at most as costly and at most as slow, better on one).
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+from generators import random_study
+
+from selector.api import Study
+from selector.engine import evaluate
+from selector.engine.parts import PartTables
+from selector.studies.frontier import trace
+
+REL = 1e-9  # pass/fail and tie tolerance of the engine (requirements.REL_TOL)
+
+
+def all_two_unit_keys(parts: PartTables) -> np.ndarray:
+    """Every (front motor, front reducer, rear motor, rear reducer, tyre) key row of the study."""
+    n_m, n_r, n_t = parts.sizes
+    grids = np.meshgrid(np.arange(n_m), np.arange(n_r), np.arange(n_m), np.arange(n_r), np.arange(n_t),
+                        indexing="ij")
+    keys = np.stack([g.ravel() for g in grids], axis=1)
+    if parts.problem.drive.same_unit:
+        keys = keys[(keys[:, 0] == keys[:, 2]) & (keys[:, 1] == keys[:, 3])]
+    return keys
+
+
+def pareto(parts: PartTables, axis_metric: str) -> list[tuple[float, float]]:
+    p = parts.problem
+    free = dataclasses.replace(p, requirements=dataclasses.replace(p.requirements, accel_time_s=None))
+    base = dataclasses.replace(parts, problem=free)
+    m = evaluate.evaluate(base, all_two_unit_keys(parts))
+    ok = evaluate.feasible(base, m, "accel_time")
+    pts = set(zip(m[axis_metric][ok].tolist(), m["accel_time_s"][ok].tolist(), strict=True))
+    return sorted((a, b) for a, b in pts if not any(c <= a and d <= b and (c < a or d < b) for c, d in pts))
+
+
+# Seeds whose random studies give frontiers of 2 to 8 points (found by running the oracle once).
+CASES = [("both", 8100), ("both", 8102), ("both", 8115), ("both", 8117), ("both", 8118),
+         ("same", 8100), ("same", 8115), ("same", 8117), ("same", 8119), ("same", 8131)]
+
+
+@pytest.mark.parametrize(("layout", "seed"), CASES)
+def test_two_unit_cost_frontier_equals_enumeration(layout, seed, tmp_path):
+    s = random_study(seed, tmp_path / f"{layout}{seed}", sizes=(3, 3, 3), layout=layout, gearbox_share=0.3,
+                     objective="accel_time", requirement_share=0.3)
+    parts = s.parts
+    allowed = {k: np.arange(n) for k, n in zip(("motors", "reducers", "tyres"), parts.sizes, strict=True)}
+    pts, stats = trace(Study(parts, allowed), "cost")
+    expected = pareto(parts, "cost")
+    got = [(c, t) for c, t, *_ in pts]
+    assert len(got) == len(expected) >= 2, (got, expected)
+    for (c, t), (ce, te) in zip(got, expected, strict=True):
+        assert math.isclose(c, ce, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)
+    assert stats["searches"] == 2 * len(pts) + 1

@@ -42,6 +42,11 @@ REFINE_BATCH = 64
 """Motors whose acceleration bound is refined together [-]."""
 FIRST_CHUNK = 256
 """Designs of a block evaluated in its first chunk (later chunks double) [-]."""
+PROBE_FIRST_BATCH = 512
+"""Designs the sum-order probe pops for its first exact screen (later batches double) [-]: one
+`evaluate.screen` call costs about as much as a few hundred designs in it (measured)."""
+PROBE_COARSE_NODES = 8
+"""Speed nodes of the probe's first, coarse time screen of motors (`bounds.optimistic_time_s`) [-]."""
 PROBE_DESIGNS = 16384
 """Designs the sum-order probe of cost and mass studies evaluates at most before handing over [-]."""
 MILP_OPEN = 400
@@ -165,24 +170,65 @@ class SingleAxleSearch:
         self.use = B.cached_usable(parts, allowed)
         reducers = allowed.get("reducers")
         self.pairs = pair_table(parts, self.use, np.arange(parts.sizes[1]) if reducers is None else reducers)
-        motors = np.arange(parts.sizes[0]) if allowed.get("motors") is None else np.asarray(allowed["motors"])
-        motors = np.asarray(motors, dtype=np.int64)
-        motors = motors[B.traction_feasible(parts, self.use, motors, req)]
-        if parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
-            motors = motors[parts.motors.has_loss_model[motors]]
-        cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
-        motors = B.equivalent_motors(parts, motors, count, cost_matters)
-        self.stats["motors"] = int(motors.size)
-        self.motors = motors
-        lo_s, hi_s = B.requirement_window(parts, self.use, motors, req, first_gear=False,
-                                          accel_target_kmh=req.accel_to_kmh if self.accel else None)
-        lo_1, hi_1 = B.requirement_window(parts, self.use, motors, req, first_gear=True)
-        self.win_speed = (lo_s, hi_s)
-        self.win_first = (lo_1, hi_1)
+        self.cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
+        self._motors = None
+        self._windows = None
+        self.unfinished = np.inf
+        """Least bound of designs of blocks left unfinished at the time limit."""
+        self.probe_bound = None
         self.pool_vals = np.empty(0)
         self.pool_keys = np.empty((0, 5), dtype=np.int64)
         self.l_range = (float(np.nanmin(self.pairs.l_tall)) if self.pairs.j.size else 0.0,
                         float(np.nanmax(self.pairs.l_first)) if self.pairs.j.size else 0.0)
+
+    # ------------------------------------------------------------------ motors and windows (on first use)
+    def allowed_motors(self) -> np.ndarray:
+        """Positions of the allowed motors (every motor without a procurement filter)."""
+        m = self.allowed.get("motors")
+        return np.arange(self.parts.sizes[0]) if m is None else np.asarray(m, dtype=np.int64)
+
+    def motor_screen(self, motors: np.ndarray) -> np.ndarray:
+        """True for motors that can be in a feasible design: a rated reducer and a usable tyre,
+        traction for gradeability and launch, a loss model in an energy study (necessary conditions)."""
+        ok = B.traction_feasible(self.parts, self.use, motors, self.req)
+        if self.parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
+            ok &= self.parts.motors.has_loss_model[motors]
+        return ok
+
+    def windows(self, motors: np.ndarray):
+        """((speed lo, hi), (first-gear lo, hi)): the requirement windows of ``motors`` on L."""
+        req = self.req
+        w_s = B.requirement_window(self.parts, self.use, motors, req, first_gear=False,
+                                   accel_target_kmh=req.accel_to_kmh if self.accel else None)
+        w_1 = B.requirement_window(self.parts, self.use, motors, req, first_gear=True)
+        return w_s, w_1
+
+    @property
+    def motors(self) -> np.ndarray:
+        """Motors of the block search: allowed, passing `motor_screen`, and of every group of
+        equivalent motors only the ``count`` worth searching (`bounds.equivalent_motors`). Computed
+        on first use: the sum-order probe prepares only the motors its walk reaches."""
+        if self._motors is None:
+            motors = self.allowed_motors()
+            motors = motors[self.motor_screen(motors)]
+            motors = B.equivalent_motors(self.parts, motors, self.count, self.cost_matters)
+            self.stats["motors"] = int(motors.size)
+            self._motors = motors
+        return self._motors
+
+    @property
+    def win_speed(self):
+        """Speed windows (lo, hi) on L of `motors` (some gear must lie in them)."""
+        if self._windows is None:
+            self._windows = self.windows(self.motors)
+        return self._windows[0]
+
+    @property
+    def win_first(self):
+        """First-gear windows (lo, hi) on L of `motors`."""
+        if self._windows is None:
+            self._windows = self.windows(self.motors)
+        return self._windows[1]
 
     # ------------------------------------------------------------------ candidate pairs
     def _single_ranges(self, m_pos):
@@ -415,6 +461,18 @@ class SingleAxleSearch:
         return np.where(multi, 0.0, np.where(np.isfinite(out), out, np.inf))
 
     # ------------------------------------------------------------------ the pool
+    def expired(self) -> bool:
+        """True once the deadline (``time_limit_s``) has passed."""
+        return self.deadline is not None and time.perf_counter() > self.deadline
+
+    def _stop_bound(self, rest) -> float | None:
+        """Proved lower bound when the search stops at the time limit: the least of ``rest`` (the
+        least bound of the designs not evaluated) and the best design found (None when not finite)."""
+        best = self.pool_vals.min() if self.pool_vals.size else np.inf
+        rest = np.inf if rest is None else rest
+        val = min(float(rest), float(best))
+        return val if np.isfinite(val) else None
+
     def kth(self) -> float:
         if self.pool_vals.size < self.count:
             return np.inf
@@ -484,6 +542,9 @@ class SingleAxleSearch:
             nxt = key_val[start]
             kth = self.kth()
             if nxt > kth + tie_tolerance(kth):
+                break
+            if start > 0 and self.expired():  # the rest of the block is bounded by its next key value
+                self.unfinished = min(self.unfinished, float(nxt))
                 break
             slice_kth = np.inf
             if found_v:
@@ -575,57 +636,123 @@ class SingleAxleSearch:
         return int(np.nonzero(self.motors == i)[0][0])
 
     # ------------------------------------------------------------------ the sum-order probe
-    def sum_order_probe(self) -> bool:
+    def sum_order_probe(self) -> str:
         """Cost and mass objectives (no [energy]): evaluate designs in increasing objective order.
 
         The objective is a sum of a motor value and a pair value (reducer + tyre_count x tyre), so a
         heap over (motor rank, pair rank) into both lists sorted by value yields designs in
-        increasing objective order (from (a, b) come (a, b + 1) and, when b = 0, (a + 1, 0)). Popped
-        designs whose pair is outside the motor's requirement windows or whose reducer is not rated
-        for the motor fail a necessary condition; the rest go to `evaluate.screen` in batches. When
-        the next value exceeds the ``count``-th best feasible value beyond the tie tolerance (or the
-        heap is empty), every design not evaluated is provably worse or infeasible: a complete proof
-        and the pool is set. Otherwise, after `PROBE_DESIGNS` designs, it hands over to the block
-        search (keeping its best design when ``count`` is 1, where a design seen twice does no harm).
-        Returns True when the probe proved the result.
+        increasing objective order (from (a, b) come (a, b + 1) and, when b = 0, (a' , 0) with a'
+        the next motor rank still in play). Popped designs whose pair is outside the motor's
+        requirement windows or whose reducer is not rated for the motor fail a necessary condition;
+        the rest go to `evaluate.screen` in batches. When the next value exceeds the ``count``-th
+        best feasible value beyond the tie tolerance (or the heap is empty), every design not
+        evaluated is provably worse or infeasible: a complete proof and the pool is set ("proved").
+        Otherwise, after `PROBE_DESIGNS` designs, it hands over to the block search ("handover",
+        keeping its best design when ``count`` is 1, where a design seen twice does no harm). At the
+        deadline it stops ("time_limit") with the heap's least value as the proved bound of every
+        design not evaluated (``self.probe_bound``).
+
+        Motors are prepared lazily, in chunks of growing size in the walk's motor order, only as far
+        as the walk reaches (the set-up over all motors would dominate when the optimum sits among
+        the first designs in objective order): `motor_screen`, the requirement windows (and with
+        ``accel_time_s`` stated, the certified time bound over the motor's whole admissible L
+        interval), and equivalent motors: a motor is skipped when ``count`` motors equal to it on
+        every attribute the study reads (`bounds.EQUIVALENCE_COLUMNS`) came earlier in the walk
+        with no higher cost (when cost matters). Each of those beats it or ties and precedes it in
+        part-id order on every design (same feasibility; the walk is in (value, part id) order, and
+        equal motors have equal mass), so it is in no list of ``count`` best designs.
         """
         parts, p = self.parts, self.pairs
         v = parts.problem.vehicle
-        lo = np.maximum(self.win_speed[0], self.win_first[0])
-        hi = np.minimum(self.win_speed[1], self.win_first[1])
-        # motors with some admissible L: the single-speed window (clipped to the pairs' L range), or
-        # any multi-speed pair (their gears are checked per design by `screen`)
-        lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
-        open_m = np.nonzero((lo_c <= hi_c) | bool(p.multi_pairs.size))[0]
-        if self.accel and self.req.accel_time_s is not None and open_m.size and p.multi_pairs.size == 0:
-            # motors whose certified time bound over their whole admissible L interval misses
-            # accel_time_s are out (that interval holds every admissible pair's L)
-            t = self.time_bound(open_m, lo_c[open_m], hi_c[open_m])
-            open_m = open_m[t <= self.req.accel_time_s * (1 + 2 * REL_TOL)]
-        if open_m.size == 0 or p.j.size == 0:
-            return True
-        mi = self.motors[open_m]
+        self.probe_bound = None
+        cand = self.allowed_motors()
+        if cand.size == 0 or p.j.size == 0:
+            return "proved"
         if self.objective == "cost":
-            m_val, p_val = parts.motors.cost[mi], p.cost
+            c_val, p_val = parts.motors.cost[cand], p.cost
         else:
-            m_val, p_val = v.mass_kg + parts.motors.mass_kg[mi], p.mass
-        m_ord = np.lexsort((mi, m_val))
+            c_val, p_val = v.mass_kg + parts.motors.mass_kg[cand], p.mass
+        m_ord = np.lexsort((cand, c_val))
+        cand = cand[m_ord]
         p_ord = np.argsort(p_val, kind="stable")  # pairs are stored in (reducer, tyre) order: ties keep it
-        m_sorted, p_sorted = m_val[m_ord].tolist(), p_val[p_ord].tolist()
-        n_m, n_p = len(m_sorted), len(p_sorted)
-        m_pos = open_m[m_ord]
-        heap = [(m_sorted[0] + p_sorted[0], 0, 0)]
+        m_sorted, p_sorted = c_val[m_ord].tolist(), p_val[p_ord].tolist()
+        n_m, n_p = cand.size, len(p_sorted)
+        valid = np.zeros(n_m, dtype=bool)
+        lo_r = np.full(n_m, np.inf)
+        hi_r = np.full(n_m, -np.inf)
+        seen: dict[bytes, list] = {}
+        state = {"prepared": 0, "chunk": 128}
+        multi_any = bool(p.multi_pairs.size)
+        limit_t = None if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+
+        def prepare():
+            a0 = state["prepared"]
+            a1 = min(n_m, a0 + state["chunk"])
+            state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], 65536)
+            mi = cand[a0:a1]
+            ok = self.motor_screen(mi)
+            (ls, hs), (l1, h1) = self.windows(mi)
+            lo, hi = np.maximum(ls, l1), np.minimum(hs, h1)
+            # some admissible L: the single-speed window (clipped to the pairs' L range), or any
+            # multi-speed pair (their gears are checked per design by `screen`)
+            lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
+            ok &= (lo_c <= hi_c) | multi_any
+            if self.accel and limit_t is not None and not multi_any and ok.any():
+                # motors whose certified time bound over their whole admissible L interval misses
+                # accel_time_s are out (that interval holds every admissible pair's L)
+                # (a coarse Riemann sum first: also a certified bound, cheaper, and most motors that
+                # miss the limit already miss it there)
+                for nodes in (PROBE_COARSE_NODES, B.RIEMANN_NODES):
+                    k = np.nonzero(ok)[0]
+                    if k.size:
+                        t = B.motor_time_bound_s(parts, self.use, mi[k], lo_c[k], hi_c[k], self.target, nodes=nodes)
+                        ok[k[~(t <= limit_t)]] = False
+            k = np.nonzero(ok)[0]
+            if k.size:
+                rows = B.equivalence_bits(parts, mi[k])
+                costs = parts.motors.cost[mi[k]].tolist()
+                for n_k, row in enumerate(rows):
+                    key = row.tobytes()
+                    prior = seen.setdefault(key, [])
+                    own = costs[n_k]
+                    better = sum(1 for c in prior if c <= own) if self.cost_matters else len(prior)
+                    prior.append(own)
+                    if better >= self.count:
+                        ok[k[n_k]] = False
+            valid[a0:a1] = ok
+            lo_r[a0:a1], hi_r[a0:a1] = lo, hi
+
+        def next_valid(a):
+            while a < n_m:
+                while state["prepared"] <= a:
+                    prepare()
+                hit = np.flatnonzero(valid[a:state["prepared"]])
+                if hit.size:
+                    return a + int(hit[0])
+                a = state["prepared"]
+            return None
+
+        a_first = next_valid(0)
+        if a_first is None:
+            return "proved"
+        heap = [(m_sorted[a_first] + p_sorted[0], a_first, 0)]
         found_v, found_k = [], []
         kth = np.inf
         evaluated = 0
-        batch = 128
+        batch = PROBE_FIRST_BATCH
+        outcome = "proved"
         while heap:
             if heap[0][0] > kth + tie_tolerance(kth):
                 break
             if evaluated >= PROBE_DESIGNS:
                 if self.count == 1 and found_v:
                     self._add(np.concatenate(found_v), np.concatenate(found_k))
-                return False
+                self.stats["probe"] = evaluated
+                return "handover"
+            if self.deadline is not None and time.perf_counter() > self.deadline:
+                outcome = "time_limit"
+                self.probe_bound = heap[0][0]
+                break
             a_l, b_l = [], []
             limit = kth + tie_tolerance(kth)
             while heap and len(a_l) < batch and heap[0][0] <= limit:
@@ -634,14 +761,16 @@ class SingleAxleSearch:
                 b_l.append(b)
                 if b + 1 < n_p:
                     heapq.heappush(heap, (m_sorted[a] + p_sorted[b + 1], a, b + 1))
-                if b == 0 and a + 1 < n_m:
-                    heapq.heappush(heap, (m_sorted[a + 1] + p_sorted[0], a + 1, 0))
-            pos = m_pos[np.asarray(a_l, dtype=np.int64)]
+                if b == 0:
+                    a2 = next_valid(a + 1)
+                    if a2 is not None:
+                        heapq.heappush(heap, (m_sorted[a2] + p_sorted[0], a2, 0))
+            ranks = np.asarray(a_l, dtype=np.int64)
             pair = p_ord[np.asarray(b_l, dtype=np.int64)]
-            motor = self.motors[pos]
+            motor = cand[ranks]
             ok = self.use.compatible[motor, p.j[pair]]
             single = ~p.multi[pair]
-            ok &= ~single | ((p.l_first[pair] >= lo[pos]) & (p.l_first[pair] <= hi[pos]))
+            ok &= ~single | ((p.l_first[pair] >= lo_r[ranks]) & (p.l_first[pair] <= hi_r[ranks]))
             evaluated += len(a_l)
             batch = min(2 * batch, 8192)
             if not ok.any():
@@ -659,17 +788,21 @@ class SingleAxleSearch:
         if found_v:
             self._add(np.concatenate(found_v), np.concatenate(found_k))
         self.stats["probe"] = evaluated
-        return True
+        self.stats["probe_motors"] = state["prepared"]
+        return outcome
 
     # ------------------------------------------------------------------ the loop
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
+        if self.objective in ("cost", "mass") and self.parts.problem.energy is None and self.per_slice == self.count:
+            outcome = self.sum_order_probe()
+            if outcome != "handover":
+                order = order_best(self.pool_vals, self.pool_keys, self.count)
+                designs = designs_of(self.pool_vals, self.pool_keys, order)
+                if outcome == "time_limit":
+                    return "time_limit", designs, self._stop_bound(self.probe_bound)
+                return ("optimal" if designs else "infeasible"), designs, None
         n = self.motors.size
-        if self.objective in ("cost", "mass") and self.parts.problem.energy is None \
-                and self.per_slice == self.count and self.sum_order_probe():
-            order = order_best(self.pool_vals, self.pool_keys, self.count)
-            designs = designs_of(self.pool_vals, self.pool_keys, order)
-            return ("optimal" if designs else "infeasible"), designs, None
         lb = self.value_bounds() if self.objective in ("cost", "mass") else np.zeros(n)
         if self.objective in ("cost", "mass") and self.parts.problem.requirements.range_km is not None \
                 and self.parts.problem.energy is not None:
@@ -697,6 +830,8 @@ class SingleAxleSearch:
             fin = np.nonzero(np.isfinite(lb))[0]
             edges = self.cell_edges()
             for s0 in range(0, fin.size, REFINE_BATCH):
+                if self.expired():  # the coarser bounds of the rest stay valid
+                    break
                 b = fin[s0:s0 + REFINE_BATCH]
                 cl = self.cell_bounds(b, edges[:-1], edges[1:], what="energy")
                 lb[b] = np.maximum(lb[b], np.where(self._multi_ok(b).any(axis=1) if self.pairs.multi_pairs.size
@@ -713,7 +848,7 @@ class SingleAxleSearch:
             kth = self.kth()
             if heap[0][0] > kth + tie_tolerance(kth):
                 break
-            if self.deadline is not None and time.perf_counter() > self.deadline:
+            if self.expired() or self.unfinished < np.inf:
                 status = "time_limit"
                 break
             v, m = heapq.heappop(heap)
@@ -770,11 +905,12 @@ class SingleAxleSearch:
             done[pos] = True
             self.evaluate_motor(pos, cells.get(pos))
             self.stats["blocks"] += 1
+        if status == "optimal" and self.unfinished < np.inf:
+            status = "time_limit"  # a block was cut short at the deadline
         bound = None
         if status == "time_limit":
             rest = min((h[0] for h in heap), default=np.inf)
-            best = self.pool_vals.min() if self.pool_vals.size else np.inf
-            bound = float(min(rest, best)) if np.isfinite(min(rest, best)) else None
+            bound = self._stop_bound(min(rest, self.unfinished))
         order = order_best(self.pool_vals, self.pool_keys, self.count)
         designs: list[Design] = designs_of(self.pool_vals, self.pool_keys, order)
         if status == "optimal" and not designs:

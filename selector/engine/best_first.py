@@ -749,7 +749,7 @@ class SingleAxleSearch:
                     self._add(np.concatenate(found_v), np.concatenate(found_k))
                 self.stats["probe"] = evaluated
                 return "handover"
-            if self.deadline is not None and time.perf_counter() > self.deadline:
+            if evaluated and self.expired():  # (after one batch: some progress in any case)
                 outcome = "time_limit"
                 self.probe_bound = heap[0][0]
                 break

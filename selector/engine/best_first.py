@@ -42,6 +42,13 @@ REFINE_BATCH = 64
 """Motors whose acceleration bound is refined together [-]."""
 FIRST_CHUNK = 256
 """Designs of a block evaluated in its first chunk (later chunks double) [-]."""
+FIRST_CHUNK_TIME = 2048
+"""The same for the accel_time objective, where one exact integration call costs about as much for
+one design as for a few hundred (measured), and the bracket cut-off drops most designs first [-]."""
+DENSE_MAX = 1 << 20
+"""Motors x L cells x single-speed pairs up to which bounds use one dense mask instead of range queries [-]."""
+MERGE_BLOCKS = 16
+"""accel_time: blocks whose bound is below the incumbent evaluated together, at most [-]."""
 PROBE_FIRST_BATCH = 512
 """Designs the sum-order probe pops for its first exact screen (later batches double) [-]: one
 `evaluate.screen` call costs about as much as a few hundred designs in it (measured)."""
@@ -94,6 +101,8 @@ class PairTable:
     build_classes: object
     """Callable building the rating classes (sorted pairs and range-minimum tables) on first use."""
     multi_pairs: np.ndarray
+    single_pairs: np.ndarray
+    """Positions of the single-speed pairs."""
     _classes: list | None = None
 
     @property
@@ -148,7 +157,8 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
                                       RangeMin(-eta[order])))
         return classes
 
-    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0])
+    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0],
+                     np.nonzero(~multi)[0])
 
 
 class SingleAxleSearch:
@@ -174,6 +184,8 @@ class SingleAxleSearch:
         self._motors = None
         self._windows = None
         self.unfinished = np.inf
+        self.pending = []
+        """Further (motor position, cell bounds) blocks `evaluate_motor` evaluates with the next one."""
         """Least bound of designs of blocks left unfinished at the time limit."""
         self.probe_bound = None
         self.pool_vals = np.empty(0)
@@ -246,6 +258,21 @@ class SingleAxleSearch:
             b = np.where(comp & (hi >= lo), b, a)
             out.append((c, a, b))
         return out
+
+    def _dense_single(self, m_pos, cells: int):
+        """(admissible (m, S), single-speed pair positions (S,)) of motors ``m_pos`` as one dense mask,
+        when motors x cells x pairs stays below `DENSE_MAX` (small studies, where the per-class range
+        queries cost more than the mask); else None. Admissible: rated for the motor and first-gear
+        L in both requirement windows, exactly the pairs `_single_ranges` selects."""
+        p = self.pairs
+        sp = p.single_pairs
+        if m_pos.size * cells * sp.size > DENSE_MAX:
+            return None
+        lo = np.maximum(self.win_speed[0][m_pos], self.win_first[0][m_pos])[:, None]
+        hi = np.minimum(self.win_speed[1][m_pos], self.win_first[1][m_pos])[:, None]
+        l1 = p.l_first[sp][None, :]
+        ok = self.use.compatible[self.motors[m_pos]][:, p.j[sp]] & (l1 >= lo) & (l1 <= hi)
+        return ok, sp
 
     def _multi_ok(self, m_pos):
         """(motors, multi-speed pairs) admissible: rated, first gear in its window, some gear in the speed window."""
@@ -348,10 +375,17 @@ class SingleAxleSearch:
         """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
         lo = np.full(m_pos.size, np.inf)
         hi = np.full(m_pos.size, -np.inf)
-        for c, a, b in self._single_ranges(m_pos):
-            has = b > a
-            lo = np.where(has, np.minimum(lo, c.l_sorted[np.minimum(a, c.l_sorted.size - 1)]), lo)
-            hi = np.where(has, np.maximum(hi, c.l_sorted[np.maximum(b - 1, 0)]), hi)
+        dense = self._dense_single(m_pos, 1)
+        if dense is not None:
+            ok, sp = dense
+            l1 = self.pairs.l_first[sp][None, :]
+            lo = np.where(ok, l1, np.inf).min(axis=1, initial=np.inf)
+            hi = np.where(ok, l1, -np.inf).max(axis=1, initial=-np.inf)
+        else:
+            for c, a, b in self._single_ranges(m_pos):
+                has = b > a
+                lo = np.where(has, np.minimum(lo, c.l_sorted[np.minimum(a, c.l_sorted.size - 1)]), lo)
+                hi = np.where(has, np.maximum(hi, c.l_sorted[np.maximum(b - 1, 0)]), hi)
         mo = self._multi_ok(m_pos)
         if mo.size:
             mp = self.pairs.multi_pairs
@@ -381,7 +415,17 @@ class SingleAxleSearch:
         mass = np.full(shape, np.inf)
         crr = np.full(shape, np.inf)
         eta = np.full(shape, np.inf)  # minimum of -eta
-        for c, a, b in self._single_ranges(m_pos):
+        dense = self._dense_single(m_pos, shape[1])
+        if dense is not None:
+            ok, sp = dense
+            p = self.pairs
+            l1 = p.l_first[sp][None, None, :]
+            inc = ok[:, None, :] & (l1 >= lo_c[:, :, None]) & (l1 <= hi_c[:, :, None])
+            occupied = inc.any(axis=2)
+            mass = np.where(inc, p.mass[sp], np.inf).min(axis=2, initial=np.inf)
+            crr = np.where(inc, p.crr[sp], np.inf).min(axis=2, initial=np.inf)
+            eta = np.where(inc, -p.eta[sp], np.inf).min(axis=2, initial=np.inf)
+        for c, a, b in (() if dense is not None else self._single_ranges(m_pos)):
             ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[:, None])
             ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[:, None])
             has = ib > ia
@@ -402,6 +446,37 @@ class SingleAxleSearch:
                 out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
                                                    mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
         return out
+
+    def _subcell_bounds(self, pos: int, single: np.ndarray, sub: np.ndarray, used: np.ndarray, fine) -> np.ndarray:
+        """Certified time bound of motor ``pos``'s single-speed candidate pairs ``single`` in each
+        sub-cell ``used`` (``sub``: each pair's sub-cell, edges ``fine``) [s].
+
+        The extremes (least pair mass and rolling resistance, best efficiency) are taken directly
+        over the candidates in each sub-cell (one pass over the block's own pairs, no range
+        queries); a sub-cell's bound holds for every design whose pair lies in it, since its L lies
+        in [fine[s], fine[s + 1]] and its values are no better than those extremes.
+        """
+        p = self.pairs
+        n = fine.size - 1
+        mass = np.full(n, np.inf)
+        crr = np.full(n, np.inf)
+        eta = np.full(n, -np.inf)
+        np.minimum.at(mass, sub, p.mass[single])
+        np.minimum.at(crr, sub, p.crr[single])
+        np.maximum.at(eta, sub, p.eta[single])
+        i = int(self.motors[pos])
+        m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + mass[used]
+        return B.motor_time_bound_s(self.parts, self.use, np.full(used.size, i), fine[used], fine[used + 1],
+                                    self.target, mass_min_kg=m_lo, eta_max=eta[used], crr_min=crr[used])
+
+    def _design_time_bounds(self, motors: np.ndarray, pairs: np.ndarray) -> np.ndarray:
+        """Certified time bound of single designs (motor rows, pair positions) [s]: `optimistic_time_s`
+        at the design's own gear hull (one L for a single-speed pair), mass, best gear efficiency
+        and rolling resistance."""
+        p = self.pairs
+        mass = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[motors] + p.mass[pairs]
+        return B.motor_time_bound_s(self.parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
+                                    mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs])
 
     def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
         """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.
@@ -487,19 +562,15 @@ class SingleAxleSearch:
             self.pool_vals, self.pool_keys = self.pool_vals[keep], self.pool_keys[keep]
 
     # ------------------------------------------------------------------ one block
-    def evaluate_motor(self, pos: int, cell_lb=None):
-        """Evaluate motor ``pos``'s admissible designs exactly, best pair bound first, until provably done.
-
-        Pairs are ordered by a lower bound of their objective (cost and mass: exact; time: the bound
-        of their L cell, or of their gear hull for a multi-speed pair) and evaluated in growing chunks;
-        within a chunk, the point bound of each pair (`time_bound` at its own L) drops the pairs that
-        cannot meet accel_time_s or beat the pool, before `evaluate.screen` decides the rest.
-        """
+    def _block(self, pos: int, cell_lb=None):
+        """(candidate pairs, key values) of motor ``pos``'s admissible designs that can still count:
+        cost and mass: exact values; time: the bound of their sub-cell, or of their gear hull for a
+        multi-speed pair (pairs whose bound misses accel_time_s dropped). None when none is left."""
         parts, p = self.parts, self.pairs
         i = int(self.motors[pos])
         cand = self.candidates(pos)
         if cand.size == 0:
-            return
+            return None
         limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
         if self.accel:
             # sub-cell bounds: SUBCELLS per cell of the refinement grid, only where the cell can count
@@ -512,7 +583,7 @@ class SingleAxleSearch:
                 if cell_lb is not None:
                     used = used[cell_lb[used // SUBCELLS] <= limit]
                 if used.size:
-                    t_sub[used] = self.cell_bounds(np.array([pos]), fine[used], fine[used + 1])[0]
+                    t_sub[used] = self._subcell_bounds(pos, cand[~multi], sub[~multi], used, fine)
             t_cell = np.where(multi, 0.0, t_sub[sub])
             if multi.any():
                 mc = np.nonzero(multi)[0]
@@ -520,7 +591,7 @@ class SingleAxleSearch:
             keep = t_cell <= limit
             cand, t_cell = cand[keep], t_cell[keep]
         if cand.size == 0:
-            return
+            return None
         if self.objective == "cost":
             key_val = parts.motors.cost[i] + p.cost[cand]
         elif self.objective == "mass":
@@ -534,10 +605,38 @@ class SingleAxleSearch:
             key_val = self._cell_battery(pos, cand, "energy")
         else:
             key_val = t_cell
-        order = np.lexsort((p.k[cand], p.j[cand], key_val))
-        cand, key_val = cand[order], key_val[order]
+        return cand, key_val
+
+    def evaluate_motor(self, pos: int, cell_lb=None):
+        """Evaluate motor ``pos``'s admissible designs exactly, best pair bound first, until provably done
+        (with the blocks in ``self.pending``, (pos, cell bounds) pairs, merged into one block).
+
+        Pairs are ordered by a lower bound of their objective (cost and mass: exact; time: the bound
+        of their sub-cell, or of their gear hull for a multi-speed pair) and evaluated in growing
+        chunks by `evaluate.screen` (with the accel_time objective, the best time found so far as
+        its cut-off). The loop stops when the next key value exceeds the pool's ``count``-th best (or
+        this block's ``per_motor``-th best) beyond the tie tolerance: every pair after it is no better.
+        Merging blocks (accel_time only, where one exact integration call costs about as much for
+        one design as for a few hundred) evaluates their pairs in one order; it changes no bound.
+        """
+        parts, p = self.parts, self.pairs
+        blocks = [(pos, cell_lb)] + list(self.pending)
+        self.pending = []
+        mot, cands, vals = [], [], []
+        for q, cl in blocks:
+            got = self._block(q, cl)
+            if got is not None:
+                mot.append(np.full(got[0].size, int(self.motors[q]), dtype=np.int64))
+                cands.append(got[0])
+                vals.append(got[1])
+        if not cands:
+            return
+        mot, cand, key_val = np.concatenate(mot), np.concatenate(cands), np.concatenate(vals)
+        order = np.lexsort((p.k[cand], p.j[cand], mot, key_val))
+        mot, cand, key_val = mot[order], cand[order], key_val[order]
         found_v, found_k = [], []
-        start, size = 0, FIRST_CHUNK
+        start, size = 0, FIRST_CHUNK if self.objective != "accel_time" else FIRST_CHUNK_TIME
+        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
         while start < cand.size:
             nxt = key_val[start]
             kth = self.kth()
@@ -556,6 +655,7 @@ class SingleAxleSearch:
                         break
             stop = min(cand.size, start + size)
             chunk = cand[start:stop]
+            ok_chunk = None
             if self.objective in ("accel_time", "energy"):
                 # the chunk's key values are not sorted beyond their cell bound: keep those that can still count
                 ok_chunk = key_val[start:stop] <= min(kth, slice_kth) * (1 + 4 * REL_TOL)
@@ -563,8 +663,15 @@ class SingleAxleSearch:
             cutoff = None
             if self.objective == "accel_time" and np.isfinite(min(kth, slice_kth)):
                 cutoff = min(kth, slice_kth) * (1 + 4 * REL_TOL)
+            mot_c = mot[start:stop][ok_chunk] if ok_chunk is not None else mot[start:stop]
+            if self.accel and chunk.size and (cutoff is not None or np.isfinite(limit)):
+                # each design's own certified time bound (its L, mass, efficiency and rolling
+                # resistance): designs above the cut-off or accel_time_s cannot count
+                t_own = self._design_time_bounds(mot_c, chunk)
+                keep = t_own <= min(limit, np.inf if cutoff is None else cutoff)
+                chunk, mot_c = chunk[keep], mot_c[keep]
             if chunk.size:
-                keys = parts.single_keys(i, p.j[chunk], p.k[chunk])
+                keys = parts.single_keys(mot_c, p.j[chunk], p.k[chunk])
                 ok, obj = screen(parts, keys, objective=self.objective, accel_cutoff=cutoff)
                 self.stats["evaluated"] += chunk.size
                 if ok.any():
@@ -903,8 +1010,19 @@ class SingleAxleSearch:
             if done[pos]:
                 continue
             done[pos] = True
+            if self.objective == "accel_time" and self.per_slice == self.count and self.milp != "always" \
+                    and np.isfinite(kth):
+                # the next refined blocks whose bound is below the incumbent go with this one
+                while heap and len(self.pending) < MERGE_BLOCKS - 1 and heap[0][0] <= kth + tie_tolerance(kth):
+                    p2 = pos_of[heap[0][1]]
+                    if not done[p2] and not refined[p2]:
+                        break
+                    heapq.heappop(heap)
+                    if not done[p2]:
+                        done[p2] = True
+                        self.pending.append((p2, cells.get(p2)))
+            self.stats["blocks"] += 1 + len(self.pending)
             self.evaluate_motor(pos, cells.get(pos))
-            self.stats["blocks"] += 1
         if status == "optimal" and self.unfinished < np.inf:
             status = "time_limit"  # a block was cut short at the deadline
         bound = None

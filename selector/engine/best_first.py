@@ -54,6 +54,8 @@ PROBE_FIRST_BATCH = 512
 `evaluate.screen` call costs about as much as a few hundred designs in it (measured)."""
 PROBE_COARSE_NODES = 8
 """Speed nodes of the probe's first, coarse time screen of motors (`bounds.optimistic_time_s`) [-]."""
+PROBE_COARSE_MIN = 256
+"""... applied to chunks of more motors than this (below, its fixed cost outweighs what it saves) [-]."""
 PROBE_DESIGNS = 16384
 """Designs the sum-order probe of cost and mass studies evaluates at most before handing over [-]."""
 MILP_OPEN = 400
@@ -811,7 +813,7 @@ class SingleAxleSearch:
                 # miss the limit already miss it there)
                 for nodes in (PROBE_COARSE_NODES, B.RIEMANN_NODES):
                     k = np.nonzero(ok)[0]
-                    if k.size:
+                    if k.size > (0 if nodes == B.RIEMANN_NODES else PROBE_COARSE_MIN):
                         t = B.motor_time_bound_s(parts, self.use, mi[k], lo_c[k], hi_c[k], self.target, nodes=nodes)
                         ok[k[~(t <= limit_t)]] = False
             k = np.nonzero(ok)[0]

@@ -473,12 +473,21 @@ class SingleAxleSearch:
 
     def _design_time_bounds(self, motors: np.ndarray, pairs: np.ndarray) -> np.ndarray:
         """Certified time bound of single designs (motor rows, pair positions) [s]: `optimistic_time_s`
-        at the design's own gear hull (one L for a single-speed pair), mass, best gear efficiency
-        and rolling resistance."""
-        p = self.pairs
-        mass = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[motors] + p.mass[pairs]
-        return B.motor_time_bound_s(self.parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
-                                    mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs])
+        at the design's own gear hull (one L for a single-speed pair), mass (as both extremes),
+        static driven-axle share, best gear efficiency and rolling resistance (without [energy],
+        where a battery adds mass, the mass and share extremes stay the motor's)."""
+        p, parts = self.pairs, self.parts
+        m_motor = parts.motors.mass_kg[motors]
+        mass = parts.problem.vehicle.mass_kg + m_motor + p.mass[pairs]
+        if parts.problem.energy is not None:  # a battery adds mass: keep the motor-level extremes there
+            return B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
+                                        mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs])
+        m_red = parts.reducers.mass_kg[p.j[pairs]]
+        m_tyre = parts.tyres.mass_kg[p.k[pairs]]
+        share = B.max_driven_share(parts, m_motor, (m_red,), (m_tyre,))
+        return B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
+                                    mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs], mass_max_kg=mass,
+                                    driven_share_max=share)
 
     def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
         """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.

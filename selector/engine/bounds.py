@@ -393,22 +393,27 @@ def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_s
 
 
 def motor_time_bound_s(parts: PartTables, use: Usable, motors, l_a, l_b, target_mps, mass_min_kg=None, eta_max=None,
-                       crr_min=None, nodes: int = RIEMANN_NODES):
+                       crr_min=None, nodes: int = RIEMANN_NODES, mass_max_kg=None, driven_share_max=None):
     """`optimistic_time_s` of single-unit designs with ``motors`` and gears in [l_a, l_b] (broadcast) [s].
 
-    ``mass_min_kg``, ``eta_max``, ``crr_min`` (optional, broadcast): tighter extremes over the
-    block's designs than the motor's usable parts give (e.g. over the pairs in an L cell).
+    ``mass_min_kg``, ``eta_max``, ``crr_min``, ``mass_max_kg``, ``driven_share_max`` (optional,
+    broadcast): tighter extremes over the block's designs than the motor's usable parts give (e.g.
+    over the pairs in an L cell, or one design's own values).
     """
     mo = parts.motors
     p = parts.problem
     motors = np.asarray(motors, dtype=np.int64)
-    share = max_driven_share(parts, mo.mass_kg[motors], (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
-                             (use.tyre_mass_min, use.tyre_mass_max))
+    share = driven_share_max
+    if share is None:
+        share = max_driven_share(parts, mo.mass_kg[motors],
+                                 (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
+                                 (use.tyre_mass_min, use.tyre_mass_max))
     m_lo = lightest_mass_kg(parts, use, motors) if mass_min_kg is None else mass_min_kg
+    m_hi = heaviest_mass_kg(parts, use, motors) if mass_max_kg is None else mass_max_kg
     return optimistic_time_s(mo.torque_nm[motors], mo.power_w[motors], mo.decline_rad_s[motors],
                              mo.decline_exponent[motors], mo.max_speed_rad_s[motors], mo.rotor_inertia_kgm2[motors],
                              use.eta_max[motors] if eta_max is None else eta_max, use.eta_min[motors], m_lo,
-                             heaviest_mass_kg(parts, use, motors), use.crr_min if crr_min is None else crr_min,
+                             m_hi, use.crr_min if crr_min is None else crr_min,
                              parts.q_n_s2_m2, p.environment.road_friction, share,
                              p.vehicle.cg_height_m / p.vehicle.wheelbase_m, 1.0 if parts.rear_drive else -1.0,
                              l_a, l_b, target_mps, nodes)

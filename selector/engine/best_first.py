@@ -45,6 +45,10 @@ FIRST_CHUNK = 256
 FIRST_CHUNK_TIME = 2048
 """The same for the accel_time objective, where one exact integration call costs about as much for
 one design as for a few hundred (measured), and the bracket cut-off drops most designs first [-]."""
+SMALL_DESIGNS = 200_000
+"""Studies with an acceleration requirement and at most this many (motor, pair) designs skip the
+per-cell refinement: blocks are ordered by the motor's hull bound and each design gets its own
+certified time bound (cheaper than refining cells when blocks are small) [-]."""
 DENSE_MAX = 1 << 20
 """Motors x L cells x single-speed pairs up to which bounds use one dense mask instead of range queries [-]."""
 MERGE_BLOCKS = 16
@@ -186,6 +190,8 @@ class SingleAxleSearch:
         self._motors = None
         self._windows = None
         self.unfinished = np.inf
+        self.small = False
+        """Small study (`SMALL_DESIGNS`): no per-cell refinement, each design's own bound instead."""
         self.pending = []
         """Further (motor position, cell bounds) blocks `evaluate_motor` evaluates with the next one."""
         """Least bound of designs of blocks left unfinished at the time limit."""
@@ -583,7 +589,12 @@ class SingleAxleSearch:
         if cand.size == 0:
             return None
         limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
-        if self.accel:
+        if self.accel and self.small:
+            # a small study: each design's own certified bound (no cells; see `SMALL_DESIGNS`)
+            t_cell = self._design_time_bounds(np.full(cand.size, i, dtype=np.int64), cand)
+            keep = t_cell <= limit
+            cand, t_cell = cand[keep], t_cell[keep]
+        elif self.accel:
             # sub-cell bounds: SUBCELLS per cell of the refinement grid, only where the cell can count
             fine = self.cell_edges(CELLS * SUBCELLS)
             sub = np.clip(np.searchsorted(fine, p.l_first[cand], side="right") - 1, 0, CELLS * SUBCELLS - 1)
@@ -675,7 +686,7 @@ class SingleAxleSearch:
             if self.objective == "accel_time" and np.isfinite(min(kth, slice_kth)):
                 cutoff = min(kth, slice_kth) * (1 + 4 * REL_TOL)
             mot_c = mot[start:stop][ok_chunk] if ok_chunk is not None else mot[start:stop]
-            if self.accel and chunk.size and (cutoff is not None or np.isfinite(limit)):
+            if self.accel and not self.small and chunk.size and (cutoff is not None or np.isfinite(limit)):
                 # each design's own certified time bound (its L, mass, efficiency and rolling
                 # resistance): designs above the cut-off or accel_time_s cannot count
                 t_own = self._design_time_bounds(mot_c, chunk)
@@ -942,7 +953,8 @@ class SingleAxleSearch:
             mi = self.motors[has]
             lb[has] = self.energy_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
                                          self.use.crr_min, self.use.eta_max[mi])
-        refined = np.zeros(n, dtype=bool) if self.accel else np.ones(n, dtype=bool)
+        self.small = self.accel and n * self.pairs.j.size <= SMALL_DESIGNS
+        refined = np.zeros(n, dtype=bool) if self.accel and not self.small else np.ones(n, dtype=bool)
         if self.objective == "energy":
             # the motor-level energy bound refined over L cells (least pair mass per cell), in batches
             fin = np.nonzero(np.isfinite(lb))[0]

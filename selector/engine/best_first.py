@@ -9,7 +9,8 @@ block gets a certified lower bound on the objective over its designs that can be
   range-minimum query over pairs sorted by L, per reducer rating class);
 - acceleration time: the certified Riemann bound of `bounds.optimistic_time_s` over L cells
   holding such pairs (first over the motor's whole L range, refined to `CELLS` cells when the motor
-  comes up), which also removes the pairs of cells that cannot meet ``accel_time_s``.
+  comes up), which also removes the pairs of cells that cannot meet ``accel_time_s``; on small
+  studies (`SMALL_DESIGNS`) no cells: each design of a block gets its own bound instead.
 
 Motors are taken in order of their bound; a motor's block is evaluated exactly (`evaluate.screen`,
 cheap checks first, the acceleration run last), in the order of its pairs' own bounds, stopping as
@@ -190,11 +191,11 @@ class SingleAxleSearch:
         self._motors = None
         self._windows = None
         self.unfinished = np.inf
+        """Least bound of designs of blocks left unfinished at the time limit."""
         self.small = False
         """Small study (`SMALL_DESIGNS`): no per-cell refinement, each design's own bound instead."""
         self.pending = []
         """Further (motor position, cell bounds) blocks `evaluate_motor` evaluates with the next one."""
-        """Least bound of designs of blocks left unfinished at the time limit."""
         self.probe_bound = None
         self.pool_vals = np.empty(0)
         self.pool_keys = np.empty((0, 5), dtype=np.int64)

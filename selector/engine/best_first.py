@@ -61,6 +61,9 @@ PROBE_COARSE_NODES = 8
 """Speed nodes of the probe's first, coarse time screen of motors (`bounds.optimistic_time_s`) [-]."""
 PROBE_COARSE_MIN = 256
 """... applied to chunks of more motors than this (below, its fixed cost outweighs what it saves) [-]."""
+PROBE_CHUNK_MAX = 1024
+"""Motors the probe prepares at once, at most (chunks grow from 128; a larger cap overshoots the
+motors the walk reaches, a smaller one pays more fixed costs per call) [-]."""
 PROBE_DESIGNS = 16384
 """Designs the sum-order probe of cost and mass studies evaluates at most before handing over [-]."""
 MILP_OPEN = 400
@@ -818,7 +821,7 @@ class SingleAxleSearch:
         def prepare():
             a0 = state["prepared"]
             a1 = min(n_m, a0 + state["chunk"])
-            state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], 65536)
+            state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], PROBE_CHUNK_MAX)
             mi = cand[a0:a1]
             ok = self.motor_screen(mi)
             (ls, hs), (l1, h1) = self.windows(mi)

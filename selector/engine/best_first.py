@@ -9,7 +9,8 @@ block gets a certified lower bound on the objective over its designs that can be
   range-minimum query over pairs sorted by L, per reducer rating class);
 - acceleration time: the certified Riemann bound of `bounds.optimistic_time_s` over L cells
   holding such pairs (first over the motor's whole L range, refined to `CELLS` cells when the motor
-  comes up), which also removes the pairs of cells that cannot meet ``accel_time_s``.
+  comes up), which also removes the pairs of cells that cannot meet ``accel_time_s``; on small
+  studies (`SMALL_DESIGNS`) no cells: each design of a block gets its own bound instead.
 
 Motors are taken in order of their bound; a motor's block is evaluated exactly (`evaluate.screen`,
 cheap checks first, the acceleration run last), in the order of its pairs' own bounds, stopping as
@@ -42,6 +43,27 @@ REFINE_BATCH = 64
 """Motors whose acceleration bound is refined together [-]."""
 FIRST_CHUNK = 256
 """Designs of a block evaluated in its first chunk (later chunks double) [-]."""
+FIRST_CHUNK_TIME = 2048
+"""The same for the accel_time objective, where one exact integration call costs about as much for
+one design as for a few hundred (measured), and the bracket cut-off drops most designs first [-]."""
+SMALL_DESIGNS = 200_000
+"""Studies with an acceleration requirement and at most this many (motor, pair) designs skip the
+per-cell refinement: blocks are ordered by the motor's hull bound and each design gets its own
+certified time bound (cheaper than refining cells when blocks are small) [-]."""
+DENSE_MAX = 1 << 20
+"""Motors x L cells x single-speed pairs up to which bounds use one dense mask instead of range queries [-]."""
+MERGE_BLOCKS = 16
+"""accel_time: blocks whose bound is below the incumbent evaluated together, at most [-]."""
+PROBE_FIRST_BATCH = 512
+"""Designs the sum-order probe pops for its first exact screen (later batches double) [-]: one
+`evaluate.screen` call costs about as much as a few hundred designs in it (measured)."""
+PROBE_COARSE_NODES = 8
+"""Speed nodes of the probe's first, coarse time screen of motors (`bounds.optimistic_time_s`) [-]."""
+PROBE_COARSE_MIN = 256
+"""... applied to chunks of more motors than this (below, its fixed cost outweighs what it saves) [-]."""
+PROBE_CHUNK_MAX = 1024
+"""Motors the probe prepares at once, at most (chunks grow from 128; a larger cap overshoots the
+motors the walk reaches, a smaller one pays more fixed costs per call) [-]."""
 PROBE_DESIGNS = 16384
 """Designs the sum-order probe of cost and mass studies evaluates at most before handing over [-]."""
 MILP_OPEN = 400
@@ -89,6 +111,8 @@ class PairTable:
     build_classes: object
     """Callable building the rating classes (sorted pairs and range-minimum tables) on first use."""
     multi_pairs: np.ndarray
+    single_pairs: np.ndarray
+    """Positions of the single-speed pairs."""
     _classes: list | None = None
 
     @property
@@ -143,7 +167,8 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
                                       RangeMin(-eta[order])))
         return classes
 
-    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0])
+    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0],
+                     np.nonzero(~multi)[0])
 
 
 class SingleAxleSearch:
@@ -165,24 +190,69 @@ class SingleAxleSearch:
         self.use = B.cached_usable(parts, allowed)
         reducers = allowed.get("reducers")
         self.pairs = pair_table(parts, self.use, np.arange(parts.sizes[1]) if reducers is None else reducers)
-        motors = np.arange(parts.sizes[0]) if allowed.get("motors") is None else np.asarray(allowed["motors"])
-        motors = np.asarray(motors, dtype=np.int64)
-        motors = motors[B.traction_feasible(parts, self.use, motors, req)]
-        if parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
-            motors = motors[parts.motors.has_loss_model[motors]]
-        cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
-        motors = B.equivalent_motors(parts, motors, count, cost_matters)
-        self.stats["motors"] = int(motors.size)
-        self.motors = motors
-        lo_s, hi_s = B.requirement_window(parts, self.use, motors, req, first_gear=False,
-                                          accel_target_kmh=req.accel_to_kmh if self.accel else None)
-        lo_1, hi_1 = B.requirement_window(parts, self.use, motors, req, first_gear=True)
-        self.win_speed = (lo_s, hi_s)
-        self.win_first = (lo_1, hi_1)
+        self.cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
+        self._motors = None
+        self._windows = None
+        self.unfinished = np.inf
+        """Least bound of designs of blocks left unfinished at the time limit."""
+        self.small = False
+        """Small study (`SMALL_DESIGNS`): no per-cell refinement, each design's own bound instead."""
+        self.pending = []
+        """Further (motor position, cell bounds) blocks `evaluate_motor` evaluates with the next one."""
+        self.probe_bound = None
         self.pool_vals = np.empty(0)
         self.pool_keys = np.empty((0, 5), dtype=np.int64)
         self.l_range = (float(np.nanmin(self.pairs.l_tall)) if self.pairs.j.size else 0.0,
                         float(np.nanmax(self.pairs.l_first)) if self.pairs.j.size else 0.0)
+
+    # ------------------------------------------------------------------ motors and windows (on first use)
+    def allowed_motors(self) -> np.ndarray:
+        """Positions of the allowed motors (every motor without a procurement filter)."""
+        m = self.allowed.get("motors")
+        return np.arange(self.parts.sizes[0]) if m is None else np.asarray(m, dtype=np.int64)
+
+    def motor_screen(self, motors: np.ndarray) -> np.ndarray:
+        """True for motors that can be in a feasible design: a rated reducer and a usable tyre,
+        traction for gradeability and launch, a loss model in an energy study (necessary conditions)."""
+        ok = B.traction_feasible(self.parts, self.use, motors, self.req)
+        if self.parts.problem.energy is not None:  # only motors with a loss model can drive an energy study
+            ok &= self.parts.motors.has_loss_model[motors]
+        return ok
+
+    def windows(self, motors: np.ndarray):
+        """((speed lo, hi), (first-gear lo, hi)): the requirement windows of ``motors`` on L."""
+        req = self.req
+        w_s = B.requirement_window(self.parts, self.use, motors, req, first_gear=False,
+                                   accel_target_kmh=req.accel_to_kmh if self.accel else None)
+        w_1 = B.requirement_window(self.parts, self.use, motors, req, first_gear=True)
+        return w_s, w_1
+
+    @property
+    def motors(self) -> np.ndarray:
+        """Motors of the block search: allowed, passing `motor_screen`, and of every group of
+        equivalent motors only the ``count`` worth searching (`bounds.equivalent_motors`). Computed
+        on first use: the sum-order probe prepares only the motors its walk reaches."""
+        if self._motors is None:
+            motors = self.allowed_motors()
+            motors = motors[self.motor_screen(motors)]
+            motors = B.equivalent_motors(self.parts, motors, self.count, self.cost_matters)
+            self.stats["motors"] = int(motors.size)
+            self._motors = motors
+        return self._motors
+
+    @property
+    def win_speed(self):
+        """Speed windows (lo, hi) on L of `motors` (some gear must lie in them)."""
+        if self._windows is None:
+            self._windows = self.windows(self.motors)
+        return self._windows[0]
+
+    @property
+    def win_first(self):
+        """First-gear windows (lo, hi) on L of `motors`."""
+        if self._windows is None:
+            self._windows = self.windows(self.motors)
+        return self._windows[1]
 
     # ------------------------------------------------------------------ candidate pairs
     def _single_ranges(self, m_pos):
@@ -200,6 +270,21 @@ class SingleAxleSearch:
             b = np.where(comp & (hi >= lo), b, a)
             out.append((c, a, b))
         return out
+
+    def _dense_single(self, m_pos, cells: int):
+        """(admissible (m, S), single-speed pair positions (S,)) of motors ``m_pos`` as one dense mask,
+        when motors x cells x pairs stays below `DENSE_MAX` (small studies, where the per-class range
+        queries cost more than the mask); else None. Admissible: rated for the motor and first-gear
+        L in both requirement windows, exactly the pairs `_single_ranges` selects."""
+        p = self.pairs
+        sp = p.single_pairs
+        if m_pos.size * cells * sp.size > DENSE_MAX:
+            return None
+        lo = np.maximum(self.win_speed[0][m_pos], self.win_first[0][m_pos])[:, None]
+        hi = np.minimum(self.win_speed[1][m_pos], self.win_first[1][m_pos])[:, None]
+        l1 = p.l_first[sp][None, :]
+        ok = self.use.compatible[self.motors[m_pos]][:, p.j[sp]] & (l1 >= lo) & (l1 <= hi)
+        return ok, sp
 
     def _multi_ok(self, m_pos):
         """(motors, multi-speed pairs) admissible: rated, first gear in its window, some gear in the speed window."""
@@ -303,10 +388,17 @@ class SingleAxleSearch:
         """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
         lo = np.full(m_pos.size, np.inf)
         hi = np.full(m_pos.size, -np.inf)
-        for c, a, b in self._single_ranges(m_pos):
-            has = b > a
-            lo = np.where(has, np.minimum(lo, c.l_sorted[np.minimum(a, c.l_sorted.size - 1)]), lo)
-            hi = np.where(has, np.maximum(hi, c.l_sorted[np.maximum(b - 1, 0)]), hi)
+        dense = self._dense_single(m_pos, 1)
+        if dense is not None:
+            ok, sp = dense
+            l1 = self.pairs.l_first[sp][None, :]
+            lo = np.where(ok, l1, np.inf).min(axis=1, initial=np.inf)
+            hi = np.where(ok, l1, -np.inf).max(axis=1, initial=-np.inf)
+        else:
+            for c, a, b in self._single_ranges(m_pos):
+                has = b > a
+                lo = np.where(has, np.minimum(lo, c.l_sorted[np.minimum(a, c.l_sorted.size - 1)]), lo)
+                hi = np.where(has, np.maximum(hi, c.l_sorted[np.maximum(b - 1, 0)]), hi)
         mo = self._multi_ok(m_pos)
         if mo.size:
             mp = self.pairs.multi_pairs
@@ -336,7 +428,17 @@ class SingleAxleSearch:
         mass = np.full(shape, np.inf)
         crr = np.full(shape, np.inf)
         eta = np.full(shape, np.inf)  # minimum of -eta
-        for c, a, b in self._single_ranges(m_pos):
+        dense = self._dense_single(m_pos, shape[1])
+        if dense is not None:
+            ok, sp = dense
+            p = self.pairs
+            l1 = p.l_first[sp][None, None, :]
+            inc = ok[:, None, :] & (l1 >= lo_c[:, :, None]) & (l1 <= hi_c[:, :, None])
+            occupied = inc.any(axis=2)
+            mass = np.where(inc, p.mass[sp], np.inf).min(axis=2, initial=np.inf)
+            crr = np.where(inc, p.crr[sp], np.inf).min(axis=2, initial=np.inf)
+            eta = np.where(inc, -p.eta[sp], np.inf).min(axis=2, initial=np.inf)
+        for c, a, b in (() if dense is not None else self._single_ranges(m_pos)):
             ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[:, None])
             ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[:, None])
             has = ib > ia
@@ -357,6 +459,46 @@ class SingleAxleSearch:
                 out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
                                                    mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
         return out
+
+    def _subcell_bounds(self, pos: int, single: np.ndarray, sub: np.ndarray, used: np.ndarray, fine) -> np.ndarray:
+        """Certified time bound of motor ``pos``'s single-speed candidate pairs ``single`` in each
+        sub-cell ``used`` (``sub``: each pair's sub-cell, edges ``fine``) [s].
+
+        The extremes (least pair mass and rolling resistance, best efficiency) are taken directly
+        over the candidates in each sub-cell (one pass over the block's own pairs, no range
+        queries); a sub-cell's bound holds for every design whose pair lies in it, since its L lies
+        in [fine[s], fine[s + 1]] and its values are no better than those extremes.
+        """
+        p = self.pairs
+        n = fine.size - 1
+        mass = np.full(n, np.inf)
+        crr = np.full(n, np.inf)
+        eta = np.full(n, -np.inf)
+        np.minimum.at(mass, sub, p.mass[single])
+        np.minimum.at(crr, sub, p.crr[single])
+        np.maximum.at(eta, sub, p.eta[single])
+        i = int(self.motors[pos])
+        m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + mass[used]
+        return B.motor_time_bound_s(self.parts, self.use, np.full(used.size, i), fine[used], fine[used + 1],
+                                    self.target, mass_min_kg=m_lo, eta_max=eta[used], crr_min=crr[used])
+
+    def _design_time_bounds(self, motors: np.ndarray, pairs: np.ndarray) -> np.ndarray:
+        """Certified time bound of single designs (motor rows, pair positions) [s]: `optimistic_time_s`
+        at the design's own gear hull (one L for a single-speed pair), mass (as both extremes),
+        static driven-axle share, best gear efficiency and rolling resistance (without [energy],
+        where a battery adds mass, the mass and share extremes stay the motor's)."""
+        p, parts = self.pairs, self.parts
+        m_motor = parts.motors.mass_kg[motors]
+        mass = parts.problem.vehicle.mass_kg + m_motor + p.mass[pairs]
+        if parts.problem.energy is not None:  # a battery adds mass: keep the motor-level extremes there
+            return B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
+                                        mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs])
+        m_red = parts.reducers.mass_kg[p.j[pairs]]
+        m_tyre = parts.tyres.mass_kg[p.k[pairs]]
+        share = B.max_driven_share(parts, m_motor, (m_red,), (m_tyre,))
+        return B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
+                                    mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs], mass_max_kg=mass,
+                                    driven_share_max=share)
 
     def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
         """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.
@@ -425,6 +567,18 @@ class SingleAxleSearch:
         return np.where(np.isfinite(out), out, np.inf)
 
     # ------------------------------------------------------------------ the pool
+    def expired(self) -> bool:
+        """True once the deadline (``time_limit_s``) has passed."""
+        return self.deadline is not None and time.perf_counter() > self.deadline
+
+    def _stop_bound(self, rest) -> float | None:
+        """Proved lower bound when the search stops at the time limit: the least of ``rest`` (the
+        least bound of the designs not evaluated) and the best design found (None when not finite)."""
+        best = self.pool_vals.min() if self.pool_vals.size else np.inf
+        rest = np.inf if rest is None else rest
+        val = min(float(rest), float(best))
+        return val if np.isfinite(val) else None
+
     def kth(self) -> float:
         if self.pool_vals.size < self.count:
             return np.inf
@@ -439,21 +593,22 @@ class SingleAxleSearch:
             self.pool_vals, self.pool_keys = self.pool_vals[keep], self.pool_keys[keep]
 
     # ------------------------------------------------------------------ one block
-    def evaluate_motor(self, pos: int, cell_lb=None):
-        """Evaluate motor ``pos``'s admissible designs exactly, best pair bound first, until provably done.
-
-        Pairs are ordered by a lower bound of their objective (cost and mass: exact; time: the bound
-        of their L cell, or of their gear hull for a multi-speed pair) and evaluated in growing chunks;
-        within a chunk, the point bound of each pair (`time_bound` at its own L) drops the pairs that
-        cannot meet accel_time_s or beat the pool, before `evaluate.screen` decides the rest.
-        """
+    def _block(self, pos: int, cell_lb=None):
+        """(candidate pairs, key values) of motor ``pos``'s admissible designs that can still count:
+        cost and mass: exact values; time: the bound of their sub-cell, or of their gear hull for a
+        multi-speed pair (pairs whose bound misses accel_time_s dropped). None when none is left."""
         parts, p = self.parts, self.pairs
         i = int(self.motors[pos])
         cand = self.candidates(pos)
         if cand.size == 0:
-            return
+            return None
         limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
-        if self.accel:
+        if self.accel and self.small:
+            # a small study: each design's own certified bound (no cells; see `SMALL_DESIGNS`)
+            t_cell = self._design_time_bounds(np.full(cand.size, i, dtype=np.int64), cand)
+            keep = t_cell <= limit
+            cand, t_cell = cand[keep], t_cell[keep]
+        elif self.accel:
             # sub-cell bounds: SUBCELLS per cell of the refinement grid, only where the cell can count
             fine = self.cell_edges(CELLS * SUBCELLS)
             sub = np.clip(np.searchsorted(fine, p.l_first[cand], side="right") - 1, 0, CELLS * SUBCELLS - 1)
@@ -464,7 +619,7 @@ class SingleAxleSearch:
                 if cell_lb is not None:
                     used = used[cell_lb[used // SUBCELLS] <= limit]
                 if used.size:
-                    t_sub[used] = self.cell_bounds(np.array([pos]), fine[used], fine[used + 1])[0]
+                    t_sub[used] = self._subcell_bounds(pos, cand[~multi], sub[~multi], used, fine)
             t_cell = np.where(multi, 0.0, t_sub[sub])
             if multi.any():
                 mc = np.nonzero(multi)[0]
@@ -472,7 +627,7 @@ class SingleAxleSearch:
             keep = t_cell <= limit
             cand, t_cell = cand[keep], t_cell[keep]
         if cand.size == 0:
-            return
+            return None
         if self.objective == "cost":
             key_val = parts.motors.cost[i] + p.cost[cand]
         elif self.objective == "mass":
@@ -486,14 +641,45 @@ class SingleAxleSearch:
             key_val = self._cell_battery(pos, cand, "energy")
         else:
             key_val = t_cell
-        order = np.lexsort((p.k[cand], p.j[cand], key_val))
-        cand, key_val = cand[order], key_val[order]
+        return cand, key_val
+
+    def evaluate_motor(self, pos: int, cell_lb=None):
+        """Evaluate motor ``pos``'s admissible designs exactly, best pair bound first, until provably done
+        (with the blocks in ``self.pending``, (pos, cell bounds) pairs, merged into one block).
+
+        Pairs are ordered by a lower bound of their objective (cost and mass: exact; time: the bound
+        of their sub-cell, or of their gear hull for a multi-speed pair) and evaluated in growing
+        chunks by `evaluate.screen` (with the accel_time objective, the best time found so far as
+        its cut-off). The loop stops when the next key value exceeds the pool's ``count``-th best (or
+        this block's ``per_motor``-th best) beyond the tie tolerance: every pair after it is no better.
+        Merging blocks (accel_time only, where one exact integration call costs about as much for
+        one design as for a few hundred) evaluates their pairs in one order; it changes no bound.
+        """
+        parts, p = self.parts, self.pairs
+        blocks = [(pos, cell_lb)] + list(self.pending)
+        self.pending = []
+        mot, cands, vals = [], [], []
+        for q, cl in blocks:
+            got = self._block(q, cl)
+            if got is not None:
+                mot.append(np.full(got[0].size, int(self.motors[q]), dtype=np.int64))
+                cands.append(got[0])
+                vals.append(got[1])
+        if not cands:
+            return
+        mot, cand, key_val = np.concatenate(mot), np.concatenate(cands), np.concatenate(vals)
+        order = np.lexsort((p.k[cand], p.j[cand], mot, key_val))
+        mot, cand, key_val = mot[order], cand[order], key_val[order]
         found_v, found_k = [], []
-        start, size = 0, FIRST_CHUNK
+        start, size = 0, FIRST_CHUNK if self.objective != "accel_time" else FIRST_CHUNK_TIME
+        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
         while start < cand.size:
             nxt = key_val[start]
             kth = self.kth()
             if nxt > kth + tie_tolerance(kth):
+                break
+            if start > 0 and self.expired():  # the rest of the block is bounded by its next key value
+                self.unfinished = min(self.unfinished, float(nxt))
                 break
             slice_kth = np.inf
             if found_v:
@@ -505,6 +691,7 @@ class SingleAxleSearch:
                         break
             stop = min(cand.size, start + size)
             chunk = cand[start:stop]
+            ok_chunk = None
             if self.objective in ("accel_time", "energy"):
                 # the chunk's key values are not sorted beyond their cell bound: keep those that can still count
                 ok_chunk = key_val[start:stop] <= min(kth, slice_kth) * (1 + 4 * REL_TOL)
@@ -512,8 +699,15 @@ class SingleAxleSearch:
             cutoff = None
             if self.objective == "accel_time" and np.isfinite(min(kth, slice_kth)):
                 cutoff = min(kth, slice_kth) * (1 + 4 * REL_TOL)
+            mot_c = mot[start:stop][ok_chunk] if ok_chunk is not None else mot[start:stop]
+            if self.accel and not self.small and chunk.size and (cutoff is not None or np.isfinite(limit)):
+                # each design's own certified time bound (its L, mass, efficiency and rolling
+                # resistance): designs above the cut-off or accel_time_s cannot count
+                t_own = self._design_time_bounds(mot_c, chunk)
+                keep = t_own <= min(limit, np.inf if cutoff is None else cutoff)
+                chunk, mot_c = chunk[keep], mot_c[keep]
             if chunk.size:
-                keys = parts.single_keys(i, p.j[chunk], p.k[chunk])
+                keys = parts.single_keys(mot_c, p.j[chunk], p.k[chunk])
                 ok, obj = screen(parts, keys, objective=self.objective, accel_cutoff=cutoff)
                 self.stats["evaluated"] += chunk.size
                 if ok.any():
@@ -585,57 +779,123 @@ class SingleAxleSearch:
         return int(np.nonzero(self.motors == i)[0][0])
 
     # ------------------------------------------------------------------ the sum-order probe
-    def sum_order_probe(self) -> bool:
+    def sum_order_probe(self) -> str:
         """Cost and mass objectives (no [energy]): evaluate designs in increasing objective order.
 
         The objective is a sum of a motor value and a pair value (reducer + tyre_count x tyre), so a
         heap over (motor rank, pair rank) into both lists sorted by value yields designs in
-        increasing objective order (from (a, b) come (a, b + 1) and, when b = 0, (a + 1, 0)). Popped
-        designs whose pair is outside the motor's requirement windows or whose reducer is not rated
-        for the motor fail a necessary condition; the rest go to `evaluate.screen` in batches. When
-        the next value exceeds the ``count``-th best feasible value beyond the tie tolerance (or the
-        heap is empty), every design not evaluated is provably worse or infeasible: a complete proof
-        and the pool is set. Otherwise, after `PROBE_DESIGNS` designs, it hands over to the block
-        search (keeping its best design when ``count`` is 1, where a design seen twice does no harm).
-        Returns True when the probe proved the result.
+        increasing objective order (from (a, b) come (a, b + 1) and, when b = 0, (a' , 0) with a'
+        the next motor rank still in play). Popped designs whose pair is outside the motor's
+        requirement windows or whose reducer is not rated for the motor fail a necessary condition;
+        the rest go to `evaluate.screen` in batches. When the next value exceeds the ``count``-th
+        best feasible value beyond the tie tolerance (or the heap is empty), every design not
+        evaluated is provably worse or infeasible: a complete proof and the pool is set ("proved").
+        Otherwise, after `PROBE_DESIGNS` designs, it hands over to the block search ("handover",
+        keeping its best design when ``count`` is 1, where a design seen twice does no harm). At the
+        deadline it stops ("time_limit") with the heap's least value as the proved bound of every
+        design not evaluated (``self.probe_bound``).
+
+        Motors are prepared lazily, in chunks of growing size in the walk's motor order, only as far
+        as the walk reaches (the set-up over all motors would dominate when the optimum sits among
+        the first designs in objective order): `motor_screen`, the requirement windows (and with
+        ``accel_time_s`` stated, the certified time bound over the motor's whole admissible L
+        interval), and equivalent motors: a motor is skipped when ``count`` motors equal to it on
+        every attribute the study reads (`bounds.EQUIVALENCE_COLUMNS`) came earlier in the walk
+        with no higher cost (when cost matters). Each of those beats it or ties and precedes it in
+        part-id order on every design (same feasibility; the walk is in (value, part id) order, and
+        equal motors have equal mass), so it is in no list of ``count`` best designs.
         """
         parts, p = self.parts, self.pairs
         v = parts.problem.vehicle
-        lo = np.maximum(self.win_speed[0], self.win_first[0])
-        hi = np.minimum(self.win_speed[1], self.win_first[1])
-        # motors with some admissible L: the single-speed window (clipped to the pairs' L range), or
-        # any multi-speed pair (their gears are checked per design by `screen`)
-        lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
-        open_m = np.nonzero((lo_c <= hi_c) | bool(p.multi_pairs.size))[0]
-        if self.accel and self.req.accel_time_s is not None and open_m.size and p.multi_pairs.size == 0:
-            # motors whose certified time bound over their whole admissible L interval misses
-            # accel_time_s are out (that interval holds every admissible pair's L)
-            t = self.time_bound(open_m, lo_c[open_m], hi_c[open_m])
-            open_m = open_m[t <= self.req.accel_time_s * (1 + 2 * REL_TOL)]
-        if open_m.size == 0 or p.j.size == 0:
-            return True
-        mi = self.motors[open_m]
+        self.probe_bound = None
+        cand = self.allowed_motors()
+        if cand.size == 0 or p.j.size == 0:
+            return "proved"
         if self.objective == "cost":
-            m_val, p_val = parts.motors.cost[mi], p.cost
+            c_val, p_val = parts.motors.cost[cand], p.cost
         else:
-            m_val, p_val = v.mass_kg + parts.motors.mass_kg[mi], p.mass
-        m_ord = np.lexsort((mi, m_val))
+            c_val, p_val = v.mass_kg + parts.motors.mass_kg[cand], p.mass
+        m_ord = np.lexsort((cand, c_val))
+        cand = cand[m_ord]
         p_ord = np.argsort(p_val, kind="stable")  # pairs are stored in (reducer, tyre) order: ties keep it
-        m_sorted, p_sorted = m_val[m_ord].tolist(), p_val[p_ord].tolist()
-        n_m, n_p = len(m_sorted), len(p_sorted)
-        m_pos = open_m[m_ord]
-        heap = [(m_sorted[0] + p_sorted[0], 0, 0)]
+        m_sorted, p_sorted = c_val[m_ord].tolist(), p_val[p_ord].tolist()
+        n_m, n_p = cand.size, len(p_sorted)
+        valid = np.zeros(n_m, dtype=bool)
+        lo_r = np.full(n_m, np.inf)
+        hi_r = np.full(n_m, -np.inf)
+        seen: dict[bytes, list] = {}
+        state = {"prepared": 0, "chunk": 128}
+        multi_any = bool(p.multi_pairs.size)
+        limit_t = None if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+
+        def prepare():
+            a0 = state["prepared"]
+            a1 = min(n_m, a0 + state["chunk"])
+            state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], PROBE_CHUNK_MAX)
+            mi = cand[a0:a1]
+            ok = self.motor_screen(mi)
+            (ls, hs), (l1, h1) = self.windows(mi)
+            lo, hi = np.maximum(ls, l1), np.minimum(hs, h1)
+            # some admissible L: the single-speed window (clipped to the pairs' L range), or any
+            # multi-speed pair (their gears are checked per design by `screen`)
+            lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
+            ok &= (lo_c <= hi_c) | multi_any
+            if self.accel and limit_t is not None and not multi_any and ok.any():
+                # motors whose certified time bound over their whole admissible L interval misses
+                # accel_time_s are out (that interval holds every admissible pair's L)
+                # (a coarse Riemann sum first: also a certified bound, cheaper, and most motors that
+                # miss the limit already miss it there)
+                for nodes in (PROBE_COARSE_NODES, B.RIEMANN_NODES):
+                    k = np.nonzero(ok)[0]
+                    if k.size > (0 if nodes == B.RIEMANN_NODES else PROBE_COARSE_MIN):
+                        t = B.motor_time_bound_s(parts, self.use, mi[k], lo_c[k], hi_c[k], self.target, nodes=nodes)
+                        ok[k[~(t <= limit_t)]] = False
+            k = np.nonzero(ok)[0]
+            if k.size:
+                rows = B.equivalence_bits(parts, mi[k])
+                costs = parts.motors.cost[mi[k]].tolist()
+                for n_k, row in enumerate(rows):
+                    key = row.tobytes()
+                    prior = seen.setdefault(key, [])
+                    own = costs[n_k]
+                    better = sum(1 for c in prior if c <= own) if self.cost_matters else len(prior)
+                    prior.append(own)
+                    if better >= self.count:
+                        ok[k[n_k]] = False
+            valid[a0:a1] = ok
+            lo_r[a0:a1], hi_r[a0:a1] = lo, hi
+
+        def next_valid(a):
+            while a < n_m:
+                while state["prepared"] <= a:
+                    prepare()
+                hit = np.flatnonzero(valid[a:state["prepared"]])
+                if hit.size:
+                    return a + int(hit[0])
+                a = state["prepared"]
+            return None
+
+        a_first = next_valid(0)
+        if a_first is None:
+            return "proved"
+        heap = [(m_sorted[a_first] + p_sorted[0], a_first, 0)]
         found_v, found_k = [], []
         kth = np.inf
         evaluated = 0
-        batch = 128
+        batch = PROBE_FIRST_BATCH
+        outcome = "proved"
         while heap:
             if heap[0][0] > kth + tie_tolerance(kth):
                 break
             if evaluated >= PROBE_DESIGNS:
                 if self.count == 1 and found_v:
                     self._add(np.concatenate(found_v), np.concatenate(found_k))
-                return False
+                self.stats["probe"] = evaluated
+                return "handover"
+            if evaluated and self.expired():  # (after one batch: some progress in any case)
+                outcome = "time_limit"
+                self.probe_bound = heap[0][0]
+                break
             a_l, b_l = [], []
             limit = kth + tie_tolerance(kth)
             while heap and len(a_l) < batch and heap[0][0] <= limit:
@@ -644,14 +904,16 @@ class SingleAxleSearch:
                 b_l.append(b)
                 if b + 1 < n_p:
                     heapq.heappush(heap, (m_sorted[a] + p_sorted[b + 1], a, b + 1))
-                if b == 0 and a + 1 < n_m:
-                    heapq.heappush(heap, (m_sorted[a + 1] + p_sorted[0], a + 1, 0))
-            pos = m_pos[np.asarray(a_l, dtype=np.int64)]
+                if b == 0:
+                    a2 = next_valid(a + 1)
+                    if a2 is not None:
+                        heapq.heappush(heap, (m_sorted[a2] + p_sorted[0], a2, 0))
+            ranks = np.asarray(a_l, dtype=np.int64)
             pair = p_ord[np.asarray(b_l, dtype=np.int64)]
-            motor = self.motors[pos]
+            motor = cand[ranks]
             ok = self.use.compatible[motor, p.j[pair]]
             single = ~p.multi[pair]
-            ok &= ~single | ((p.l_first[pair] >= lo[pos]) & (p.l_first[pair] <= hi[pos]))
+            ok &= ~single | ((p.l_first[pair] >= lo_r[ranks]) & (p.l_first[pair] <= hi_r[ranks]))
             evaluated += len(a_l)
             batch = min(2 * batch, 8192)
             if not ok.any():
@@ -669,17 +931,21 @@ class SingleAxleSearch:
         if found_v:
             self._add(np.concatenate(found_v), np.concatenate(found_k))
         self.stats["probe"] = evaluated
-        return True
+        self.stats["probe_motors"] = state["prepared"]
+        return outcome
 
     # ------------------------------------------------------------------ the loop
     def run(self):
         """Returns (status, designs, bound) with status "optimal" | "infeasible" | "time_limit"."""
+        if self.objective in ("cost", "mass") and self.parts.problem.energy is None and self.per_slice == self.count:
+            outcome = self.sum_order_probe()
+            if outcome != "handover":
+                order = order_best(self.pool_vals, self.pool_keys, self.count)
+                designs = designs_of(self.pool_vals, self.pool_keys, order)
+                if outcome == "time_limit":
+                    return "time_limit", designs, self._stop_bound(self.probe_bound)
+                return ("optimal" if designs else "infeasible"), designs, None
         n = self.motors.size
-        if self.objective in ("cost", "mass") and self.parts.problem.energy is None \
-                and self.per_slice == self.count and self.sum_order_probe():
-            order = order_best(self.pool_vals, self.pool_keys, self.count)
-            designs = designs_of(self.pool_vals, self.pool_keys, order)
-            return ("optimal" if designs else "infeasible"), designs, None
         lb = self.value_bounds() if self.objective in ("cost", "mass") else np.zeros(n)
         if self.objective in ("cost", "mass") and self.parts.problem.requirements.range_km is not None \
                 and self.parts.problem.energy is not None:
@@ -701,12 +967,15 @@ class SingleAxleSearch:
             mi = self.motors[has]
             lb[has] = self.energy_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
                                          self.use.crr_min, self.use.eta_max[mi])
-        refined = np.zeros(n, dtype=bool) if self.accel else np.ones(n, dtype=bool)
+        self.small = self.accel and n * self.pairs.j.size <= SMALL_DESIGNS
+        refined = np.zeros(n, dtype=bool) if self.accel and not self.small else np.ones(n, dtype=bool)
         if self.objective == "energy":
             # the motor-level energy bound refined over L cells (least pair mass per cell), in batches
             fin = np.nonzero(np.isfinite(lb))[0]
             edges = self.cell_edges()
             for s0 in range(0, fin.size, REFINE_BATCH):
+                if self.expired():  # the coarser bounds of the rest stay valid
+                    break
                 b = fin[s0:s0 + REFINE_BATCH]
                 cl = self.cell_bounds(b, edges[:-1], edges[1:], what="energy")
                 lb[b] = np.maximum(lb[b], np.where(self._multi_ok(b).any(axis=1) if self.pairs.multi_pairs.size
@@ -723,7 +992,7 @@ class SingleAxleSearch:
             kth = self.kth()
             if heap[0][0] > kth + tie_tolerance(kth):
                 break
-            if self.deadline is not None and time.perf_counter() > self.deadline:
+            if self.expired() or self.unfinished < np.inf:
                 status = "time_limit"
                 break
             v, m = heapq.heappop(heap)
@@ -778,13 +1047,25 @@ class SingleAxleSearch:
             if done[pos]:
                 continue
             done[pos] = True
+            if self.objective == "accel_time" and self.per_slice == self.count and self.milp != "always" \
+                    and np.isfinite(kth):
+                # the next refined blocks whose bound is below the incumbent go with this one
+                while heap and len(self.pending) < MERGE_BLOCKS - 1 and heap[0][0] <= kth + tie_tolerance(kth):
+                    p2 = pos_of[heap[0][1]]
+                    if not done[p2] and not refined[p2]:
+                        break
+                    heapq.heappop(heap)
+                    if not done[p2]:
+                        done[p2] = True
+                        self.pending.append((p2, cells.get(p2)))
+            self.stats["blocks"] += 1 + len(self.pending)
             self.evaluate_motor(pos, cells.get(pos))
-            self.stats["blocks"] += 1
+        if status == "optimal" and self.unfinished < np.inf:
+            status = "time_limit"  # a block was cut short at the deadline
         bound = None
         if status == "time_limit":
             rest = min((h[0] for h in heap), default=np.inf)
-            best = self.pool_vals.min() if self.pool_vals.size else np.inf
-            bound = float(min(rest, best)) if np.isfinite(min(rest, best)) else None
+            bound = self._stop_bound(min(rest, self.unfinished))
         order = order_best(self.pool_vals, self.pool_keys, self.count)
         designs: list[Design] = designs_of(self.pool_vals, self.pool_keys, order)
         if status == "optimal" and not designs:

@@ -82,24 +82,52 @@ def least_tyre_load_kg(parts: PartTables) -> float:
     return max(v.rear_axle_share, 1.0 - v.rear_axle_share) * v.mass_kg / (0.5 * v.tyre_count)
 
 
+def rating_classes(parts: PartTables, motors=None):
+    """(representatives, inverse): motors grouped by which reducers' input ratings cover them.
+
+    A reducer covers a motor when its rated torque and speed (times the pass tolerance) are at
+    least the motor's peak torque and maximum speed; that depends only on the motor's rank among
+    the distinct rated torques and among the distinct rated speeds, so motors with equal ranks
+    have equal rows of `compatible_matrix`. Returns the position of one representative motor per
+    class and each motor's class (``motors[k]`` is in class ``inverse[k]``).
+    """
+    mo, re = parts.motors, parts.reducers
+    mi = np.arange(len(mo.part)) if motors is None else np.asarray(motors, dtype=np.int64)
+    tol = 1 + 2 * REL_TOL
+    ut = np.unique(re.max_torque_nm * tol)
+    us = np.unique(re.max_speed_rad_s * tol)
+    code = np.searchsorted(ut, mo.torque_nm[mi], side="left") * (us.size + 1) \
+        + np.searchsorted(us, mo.max_speed_rad_s[mi], side="left")
+    _, first, inverse = np.unique(code, return_index=True, return_inverse=True)
+    return mi[first], np.asarray(inverse).ravel()
+
+
 def usable(parts: PartTables, allowed: dict | None = None) -> Usable:
     """Usable parts per motor: reducers rated for it (the staircase rule) among the allowed ones, and
-    the allowed tyres whose load index can carry the lightest possible axle share."""
+    the allowed tyres whose load index can carry the lightest possible axle share.
+
+    The per-reducer extremes are computed once per rating class (`rating_classes`: motors covered
+    by the same reducers) and spread to the motors, so the cost grows with the motor rows only
+    through one gather.
+    """
     allowed = allowed or {}
     re, ty = parts.reducers, parts.tyres
     n_r, n_t = len(re.part), len(ty.part)
     r_ok = np.zeros(n_r, dtype=bool)
     r_ok[np.arange(n_r) if allowed.get("reducers") is None else np.asarray(allowed["reducers"], dtype=np.int64)] = True
-    ok = compatible_matrix(parts) & r_ok[None, :]
-    has = ok.any(axis=1)
+    rep, inv = rating_classes(parts)
+    ok_c = compatible_matrix(parts, motors=rep) & r_ok[None, :]
+    has_c = ok_c.any(axis=1)
     eta_best = np.nanmax(re.efficiencies, axis=1)
     eta_worst = np.nanmin(re.efficiencies, axis=1)
     with np.errstate(invalid="ignore"), warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN rows: motors without a reducer
-        eta_max = np.nanmax(np.where(ok, eta_best[None, :], np.nan), axis=1)
-        eta_min = np.nanmin(np.where(ok, eta_worst[None, :], np.nan), axis=1)
-        mr_min = np.nanmin(np.where(ok, re.mass_kg[None, :], np.nan), axis=1)
-        mr_max = np.nanmax(np.where(ok, re.mass_kg[None, :], np.nan), axis=1)
+        eta_max = np.nanmax(np.where(ok_c, eta_best[None, :], np.nan), axis=1)[inv]
+        eta_min = np.nanmin(np.where(ok_c, eta_worst[None, :], np.nan), axis=1)[inv]
+        mr_min = np.nanmin(np.where(ok_c, re.mass_kg[None, :], np.nan), axis=1)[inv]
+        mr_max = np.nanmax(np.where(ok_c, re.mass_kg[None, :], np.nan), axis=1)[inv]
+    ok = ok_c[inv]
+    has = has_c[inv]
     t_ok = np.zeros(n_t, dtype=bool)
     t_ok[np.arange(n_t) if allowed.get("tyres") is None else np.asarray(allowed["tyres"], dtype=np.int64)] = True
     t_ok &= ty.load_capacity_kg >= least_tyre_load_kg(parts) * (1 - 2 * REL_TOL)
@@ -148,24 +176,40 @@ def equivalent_motors(parts: PartTables, motors, keep: int, cost_matters: bool) 
     (same feasibility, same objective or a better cost), so it can appear in no list of ``keep``
     best designs; with count = N the first N members of each group are kept.
     """
-    mo = parts.motors
     motors = np.asarray(motors, dtype=np.int64)
     if motors.size == 0:
         return motors
-    cols = [mo.torque_nm, mo.power_w, mo.cont_torque_nm, mo.cont_power_w, mo.decline_rad_s, mo.decline_exponent,
-            mo.max_speed_rad_s, mo.rotor_inertia_kgm2, mo.mass_kg]
-    for extra in ("loss_copper", "loss_iron", "loss_windage", "loss_constant", "map_index"):
-        if hasattr(mo, extra):
-            cols.append(getattr(mo, extra))
-    table = np.stack([np.asarray(c, dtype=float)[motors] for c in cols], axis=1)
-    _, group = np.unique(table, axis=0, return_inverse=True)
-    group = np.asarray(group).ravel()
-    cost = mo.cost[motors] if cost_matters else np.zeros(motors.size)
-    order = np.lexsort((motors, cost, group))
-    g_sorted = group[order]
-    rank = np.arange(order.size) - np.searchsorted(g_sorted, g_sorted, side="left")
-    kept = np.sort(motors[order[rank < keep]])
-    return kept
+    bits = equivalence_bits(parts, motors)
+    h = np.zeros(motors.size, dtype=np.uint64)
+    for c in range(bits.shape[1]):  # a 64-bit hash of each row (FNV-style mixing, wrapping arithmetic)
+        h = (h ^ bits[:, c]) * np.uint64(0x100000001B3)
+    cost = parts.motors.cost[motors] if cost_matters else np.zeros(motors.size)
+    order = np.lexsort((motors, cost, h))
+    b_sorted = bits[order]
+    # a group starts where the row differs from the previous one (rows of equal hash are adjacent;
+    # a hash collision can only split a group, which keeps more motors: never unsound)
+    start = np.ones(order.size, dtype=bool)
+    start[1:] = (b_sorted[1:] != b_sorted[:-1]).any(axis=1)
+    first = np.maximum.accumulate(np.where(start, np.arange(order.size), 0))
+    rank = np.arange(order.size) - first
+    return np.sort(motors[order[rank < keep]])
+
+
+EQUIVALENCE_COLUMNS = ("torque_nm", "power_w", "cont_torque_nm", "cont_power_w", "decline_rad_s",
+                       "decline_exponent", "max_speed_rad_s", "rotor_inertia_kgm2", "mass_kg", "loss_copper",
+                       "loss_iron", "loss_windage", "loss_constant", "map_index")
+"""Motor attributes a single-unit study reads besides cost (equal on all: equivalent motors)."""
+
+
+def equivalence_bits(parts: PartTables, motors) -> np.ndarray:
+    """(n, c) uint64: the bit patterns of `EQUIVALENCE_COLUMNS` of ``motors`` (-0.0 as 0.0, one NaN),
+    equal rows exactly when the motors are equal on every attribute the study reads."""
+    mo = parts.motors
+    motors = np.asarray(motors, dtype=np.int64)
+    cols = [np.asarray(getattr(mo, c), dtype=float)[motors] for c in EQUIVALENCE_COLUMNS if getattr(mo, c) is not None]
+    table = np.stack(cols, axis=1) + 0.0
+    table = np.where(np.isnan(table), np.nan, table)
+    return np.ascontiguousarray(table).view(np.uint64)
 
 
 # ------------------------------------------------------------------------------------------ traction
@@ -349,22 +393,27 @@ def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_s
 
 
 def motor_time_bound_s(parts: PartTables, use: Usable, motors, l_a, l_b, target_mps, mass_min_kg=None, eta_max=None,
-                       crr_min=None, nodes: int = RIEMANN_NODES):
+                       crr_min=None, nodes: int = RIEMANN_NODES, mass_max_kg=None, driven_share_max=None):
     """`optimistic_time_s` of single-unit designs with ``motors`` and gears in [l_a, l_b] (broadcast) [s].
 
-    ``mass_min_kg``, ``eta_max``, ``crr_min`` (optional, broadcast): tighter extremes over the
-    block's designs than the motor's usable parts give (e.g. over the pairs in an L cell).
+    ``mass_min_kg``, ``eta_max``, ``crr_min``, ``mass_max_kg``, ``driven_share_max`` (optional,
+    broadcast): tighter extremes over the block's designs than the motor's usable parts give (e.g.
+    over the pairs in an L cell, or one design's own values).
     """
     mo = parts.motors
     p = parts.problem
     motors = np.asarray(motors, dtype=np.int64)
-    share = max_driven_share(parts, mo.mass_kg[motors], (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
-                             (use.tyre_mass_min, use.tyre_mass_max))
+    share = driven_share_max
+    if share is None:
+        share = max_driven_share(parts, mo.mass_kg[motors],
+                                 (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
+                                 (use.tyre_mass_min, use.tyre_mass_max))
     m_lo = lightest_mass_kg(parts, use, motors) if mass_min_kg is None else mass_min_kg
+    m_hi = heaviest_mass_kg(parts, use, motors) if mass_max_kg is None else mass_max_kg
     return optimistic_time_s(mo.torque_nm[motors], mo.power_w[motors], mo.decline_rad_s[motors],
                              mo.decline_exponent[motors], mo.max_speed_rad_s[motors], mo.rotor_inertia_kgm2[motors],
                              use.eta_max[motors] if eta_max is None else eta_max, use.eta_min[motors], m_lo,
-                             heaviest_mass_kg(parts, use, motors), use.crr_min if crr_min is None else crr_min,
+                             m_hi, use.crr_min if crr_min is None else crr_min,
                              parts.q_n_s2_m2, p.environment.road_friction, share,
                              p.vehicle.cg_height_m / p.vehicle.wheelbase_m, 1.0 if parts.rear_drive else -1.0,
                              l_a, l_b, target_mps, nodes)

@@ -755,8 +755,10 @@ class SingleAxleSearch:
         windows = AccelWindows(lo=lo[m_rows], hi=hi[m_rows], t_min_s=tmin[m_rows])
         model = SelectionModel(sub, self.objective, windows=windows,
                                accel_target_kmh=self.req.accel_to_kmh if self.accel else None,
-                               accel_limit_s=self.req.accel_time_s)
+                               accel_limit_s=self.req.accel_time_s, deadline=self.deadline)
         self.stats["milp"] = self.stats.get("milp", 0) + 1
+        if model.expired:
+            return -1  # the deadline passed while building: the loop's next check returns time_limit
         if model.infeasible_reason:
             return None
         kth = self.kth()
@@ -766,9 +768,11 @@ class SingleAxleSearch:
 
         from selector.engine.search import solver
 
+        options = {"mip_rel_gap": 0.0, "mip_abs_gap": 1e-9, "presolve": "off", "threads": 1}
+        if self.deadline is not None:  # HiGHS stops at the deadline too (no verdict: -1 below)
+            options["time_limit"] = max(self.deadline - time.perf_counter(), 0.01)
         res = solver().solve(model.m, load_solutions=False, raise_exception_on_nonoptimal_result=False,
-                             solver_options={"mip_rel_gap": 0.0, "mip_abs_gap": 1e-9, "presolve": "off",
-                                             "threads": 1})
+                             solver_options=options)
         if res.termination_condition in (TC.provenInfeasible, TC.infeasibleOrUnbounded, TC.locallyInfeasible):
             return None
         if res.termination_condition != TC.convergenceCriteriaSatisfied:

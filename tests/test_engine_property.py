@@ -65,7 +65,7 @@ def compare(seed: int, directory: Path, count: int = 1):
         return True, bad
     if len(res.designs) != len(enum):
         bad.append(f"{head}: engine returned {len(res.designs)} designs, enumeration {len(enum)}")
-    for rank, (e, g) in enumerate(zip(enum, res.designs), 1):
+    for rank, (e, g) in enumerate(zip(enum, res.designs, strict=False), 1):
         rel = abs(g[0] - e[0]) / max(abs(e[0]), 1e-300)
         if rel > REL_TOL:
             bad.append(f"{head}: rank {rank}: engine {g} {part_ids(parts, g)} value differs from enumeration "
@@ -76,7 +76,8 @@ def compare(seed: int, directory: Path, count: int = 1):
     mi, rj, tk = (np.array([d[n] for d in res.designs]) for n in (1, 2, 3))
     ok = evaluate.feasible(parts, evaluate.evaluate(parts, mi, rj, tk), objective)
     if not ok.all():
-        bad.append(f"{head}: engine designs fail evaluate.feasible: {[d for d, o in zip(res.designs, ok) if not o]}")
+        failing = [d for d, o in zip(res.designs, ok, strict=True) if not o]
+        bad.append(f"{head}: engine designs fail evaluate.feasible: {failing}")
     return True, bad
 
 

@@ -27,6 +27,7 @@ design as `selector.design.Design` (ties by part-id order, as the engine), or No
 from __future__ import annotations
 
 import heapq
+from typing import NamedTuple
 
 import numpy as np
 
@@ -131,26 +132,48 @@ def _closed_form_time(v_t, f1, a_trac, p_w, m):
     return np.where(a1 > 0, t, np.inf)
 
 
+class _Pairs(NamedTuple):
+    """What the accel_time search needs of the study's (reducer, tyre) pairs."""
+
+    v_t: float
+    """Target speed of the acceleration run [m/s]."""
+    v_gear: float
+    """Highest speed the tallest gear must reach (accel_to_kmh or top_speed_kmh) [m/s]."""
+    eta_max: np.ndarray
+    """Best gear efficiency of each reducer [-]."""
+    g1: np.ndarray
+    """First (lowest) gear ratio of each reducer [-]."""
+    g_tall: np.ndarray
+    """Tallest gear ratio of each reducer [-]."""
+    jj: np.ndarray
+    """Reducer position of each pair [-]."""
+    kk: np.ndarray
+    """Tyre position of each pair [-]."""
+
+
+def _pairs(parts: PartTables) -> _Pairs:
+    req, re = parts.problem.requirements, parts.reducers
+    v_t = kmh_to_mps(req.accel_to_kmh)
+    v_gear = max(v_t, kmh_to_mps(req.top_speed_kmh) if req.top_speed_kmh is not None else 0.0)
+    n_r = re.cost.size
+    jj, kk = np.meshgrid(np.arange(n_r), np.arange(parts.tyres.cost.size), indexing="ij")
+    return _Pairs(v_t, v_gear, np.nanmax(re.efficiencies, axis=1), re.ratios[:, 0],
+                  re.ratios[np.arange(n_r), re.n_gears - 1], jj.ravel(), kk.ravel())
+
+
 def _motor_times(parts: PartTables) -> np.ndarray:
     """Optimistic 0-accel_to_kmh time of each motor [s] (see the module docstring)."""
     p = parts.problem
-    req, veh, env = p.requirements, p.vehicle, p.environment
+    veh, env = p.vehicle, p.environment
     mo, re, ty = parts.motors, parts.reducers, parts.tyres
-    v_t = kmh_to_mps(req.accel_to_kmh)
-    v_gear = max(v_t, kmh_to_mps(req.top_speed_kmh) if req.top_speed_kmh is not None else 0.0)
+    v_t, v_gear, eta_max, g1, g_tall, jj, kk = _pairs(parts)
     mu = env.road_friction
     hl = veh.cg_height_m / veh.wheelbase_m
     if parts.rear_drive:
         a_trac_all = mu * G / (1 - mu * hl) if mu * hl < 1 else np.inf
     else:
         a_trac_all = mu * G
-    n_r, n_t = re.cost.size, ty.cost.size
-    eta_max = np.nanmax(re.efficiencies, axis=1)
-    g1 = re.ratios[:, 0]
-    g_tall = re.ratios[np.arange(n_r), re.n_gears - 1]
     # pairs sorted by the tallest gear's G/r, with the running maximum of the first gear's G/r
-    jj, kk = np.meshgrid(np.arange(n_r), np.arange(n_t), indexing="ij")
-    jj, kk = jj.ravel(), kk.ravel()
     tall = g_tall[jj] / ty.radius_m[kk]
     order = np.argsort(tall, kind="stable")
     tall_sorted = tall[order]
@@ -167,18 +190,11 @@ def _accel_search(parts: PartTables, stats: dict):
     p = parts.problem
     req, veh, env = p.requirements, p.vehicle, p.environment
     mo, re, ty = parts.motors, parts.reducers, parts.tyres
-    v_t = kmh_to_mps(req.accel_to_kmh)
-    if parts.speed_limit_mps < v_t * (1 - 1e-9):
+    if parts.speed_limit_mps < kmh_to_mps(req.accel_to_kmh) * (1 - 1e-9):
         return [], []
-    v_gear = max(v_t, kmh_to_mps(req.top_speed_kmh) if req.top_speed_kmh is not None else 0.0)
+    v_t, v_gear, eta_max, g1, g_tall, jj, kk = _pairs(parts)
     mu = env.road_friction
     hl = veh.cg_height_m / veh.wheelbase_m
-    n_r, n_t = re.cost.size, ty.cost.size
-    eta_max = np.nanmax(re.efficiencies, axis=1)
-    g1 = re.ratios[:, 0]
-    g_tall = re.ratios[np.arange(n_r), re.n_gears - 1]
-    jj, kk = np.meshgrid(np.arange(n_r), np.arange(n_t), indexing="ij")
-    jj, kk = jj.ravel(), kk.ravel()
     cap = mo.max_speed_rad_s / v_gear  # G_tall / r must not exceed this
     t_motor = _motor_times(parts)
     ok_m, ok_t = _part_screens(parts)

@@ -79,12 +79,15 @@ class Study:
 
         Raises
         ------
+        ArgumentError
+            ``procurement`` is not a `Procurement` (`selector.errors.ArgumentError`).
         InputError
             Every problem found, naming the frame, row (index label), part id and column, or the
             problem dict's table and key.
         """
         from selector.frames import load_frames
 
+        _check_procurement("Study.from_frames", procurement)
         prob, catalogs = load_frames(motors, reducers, tyres, problem, base_dir)
         return replace(_build_study(prob, catalogs, procurement), problem_dict=dict(problem))
 
@@ -114,12 +117,17 @@ def open_study(path: str | os.PathLike, procurement: Procurement | None = None) 
 
     if not isinstance(path, (str, os.PathLike)):
         raise argument_error("open_study", "path", path, "the path of a problem file (str or os.PathLike)")
-    if procurement is not None and not isinstance(procurement, Procurement):
-        raise argument_error("open_study", "procurement", procurement, "a selector.inputs.Procurement or None")
+    _check_procurement("open_study", procurement)
     with warnings.catch_warnings():
         warnings.simplefilter("default")
         problem, catalogs = load_study(path)
     return _build_study(problem, catalogs, procurement)
+
+
+def _check_procurement(function: str, procurement) -> None:
+    """ArgumentError unless ``procurement`` of ``function`` (an entry point making a Study) is None or a Procurement."""
+    if procurement is not None and not isinstance(procurement, Procurement):
+        raise argument_error(function, "procurement", procurement, "a selector.inputs.Procurement or None")
 
 
 def _build_study(problem: Problem, catalogs: Catalogs, procurement: Procurement | None) -> Study:

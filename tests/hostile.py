@@ -11,28 +11,16 @@ import csv
 import io
 import os
 import re
-import shutil
 import subprocess
 import sys
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
-KINDS = ("motors", "reducers", "tyres")
+sys.path.insert(0, str(ROOT / "tools"))
+from fuzz import make_study  # noqa: E402,F401 - one copy of the demo-study step, shared with the fuzzer
+
 TIMEOUT_S = 120
 """A case that has not finished after this long is a hang (a failure), whatever the machine load."""
-
-
-def make_study(folder: Path, problem: str = "parcel_van.toml") -> Path:
-    """Copy the demo catalogues (and maps) and one demo problem into ``folder``; return the problem path."""
-    folder.mkdir(parents=True, exist_ok=True)
-    for k in KINDS:
-        shutil.copy(ROOT / "catalogs" / f"{k}.csv", folder / f"{k}.csv")
-    if (ROOT / "catalogs" / "maps").is_dir():
-        shutil.copytree(ROOT / "catalogs" / "maps", folder / "maps", dirs_exist_ok=True)
-    text = (ROOT / "problems" / problem).read_text(encoding="utf-8").replace("../catalogs/", "")
-    path = folder / "problem.toml"
-    path.write_text(text, encoding="utf-8")
-    return path
 
 
 def read_rows(path: Path) -> tuple[list[str], list[list[str]]]:

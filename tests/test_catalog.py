@@ -103,7 +103,7 @@ def test_motors_loaded_typed_sorted_with_defaults():
 def test_reducers_blank_line_keeps_line_numbers():
     df = load_catalog("reducers", VALID / "reducers.csv")
     assert list(df["part"]) == ["R-10.5", "R-6.2", "R-8.0"]  # string order, not numeric
-    assert dict(zip(df["part"], df["source_row"])) == {"R-8.0": 3, "R-10.5": 4, "R-6.2": 6}
+    assert dict(zip(df["part"], df["source_row"], strict=True)) == {"R-8.0": 3, "R-10.5": 4, "R-6.2": 6}
     assert df.loc[df["part"] == "R-10.5", "efficiency_pct"].item() == 96.5
 
 

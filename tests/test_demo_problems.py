@@ -42,6 +42,24 @@ def _cases(paths):
     return [pytest.param(p, id=p.stem) for p in paths]
 
 
+@pytest.fixture(scope="module")
+def json_runs() -> dict:
+    """Each command's JSON output per demo problem, run once through the command line and shared by the
+    tests of this module (the demo studies are not re-solved for every test that reads the answer)."""
+    return {}
+
+
+def _json(runs: dict, capsys, *argv) -> dict:
+    """``selector ARGV --format json`` (exit 0 asserted), from ``runs`` when an earlier test ran it."""
+    key = tuple(map(str, argv))
+    if key not in runs:
+        code = run([*key, "--format", "json"])
+        out, err = capsys.readouterr()
+        assert code == 0, err
+        runs[key] = out
+    return json.loads(runs[key])
+
+
 def _tools_module():
     spec = importlib.util.spec_from_file_location("demo_examples", ROOT / "tools" / "demo_examples.py")
     mod = importlib.util.module_from_spec(spec)
@@ -58,11 +76,8 @@ def test_demo_problems_exist():
 
 # ------------------------------------------------------------------------------ solve vs enumeration
 @pytest.mark.parametrize("path", CLASSIC, ids=[p.stem for p in CLASSIC])
-def test_solve_json_contract_and_enumeration(path, capsys):
-    code = run(["solve", str(path), "--format", "json"])
-    out, err = capsys.readouterr()
-    assert code == 0, err
-    res = json.loads(out)
+def test_solve_json_contract_and_enumeration(path, capsys, json_runs):
+    res = _json(json_runs, capsys, "solve", path)
     assert res["status"] == "optimal"
     assert res["objective"]["minimize"] in ("cost", "mass", "accel_time")
     assert res["designs"], "a demo problem must be feasible"
@@ -89,11 +104,10 @@ def test_solve_table_shows_caution(capsys):
     assert "Caution" in out and "binding" in out
 
 
-def test_simulate_json_has_performance_and_requirements(capsys):
+def test_simulate_json_has_performance_and_requirements(capsys, json_runs):
     # the solve answer of the parcel van, re-evaluated by `simulate` (invented demo data)
     path = str(PROBLEMS[[p.stem for p in PROBLEMS].index("parcel_van")])
-    assert run(["solve", path, "--format", "json"]) == 0
-    best = json.loads(capsys.readouterr().out)["designs"][0]
+    best = _json(json_runs, capsys, "solve", path)["designs"][0]
     assert run(["simulate", path, "--motor", best["motor"], "--reducer", best["reducer"], "--tyre", best["tyre"],
                 "--format", "json"]) == 0
     sim = json.loads(capsys.readouterr().out)
@@ -104,13 +118,6 @@ def test_simulate_json_has_performance_and_requirements(capsys):
 
 
 # ------------------------------------------------------------------------------ every command
-def _solve_json(path, capsys) -> dict:
-    code = run(["solve", str(path), "--format", "json"])
-    out, err = capsys.readouterr()
-    assert code == 0, err
-    return json.loads(out)
-
-
 def _design_flags(design: dict) -> list[str]:
     """simulate's part flags for a solve design record (single axle: top level; two units: `units`)."""
     if design.get("motor") is not None:
@@ -122,10 +129,19 @@ def _design_flags(design: dict) -> list[str]:
 
 
 @pytest.mark.parametrize("path", _cases(PROBLEMS))
-def test_every_command_json_and_table(path, capsys):
-    """solve, simulate, explain, shortlist and frontier, as JSON and as a table (demo data invented)."""
+def test_every_command_json_and_table(path, capsys, json_runs):
+    """solve, simulate, explain, shortlist and frontier, as JSON and as a table (demo data invented).
+
+    Each command runs once through the command line as JSON; its table is the renderer the command
+    prints with, applied to the same result (the command line's table branch itself is run by
+    test_solve_table_shows_caution and the CLI tests), so no demo study is solved twice here.
+    """
+    from selector.cli.explain import render_feasible
+    from selector.cli.main import print_search_result
+    from selector.cli.shortlist import print_shortlist
+
     problem = _problem(path)
-    res = _solve_json(path, capsys)
+    res = _json(json_runs, capsys, "solve", path)
     assert res["status"] == "optimal" and res["designs"], res.get("reason")
     best = res["designs"][0]
     assert all(r["met"] for r in best["requirements"])
@@ -134,7 +150,7 @@ def test_every_command_json_and_table(path, capsys):
         assert best["motor"] is None and best["reducer"] is None
         assert [u["axle"] for u in best["units"]] == ["front", "rear"]
     # the table of solve names the same parts
-    assert run(["solve", str(path)]) == 0
+    print_search_result(res, diagnosis=res.get("diagnosis", {}).get("summary"))
     table = capsys.readouterr().out
     assert "Caution" in table and best["tyre"] in table
 
@@ -146,17 +162,15 @@ def test_every_command_json_and_table(path, capsys):
     assert run(["simulate", str(path), *flags]) == 0
     assert best["tyre"] in capsys.readouterr().out
 
-    assert run(["explain", str(path), "--format", "json"]) == 0
-    exp = json.loads(capsys.readouterr().out)
+    exp = _json(json_runs, capsys, "explain", path)
     assert exp["status"] == "optimal"
     assert math.isclose(exp["objective"]["value"], res["objective"]["value"], rel_tol=1e-9)
-    assert run(["explain", str(path)]) == 0
-    assert "Caution" in capsys.readouterr().out
+    # the explain table (what the command prints between the problem's title and the caution)
+    assert best["tyre"] in render_feasible(exp) and exp["caution"].startswith("Caution")
 
-    assert run(["shortlist", str(path), "--count", "3", "--format", "json"]) == 0
-    sl = json.loads(capsys.readouterr().out)
+    sl = _json(json_runs, capsys, "shortlist", path, "--count", "3")
     assert sl["designs"] and math.isclose(sl["designs"][0]["cost"], best["cost"], rel_tol=1e-9)
-    assert run(["shortlist", str(path), "--count", "3"]) == 0
+    print_shortlist(sl)
     assert "Caution" in capsys.readouterr().out
 
     if problem.requirements.accel_to_kmh is None:  # the frontier's time axis needs a target speed
@@ -259,9 +273,9 @@ def test_energy_cheapest_parts_are_not_the_cheapest_vehicle(examples):
     assert math.isclose(o["cost"], o["parts_cost"] + o["battery_cost"], rel_tol=1e-9)
 
 
-def test_energy_solve_json_reports_the_battery(capsys):
+def test_energy_solve_json_reports_the_battery(capsys, json_runs):
     path = ROOT / "problems" / "delivery_van_energy.toml"
-    res = _solve_json(path, capsys)
+    res = _json(json_runs, capsys, "solve", path)
     assert res["status"] == "optimal"
     d = res["designs"][0]
     energy = d["energy"]

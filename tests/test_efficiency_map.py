@@ -72,7 +72,7 @@ def test_catalogue_loads_maps_relative_to_itself_and_reports_loss_models():
     assert df.loc["M-POLY", "efficiency_map_grid"] is None
     assert df.loc["M-POLY", "loss_copper_w_per_nm2"] == 0.05 and df.loc["M-POLY", "loss_constant_w"] == 300.0
     assert math.isnan(df.loc["M-NONE", "loss_iron_nm"])
-    kinds = dict(zip(df.index, motor_loss_models(df.reset_index())))
+    kinds = dict(zip(df.index, motor_loss_models(df.reset_index()), strict=True))
     assert kinds == {"M-MAP": "map", "M-NONE": "none", "M-POLY": "polynomial"}
 
 

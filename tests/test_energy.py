@@ -230,7 +230,8 @@ def test_infeasible_steps_are_counted_and_dated():
     cyc = load_cycle("wltc_class3b")
     mass, crr, q, r, g = 1500.0, 0.01, 0.35, 0.3, 9.0
     t_pk = 70.0  # 2100 N at the wheel in the constant-torque region (power 1 MW)
-    rows_t = [(t0, v, f) for t0, (v, a, dt) in zip(cyc.time_s, steps_of(list(cyc.time_s), list(cyc.speed_mps)))
+    steps = steps_of(list(cyc.time_s), list(cyc.speed_mps))  # one fewer than the samples
+    rows_t = [(t0, v, f) for t0, (v, a, dt) in zip(cyc.time_s, steps, strict=False)
               for f in [(mass * a + mass * G_N * crr + q * v * v) if v > 0 else 0.0]]
     over = [t0 for t0, v, f in rows_t if v > 0 and f > t_pk * g / r * (1 + 1e-9)]
     assert len(over) > 0
@@ -241,7 +242,7 @@ def test_infeasible_steps_are_counted_and_dated():
     # over-speed: max speed 131.3 km/h needs a motor speed of 36.47 m/s x 9 / 0.3 = 1094 rad/s > 1000 rad/s
     res = cycle_energy(unit(loss=LOSSLESS, torque=1000.0, power=1e6, ratios=(g,), w_max=1000.0), None,
                        vehicle(mass, crr, q, r), params(), cyc.time_s, cyc.speed_mps)
-    first = next(t0 for t0, v0, v1 in zip(cyc.time_s, cyc.speed_mps, cyc.speed_mps[1:])
+    first = next(t0 for t0, v0, v1 in zip(cyc.time_s, cyc.speed_mps, cyc.speed_mps[1:], strict=False)
                  if max(v0, v1) * g / r > 1000.0)
     assert not res.feasible[0] and res.first_infeasible_s[0] == first
 
@@ -258,7 +259,7 @@ def test_gear_choice_is_the_least_power_usable_gear_each_step():
     two = cycle_trace(unit(ratios=ratios, eff=effs, torque=200.0, power=130e3, w_max=w_max), None, veh, k,
                       cyc.time_s, cyc.speed_mps)
     singles = [cycle_trace(unit(ratios=(g,), eff=(e,), torque=200.0, power=130e3, w_max=w_max), None, veh, k,
-                           cyc.time_s, cyc.speed_mps) for g, e in zip(ratios, effs)]
+                           cyc.time_s, cyc.speed_mps) for g, e in zip(ratios, effs, strict=True)]
     p = np.stack([np.where(s.feasible[0], s.battery_w[0], np.inf) for s in singles])
     moving = two.speed_mps > 0
     assert np.all(two.feasible[0])
@@ -354,7 +355,7 @@ def test_absent_unit_takes_nothing_and_groups_do_not_mix():
     k = params(inverter_efficiency=0.97, auxiliary_w=200.0, regen_max_w=40e3, regen_min_speed_mps=1.0)
     together = cycle_energy(front, rear, veh, k, cyc.time_s, cyc.speed_mps, detail=True)
     for i in range(n):
-        def one(u, keep):
+        def one(u, keep, i=i):
             return EnergyUnit(**{key: (val[i:i + 1] if isinstance(val, np.ndarray) else val)
                                  for key, val in u.__dict__.items()}) if keep else None
         alone = cycle_energy(one(front, pres_f[i]), one(rear, pres_r[i]), veh, k, cyc.time_s, cyc.speed_mps,
@@ -456,7 +457,8 @@ def test_points_outside_the_map_are_reported_not_extrapolated():
     grid = poly_map(POLY, 300.0, w_cover, 31, 31)
     u = stack(unit(map_index=0, maps=(grid,)), unit(map_index=-1, maps=(grid,)))
     res = cycle_energy(u, None, veh, k, cyc.time_s, cyc.speed_mps)
-    first = next(t0 for t0, v0, v1 in zip(cyc.time_s, cyc.speed_mps, cyc.speed_mps[1:]) if (v0 + v1) / 2 > 20.0)
+    first = next(t0 for t0, v0, v1 in zip(cyc.time_s, cyc.speed_mps, cyc.speed_mps[1:], strict=False)
+                 if (v0 + v1) / 2 > 20.0)
     assert list(res.out_of_map) == [True, False]
     assert res.first_out_of_map_s[0] == first and res.out_of_map_steps[0] > 0
     assert math.isnan(res.wh_per_km[0]) and np.isfinite(res.wh_per_km[1])

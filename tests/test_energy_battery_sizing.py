@@ -34,7 +34,8 @@ def udds_study(tmp_path_factory):
 
 def _spiral_closes(e: dict, range_km: float, sigma: float, u: float) -> None:
     usable_wh = e["battery_kwh"] * 1000.0 * u
-    assert e["battery_mass_kg"] == pytest.approx(e["battery_kwh"] * 1000.0 / sigma, rel=1e-9)  # records keep 10 significant digits
+    # records keep 10 significant digits
+    assert e["battery_mass_kg"] == pytest.approx(e["battery_kwh"] * 1000.0 / sigma, rel=1e-9)
     assert usable_wh >= range_km * e["wh_per_km"] * (1 - 1e-6)
     assert usable_wh <= range_km * e["wh_per_km"] * (1 + 1e-6)
 

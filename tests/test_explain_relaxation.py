@@ -34,7 +34,6 @@ from selector.cli import run
 from selector.engine.evaluate import enumerate_designs, evaluate
 from selector.physics import performance as perf
 from selector.requirements import BY_NAME, CHECK_LIMIT_METRIC, CHECKS, passes, stated
-from selector.studies import explain as explain_mod
 from selector.studies import explain_relax
 from selector.studies.explain import explain, loosens, with_requirements
 from selector.units import G_N, kmh_to_mps

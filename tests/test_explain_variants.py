@@ -55,7 +55,8 @@ def two_unit_study(tmp_path, launch: float, friction: float = 0.3):
                        ("tyres", [tyre_row("T-1", load_index=95)])):
         write_csv(tmp_path / f"{kind}.csv", kind, rows)
     path = tmp_path / "problem.toml"
-    write_problem(path, "Two-unit utility vehicle on a wet road (invented data)", {**HAND_VEHICLE, "driven_axle": "both"},
+    write_problem(path, "Two-unit utility vehicle on a wet road (invented data)",
+                  {**HAND_VEHICLE, "driven_axle": "both"},
                   {**HAND_ENVIRONMENT, "road_friction": friction}, {"launch_accel_mps2": launch}, "cost")
     with path.open("a", encoding="utf-8") as f:  # axle filters (lists: written here)
         f.write('\n[drive]\nfront_motors = ["M-SMALL"]\nrear_motors = ["M-BIG"]\n')

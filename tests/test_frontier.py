@@ -38,7 +38,7 @@ def pareto_by_enumeration(s, axis_metric: str) -> list[tuple[float, float]]:
     m = evaluate.evaluate(parts, mi, rj, tk)
     ok = evaluate.feasible(parts, m, "accel_time")
     x, t = m[axis_metric][ok], m["accel_time_s"][ok]
-    pts = set(zip(x.tolist(), t.tolist()))
+    pts = set(zip(x.tolist(), t.tolist(), strict=True))
     # definition: no other design at most as large on both axes and smaller on one
     front = [(a, b) for a, b in pts if not any(c <= a and d <= b and (c < a or d < b) for c, d in pts)]
     return sorted(front)
@@ -46,7 +46,7 @@ def pareto_by_enumeration(s, axis_metric: str) -> list[tuple[float, float]]:
 
 def _study(seed, tmp_path):
     s = random_study(seed, tmp_path / str(seed), sizes=SIZES, objective="accel_time")
-    allowed = {k: np.arange(n) for k, n in zip(("motors", "reducers", "tyres"), s.parts.sizes)}
+    allowed = {k: np.arange(n) for k, n in zip(("motors", "reducers", "tyres"), s.parts.sizes, strict=True)}
     return s, Study(s.parts, allowed)
 
 
@@ -57,7 +57,7 @@ def test_cost_frontier_equals_enumeration(seed, tmp_path):
     expected = pareto_by_enumeration(s, "cost")
     got = [(c, t) for c, t, *_ in pts]
     assert len(got) == len(expected), (got, expected)
-    for (c, t), (ce, te) in zip(got, expected):
+    for (c, t), (ce, te) in zip(got, expected, strict=True):
         assert math.isclose(c, ce, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)
     # one exact sweep (single-axle studies), or two searches per point plus the final infeasible one
     assert stats["searches"] == (1 if stats.get("method") == "sweep" else 2 * len(pts) + 1)
@@ -74,7 +74,7 @@ def test_mass_frontier_equals_enumeration(seed, tmp_path):
     pts, _ = trace(study, "mass")
     expected = pareto_by_enumeration(s, "mass_kg")
     assert len(pts) == len(expected) > 1
-    for (x, t, *_), (xe, te) in zip(pts, expected):
+    for (x, t, *_), (xe, te) in zip(pts, expected, strict=True):
         assert math.isclose(x, xe, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)
 
 
@@ -111,7 +111,8 @@ def test_cost_objective_under_accel_requirement_picks_cheapest_frontier_point_me
     first_ok = next(q for q in res["points"] if q["meets_accel_time_s"])
     assert first_ok["cost"] == ch["cost"]
     assert all(q["accel_time_s"] > limit for q in res["points"] if q["cost"] < ch["cost"])
-    assert [q["accel_time_s"] for q in res["points"]] == pytest.approx([t for _, t, *_ in pts], rel=1e-9)  # JSON: 10 digits
+    # JSON: 10 digits
+    assert [q["accel_time_s"] for q in res["points"]] == pytest.approx([t for _, t, *_ in pts], rel=1e-9)
 
 
 def test_missing_accel_to_kmh_is_a_clear_input_error(capsys):
@@ -138,7 +139,7 @@ def test_cli_json_and_plot_data_match(tmp_path, capsys):
     (line,) = [ln for ln in fig.axes[0].get_lines() if ln.get_label() == "frontier"]
     xy = line.get_xydata()
     assert len(xy) == len(res["points"]) >= 2
-    for (x, y), q in zip(xy, res["points"]):
+    for (x, y), q in zip(xy, res["points"], strict=True):
         assert x == q["cost"] and y == q["accel_time_s"]
     assert (tmp_path / "again.svg").read_text(encoding="utf-8").lstrip().startswith("<?xml")
     assert not [p for p in tmp_path.iterdir() if p.name.endswith(".tmp")]  # atomic writes leave no temp file

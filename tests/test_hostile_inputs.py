@@ -30,7 +30,8 @@ PROBLEM_EXTREMES = [
     ("vehicle", "wheelbase_m", "0.001", "wheelbase_m = 0.001; must be between 0.1 and 30"),
     ("requirements", "launch_accel_mps2", "9223372036854775808", "launch_accel_mps2 = 9223372036854775808"),
     ("requirements", "top_speed_kmh", "1e308", "top_speed_kmh = 1e+308; must be between 0 and 1000"),
-    ("requirements", "budget", "1" + "0" * 400, "100000000000... (401 digits)\"; must be a finite number of ordinary size"),
+    ("requirements", "budget", "1" + "0" * 400,
+     "100000000000... (401 digits)\"; must be a finite number of ordinary size"),
     ("environment", "air_density_kg_m3", "1e6", "air_density_kg_m3 = 1000000.0; must be between 0.01 and 3"),
     ("vehicle", "mass_kg", "nan", "mass_kg = nan; must be a finite number"),
     ("vehicle", "cg_height_m", "4.0", "cg_height_m = 4.0 is not below wheelbase_m = 3.3"),
@@ -81,9 +82,9 @@ def test_unusual_values_warn_but_load(tmp_path):
 
 @pytest.mark.parametrize("value", [math.nan, math.inf, 1e12, "12", None])
 def test_sweep_point_rejects_bad_override(value):
-    from selector.studies.sweep import sweep_point
-
     from hostile import ROOT
+
+    from selector.studies.sweep import sweep_point
 
     with pytest.raises(InputError, match="vehicle.mass_kg = "):
         sweep_point(ROOT / "problems" / "parcel_van.toml", {"vehicle.mass_kg": value})

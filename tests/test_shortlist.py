@@ -19,12 +19,12 @@ import pandas as pd
 import pytest
 from generators import random_study
 
-from selector.studies import shortlist as sl
 from selector.api import open_study
 from selector.cli import run
 from selector.engine.evaluate import enumerate_designs, order_best
 from selector.errors import InputError
 from selector.records import CAUTION
+from selector.studies import shortlist as sl
 
 PROBLEMS = sorted((Path(__file__).parent.parent / "problems").glob("*.toml"))
 SEEDS = range(10)
@@ -75,7 +75,7 @@ def expected_shortlist(parts, objective, count, distinct, allowed):
 
 def same_designs(got, want):
     assert [d[1:] for d in got] == [d[1:] for d in want]
-    for g, w in zip(got, want):
+    for g, w in zip(got, want, strict=True):
         assert math.isclose(g[0], w[0], rel_tol=1e-9)
 
 
@@ -125,7 +125,7 @@ def test_shortlist_equals_enumeration(studies, distinct, monkeypatch):
 @pytest.mark.parametrize("distinct", [None, "motor", "reducer", "tyre"])
 def test_shortlist_with_procurement_filters_equals_enumeration(studies, distinct):
     filtered = 0
-    for seed, s in list(studies.items())[:6]:
+    for _seed, s in list(studies.items())[:6]:
         parts = s.parts
         best = enumerate_designs(parts, s.objective, 1)
         if not best:
@@ -201,7 +201,7 @@ def test_json_contract_and_bill_of_materials(studies, capsys):
                               "time_limit_s": None}
     tyre_count = s.problem.vehicle.tyre_count
     assert len(res["bom"]) == len(res["designs"]) == 3
-    for n, (b, d) in enumerate(zip(res["bom"], res["designs"]), 1):
+    for n, (b, d) in enumerate(zip(res["bom"], res["designs"], strict=True), 1):
         assert b["rank"] == n and (b["motor"], b["reducer"], b["tyre"]) == (d["motor"], d["reducer"], d["tyre"])
         qty = {ln["item"]: ln["quantity_per_vehicle"] for ln in b["lines"]}
         assert qty == {"motor": 1, "reducer": 1, "tyre": tyre_count}
@@ -289,7 +289,7 @@ def test_exports_read_back_equal_json(studies, tmp_path, capsys, distinct):
     assert list(sheets["Shortlist"].columns) == sl.SHORTLIST_COLUMNS
     _rows_equal(sheets["Shortlist"], _expected_designs(res))
     _rows_equal(sheets["BOM"], _expected_bom_lines(res))
-    header = dict(zip(sheets["Header"]["item"], sheets["Header"]["value"]))
+    header = dict(zip(sheets["Header"]["item"], sheets["Header"]["value"], strict=True))
     assert header["problem"] == s.problem.name
     assert header["date"] == date.today().isoformat()
     assert header["caution"] == CAUTION

@@ -174,7 +174,7 @@ def test_cli_json_csv_and_plot(tmp_path, capsys):
     assert "infeasible" in [r["status"] for r in rows]  # 135 km/h is beyond the demo catalogue here
     back = list(csv.DictReader(io.StringIO(out_csv.read_text(encoding="utf-8"))))
     assert len(back) == 3
-    for r, b in zip(rows, back):
+    for r, b in zip(rows, back, strict=True):
         assert b["status"] == r["status"] and float(b["requirements.top_speed_kmh"]) == r["requirements.top_speed_kmh"]
         assert (b["objective"] == "") == (r["objective"] is None)
         if r["objective"] is not None:

@@ -68,8 +68,12 @@ def _sha(path: Path) -> str:
     return hashlib.sha256(path.read_bytes()).hexdigest()
 
 
-def make_study(folder: Path, problem: str) -> Path:
-    """The demo study copied into ``folder``; returns the problem file's path."""
+def make_study(folder: Path, problem: str = "parcel_van.toml") -> Path:
+    """Copy the demo catalogues (and maps) and one demo problem into ``folder``; return the problem path.
+
+    The one copy of this step: the hostile-input tests (``tests/hostile.py``) import it too.
+    """
+    folder.mkdir(parents=True, exist_ok=True)
     for k in KINDS:
         shutil.copy(ROOT / "catalogs" / f"{k}.csv", folder / f"{k}.csv")
     if (ROOT / "catalogs" / "maps").is_dir():

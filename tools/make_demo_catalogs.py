@@ -6,6 +6,12 @@ seed always gives byte-identical files.  Every supplier, part id, price and
 rating in these files is invented: the catalogues exist to exercise the
 selector on plausible numbers, not to describe any real product.
 
+Row builders
+------------
+``make_motors``, ``make_reducers``, ``make_gearboxes`` and ``make_tyres`` each take the seeded
+``numpy.random.Generator`` (the only source of randomness) and return a list of dicts, one per
+catalogue row, keyed by the CSV column names.
+
 Usage
 -----
     python tools/make_demo_catalogs.py            # writes into ./catalogs
@@ -113,15 +119,7 @@ def _rpm(omega_rad_s: float) -> float:
 def make_motors(rng: np.random.Generator) -> list[dict]:
     """Draw the motor catalogue rows.
 
-    Parameters
-    ----------
-    rng : numpy.random.Generator
-        Seeded generator; the only source of randomness.
-
-    Returns
-    -------
-    list of dict
-        One dict per motor, keyed by the motors.csv column names.
+    One dict per motor, keyed by the motors.csv column names; see "Row builders" in the module docstring.
     """
     rows = []
     for prefix, name, count, (p_lo, p_hi), mfac, cfac, (lt_lo, lt_hi), jfac, note in MOTOR_SUPPLIERS:
@@ -322,15 +320,7 @@ REDUCER_FAMILIES = [
 def make_reducers(rng: np.random.Generator) -> list[dict]:
     """Build the reducer catalogue rows, one per orderable ratio variant.
 
-    Parameters
-    ----------
-    rng : numpy.random.Generator
-        Seeded generator; the only source of randomness.
-
-    Returns
-    -------
-    list of dict
-        One dict per ratio variant, keyed by the reducers.csv column names.
+    One dict per ratio variant, keyed by the reducers.csv column names; see "Row builders" in the module docstring.
     """
     rows = []
     for prefix, name, fam, t_max, n_max, eta0, m0, c0, (lt_lo, lt_hi), ratios in REDUCER_FAMILIES:
@@ -385,15 +375,8 @@ def make_gearboxes(rng: np.random.Generator) -> list[dict]:
     dog rings, a second gear pair); each further gear is a little more efficient (fewer meshes
     carrying load in the taller gears).
 
-    Parameters
-    ----------
-    rng : numpy.random.Generator
-        Seeded generator; the only source of randomness.
-
-    Returns
-    -------
-    list of dict
-        One dict per gearbox, keyed by the reducers.csv column names (single-speed columns too).
+    One dict per gearbox, keyed by the reducers.csv column names (single-speed columns too); see
+    "Row builders" in the module docstring.
     """
     rows = []
     for (prefix, name, fam, t_max, n_max, eta1, d_eta, m0, c0, shift_s, (lt_lo, lt_hi),
@@ -469,15 +452,7 @@ def _size_parts(size: str) -> tuple[int, int, int, bool]:
 def make_tyres(rng: np.random.Generator) -> list[dict]:
     """Build the tyre catalogue rows.
 
-    Parameters
-    ----------
-    rng : numpy.random.Generator
-        Seeded generator; the only source of randomness.
-
-    Returns
-    -------
-    list of dict
-        One dict per tyre, keyed by the tyres.csv column names.
+    One dict per tyre, keyed by the tyres.csv column names; see "Row builders" in the module docstring.
     """
     rows = []
     counters: dict[str, int] = {}

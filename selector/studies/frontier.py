@@ -92,27 +92,44 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
     axis value (increasing) and the time (decreasing); stats {"searches", "elapsed_s"}.
     """
     _requirements_check(study, axis)
-    objective, limit_key, _, _, _ = AXES[axis]
     parts = study.parts
-    req0 = parts.problem.requirements
-    base = replace(req0, accel_time_s=None)
-    own_limit = getattr(req0, limit_key)
-    t_cap = ANY_FINITE_TIME_S
-    points, searches, t0 = [], 0, time.perf_counter()
+    t0 = time.perf_counter()
     if not parts.two_units and parts.problem.energy is None and not any(
             a is not None and len(a) == 0 for a in study.allowed.values()):
-        from selector.engine.frontier_sweep import sweep_frontier
+        return _trace_sweep(study, axis, time_limit_s, t0)
+    return _trace_searches(study, axis, time_limit_s, t0)
 
-        deadline = None if time_limit_s is None else t0 + time_limit_s
-        res = sweep_frontier(parts, objective, base, study.allowed, own_limit, ANY_FINITE_TIME_S, STRICTLY_FASTER,
-                             LIMIT_SLACK, deadline)
-        if res is None:
-            raise FrontierTimeLimit("the frontier sweep stopped at its time limit; the frontier would not be exact. "
-                                    "Rerun without time_limit_s or with a longer one.")
-        pts, st = res
-        points = [(v, t, Design.of(t, key)) for v, t, key in pts]
-        return points, {"method": "sweep", "searches": 1, "elapsed_s": round(time.perf_counter() - t0, 3),
-                        "evaluated": st["evaluated"]}
+
+def _base_and_limit(study: Study, axis: str):
+    """The requirements without accel_time_s, and the problem's own budget (or max_mass_kg) [currency or kg]."""
+    req0 = study.parts.problem.requirements
+    return replace(req0, accel_time_s=None), getattr(req0, AXES[axis][1])
+
+
+def _trace_sweep(study: Study, axis: str, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
+    """`trace` of a single-axle, non-energy study: one exact sweep (`engine.frontier_sweep`)."""
+    from selector.engine.frontier_sweep import sweep_frontier
+
+    base, own_limit = _base_and_limit(study, axis)
+    deadline = None if time_limit_s is None else t0 + time_limit_s
+    res = sweep_frontier(study.parts, AXES[axis][0], base, study.allowed, own_limit, ANY_FINITE_TIME_S,
+                         STRICTLY_FASTER, LIMIT_SLACK, deadline)
+    if res is None:
+        raise FrontierTimeLimit("the frontier sweep stopped at its time limit; the frontier would not be exact. "
+                                "Rerun without time_limit_s or with a longer one.")
+    pts, st = res
+    points = [(v, t, Design.of(t, key)) for v, t, key in pts]
+    return points, {"method": "sweep", "searches": 1, "elapsed_s": round(time.perf_counter() - t0, 3),
+                    "evaluated": st["evaluated"]}
+
+
+def _trace_searches(study: Study, axis: str, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
+    """`trace` by the two exact searches per point of the module docstring (two-unit and energy studies)."""
+    objective, limit_key, _, _, _ = AXES[axis]
+    parts = study.parts
+    base, own_limit = _base_and_limit(study, axis)
+    t_cap = ANY_FINITE_TIME_S
+    points, searches = [], 0
     session = SearchSession()  # slices and models shared by every search below (they differ only in limits)
     # Each loop adds one point with a strictly larger axis value and strictly smaller time,
     # so it ends after at most (number of designs) loops.
@@ -174,29 +191,8 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
     chosen_ids = _chosen(study, time_limit_s)
     stats["searches"] += 1
     stats["elapsed_s"] = round(stats["elapsed_s"] + time.perf_counter() - t0, 3)
-    chosen = None
-    if chosen_ids is not None:
-        m = evaluate(parts, [chosen_ids.key])
-        two = chosen_ids.two_units
-        units = [{"axle": a, "motor": str(parts.motors.part[i]), "reducer": str(parts.reducers.part[r])}
-                 for a, i, r in chosen_ids.units]
-        chosen = {"motor": None if two else units[0]["motor"], "reducer": None if two else units[0]["reducer"],
-                  "tyre": str(parts.tyres.part[chosen_ids.tyre]), "cost": clean(m["cost"][0]),
-                  "mass_kg": clean(m["mass_kg"][0]), "accel_time_s": clean(m["accel_time_s"][0]),
-                  "objective": problem.objective}
-        chosen["on_frontier"] = any(_same(r[key], chosen[key]) and _same(r["performance"]["accel_time_s"],
-                                                                        chosen["accel_time_s"]) for r in recs)
-        chosen["units"] = units
-    out_points = []
-    for rec, (_, t_exact, _) in zip(recs, pts, strict=False):
-        rec = {"motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"], "cost": rec["cost"],
-               "mass_kg": rec["mass_kg"], "accel_time_s": rec["performance"]["accel_time_s"],
-               "meets_accel_time_s": None if req_t is None else bool(passes("max", req_t, t_exact)),
-               "chosen": bool(chosen is not None and rec["tyre"] == chosen["tyre"]
-                              and [(u["axle"], u["motor"], u["reducer"]) for u in rec["units"]]
-                              == [(u["axle"], u["motor"], u["reducer"]) for u in chosen["units"]]),
-               **{k: v for k, v in rec.items() if k not in ("motor", "reducer", "tyre", "cost", "mass_kg")}}
-        out_points.append(rec)
+    chosen = None if chosen_ids is None else _chosen_record(parts, chosen_ids, recs, key)
+    out_points = [_point_record(rec, t_exact, req_t, chosen) for rec, (_, t_exact, _) in zip(recs, pts, strict=False)]
     out = header(parts)
     out.update({
         "axis": axis, "axis_key": key, "axis_label": label, "axis_unit": unit,
@@ -211,6 +207,33 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
                        f"0-{problem.requirements.accel_to_kmh:g} km/h time); values within 2e-9 relative are equal"),
     })
     return out
+
+
+def _chosen_record(parts, chosen_ids: Design, recs: list[dict], key: str) -> dict:
+    """The problem's optimum as the frontier result's ``chosen`` (ids, cost, mass, time, ``on_frontier``)."""
+    m = evaluate(parts, [chosen_ids.key])
+    two = chosen_ids.two_units
+    units = [{"axle": a, "motor": str(parts.motors.part[i]), "reducer": str(parts.reducers.part[r])}
+             for a, i, r in chosen_ids.units]
+    chosen = {"motor": None if two else units[0]["motor"], "reducer": None if two else units[0]["reducer"],
+              "tyre": str(parts.tyres.part[chosen_ids.tyre]), "cost": clean(m["cost"][0]),
+              "mass_kg": clean(m["mass_kg"][0]), "accel_time_s": clean(m["accel_time_s"][0]),
+              "objective": parts.problem.objective}
+    chosen["on_frontier"] = any(_same(r[key], chosen[key]) and _same(r["performance"]["accel_time_s"],
+                                                                    chosen["accel_time_s"]) for r in recs)
+    chosen["units"] = units
+    return chosen
+
+
+def _point_record(rec: dict, t_exact: float, req_t: float | None, chosen: dict | None) -> dict:
+    """One frontier point: the verified design record reordered, with ``meets_accel_time_s`` and ``chosen``."""
+    return {"motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"], "cost": rec["cost"],
+            "mass_kg": rec["mass_kg"], "accel_time_s": rec["performance"]["accel_time_s"],
+            "meets_accel_time_s": None if req_t is None else bool(passes("max", req_t, t_exact)),
+            "chosen": bool(chosen is not None and rec["tyre"] == chosen["tyre"]
+                           and [(u["axle"], u["motor"], u["reducer"]) for u in rec["units"]]
+                           == [(u["axle"], u["motor"], u["reducer"]) for u in chosen["units"]]),
+            **{k: v for k, v in rec.items() if k not in ("motor", "reducer", "tyre", "cost", "mass_kg")}}
 
 
 def _same(a, b) -> bool:

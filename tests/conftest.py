@@ -7,6 +7,7 @@ the fast subset with ``pytest -m "not slow"``, CI runs everything (plain ``pytes
 
 from __future__ import annotations
 
+import json
 from collections.abc import Callable, Iterable
 from pathlib import Path
 
@@ -50,3 +51,24 @@ def assert_all_raise(values: Iterable, call: Callable, exc: type[Exception], mat
     for value in values:
         with pytest.raises(exc, match=match):
             call(value)
+
+
+@pytest.fixture(scope="session")
+def json_runs() -> dict:
+    """Each command's JSON output per demo problem, run once through the command line and shared by the
+    tests that read it (the demo studies are not re-solved for every test that reads the answer); use
+    with `cli_json`."""
+    return {}
+
+
+def cli_json(runs: dict, capsys, *argv) -> dict:
+    """``selector ARGV --format json`` (exit 0 asserted), from ``runs`` when an earlier test ran it."""
+    from selector.cli import run
+
+    key = tuple(map(str, argv))
+    if key not in runs:
+        code = run([*key, "--format", "json"])
+        out, err = capsys.readouterr()
+        assert code == 0, err
+        runs[key] = out
+    return json.loads(runs[key])

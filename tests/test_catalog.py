@@ -65,7 +65,8 @@ def test_schema_markdown_lists_every_column():
         for c in cols:
             assert f"| `{c.name}` |" in md
     one = schema_markdown("tyres")
-    assert one.startswith("| column | type | unit | required | default | rule | limits (error) | usual (else warning) |")
+    assert one.startswith("| column | type | unit | required | default | rule | limits (error) | usual (else "
+                          "warning) |")
     assert "`diameter_m`" in one and "`peak_torque_nm`" not in one
     with pytest.raises(ValueError, match="unknown catalogue kind"):
         columns("wheels")

@@ -38,7 +38,8 @@ def _physics_points(study, ids):
     st = setup(parts)
     veh = EnergyVehicle(mass_kg=mass, crr=parts.tyres.crr[[design.tyre]], q_n_s2_m2=parts.q_n_s2_m2,
                         radius_m=parts.tyres.radius_m[[design.tyre]],
-                        wheel_inertia_total_kgm2=parts.problem.vehicle.tyre_count * parts.problem.vehicle.wheel_inertia_kgm2)
+                        wheel_inertia_total_kgm2=(parts.problem.vehicle.tyre_count
+                                                  * parts.problem.vehicle.wheel_inertia_kgm2))
     axle = "front" if design.key[0] >= 0 else "rear"
     front, rear = (unit, None) if axle == "front" else (None, unit)
     tr = cycle_trace(front, rear, veh, st.params, st.time_s, st.speed_mps)

@@ -18,6 +18,7 @@ import math
 from pathlib import Path
 
 import pytest
+from conftest import cli_json
 
 from selector.api import open_study
 from selector.cli import run
@@ -42,22 +43,9 @@ def _cases(paths):
     return [pytest.param(p, id=p.stem) for p in paths]
 
 
-@pytest.fixture(scope="module")
-def json_runs() -> dict:
-    """Each command's JSON output per demo problem, run once through the command line and shared by the
-    tests of this module (the demo studies are not re-solved for every test that reads the answer)."""
-    return {}
-
-
 def _json(runs: dict, capsys, *argv) -> dict:
-    """``selector ARGV --format json`` (exit 0 asserted), from ``runs`` when an earlier test ran it."""
-    key = tuple(map(str, argv))
-    if key not in runs:
-        code = run([*key, "--format", "json"])
-        out, err = capsys.readouterr()
-        assert code == 0, err
-        runs[key] = out
-    return json.loads(runs[key])
+    """``selector ARGV --format json`` through the session's shared cache (`conftest.cli_json`)."""
+    return cli_json(runs, capsys, *argv)
 
 
 def _tools_module():

@@ -18,6 +18,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import cli_json
 
 from selector.api import open_study
 from selector.cli import run
@@ -312,10 +313,8 @@ JSON_KEYS = {"status", "objective", "design", "requirements", "driving_requireme
 
 
 @pytest.mark.parametrize("path", PROBLEMS, ids=[p.stem for p in PROBLEMS])
-def test_demo_problems_explain(path, capsys):
-    assert run(["explain", str(path), "--format", "json"]) == 0
-    out, _ = capsys.readouterr()
-    res = json.loads(out)
+def test_demo_problems_explain(path, capsys, json_runs):
+    res = cli_json(json_runs, capsys, "explain", path)  # shared with tests/test_demo_problems.py
     assert set(res) >= JSON_KEYS
     assert res["status"] == "optimal" and res["design"] is not None
     for r in res["requirements"]:

@@ -171,9 +171,10 @@ def test_multi_speed_time_bracket_is_a_lower_bound(tmp_path, layout):
     # `time_bracket` on designs with gearboxes: its lower bound (max over gear states, plus the shift
     # times a single unit must coast through) never exceeds the run's time, and the run itself is
     # checked against solve_ivp above and in test_verify.py. Random invented studies, every design.
+    from generators import random_study
+
     from selector.physics.accel_run import accel_time_s, time_bracket
     from selector.units import kmh_to_mps
-    from generators import random_study
 
     checked = tight = 0
     for seed in range(4):

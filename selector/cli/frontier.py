@@ -19,6 +19,7 @@ def setup(p):
 def handle(args) -> int:
     """Trace the frontier, print it, optionally plot it."""
     from selector.api import open_study
+    from selector.cli.heartbeat import heartbeat, wanted
     from selector.public import frontier
 
     if args.plot is not None:
@@ -28,7 +29,8 @@ def handle(args) -> int:
     study = open_study(args.problem)
     if args.plot is not None:  # the catalogues are read now: never write over one of them
         check_output_path(args.plot)
-    result = frontier(study, axis=args.axis)
+    with heartbeat("frontier", wanted(args)):
+        result = frontier(study, axis=args.axis)
     if args.plot is not None:
         from selector.io.plots import frontier_plot
 

@@ -188,11 +188,13 @@ def print_search_result(res: dict, title: str = "best design", diagnosis: list[s
 
 def _cmd_solve(args) -> int:
     from selector.api import open_study
+    from selector.cli.heartbeat import heartbeat, wanted
     from selector.public import solve
 
     t0 = time.monotonic()
     study = open_study(args.problem)
-    result = solve(study, time_limit_s=remaining_s(args.time_limit, t0))  # diagnosis included when infeasible
+    with heartbeat("solving", wanted(args), args.time_limit):
+        result = solve(study, time_limit_s=remaining_s(args.time_limit, t0))  # diagnosis included when infeasible
     if args.format == "json":
         print(result.to_json())
     else:

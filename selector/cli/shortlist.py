@@ -62,6 +62,7 @@ def run_shortlist(args) -> int:
     """Handler of ``selector shortlist``."""
     import time
 
+    from selector.cli.heartbeat import heartbeat, wanted
     from selector.cli.main import remaining_s
     from selector.io.export import check_output_path
     from selector.public import shortlist
@@ -71,8 +72,9 @@ def run_shortlist(args) -> int:
     study = open_shortlist_study(args.problem, args.avoid_supplier, args.max_lead_time_weeks)
     if args.out is not None:
         check_output_path(args.out, shortlist_inputs(study))  # fail before a long search
-    result = shortlist(study, args.count, distinct=args.distinct, vehicles=args.vehicles,
-                       time_limit_s=remaining_s(args.time_limit, t0))
+    with heartbeat("shortlist", wanted(args), args.time_limit):
+        result = shortlist(study, args.count, distinct=args.distinct, vehicles=args.vehicles,
+                           time_limit_s=remaining_s(args.time_limit, t0))
     if args.out is not None:
         result.add_output("output", write_shortlist(result.data, args.out, study))
     if args.format == "json":

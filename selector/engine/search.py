@@ -29,6 +29,10 @@ STATUS_INFEASIBLE = "infeasible"
 STATUS_TIME_LIMIT = "time_limit"
 
 
+LIVE: dict = {}
+"""The counters of the search running now (``LIVE["stats"]``: blocks, refined, evaluated), for a
+progress display; the search only replaces the dict, never reads this."""
+
 @dataclass
 class SearchResult:
     """Outcome of one exact search.
@@ -127,6 +131,7 @@ def search(parts: PartTables, objective: str | None = None, count: int = 1, per_
         return result
     deadline = None if time_limit_s is None else t_start + time_limit_s
     stats = {"blocks": 0, "refined": 0, "evaluated": 0}
+    LIVE["stats"] = stats  # read (never written) by a progress display in another thread
     engine = _engine(parts, objective, req, allowed, count, per_motor, deadline, stats, milp)
     result.timings["build_s"] = time.perf_counter() - t_start
     t0 = time.perf_counter()

@@ -10,7 +10,11 @@ block gets a certified lower bound on the objective over its designs that can be
 - acceleration time: the certified Riemann bound of `bounds.optimistic_time_s` over L cells
   holding such pairs (first over the motor's whole L range, refined to `CELLS` cells when the motor
   comes up), which also removes the pairs of cells that cannot meet ``accel_time_s``; on small
-  studies (`SMALL_DESIGNS`) no cells: each design of a block gets its own bound instead.
+  studies (`SMALL_DESIGNS`) no cells: each design of a block gets its own bound instead. A
+  multi-speed pair is admissible when its first gear lies in the first-gear window (gradeability and
+  launch use first gear) and some gear in the speed window; its time bound is taken gear by gear
+  (the largest of its gears' acceleration bounds at each speed, `optimistic_time_s` with
+  ``gears_l``), not over its whole gear hull.
 
 Motors are taken in order of their bound; a motor's block is evaluated exactly (`evaluate.screen`,
 cheap checks first, the acceleration run last), in the order of its pairs' own bounds, stopping as
@@ -23,7 +27,7 @@ from __future__ import annotations
 
 import heapq
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -75,6 +79,24 @@ MILP_AFTER_S = 60.0
 the synthetic and many-variant catalogues the bound search proves optimality sooner than a MILP
 round costs, and a round after 5 s changed no block count while costing 4-14 s for the solver
 import and the model; the relaxation can pay off only where per-motor bounds stay weak for long)."""
+
+
+def multi_in_windows(gear_l, lo_1, hi_1, *speed_windows, rows: bool = False) -> np.ndarray:
+    """(motors, pairs) bool: the pair's first gear in the motor's [lo_1, hi_1] and, for each (lo, hi)
+    of ``speed_windows``, some gear of the pair in [lo, hi] (window arrays (motors,); ``gear_l``
+    (pairs, G), L of each gear, NaN beyond the gear count). ``rows``: (n,) for n (motor, pair) rows
+    (``gear_l`` (n, G), windows (n,))."""
+    gl = np.asarray(gear_l, dtype=float)
+    if not rows:
+        gl = gl[None, :, :]
+        lo_1, hi_1 = np.asarray(lo_1)[:, None], np.asarray(hi_1)[:, None]
+        speed_windows = tuple((np.asarray(lo)[:, None], np.asarray(hi)[:, None]) for lo, hi in speed_windows)
+    l1 = gl[..., 0]
+    ok = (l1 >= lo_1) & (l1 <= hi_1)
+    with np.errstate(invalid="ignore"):
+        for lo, hi in speed_windows:
+            ok &= ((gl >= lo[..., None]) & (gl <= hi[..., None])).any(axis=-1)
+    return ok
 
 
 @dataclass
@@ -219,12 +241,23 @@ class SingleAxleSearch:
             ok &= self.parts.motors.has_loss_model[motors]
         return ok
 
-    def windows(self, motors: np.ndarray):
-        """((speed lo, hi), (first-gear lo, hi)): the requirement windows of ``motors`` on L."""
+    def windows(self, motors: np.ndarray, split: bool = False):
+        """((speed lo, hi), (first-gear lo, hi)): the requirement windows of ``motors`` on L.
+
+        ``split``: also ((top-speed lo, hi), (acceleration-target lo, hi)), the two windows whose
+        intersection is the speed window. A single-speed pair's one gear must lie in both; a
+        multi-speed pair needs some gear in each, not necessarily the same one (a run may reach an
+        acceleration target above the required sustained speed in a taller gear than the one that
+        sustains that speed).
+        """
         req = self.req
-        w_s = B.requirement_window(self.parts, self.use, motors, req, first_gear=False,
-                                   accel_target_kmh=req.accel_to_kmh if self.accel else None)
         w_1 = B.requirement_window(self.parts, self.use, motors, req, first_gear=True)
+        w_top = B.requirement_window(self.parts, self.use, motors, req, first_gear=False)
+        w_acc = B.requirement_window(self.parts, self.use, motors, replace(req, top_speed_kmh=None),
+                                     first_gear=False, accel_target_kmh=req.accel_to_kmh if self.accel else None)
+        w_s = (np.maximum(w_top[0], w_acc[0]), np.minimum(w_top[1], w_acc[1]))
+        if split:
+            return w_s, w_1, w_top, w_acc
         return w_s, w_1
 
     @property
@@ -242,17 +275,25 @@ class SingleAxleSearch:
 
     @property
     def win_speed(self):
-        """Speed windows (lo, hi) on L of `motors` (some gear must lie in them)."""
+        """Speed windows (lo, hi) on L of `motors` (a single-speed pair's L must lie in them)."""
         if self._windows is None:
-            self._windows = self.windows(self.motors)
+            self._windows = self.windows(self.motors, split=True)
         return self._windows[0]
 
     @property
     def win_first(self):
         """First-gear windows (lo, hi) on L of `motors`."""
         if self._windows is None:
-            self._windows = self.windows(self.motors)
+            self._windows = self.windows(self.motors, split=True)
         return self._windows[1]
+
+    @property
+    def win_multi(self):
+        """((top-speed lo, hi), (acceleration-target lo, hi)) windows on L of `motors` (some gear of a
+        multi-speed pair must lie in each, see `windows`)."""
+        if self._windows is None:
+            self._windows = self.windows(self.motors, split=True)
+        return self._windows[2:]
 
     # ------------------------------------------------------------------ candidate pairs
     def _single_ranges(self, m_pos):
@@ -287,19 +328,16 @@ class SingleAxleSearch:
         return ok, sp
 
     def _multi_ok(self, m_pos):
-        """(motors, multi-speed pairs) admissible: rated, first gear in its window, some gear in the speed window."""
+        """(motors, multi-speed pairs) admissible: rated, first gear in its window, some gear in the
+        top-speed window and some gear in the acceleration-target window (`windows`)."""
         p = self.pairs
         mp = p.multi_pairs
         if mp.size == 0:
             return np.zeros((m_pos.size, 0), dtype=bool)
         comp = self.use.compatible[self.motors[m_pos]][:, p.j[mp]]
-        l1 = p.l_first[mp][None, :]
-        ok = comp & (l1 >= self.win_first[0][m_pos][:, None]) & (l1 <= self.win_first[1][m_pos][:, None])
-        lo_s, hi_s = self.win_speed[0][m_pos][:, None, None], self.win_speed[1][m_pos][:, None, None]
-        gl = p.gear_l[mp][None, :, :]
-        with np.errstate(invalid="ignore"):
-            some = ((gl >= lo_s) & (gl <= hi_s)).any(axis=2)
-        return ok & some
+        w_top, w_acc = self.win_multi
+        return comp & multi_in_windows(p.gear_l[mp], self.win_first[0][m_pos], self.win_first[1][m_pos],
+                                       (w_top[0][m_pos], w_top[1][m_pos]), (w_acc[0][m_pos], w_acc[1][m_pos]))
 
     def candidates(self, pos: int) -> np.ndarray:
         """Admissible pair positions of one motor (before acceleration bounds)."""
@@ -410,6 +448,12 @@ class SingleAxleSearch:
         """Certified acceleration-time bound of motors m_pos over L hulls [l_a, l_b] (broadcast) [s]."""
         return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], l_a, l_b, self.target)
 
+    def gear_time_bound(self, m_pos, gears_l) -> np.ndarray:
+        """Certified acceleration-time bound of motors m_pos with gear sets ``gears_l`` ((..., G), NaN
+        beyond the gear count; broadcast), gear by gear (`bounds.optimistic_time_s`) [s]."""
+        return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], 0.0, 0.0, self.target,
+                                    gears_l=gears_l)
+
     def cell_edges(self, cells: int = CELLS):
         lo, hi = self.l_range
         return np.linspace(lo - 1e-9, hi + 1e-9, cells + 1)
@@ -484,28 +528,36 @@ class SingleAxleSearch:
 
     def _design_time_bounds(self, motors: np.ndarray, pairs: np.ndarray) -> np.ndarray:
         """Certified time bound of single designs (motor rows, pair positions) [s]: `optimistic_time_s`
-        at the design's own gear hull (one L for a single-speed pair), mass (as both extremes),
-        static driven-axle share, best gear efficiency and rolling resistance (without [energy],
-        where a battery adds mass, the mass and share extremes stay the motor's)."""
+        at the design's own gear hull (one L for a single-speed pair; a multi-speed pair also gear by
+        gear, the larger of the two bounds), mass (as both extremes), static driven-axle share, best
+        gear efficiency and rolling resistance (without [energy], where a battery adds mass, the mass
+        and share extremes stay the motor's)."""
         p, parts = self.pairs, self.parts
         m_motor = parts.motors.mass_kg[motors]
         mass = parts.problem.vehicle.mass_kg + m_motor + p.mass[pairs]
         if parts.problem.energy is not None:  # a battery adds mass: keep the motor-level extremes there
-            return B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
-                                        mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs])
-        m_red = parts.reducers.mass_kg[p.j[pairs]]
-        m_tyre = parts.tyres.mass_kg[p.k[pairs]]
-        share = B.max_driven_share(parts, m_motor, (m_red,), (m_tyre,))
-        return B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
-                                    mass_min_kg=mass, eta_max=p.eta[pairs], crr_min=p.crr[pairs], mass_max_kg=mass,
-                                    driven_share_max=share)
+            kw = {"mass_min_kg": mass, "eta_max": p.eta[pairs], "crr_min": p.crr[pairs]}
+        else:
+            m_red = parts.reducers.mass_kg[p.j[pairs]]
+            m_tyre = parts.tyres.mass_kg[p.k[pairs]]
+            share = B.max_driven_share(parts, m_motor, (m_red,), (m_tyre,))
+            kw = {"mass_min_kg": mass, "eta_max": p.eta[pairs], "crr_min": p.crr[pairs], "mass_max_kg": mass,
+                  "driven_share_max": share}
+        out = B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target, **kw)
+        multi = np.nonzero(p.multi[pairs])[0]
+        if multi.size:  # a multi-speed pair: gear by gear (tighter than its hull; both are bounds)
+            kw_m = {key: np.asarray(val)[multi] for key, val in kw.items()}
+            t_g = B.motor_time_bound_s(parts, self.use, motors[multi], 0.0, 0.0, self.target,
+                                       gears_l=p.gear_l[pairs[multi]], **kw_m)
+            out[multi] = np.maximum(out[multi], t_g)
+        return out
 
     def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
         """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.
 
         Returns (cell_lb (m, CELLS): bound over the single-speed pairs in each cell, inf for cells
         without admissible pairs; multi_lb (m,): least bound over its admissible multi-speed pairs,
-        each over its gear hull, inf if none). A cell or pair whose bound exceeds accel_time_s holds
+        each gear by gear with the motor's extremes, inf if none). A cell or pair whose bound exceeds accel_time_s holds
         no feasible design.
         """
         edges = self.cell_edges()
@@ -513,9 +565,16 @@ class SingleAxleSearch:
         multi = np.full(m_pos.size, np.inf)
         mo = self._multi_ok(m_pos)
         if mo.size and mo.any():
-            mp = self.pairs.multi_pairs
-            tm = self.time_bound(m_pos[:, None], self.pairs.l_tall[mp][None, :], self.pairs.l_first[mp][None, :])
-            multi = np.where(mo, tm, np.inf).min(axis=1)
+            # the bound uses the motor's extremes, so pairs with the same gear set share it: one
+            # bound per (motor, distinct admissible gear set)
+            g = self.pairs.gear_l[self.pairs.multi_pairs]
+            g = np.where(np.isnan(g), g[:, :1], g)  # a missing gear repeats the first, as in the bound
+            uniq, inv = np.unique(g, axis=0, return_inverse=True)
+            adm = np.zeros((m_pos.size, uniq.shape[0]), dtype=bool)
+            r, c = np.nonzero(mo)
+            adm[r, inv.ravel()[c]] = True
+            r, u = np.nonzero(adm)
+            np.minimum.at(multi, r, self.gear_time_bound(m_pos[r], uniq[u]))
         return t, multi
 
     def _cell_battery(self, pos: int, cand: np.ndarray, what: str) -> np.ndarray:
@@ -595,8 +654,8 @@ class SingleAxleSearch:
     # ------------------------------------------------------------------ one block
     def _block(self, pos: int, cell_lb=None):
         """(candidate pairs, key values) of motor ``pos``'s admissible designs that can still count:
-        cost and mass: exact values; time: the bound of their sub-cell, or of their gear hull for a
-        multi-speed pair (pairs whose bound misses accel_time_s dropped). None when none is left."""
+        cost and mass: exact values; time: the bound of their sub-cell, or their gear-by-gear bound
+        for a multi-speed pair (pairs whose bound misses accel_time_s dropped). None when none is left."""
         parts, p = self.parts, self.pairs
         i = int(self.motors[pos])
         cand = self.candidates(pos)
@@ -623,7 +682,7 @@ class SingleAxleSearch:
             t_cell = np.where(multi, 0.0, t_sub[sub])
             if multi.any():
                 mc = np.nonzero(multi)[0]
-                t_cell[mc] = self.time_bound(np.full(mc.size, pos), p.l_tall[cand[mc]], p.l_first[cand[mc]])
+                t_cell[mc] = self.gear_time_bound(np.full(mc.size, pos), p.gear_l[cand[mc]])
             keep = t_cell <= limit
             cand, t_cell = cand[keep], t_cell[keep]
         if cand.size == 0:
@@ -648,7 +707,7 @@ class SingleAxleSearch:
         (with the blocks in ``self.pending``, (pos, cell bounds) pairs, merged into one block).
 
         Pairs are ordered by a lower bound of their objective (cost and mass: exact; time: the bound
-        of their sub-cell, or of their gear hull for a multi-speed pair) and evaluated in growing
+        of their sub-cell, or the gear-by-gear bound for a multi-speed pair) and evaluated in growing
         chunks by `evaluate.screen` (with the accel_time objective, the best time found so far as
         its cut-off). The loop stops when the next key value exceeds the pool's ``count``-th best (or
         this block's ``per_motor``-th best) beyond the tie tolerance: every pair after it is no better.
@@ -801,9 +860,11 @@ class SingleAxleSearch:
 
         Motors are prepared lazily, in chunks of growing size in the walk's motor order, only as far
         as the walk reaches (the set-up over all motors would dominate when the optimum sits among
-        the first designs in objective order): `motor_screen`, the requirement windows (and with
-        ``accel_time_s`` stated, the certified time bound over the motor's whole admissible L
-        interval), and equivalent motors: a motor is skipped when ``count`` motors equal to it on
+        the first designs in objective order): `motor_screen`, the requirement windows (a motor
+        stays only with an admissible single-speed L or an admissible multi-speed pair, as
+        `_multi_ok`; with ``accel_time_s`` stated, the least of the certified time bounds over its
+        single-speed window and over the gear hull of its admissible multi-speed pairs must meet
+        it), and equivalent motors: a motor is skipped when ``count`` motors equal to it on
         every attribute the study reads (`bounds.EQUIVALENCE_COLUMNS`) came earlier in the walk
         with no higher cost (when cost matters). Each of those beats it or ties and precedes it in
         part-id order on every design (same feasibility; the walk is in (value, part id) order, and
@@ -827,9 +888,10 @@ class SingleAxleSearch:
         valid = np.zeros(n_m, dtype=bool)
         lo_r = np.full(n_m, np.inf)
         hi_r = np.full(n_m, -np.inf)
+        win = np.empty((6, n_m))  # first-gear, top-speed, acceleration-target windows lo, hi (multi-speed pairs)
         seen: dict[bytes, list] = {}
         state = {"prepared": 0, "chunk": 128}
-        multi_any = bool(p.multi_pairs.size)
+        mp = p.multi_pairs
         limit_t = None if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
 
         def prepare():
@@ -838,21 +900,38 @@ class SingleAxleSearch:
             state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], PROBE_CHUNK_MAX)
             mi = cand[a0:a1]
             ok = self.motor_screen(mi)
-            (ls, hs), (l1, h1) = self.windows(mi)
+            (ls, hs), (l1, h1), w_top, w_acc = self.windows(mi, split=True)
             lo, hi = np.maximum(ls, l1), np.minimum(hs, h1)
             # some admissible L: the single-speed window (clipped to the pairs' L range), or any
             # multi-speed pair (their gears are checked per design by `screen`)
             lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
-            ok &= (lo_c <= hi_c) | multi_any
-            if self.accel and limit_t is not None and not multi_any and ok.any():
-                # motors whose certified time bound over their whole admissible L interval misses
-                # accel_time_s are out (that interval holds every admissible pair's L)
+            has_s = lo_c <= hi_c
+            # multi-speed pairs the motor can use: rated, first gear in the first-gear window (gradeability
+            # and launch use first gear), some gear in the speed window (as `_multi_ok`); their hull
+            # [least tallest-gear L, largest first-gear L] holds every gear of them
+            m_lo, m_hi = np.full(mi.size, np.inf), np.full(mi.size, -np.inf)
+            if mp.size:
+                mo_ok = self.use.compatible[mi][:, p.j[mp]] & multi_in_windows(p.gear_l[mp], l1, h1, w_top, w_acc)
+                m_lo = np.where(mo_ok, p.l_tall[mp][None, :], np.inf).min(axis=1)
+                m_hi = np.where(mo_ok, p.l_first[mp][None, :], -np.inf).max(axis=1)
+            has_m = m_lo <= m_hi
+            ok &= has_s | has_m
+            if self.accel and limit_t is not None and ok.any():
+                # motors whose certified time bound over their admissible L intervals misses
+                # accel_time_s are out (the single-speed window holds every admissible single-speed
+                # pair's L, the multi-speed hull every gear of every admissible multi-speed pair)
                 # (a coarse Riemann sum first: also a certified bound, cheaper, and most motors that
                 # miss the limit already miss it there)
                 for nodes in (PROBE_COARSE_NODES, B.RIEMANN_NODES):
                     k = np.nonzero(ok)[0]
                     if k.size > (0 if nodes == B.RIEMANN_NODES else PROBE_COARSE_MIN):
-                        t = B.motor_time_bound_s(parts, self.use, mi[k], lo_c[k], hi_c[k], self.target, nodes=nodes)
+                        t = np.full(k.size, np.inf)
+                        for has, a_l, b_l in ((has_s, lo_c, hi_c), (has_m, m_lo, m_hi)):
+                            r = np.nonzero(has[k])[0]
+                            if r.size:
+                                t_r = B.motor_time_bound_s(parts, self.use, mi[k[r]], a_l[k[r]], b_l[k[r]],
+                                                           self.target, nodes=nodes)
+                                t[r] = np.minimum(t[r], t_r)
                         ok[k[~(t <= limit_t)]] = False
             k = np.nonzero(ok)[0]
             if k.size:
@@ -868,6 +947,7 @@ class SingleAxleSearch:
                         ok[k[n_k]] = False
             valid[a0:a1] = ok
             lo_r[a0:a1], hi_r[a0:a1] = lo, hi
+            win[:, a0:a1] = l1, h1, w_top[0], w_top[1], w_acc[0], w_acc[1]
 
         def next_valid(a):
             while a < n_m:
@@ -917,7 +997,11 @@ class SingleAxleSearch:
             motor = cand[ranks]
             ok = self.use.compatible[motor, p.j[pair]]
             single = ~p.multi[pair]
-            ok &= ~single | ((p.l_first[pair] >= lo_r[ranks]) & (p.l_first[pair] <= hi_r[ranks]))
+            lf = p.l_first[pair]
+            ok &= ~single | ((lf >= lo_r[ranks]) & (lf <= hi_r[ranks]))
+            if not single.all():  # a multi-speed pair: first gear in the first-gear window, a gear in each speed one
+                w = win[:, ranks]
+                ok &= single | multi_in_windows(p.gear_l[pair], w[0], w[1], (w[2], w[3]), (w[4], w[5]), rows=True)
             evaluated += len(a_l)
             batch = min(2 * batch, 8192)
             if not ok.any():

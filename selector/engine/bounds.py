@@ -355,7 +355,7 @@ def riemann_speeds(target_mps, nodes: int = RIEMANN_NODES):
 
 def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2,
                       eta_max, eta_min, mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max,
-                      hl, transfer_sign, l_a, l_b, target_mps, nodes: int = RIEMANN_NODES):
+                      hl, transfer_sign, l_a, l_b, target_mps, nodes: int = RIEMANN_NODES, gears_l=None):
     """Certified lower bound of the 0-to-target time over every single-unit design in the block [s].
 
     Block: a motor (envelope arrays), gears with L = ln(G/r) in [l_a, l_b], gearbox efficiency in
@@ -365,7 +365,38 @@ def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_s
     (blocks); see the module docstring for the proof. The traction-limited acceleration per unit
     mass, (g (mu s - Crr) - q v^2/m) / (1 + J eta e^{2L}/m - sign mu h/L), is bounded above by taking
     s, Crr, m, eta and L at their extremes. inf when no design of the block can reach the target.
+
+    ``gears_l`` (optional, shape (..., G), NaN beyond a design's gear count): the blocks are single
+    designs with these gears (``l_a``, ``l_b`` ignored), and a_up(v) is the largest of the gears'
+    own a_up(v) (each gear's block [L_g, L_g]), tighter than the hull's: at every moment the run is
+    in one of its gears, or coasts through a shift (v' < 0 < a_up), and the maximum of
+    non-increasing functions is non-increasing, so the same Riemann argument holds.
     """
+    if gears_l is not None:
+        g = np.asarray(gears_l, dtype=float)
+        g = np.where(np.isnan(g), g[..., :1], g)  # a missing gear repeats the first (no new state)
+        a_up = None
+        for n_g in range(g.shape[-1]):
+            a_g, dv = _accel_up(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s,
+                                rotor_inertia_kgm2, eta_max, eta_min, mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2,
+                                road_friction, driven_share_max, hl, transfer_sign, g[..., n_g], g[..., n_g],
+                                target_mps, nodes)
+            a_up = a_g if a_up is None else np.maximum(a_up, a_g)
+    else:
+        a_up, dv = _accel_up(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s,
+                             rotor_inertia_kgm2, eta_max, eta_min, mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2,
+                             road_friction, driven_share_max, hl, transfer_sign, l_a, l_b, target_mps, nodes)
+    reach = (a_up > 0).all(axis=-1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = (dv / a_up[..., :-1]).sum(axis=-1)
+    return np.where(reach, t, np.inf)
+
+
+def _accel_up(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2,
+              eta_max, eta_min, mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max,
+              hl, transfer_sign, l_a, l_b, target_mps, nodes):
+    """(a_up at the Riemann nodes and the target, shape (..., nodes + 1) [m/s^2]; node widths (..., nodes)
+    [m/s]) of the blocks of `optimistic_time_s`."""
     args = np.broadcast_arrays(*(np.asarray(a, dtype=float) for a in (
         torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2, eta_max, eta_min,
         mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max, hl, transfer_sign, l_a, l_b,
@@ -386,15 +417,16 @@ def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_s
         den = 1.0 + dj / m_hi - sg * mu * hl_
         a_trac = np.where(den > 0, (G_N * (mu * s_max - c) - q * vv * vv / m_hi) / den, np.inf)
         a_up = np.minimum((f_up - f_res) / m_eff, a_trac)
-    reach = (a_up > 0).all(axis=-1)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        t = (dv / a_up[..., :-1]).sum(axis=-1)
-    return np.where(reach, t, np.inf)
+    return a_up, dv
 
 
 def motor_time_bound_s(parts: PartTables, use: Usable, motors, l_a, l_b, target_mps, mass_min_kg=None, eta_max=None,
-                       crr_min=None, nodes: int = RIEMANN_NODES, mass_max_kg=None, driven_share_max=None):
+                       crr_min=None, nodes: int = RIEMANN_NODES, mass_max_kg=None, driven_share_max=None,
+                       gears_l=None):
     """`optimistic_time_s` of single-unit designs with ``motors`` and gears in [l_a, l_b] (broadcast) [s].
+
+    ``gears_l`` (optional, (..., G), NaN beyond the gear count): single designs with these gears,
+    bounded gear by gear instead of over their hull (see `optimistic_time_s`).
 
     ``mass_min_kg``, ``eta_max``, ``crr_min``, ``mass_max_kg``, ``driven_share_max`` (optional,
     broadcast): tighter extremes over the block's designs than the motor's usable parts give (e.g.
@@ -416,4 +448,4 @@ def motor_time_bound_s(parts: PartTables, use: Usable, motors, l_a, l_b, target_
                              m_hi, use.crr_min if crr_min is None else crr_min,
                              parts.q_n_s2_m2, p.environment.road_friction, share,
                              p.vehicle.cg_height_m / p.vehicle.wheelbase_m, 1.0 if parts.rear_drive else -1.0,
-                             l_a, l_b, target_mps, nodes)
+                             l_a, l_b, target_mps, nodes, gears_l=gears_l)

@@ -1,0 +1,295 @@
+"""Certified per-motor and per-design bounds of the single-axle search (`best_first.SingleAxleSearch`
+inherits them): objective values, energy and battery bounds, the L hull, time bounds per cell,
+sub-cell and design, the refinement of a motor's bound.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from selector.engine import bounds as B
+from selector.engine.evaluate import tie_tolerance
+
+CELLS = 32
+"""L cells per motor for the refined acceleration bound [-]."""
+SUBCELLS = 8
+"""Sub-cells per cell when a motor's block is evaluated [-]."""
+
+
+class BlockBounds:
+    """Bounds of `SingleAxleSearch` (a mixin: every method reads the search's own state)."""
+
+    # ------------------------------------------------------------------ bounds
+    def value_bounds(self, attr: str | None = None) -> np.ndarray:
+        """Cost or mass (``attr``; default: the objective's) lower bound per motor (inf: no admissible pair)."""
+        n = self.motors.size
+        m_pos = np.arange(n)
+        attr = attr or ("cost" if self.objective in ("cost", "accel_time") else "mass")
+        best = np.full(n, np.inf)
+        for c, a, b in self._single_ranges(m_pos):
+            best = np.minimum(best, getattr(c, attr).query(a, b))
+        mo = self._multi_ok(m_pos)
+        if mo.size:
+            vals = getattr(self.pairs, attr)[self.pairs.multi_pairs]
+            best = np.minimum(best, np.where(mo, vals[None, :], np.inf).min(axis=1))
+        if attr == "cost":
+            return self.parts.motors.cost[self.motors] + best
+        return self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[self.motors] + best
+
+    def energy_bounds(self, mi, l_a, l_b, mass_kg, crr, eta_max) -> np.ndarray:
+        """Certified lower bound of the energy objective (Wh/km at the sized battery) of single-unit
+        designs with motors ``mi``, gears in [l_a, l_b], least mass, rolling resistance and best gear
+        efficiency given (broadcast), see `selector.engine.energy.consumption_lower_bound`."""
+        from selector.engine import energy as E
+
+        st = E.setup(self.parts)
+        mo, ty = self.parts.motors, self.parts.tyres
+        v = self.parts.problem.vehicle
+        mi = np.asarray(mi, dtype=np.int64)
+        poly = mo.map_index[mi] < 0
+        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
+            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
+
+        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+
+        m = np.asarray(mass_kg, dtype=float)
+        if st.range_km is None:
+            return c_lb(m)[0]
+        return E.battery_lower_bound(st, c_lb, m, E.MAX_BATTERY_FACTOR * v.mass_kg)[1]
+
+    def battery_bounds(self, mi, l_a, l_b, mass_kg, crr, eta_max):
+        """(least battery mass [kg], least battery cost [currency]) of single-unit designs of blocks
+        (as `energy_bounds`); zeros without a range requirement."""
+        from selector.engine import energy as E
+
+        st = E.setup(self.parts)
+        shape = np.broadcast_shapes(np.shape(mi), np.shape(l_a), np.shape(mass_kg))
+        if st is None or st.range_km is None:
+            return np.zeros(shape), np.zeros(shape)
+        mo, ty = self.parts.motors, self.parts.tyres
+        v = self.parts.problem.vehicle
+        mi = np.asarray(mi, dtype=np.int64)
+        poly = mo.map_index[mi] < 0
+        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
+        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
+        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
+        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
+            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
+
+        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+
+        mb, _ = E.battery_lower_bound(st, c_lb, np.asarray(mass_kg, dtype=float), E.MAX_BATTERY_FACTOR * v.mass_kg,
+                                      rounds=2, consumption=False)
+        return mb, mb * st.specific_energy_wh_per_kg / 1000.0 * st.cost_per_kwh
+
+    def hull(self, m_pos):
+        """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
+        lo = np.full(m_pos.size, np.inf)
+        hi = np.full(m_pos.size, -np.inf)
+        dense = self._dense_single(m_pos, 1)
+        if dense is not None:
+            ok, sp = dense
+            l1 = self.pairs.l_first[sp][None, :]
+            lo = np.where(ok, l1, np.inf).min(axis=1, initial=np.inf)
+            hi = np.where(ok, l1, -np.inf).max(axis=1, initial=-np.inf)
+        else:
+            for c, a, b in self._single_ranges(m_pos):
+                has = b > a
+                lo = np.where(has, np.minimum(lo, c.l_sorted[np.minimum(a, c.l_sorted.size - 1)]), lo)
+                hi = np.where(has, np.maximum(hi, c.l_sorted[np.maximum(b - 1, 0)]), hi)
+        mo = self._multi_ok(m_pos)
+        if mo.size:
+            mp = self.pairs.multi_pairs
+            lo = np.minimum(lo, np.where(mo, self.pairs.l_tall[mp][None, :], np.inf).min(axis=1))
+            hi = np.maximum(hi, np.where(mo, self.pairs.l_first[mp][None, :], -np.inf).max(axis=1))
+        return lo, hi
+
+    def time_bound(self, m_pos, l_a, l_b) -> np.ndarray:
+        """Certified acceleration-time bound of motors m_pos over L hulls [l_a, l_b] (broadcast) [s]."""
+        return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], l_a, l_b, self.target)
+
+    def gear_time_bound(self, m_pos, gears_l) -> np.ndarray:
+        """Certified acceleration-time bound of motors m_pos with gear sets ``gears_l`` ((..., G), NaN
+        beyond the gear count; broadcast), gear by gear (`bounds.optimistic_time_s`) [s]."""
+        return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], 0.0, 0.0, self.target,
+                                    gears_l=gears_l)
+
+    def cell_edges(self, cells: int = CELLS):
+        lo, hi = self.l_range
+        return np.linspace(lo - 1e-9, hi + 1e-9, cells + 1)
+
+    def cell_bounds(self, m_pos, lo_c, hi_c, what: str = "time") -> np.ndarray:
+        """Certified time bound of each motor's single-speed designs in each L cell [lo_c, hi_c] [s].
+
+        ``lo_c``, ``hi_c``: (C,) or (m, C). Each cell's bound uses the lightest pair mass, the best
+        gearbox efficiency and the lowest rolling resistance among the motor's admissible pairs in
+        the cell (range-minimum queries); inf for cells without such pairs.
+        """
+        lo_c = np.broadcast_to(lo_c, (m_pos.size,) + np.shape(lo_c)[-1:])
+        hi_c = np.broadcast_to(hi_c, lo_c.shape)
+        shape = lo_c.shape
+        occupied = np.zeros(shape, dtype=bool)
+        mass = np.full(shape, np.inf)
+        crr = np.full(shape, np.inf)
+        eta = np.full(shape, np.inf)  # minimum of -eta
+        dense = self._dense_single(m_pos, shape[1])
+        if dense is not None:
+            ok, sp = dense
+            p = self.pairs
+            l1 = p.l_first[sp][None, None, :]
+            inc = ok[:, None, :] & (l1 >= lo_c[:, :, None]) & (l1 <= hi_c[:, :, None])
+            occupied = inc.any(axis=2)
+            mass = np.where(inc, p.mass[sp], np.inf).min(axis=2, initial=np.inf)
+            crr = np.where(inc, p.crr[sp], np.inf).min(axis=2, initial=np.inf)
+            eta = np.where(inc, -p.eta[sp], np.inf).min(axis=2, initial=np.inf)
+        for c, a, b in (() if dense is not None else self._single_ranges(m_pos)):
+            ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[:, None])
+            ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[:, None])
+            has = ib > ia
+            if not has.any():
+                continue
+            occupied |= has
+            mass = np.minimum(mass, c.mass.query(ia, np.where(has, ib, ia)))
+            crr = np.minimum(crr, c.crr.query(ia, np.where(has, ib, ia)))
+            eta = np.minimum(eta, c.neg_eta.query(ia, np.where(has, ib, ia)))
+        out = np.full(shape, np.inf)
+        if occupied.any():
+            r, col = np.nonzero(occupied)
+            mi = self.motors[m_pos[r]]
+            m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[mi] + mass[r, col]
+            if what == "energy":
+                out[r, col] = self.energy_bounds(mi, lo_c[r, col], hi_c[r, col], m_lo, crr[r, col], -eta[r, col])
+            else:
+                out[r, col] = B.motor_time_bound_s(self.parts, self.use, mi, lo_c[r, col], hi_c[r, col], self.target,
+                                                   mass_min_kg=m_lo, eta_max=-eta[r, col], crr_min=crr[r, col])
+        return out
+
+    def _subcell_bounds(self, pos: int, single: np.ndarray, sub: np.ndarray, used: np.ndarray, fine) -> np.ndarray:
+        """Certified time bound of motor ``pos``'s single-speed candidate pairs ``single`` in each
+        sub-cell ``used`` (``sub``: each pair's sub-cell, edges ``fine``) [s].
+
+        The extremes (least pair mass and rolling resistance, best efficiency) are taken directly
+        over the candidates in each sub-cell (one pass over the block's own pairs, no range
+        queries); a sub-cell's bound holds for every design whose pair lies in it, since its L lies
+        in [fine[s], fine[s + 1]] and its values are no better than those extremes.
+        """
+        p = self.pairs
+        n = fine.size - 1
+        mass = np.full(n, np.inf)
+        crr = np.full(n, np.inf)
+        eta = np.full(n, -np.inf)
+        np.minimum.at(mass, sub, p.mass[single])
+        np.minimum.at(crr, sub, p.crr[single])
+        np.maximum.at(eta, sub, p.eta[single])
+        i = int(self.motors[pos])
+        m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + mass[used]
+        return B.motor_time_bound_s(self.parts, self.use, np.full(used.size, i), fine[used], fine[used + 1],
+                                    self.target, mass_min_kg=m_lo, eta_max=eta[used], crr_min=crr[used])
+
+    def _design_time_bounds(self, motors: np.ndarray, pairs: np.ndarray) -> np.ndarray:
+        """Certified time bound of single designs (motor rows, pair positions) [s]: `optimistic_time_s`
+        at the design's own gear hull (one L for a single-speed pair; a multi-speed pair also gear by
+        gear, the larger of the two bounds), mass (as both extremes), static driven-axle share, best
+        gear efficiency and rolling resistance (without [energy], where a battery adds mass, the mass
+        and share extremes stay the motor's)."""
+        p, parts = self.pairs, self.parts
+        m_motor = parts.motors.mass_kg[motors]
+        mass = parts.problem.vehicle.mass_kg + m_motor + p.mass[pairs]
+        if parts.problem.energy is not None:  # a battery adds mass: keep the motor-level extremes there
+            kw = {"mass_min_kg": mass, "eta_max": p.eta[pairs], "crr_min": p.crr[pairs]}
+        else:
+            m_red = parts.reducers.mass_kg[p.j[pairs]]
+            m_tyre = parts.tyres.mass_kg[p.k[pairs]]
+            share = B.max_driven_share(parts, m_motor, (m_red,), (m_tyre,))
+            kw = {"mass_min_kg": mass, "eta_max": p.eta[pairs], "crr_min": p.crr[pairs], "mass_max_kg": mass,
+                  "driven_share_max": share}
+        out = B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target, **kw)
+        multi = np.nonzero(p.multi[pairs])[0]
+        if multi.size:  # a multi-speed pair: gear by gear (tighter than its hull; both are bounds)
+            kw_m = {key: np.asarray(val)[multi] for key, val in kw.items()}
+            t_g = B.motor_time_bound_s(parts, self.use, motors[multi], 0.0, 0.0, self.target,
+                                       gears_l=p.gear_l[pairs[multi]], **kw_m)
+            out[multi] = np.maximum(out[multi], t_g)
+        return out
+
+    def refine(self, m_pos) -> tuple[np.ndarray, np.ndarray]:
+        """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.
+
+        Returns (cell_lb (m, CELLS): bound over the single-speed pairs in each cell, inf for cells
+        without admissible pairs; multi_lb (m,): least bound over its admissible multi-speed pairs,
+        each gear by gear with the motor's extremes, inf if none). A cell or pair whose bound exceeds accel_time_s holds
+        no feasible design.
+        """
+        edges = self.cell_edges()
+        t = self.cell_bounds(m_pos, edges[:-1], edges[1:])
+        multi = np.full(m_pos.size, np.inf)
+        mo = self._multi_ok(m_pos)
+        if mo.size and mo.any():
+            # the bound uses the motor's extremes, so pairs with the same gear set share it: one
+            # bound per (motor, distinct admissible gear set)
+            g = self.pairs.gear_l[self.pairs.multi_pairs]
+            g = np.where(np.isnan(g), g[:, :1], g)  # a missing gear repeats the first, as in the bound
+            uniq, inv = np.unique(g, axis=0, return_inverse=True)
+            adm = np.zeros((m_pos.size, uniq.shape[0]), dtype=bool)
+            r, c = np.nonzero(mo)
+            adm[r, inv.ravel()[c]] = True
+            r, u = np.nonzero(adm)
+            np.minimum.at(multi, r, self.gear_time_bound(m_pos[r], uniq[u]))
+        return t, multi
+
+    def _cell_battery(self, pos: int, cand: np.ndarray, what: str) -> np.ndarray:
+        """Battery cost or mass lower bound of each candidate pair, from the bound of its L cell (cell
+        least pair mass, rolling resistance and best efficiency by range-minimum queries)."""
+        p = self.pairs
+        i = int(self.motors[pos])
+        edges = self.cell_edges(CELLS * SUBCELLS)
+        cell = np.clip(np.searchsorted(edges, p.l_first[cand], side="right") - 1, 0, edges.size - 2)
+        used = np.unique(cell)
+        lo_c, hi_c = edges[used], edges[used + 1]
+        mass = np.full(used.size, np.inf)
+        crr = np.full(used.size, np.inf)
+        eta = np.full(used.size, np.inf)
+        for c, a, b in self._single_ranges(np.array([pos])):
+            ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[0])
+            ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[0])
+            has = ib > ia
+            if has.any():
+                mass = np.minimum(mass, c.mass.query(ia, np.where(has, ib, ia)))
+                crr = np.minimum(crr, c.crr.query(ia, np.where(has, ib, ia)))
+                eta = np.minimum(eta, c.neg_eta.query(ia, np.where(has, ib, ia)))
+        val = np.zeros(used.size)
+        ok = np.isfinite(mass)
+        if ok.any():
+            m_lo = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + mass[ok]
+            if what == "energy":
+                val[ok] = self.energy_bounds(np.full(int(ok.sum()), i), lo_c[ok], hi_c[ok], m_lo, crr[ok], -eta[ok])
+            else:
+                mb, mc = self.battery_bounds(np.full(int(ok.sum()), i), lo_c[ok], hi_c[ok], m_lo, crr[ok], -eta[ok])
+                val[ok] = mc if what == "cost" else mb
+        out = val[np.searchsorted(used, cell)]
+        multi = p.multi[cand]
+        if multi.any():  # a multi-speed pair: the bound over its gear hull
+            mc_ = np.nonzero(multi)[0]
+            mass_m = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + p.mass[cand[mc_]]
+            args = (np.full(mc_.size, i), p.l_tall[cand[mc_]], p.l_first[cand[mc_]], mass_m, p.crr[cand[mc_]],
+                    p.eta[cand[mc_]])
+            if what == "energy":
+                out[mc_] = self.energy_bounds(*args)
+            else:  # only pairs whose own value can still count need the battery (0 is a bound for the others)
+                own = self.parts.motors.cost[i] + p.cost[cand[mc_]] if what == "cost" else mass_m
+                kth = self.kth()
+                need = np.nonzero(own <= kth + tie_tolerance(kth))[0]
+                out[mc_] = 0.0
+                if need.size:
+                    mb, mc = self.battery_bounds(*(a[need] for a in args))
+                    out[mc_[need]] = mc if what == "cost" else mb
+        return np.where(np.isfinite(out), out, np.inf)

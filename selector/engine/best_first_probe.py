@@ -1,0 +1,214 @@
+"""The sum-order probe of the single-axle search (`best_first.SingleAxleSearch` inherits it): cost and mass
+objectives evaluated in increasing objective order until a proof or a hand-over to the block search.
+"""
+
+from __future__ import annotations
+
+import heapq
+
+import numpy as np
+
+from selector.engine import bounds as B
+from selector.engine.evaluate import order_best, screen, tie_tolerance
+from selector.engine.pair_table import multi_in_windows
+from selector.requirements import REL_TOL
+
+PROBE_FIRST_BATCH = 512
+"""Designs the sum-order probe pops for its first exact screen (later batches double) [-]: one
+`evaluate.screen` call costs about as much as a few hundred designs in it (measured)."""
+PROBE_COARSE_NODES = 8
+"""Speed nodes of the probe's first, coarse time screen of motors (`bounds.optimistic_time_s`) [-]."""
+PROBE_COARSE_MIN = 256
+"""... applied to chunks of more motors than this (below, its fixed cost outweighs what it saves) [-]."""
+PROBE_CHUNK_MAX = 1024
+"""Motors the probe prepares at once, at most (chunks grow from 128; a larger cap overshoots the
+motors the walk reaches, a smaller one pays more fixed costs per call) [-]."""
+PROBE_DESIGNS = 16384
+"""Designs the sum-order probe of cost and mass studies evaluates at most before handing over [-]."""
+
+
+class SumOrderProbe:
+    """The probe of `SingleAxleSearch` (a mixin: it reads and updates the search's own state)."""
+
+    # ------------------------------------------------------------------ the sum-order probe
+    # Long on purpose: one heap walk whose state (heap, prepared motor chunks, batch, pool, proof value) every
+    # step reads and updates; split into methods it would pass a dozen locals back and forth.
+    def sum_order_probe(self) -> str:
+        """Cost and mass objectives (no [energy]): evaluate designs in increasing objective order.
+
+        The objective is a sum of a motor value and a pair value (reducer + tyre_count x tyre), so a
+        heap over (motor rank, pair rank) into both lists sorted by value yields designs in
+        increasing objective order (from (a, b) come (a, b + 1) and, when b = 0, (a' , 0) with a'
+        the next motor rank still in play). Popped designs whose pair is outside the motor's
+        requirement windows or whose reducer is not rated for the motor fail a necessary condition;
+        the rest go to `evaluate.screen` in batches. When the next value exceeds the ``count``-th
+        best feasible value beyond the tie tolerance (or the heap is empty), every design not
+        evaluated is provably worse or infeasible: a complete proof and the pool is set ("proved").
+        Otherwise, after `PROBE_DESIGNS` designs, it hands over to the block search ("handover",
+        keeping its best design when ``count`` is 1, where a design seen twice does no harm). At the
+        deadline it stops ("time_limit") with the heap's least value as the proved bound of every
+        design not evaluated (``self.probe_bound``).
+
+        Motors are prepared lazily, in chunks of growing size in the walk's motor order, only as far
+        as the walk reaches (the set-up over all motors would dominate when the optimum sits among
+        the first designs in objective order): `motor_screen`, the requirement windows (a motor
+        stays only with an admissible single-speed L or an admissible multi-speed pair, as
+        `_multi_ok`; with ``accel_time_s`` stated, the least of the certified time bounds over its
+        single-speed window and over the gear hull of its admissible multi-speed pairs must meet
+        it), and equivalent motors: a motor is skipped when ``count`` motors equal to it on
+        every attribute the study reads (`bounds.EQUIVALENCE_COLUMNS`) came earlier in the walk
+        with no higher cost (when cost matters). Each of those beats it or ties and precedes it in
+        part-id order on every design (same feasibility; the walk is in (value, part id) order, and
+        equal motors have equal mass), so it is in no list of ``count`` best designs.
+        """
+        parts, p = self.parts, self.pairs
+        v = parts.problem.vehicle
+        self.probe_bound = None
+        cand = self.allowed_motors()
+        if cand.size == 0 or p.j.size == 0:
+            return "proved"
+        if self.objective == "cost":
+            c_val, p_val = parts.motors.cost[cand], p.cost
+        else:
+            c_val, p_val = v.mass_kg + parts.motors.mass_kg[cand], p.mass
+        m_ord = np.lexsort((cand, c_val))
+        cand = cand[m_ord]
+        p_ord = np.argsort(p_val, kind="stable")  # pairs are stored in (reducer, tyre) order: ties keep it
+        m_sorted, p_sorted = c_val[m_ord].tolist(), p_val[p_ord].tolist()
+        n_m, n_p = cand.size, len(p_sorted)
+        valid = np.zeros(n_m, dtype=bool)
+        lo_r = np.full(n_m, np.inf)
+        hi_r = np.full(n_m, -np.inf)
+        win = np.empty((6, n_m))  # first-gear, top-speed, acceleration-target windows lo, hi (multi-speed pairs)
+        seen: dict[bytes, list] = {}
+        state = {"prepared": 0, "chunk": 128}
+        mp = p.multi_pairs
+        limit_t = None if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+
+        def prepare():
+            a0 = state["prepared"]
+            a1 = min(n_m, a0 + state["chunk"])
+            state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], PROBE_CHUNK_MAX)
+            mi = cand[a0:a1]
+            ok = self.motor_screen(mi)
+            (ls, hs), (l1, h1), w_top, w_acc = self.windows(mi, split=True)
+            lo, hi = np.maximum(ls, l1), np.minimum(hs, h1)
+            # some admissible L: the single-speed window (clipped to the pairs' L range), or any
+            # multi-speed pair (their gears are checked per design by `screen`)
+            lo_c, hi_c = np.maximum(lo, self.l_range[0] - 1e-9), np.minimum(hi, self.l_range[1] + 1e-9)
+            has_s = lo_c <= hi_c
+            # multi-speed pairs the motor can use: rated, first gear in the first-gear window (gradeability
+            # and launch use first gear), some gear in the speed window (as `_multi_ok`); their hull
+            # [least tallest-gear L, largest first-gear L] holds every gear of them
+            m_lo, m_hi = np.full(mi.size, np.inf), np.full(mi.size, -np.inf)
+            if mp.size:
+                mo_ok = self.use.compatible[mi][:, p.j[mp]] & multi_in_windows(p.gear_l[mp], l1, h1, w_top, w_acc)
+                m_lo = np.where(mo_ok, p.l_tall[mp][None, :], np.inf).min(axis=1)
+                m_hi = np.where(mo_ok, p.l_first[mp][None, :], -np.inf).max(axis=1)
+            has_m = m_lo <= m_hi
+            ok &= has_s | has_m
+            if self.accel and limit_t is not None and ok.any():
+                # motors whose certified time bound over their admissible L intervals misses
+                # accel_time_s are out (the single-speed window holds every admissible single-speed
+                # pair's L, the multi-speed hull every gear of every admissible multi-speed pair)
+                # (a coarse Riemann sum first: also a certified bound, cheaper, and most motors that
+                # miss the limit already miss it there)
+                for nodes in (PROBE_COARSE_NODES, B.RIEMANN_NODES):
+                    k = np.nonzero(ok)[0]
+                    if k.size > (0 if nodes == B.RIEMANN_NODES else PROBE_COARSE_MIN):
+                        t = np.full(k.size, np.inf)
+                        for has, a_l, b_l in ((has_s, lo_c, hi_c), (has_m, m_lo, m_hi)):
+                            r = np.nonzero(has[k])[0]
+                            if r.size:
+                                t_r = B.motor_time_bound_s(parts, self.use, mi[k[r]], a_l[k[r]], b_l[k[r]],
+                                                           self.target, nodes=nodes)
+                                t[r] = np.minimum(t[r], t_r)
+                        ok[k[~(t <= limit_t)]] = False
+            k = np.nonzero(ok)[0]
+            if k.size:
+                rows = B.equivalence_bits(parts, mi[k])
+                costs = parts.motors.cost[mi[k]].tolist()
+                for n_k, row in enumerate(rows):
+                    key = row.tobytes()
+                    prior = seen.setdefault(key, [])
+                    own = costs[n_k]
+                    better = sum(1 for c in prior if c <= own) if self.cost_matters else len(prior)
+                    prior.append(own)
+                    if better >= self.count:
+                        ok[k[n_k]] = False
+            valid[a0:a1] = ok
+            lo_r[a0:a1], hi_r[a0:a1] = lo, hi
+            win[:, a0:a1] = l1, h1, w_top[0], w_top[1], w_acc[0], w_acc[1]
+
+        def next_valid(a):
+            while a < n_m:
+                while state["prepared"] <= a:
+                    prepare()
+                hit = np.flatnonzero(valid[a:state["prepared"]])
+                if hit.size:
+                    return a + int(hit[0])
+                a = state["prepared"]
+            return None
+
+        a_first = next_valid(0)
+        if a_first is None:
+            return "proved"
+        heap = [(m_sorted[a_first] + p_sorted[0], a_first, 0)]
+        found_v, found_k = [], []
+        kth = np.inf
+        evaluated = 0
+        batch = PROBE_FIRST_BATCH
+        outcome = "proved"
+        while heap:
+            if heap[0][0] > kth + tie_tolerance(kth):
+                break
+            if evaluated >= PROBE_DESIGNS:
+                if self.count == 1 and found_v:
+                    self._add(np.concatenate(found_v), np.concatenate(found_k))
+                self.stats["probe"] = evaluated
+                return "handover"
+            if evaluated and self.expired():  # (after one batch: some progress in any case)
+                outcome = "time_limit"
+                self.probe_bound = heap[0][0]
+                break
+            a_l, b_l = [], []
+            limit = kth + tie_tolerance(kth)
+            while heap and len(a_l) < batch and heap[0][0] <= limit:
+                _, a, b = heapq.heappop(heap)
+                a_l.append(a)
+                b_l.append(b)
+                if b + 1 < n_p:
+                    heapq.heappush(heap, (m_sorted[a] + p_sorted[b + 1], a, b + 1))
+                if b == 0:
+                    a2 = next_valid(a + 1)
+                    if a2 is not None:
+                        heapq.heappush(heap, (m_sorted[a2] + p_sorted[0], a2, 0))
+            ranks = np.asarray(a_l, dtype=np.int64)
+            pair = p_ord[np.asarray(b_l, dtype=np.int64)]
+            motor = cand[ranks]
+            ok = self.use.compatible[motor, p.j[pair]]
+            single = ~p.multi[pair]
+            lf = p.l_first[pair]
+            ok &= ~single | ((lf >= lo_r[ranks]) & (lf <= hi_r[ranks]))
+            if not single.all():  # a multi-speed pair: first gear in the first-gear window, a gear in each speed one
+                w = win[:, ranks]
+                ok &= single | multi_in_windows(p.gear_l[pair], w[0], w[1], (w[2], w[3]), (w[4], w[5]), rows=True)
+            evaluated += len(a_l)
+            batch = min(2 * batch, 8192)
+            if not ok.any():
+                continue
+            keys = parts.single_keys(motor[ok], p.j[pair[ok]], p.k[pair[ok]])
+            good, obj = screen(parts, keys, objective=self.objective, keep_best=self.count)
+            self.stats["evaluated"] += keys.shape[0]
+            if good.any():
+                found_v.append(obj[good])
+                found_k.append(keys[good])
+                fv = np.concatenate(found_v)
+                if fv.size >= self.count:
+                    fk = np.concatenate(found_k)
+                    kth = float(fv[order_best(fv, fk, self.count)[-1]])
+        if found_v:
+            self._add(np.concatenate(found_v), np.concatenate(found_k))
+        self.stats["probe"] = evaluated
+        self.stats["probe_motors"] = state["prepared"]
+        return outcome

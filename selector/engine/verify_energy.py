@@ -158,7 +158,10 @@ def _cycle(parts: PartTables) -> tuple[dict, dict]:
 
 
 def _stationary_share(units: dict, force_n, gears: dict) -> np.ndarray:
-    """Front share where the two loss-model units' electrical power is stationary, clipped to [0, 1]."""
+    """Front share where the two loss-model units' electrical power is stationary, clipped to [0, 1].
+
+    The closed form (DEVELOPERS.md, energy model) is written here again on purpose, from the
+    re-check's own per-interval terms, so that the re-check does not call the evaluator's code."""
     terms = {}
     for pos, u in units.items():
         a, b, w = u.torque_terms(force_n, gears[pos])

@@ -42,15 +42,15 @@ def _bilinear(grid, w: np.ndarray, t: np.ndarray) -> tuple[np.ndarray, np.ndarra
     w = np.abs(w)
     if ts[0] >= 0.0:
         t = np.abs(t)
-    eta = np.full(w.shape, np.nan)
     outside = (w < ws[0]) | (w > ws[-1]) | (t < ts[0]) | (t > ts[-1]) | ~np.isfinite(t)
-    for k in np.flatnonzero(~outside):
-        i = min(max(int(np.searchsorted(ws, w[k], side="right")) - 1, 0), len(ws) - 2)
-        j = min(max(int(np.searchsorted(ts, t[k], side="right")) - 1, 0), len(ts) - 2)
-        x = (w[k] - ws[i]) / (ws[i + 1] - ws[i])
-        y = (t[k] - ts[j]) / (ts[j + 1] - ts[j])
-        eta[k] = ((1 - x) * (1 - y) * eff[i, j] + x * (1 - y) * eff[i + 1, j]
-                  + (1 - x) * y * eff[i, j + 1] + x * y * eff[i + 1, j + 1])
+    wi, ti = np.where(outside, ws[0], w), np.where(outside, ts[0], t)
+    i = np.clip(np.searchsorted(ws, wi, side="right") - 1, 0, len(ws) - 2)
+    j = np.clip(np.searchsorted(ts, ti, side="right") - 1, 0, len(ts) - 2)
+    x = (wi - ws[i]) / (ws[i + 1] - ws[i])
+    y = (ti - ts[j]) / (ts[j + 1] - ts[j])
+    eta = ((1 - x) * (1 - y) * eff[i, j] + x * (1 - y) * eff[i + 1, j]
+           + (1 - x) * y * eff[i, j + 1] + x * y * eff[i + 1, j + 1])
+    eta = np.where(outside, np.nan, eta)
     return eta, outside
 
 

@@ -36,6 +36,26 @@ class BlockBounds:
             return self.parts.motors.cost[self.motors] + best
         return self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[self.motors] + best
 
+    def _consumption_bound(self, st, mi, l_a, l_b, crr, eta_max):
+        """m -> (consumption lower bound, slope) of single-unit designs with motors ``mi`` (see
+        `selector.engine.energy.consumption_lower_bound`): the motors' spin and copper coefficients
+        (0 for map-based motors) and the largest reflected inertia when braking."""
+        from selector.engine import energy as E
+
+        mo, ty = self.parts.motors, self.parts.tyres
+        v = self.parts.problem.vehicle
+        mi = np.asarray(mi, dtype=np.int64)
+        poly = mo.map_index[mi] < 0
+        k_i, k_w, c0, k_c = (np.where(poly, np.nan_to_num(getattr(mo, name)[mi]), 0.0)
+                             for name in ("loss_iron", "loss_windage", "loss_constant", "loss_copper"))
+        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
+            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
+
+        def c_lb(m):
+            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+
+        return c_lb
+
     def energy_bounds(self, mi, l_a, l_b, mass_kg, crr, eta_max) -> np.ndarray:
         """Certified lower bound of the energy objective (Wh/km at the sized battery) of single-unit
         designs with motors ``mi``, gears in [l_a, l_b], least mass, rolling resistance and best gear
@@ -43,20 +63,8 @@ class BlockBounds:
         from selector.engine import energy as E
 
         st = E.setup(self.parts)
-        mo, ty = self.parts.motors, self.parts.tyres
         v = self.parts.problem.vehicle
-        mi = np.asarray(mi, dtype=np.int64)
-        poly = mo.map_index[mi] < 0
-        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
-        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
-        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
-        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
-            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
-
-        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
-
-        def c_lb(m):
-            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+        c_lb = self._consumption_bound(st, mi, l_a, l_b, crr, eta_max)
 
         m = np.asarray(mass_kg, dtype=float)
         if st.range_km is None:
@@ -72,20 +80,8 @@ class BlockBounds:
         shape = np.broadcast_shapes(np.shape(mi), np.shape(l_a), np.shape(mass_kg))
         if st is None or st.range_km is None:
             return np.zeros(shape), np.zeros(shape)
-        mo, ty = self.parts.motors, self.parts.tyres
         v = self.parts.problem.vehicle
-        mi = np.asarray(mi, dtype=np.int64)
-        poly = mo.map_index[mi] < 0
-        k_i = np.where(poly, np.nan_to_num(mo.loss_iron[mi]), 0.0)
-        k_w = np.where(poly, np.nan_to_num(mo.loss_windage[mi]), 0.0)
-        c0 = np.where(poly, np.nan_to_num(mo.loss_constant[mi]), 0.0)
-        brake = mo.rotor_inertia_kgm2[mi] * np.exp(2.0 * np.asarray(l_b, dtype=float)) \
-            + v.tyre_count * v.wheel_inertia_kgm2 / float(ty.radius_m.min()) ** 2
-
-        k_c = np.where(poly, np.nan_to_num(mo.loss_copper[mi]), 0.0)
-
-        def c_lb(m):
-            return E.consumption_lower_bound(st, m, crr, l_a, eta_max, k_i, k_w, c0, brake, k_c, l_b)
+        c_lb = self._consumption_bound(st, mi, l_a, l_b, crr, eta_max)
 
         mb, _ = E.battery_lower_bound(st, c_lb, np.asarray(mass_kg, dtype=float), E.MAX_BATTERY_FACTOR * v.mass_kg,
                                       rounds=2, consumption=False)

@@ -153,7 +153,7 @@ def _setup_solve(p):
 def print_search_summary(res: dict, diagnosis: list[str] | None = None) -> None:
     """The search line, procurement filters and, for an infeasible study, the diagnosis lines."""
     s = res["search"]
-    print(f"searched {s['combinations']:,} combinations exactly: {s['iterations']} MILP solves, "
+    print(f"searched {s['combinations']:,} combinations to proof ({s['iterations']} blocks opened), "
           f"build {s['build_s']:.2f} s, solve {s['solve_s']:.2f} s, verify {s['verify_s']:.2f} s")
     for note in s.get("procurement_filters", []):
         print(f"procurement filter: {note}")

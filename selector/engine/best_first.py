@@ -55,6 +55,9 @@ per-cell refinement: blocks are ordered by the motor's hull bound and each desig
 certified time bound (cheaper than refining cells when blocks are small) [-]."""
 DENSE_MAX = 1 << 20
 """Motors x L cells x single-speed pairs up to which bounds use one dense mask instead of range queries [-]."""
+CANDIDATE_MASK_MAX = 1 << 15
+"""Single-speed pairs up to which a motor's candidates come from one mask over the pairs, not from
+per-rating-class range queries (whose tables a small study then never builds) [-]."""
 MERGE_BLOCKS = 16
 """accel_time: blocks whose bound is below the incumbent evaluated together, at most [-]."""
 MILP_OPEN = 400
@@ -90,6 +93,8 @@ class SingleAxleSearch(BlockBounds, SumOrderProbe, MilpRound):
         self.cost_matters = objective == "cost" or req.budget is not None or parts.problem.energy is not None
         self._motors = None
         self._windows = None
+        self._cells = None
+        """`BlockBounds._cell_table`, built on first use."""
         self.unfinished = np.inf
         """Least bound of designs of blocks left unfinished at the time limit."""
         self.small = False
@@ -217,13 +222,40 @@ class SingleAxleSearch(BlockBounds, SumOrderProbe, MilpRound):
     def candidates(self, pos: int) -> np.ndarray:
         """Admissible pair positions of one motor (before acceleration bounds)."""
         parts = []
-        for c, a, b in self._single_ranges(np.array([pos])):
-            if b[0] > a[0]:
-                parts.append(c.pairs[a[0]:b[0]])
+        dense = self._dense_single(np.array([pos]), 1) if self.pairs.single_pairs.size <= CANDIDATE_MASK_MAX else None
+        if dense is not None:  # one mask over the pairs (the same pairs as the range queries)
+            parts.append(dense[1][dense[0][0]])
+        else:
+            for c, a, b in self._single_ranges(np.array([pos])):
+                if b[0] > a[0]:
+                    parts.append(c.pairs[a[0]:b[0]])
         mo = self._multi_ok(np.array([pos]))
         if mo.size:
             parts.append(self.pairs.multi_pairs[mo[0]])
         return np.concatenate(parts) if parts else np.empty(0, dtype=np.int64)
+
+    def affordable(self, i: int, cand: np.ndarray) -> np.ndarray:
+        """The pairs ``cand`` of motor row ``i`` whose design can meet the budget and the mass limit
+        (motor and pair values: the design's exact cost and mass without [energy], a lower bound with
+        a battery; `evaluate.screen` would reject the others)."""
+        req, p = self.req, self.pairs
+        ok = None
+        if req.budget is not None:
+            ok = self.parts.motors.cost[i] + p.cost[cand] <= req.budget * (1 + 4 * REL_TOL)
+        if req.max_mass_kg is not None:
+            m = self.parts.problem.vehicle.mass_kg + self.parts.motors.mass_kg[i] + p.mass[cand]
+            ok = (m <= req.max_mass_kg * (1 + 4 * REL_TOL)) & (True if ok is None else ok)
+        return cand if ok is None else cand[ok]
+
+    def affordable_motors(self) -> np.ndarray:
+        """False for `motors` whose every design exceeds the budget or the mass limit (the motor with
+        the cheapest, lightest usable reducer and tyre: `bounds.least_cost`, `bounds.lightest_mass_kg`)."""
+        ok = np.ones(self.motors.size, dtype=bool)
+        if self.req.budget is not None:
+            ok &= B.least_cost(self.parts, self.use, self.motors) <= self.req.budget * (1 + 4 * REL_TOL)
+        if self.req.max_mass_kg is not None:
+            ok &= B.lightest_mass_kg(self.parts, self.use, self.motors) <= self.req.max_mass_kg * (1 + 4 * REL_TOL)
+        return ok
 
     # ------------------------------------------------------------------ the pool
     def expired(self) -> bool:
@@ -258,14 +290,19 @@ class SingleAxleSearch(BlockBounds, SumOrderProbe, MilpRound):
         for a multi-speed pair (pairs whose bound misses accel_time_s dropped). None when none is left."""
         parts, p = self.parts, self.pairs
         i = int(self.motors[pos])
-        cand = self.candidates(pos)
+        cand = self.affordable(i, self.candidates(pos))
         if cand.size == 0:
             return None
         limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
         if self.accel and self.small:
-            # a small study: each design's own certified bound (no cells; see `SMALL_DESIGNS`)
-            t_cell = self._design_time_bounds(np.full(cand.size, i, dtype=np.int64), cand)
-            keep = t_cell <= limit
+            # a small study: each design's own certified bound (no cells; see `SMALL_DESIGNS`); designs
+            # above accel_time_s or, under the accel_time objective, the pool's count-th best cannot count
+            # (the coarse pass first only against an incumbent: accel_time_s alone drops few designs)
+            kth = self.kth() if self.objective == "accel_time" else np.inf
+            cut = min(limit, kth * (1 + 4 * REL_TOL))
+            t_cell = self._design_time_bounds(np.full(cand.size, i, dtype=np.int64), cand,
+                                              cut=cut if np.isfinite(kth) else np.inf)
+            keep = t_cell <= cut
             cand, t_cell = cand[keep], t_cell[keep]
         elif self.accel:
             # sub-cell bounds: SUBCELLS per cell of the refinement grid, only where the cell can count
@@ -363,8 +400,9 @@ class SingleAxleSearch(BlockBounds, SumOrderProbe, MilpRound):
             if self.accel and not self.small and chunk.size and (cutoff is not None or np.isfinite(limit)):
                 # each design's own certified time bound (its L, mass, efficiency and rolling
                 # resistance): designs above the cut-off or accel_time_s cannot count
-                t_own = self._design_time_bounds(mot_c, chunk)
-                keep = t_own <= min(limit, np.inf if cutoff is None else cutoff)
+                cut = min(limit, np.inf if cutoff is None else cutoff)
+                t_own = self._design_time_bounds(mot_c, chunk, cut=np.inf if cutoff is None else cut)
+                keep = t_own <= cut
                 chunk, mot_c = chunk[keep], mot_c[keep]
             if chunk.size:
                 keys = parts.single_keys(mot_c, p.j[chunk], p.k[chunk])
@@ -412,17 +450,17 @@ class SingleAxleSearch(BlockBounds, SumOrderProbe, MilpRound):
             mi = self.motors[has]
             lb[has] = self.energy_bounds(mi, lo[has], hi[has], B.lightest_mass_kg(self.parts, self.use, mi),
                                          self.use.crr_min, self.use.eta_max[mi])
+        lb = np.where(self.affordable_motors(), lb, np.inf)
         self.small = self.accel and n * self.pairs.j.size <= SMALL_DESIGNS
         refined = np.zeros(n, dtype=bool) if self.accel and not self.small else np.ones(n, dtype=bool)
         if self.objective == "energy":
             # the motor-level energy bound refined over L cells (least pair mass per cell), in batches
             fin = np.nonzero(np.isfinite(lb))[0]
-            edges = self.cell_edges()
             for s0 in range(0, fin.size, REFINE_BATCH):
                 if self.expired():  # the coarser bounds of the rest stay valid
                     break
                 b = fin[s0:s0 + REFINE_BATCH]
-                cl = self.cell_bounds(b, edges[:-1], edges[1:], what="energy")
+                cl = self.cell_bounds(b, what="energy")
                 lb[b] = np.maximum(lb[b], np.where(self._multi_ok(b).any(axis=1) if self.pairs.multi_pairs.size
                                                    else False, lb[b], cl.min(axis=1)))
         cells: dict[int, np.ndarray] = {}

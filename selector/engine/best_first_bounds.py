@@ -9,11 +9,18 @@ import numpy as np
 
 from selector.engine import bounds as B
 from selector.engine.evaluate import tie_tolerance
+from selector.requirements import REL_TOL
 
 CELLS = 32
 """L cells per motor for the refined acceleration bound [-]."""
 SUBCELLS = 8
 """Sub-cells per cell when a motor's block is evaluated [-]."""
+HULL_MASK_MAX = 1 << 17
+"""Motors x single-speed pairs up to which `hull` uses one mask instead of the rating classes [-]."""
+COARSE_NODES = 8
+"""Speed nodes of the coarse first pass of the per-design and per-cell time bounds [-]."""
+COARSE_MIN = 256
+"""... taken when more than this many designs (cells) are bounded against a finite cut-off [-]."""
 
 
 class BlockBounds:
@@ -91,17 +98,18 @@ class BlockBounds:
         """L hull [lo, hi] of each motor's admissible pairs (lo > hi: none)."""
         lo = np.full(m_pos.size, np.inf)
         hi = np.full(m_pos.size, -np.inf)
-        dense = self._dense_single(m_pos, 1)
+        # small studies: the exact hull from one mask; else the hull of the motor's occupied L cells
+        # clipped to its window (`_cell_occupancy`: it holds every admissible single-speed pair's L)
+        dense = self._dense_single(m_pos, 1) if m_pos.size * self.pairs.single_pairs.size <= HULL_MASK_MAX else None
         if dense is not None:
             ok, sp = dense
             l1 = self.pairs.l_first[sp][None, :]
             lo = np.where(ok, l1, np.inf).min(axis=1, initial=np.inf)
             hi = np.where(ok, l1, -np.inf).max(axis=1, initial=-np.inf)
-        else:
-            for c, a, b in self._single_ranges(m_pos):
-                has = b > a
-                lo = np.where(has, np.minimum(lo, c.l_sorted[np.minimum(a, c.l_sorted.size - 1)]), lo)
-                hi = np.where(has, np.maximum(hi, c.l_sorted[np.maximum(b - 1, 0)]), hi)
+        elif self.pairs.single_pairs.size:
+            occupied, _, lo_c, hi_c = self._cell_occupancy(m_pos)
+            lo = np.where(occupied, lo_c, np.inf).min(axis=1)
+            hi = np.where(occupied, hi_c, -np.inf).max(axis=1)
         mo = self._multi_ok(m_pos)
         if mo.size:
             mp = self.pairs.multi_pairs
@@ -123,40 +131,67 @@ class BlockBounds:
         lo, hi = self.l_range
         return np.linspace(lo - 1e-9, hi + 1e-9, cells + 1)
 
-    def cell_bounds(self, m_pos, lo_c, hi_c, what: str = "time") -> np.ndarray:
-        """Certified time bound of each motor's single-speed designs in each L cell [lo_c, hi_c] [s].
+    def _cell_table(self):
+        """(edges (C + 1,), class ratings (R, 2), per (rating class, cell) (R, C): any pair, least pair
+        mass, least rolling resistance, least -efficiency) of the single-speed pairs, built once per search.
 
-        ``lo_c``, ``hi_c``: (C,) or (m, C). Each cell's bound uses the lightest pair mass, the best
-        gearbox efficiency and the lowest rolling resistance among the motor's admissible pairs in
-        the cell (range-minimum queries); inf for cells without such pairs.
+        A pair belongs to the cell holding its L (a pair on an edge to one of the two cells, whose
+        closed intervals both hold it); rating classes: reducers of equal rated torque and speed.
         """
-        lo_c = np.broadcast_to(lo_c, (m_pos.size,) + np.shape(lo_c)[-1:])
-        hi_c = np.broadcast_to(hi_c, lo_c.shape)
-        shape = lo_c.shape
-        occupied = np.zeros(shape, dtype=bool)
-        mass = np.full(shape, np.inf)
-        crr = np.full(shape, np.inf)
-        eta = np.full(shape, np.inf)  # minimum of -eta
-        dense = self._dense_single(m_pos, shape[1])
-        if dense is not None:
-            ok, sp = dense
-            p = self.pairs
-            l1 = p.l_first[sp][None, None, :]
-            inc = ok[:, None, :] & (l1 >= lo_c[:, :, None]) & (l1 <= hi_c[:, :, None])
-            occupied = inc.any(axis=2)
-            mass = np.where(inc, p.mass[sp], np.inf).min(axis=2, initial=np.inf)
-            crr = np.where(inc, p.crr[sp], np.inf).min(axis=2, initial=np.inf)
-            eta = np.where(inc, -p.eta[sp], np.inf).min(axis=2, initial=np.inf)
-        for c, a, b in (() if dense is not None else self._single_ranges(m_pos)):
-            ia = np.maximum(np.searchsorted(c.l_sorted, lo_c, side="left"), a[:, None])
-            ib = np.minimum(np.searchsorted(c.l_sorted, hi_c, side="right"), b[:, None])
-            has = ib > ia
-            if not has.any():
-                continue
-            occupied |= has
-            mass = np.minimum(mass, c.mass.query(ia, np.where(has, ib, ia)))
-            crr = np.minimum(crr, c.crr.query(ia, np.where(has, ib, ia)))
-            eta = np.minimum(eta, c.neg_eta.query(ia, np.where(has, ib, ia)))
+        if self._cells is None:
+            p, re = self.pairs, self.parts.reducers
+            edges = self.cell_edges()
+            sp = p.single_pairs
+            cell = np.clip(np.searchsorted(edges, p.l_first[sp], side="right") - 1, 0, edges.size - 2)
+            # rating classes of the reducers (few rows), then each pair's
+            uniq, cls = np.unique(np.stack([re.max_torque_nm, re.max_speed_rad_s], axis=1), axis=0,
+                                  return_inverse=True)
+            flat = np.asarray(cls).ravel()[p.j[sp]] * (edges.size - 1) + cell
+            shape = (uniq.shape[0], edges.size - 1)
+            tables = []
+            for vals in (p.mass[sp], p.crr[sp], -p.eta[sp]):
+                t = np.full(shape[0] * shape[1], np.inf)
+                np.minimum.at(t, flat, vals)
+                tables.append(t.reshape(shape))
+            any_pair = np.zeros(shape[0] * shape[1], dtype=bool)
+            any_pair[flat] = True
+            self._cells = (edges, uniq, any_pair.reshape(shape), *tables)
+        return self._cells
+
+    def _cell_occupancy(self, m_pos):
+        """(occupied (m, C): the cell holds a pair rated for the motor and meets the motor's single-speed
+        window; compatible rating classes (m, R); each cell's L interval clipped to the window (m, C)
+        lo, hi) of motors ``m_pos`` (`_cell_table`)."""
+        edges, ratings, any_pair = self._cell_table()[:3]
+        mo = self.parts.motors
+        mi = self.motors[m_pos]
+        tol = 1 + 2 * REL_TOL
+        comp = (mo.torque_nm[mi][:, None] <= ratings[None, :, 0] * tol) \
+            & (mo.max_speed_rad_s[mi][:, None] <= ratings[None, :, 1] * tol)
+        lo = np.maximum(self.win_speed[0][m_pos], self.win_first[0][m_pos])[:, None]
+        hi = np.minimum(self.win_speed[1][m_pos], self.win_first[1][m_pos])[:, None]
+        lo_c, hi_c = np.maximum(edges[None, :-1], lo), np.minimum(edges[None, 1:], hi)
+        occupied = (lo_c <= hi_c) & (comp[:, :, None] & any_pair[None, :, :]).any(axis=1)
+        return occupied, comp, lo_c, hi_c
+
+    def cell_bounds(self, m_pos, what: str = "time") -> np.ndarray:
+        """Certified time (``what`` "energy": energy) bound of each motor's single-speed designs in each
+        of the `CELLS` L cells, (m, CELLS); inf for cells holding none of them.
+
+        A motor's designs in a cell have their L in the cell clipped to the motor's window (the
+        single-speed window `_single_ranges` uses) and their pair among the pairs of the cell whose
+        reducer is rated for the motor: the bound takes that L interval, and the lightest pair mass,
+        the best efficiency and the least rolling resistance of those pairs (per rating class and
+        cell, `_cell_table`: a superset of the motor's admissible pairs there, so the extremes are no
+        worse than theirs).
+        """
+        _, _, _, t_mass, t_crr, t_eta = self._cell_table()
+        occupied, comp, lo_c, hi_c = self._cell_occupancy(m_pos)
+        c3 = comp[:, :, None]
+        mass = np.where(c3, t_mass[None], np.inf).min(axis=1, initial=np.inf)
+        crr = np.where(c3, t_crr[None], np.inf).min(axis=1, initial=np.inf)
+        eta = np.where(c3, t_eta[None], np.inf).min(axis=1, initial=np.inf)
+        shape = occupied.shape
         out = np.full(shape, np.inf)
         if occupied.any():
             r, col = np.nonzero(occupied)
@@ -191,12 +226,28 @@ class BlockBounds:
         return B.motor_time_bound_s(self.parts, self.use, np.full(used.size, i), fine[used], fine[used + 1],
                                     self.target, mass_min_kg=m_lo, eta_max=eta[used], crr_min=crr[used])
 
-    def _design_time_bounds(self, motors: np.ndarray, pairs: np.ndarray) -> np.ndarray:
+    def _design_time_bounds(self, motors: np.ndarray, pairs: np.ndarray, cut: float = np.inf) -> np.ndarray:
         """Certified time bound of single designs (motor rows, pair positions) [s]: `optimistic_time_s`
         at the design's own gear hull (one L for a single-speed pair; a multi-speed pair also gear by
         gear, the larger of the two bounds), mass (as both extremes), static driven-axle share, best
         gear efficiency and rolling resistance (without [energy], where a battery adds mass, the mass
-        and share extremes stay the motor's)."""
+        and share extremes stay the motor's).
+
+        ``cut`` [s] (finite: the caller drops designs whose bound exceeds it): on more than
+        `COARSE_MIN` designs the bound is first taken on `COARSE_NODES` speed nodes (a left Riemann
+        sum on a coarser partition, also a certified bound, about a sixth of the work); designs
+        whose coarse bound already exceeds ``cut`` keep it, the rest get the fine one.
+        """
+        if np.isfinite(cut) and pairs.size > COARSE_MIN:
+            out = self._design_time_bounds_at(motors, pairs, COARSE_NODES)
+            fine = np.nonzero(out <= cut)[0]
+            if fine.size:
+                out[fine] = self._design_time_bounds_at(motors[fine], pairs[fine], B.RIEMANN_NODES)
+            return out
+        return self._design_time_bounds_at(motors, pairs, B.RIEMANN_NODES)
+
+    def _design_time_bounds_at(self, motors: np.ndarray, pairs: np.ndarray, nodes: int) -> np.ndarray:
+        """`_design_time_bounds` on ``nodes`` speed nodes [s]."""
         p, parts = self.pairs, self.parts
         m_motor = parts.motors.mass_kg[motors]
         mass = parts.problem.vehicle.mass_kg + m_motor + p.mass[pairs]
@@ -208,11 +259,12 @@ class BlockBounds:
             share = B.max_driven_share(parts, m_motor, (m_red,), (m_tyre,))
             kw = {"mass_min_kg": mass, "eta_max": p.eta[pairs], "crr_min": p.crr[pairs], "mass_max_kg": mass,
                   "driven_share_max": share}
-        out = B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target, **kw)
+        out = B.motor_time_bound_s(parts, self.use, motors, p.l_tall[pairs], p.l_first[pairs], self.target,
+                                   nodes=nodes, **kw)
         multi = np.nonzero(p.multi[pairs])[0]
         if multi.size:  # a multi-speed pair: gear by gear (tighter than its hull; both are bounds)
             kw_m = {key: np.asarray(val)[multi] for key, val in kw.items()}
-            t_g = B.motor_time_bound_s(parts, self.use, motors[multi], 0.0, 0.0, self.target,
+            t_g = B.motor_time_bound_s(parts, self.use, motors[multi], 0.0, 0.0, self.target, nodes=nodes,
                                        gears_l=p.gear_l[pairs[multi]], **kw_m)
             out[multi] = np.maximum(out[multi], t_g)
         return out
@@ -225,8 +277,7 @@ class BlockBounds:
         each gear by gear with the motor's extremes, inf if none). A cell or pair whose bound exceeds accel_time_s holds
         no feasible design.
         """
-        edges = self.cell_edges()
-        t = self.cell_bounds(m_pos, edges[:-1], edges[1:])
+        t = self.cell_bounds(m_pos)
         multi = np.full(m_pos.size, np.inf)
         mo = self._multi_ok(m_pos)
         if mo.size and mo.any():

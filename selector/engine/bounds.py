@@ -64,6 +64,10 @@ class Usable:
     crr_min: float
     radius_min: float
     radius_max: float
+    reducer_cost_min: np.ndarray
+    """Cost of the cheapest reducer rated for each motor (0 without one) [currency]."""
+    tyre_cost_min: float
+    """Cost of the cheapest usable tyre [currency]."""
 
 
 def compatible_matrix(parts: PartTables, motors=None, reducers=None) -> np.ndarray:
@@ -126,6 +130,7 @@ def usable(parts: PartTables, allowed: dict | None = None) -> Usable:
         eta_min = np.nanmin(np.where(ok_c, eta_worst[None, :], np.nan), axis=1)[inv]
         mr_min = np.nanmin(np.where(ok_c, re.mass_kg[None, :], np.nan), axis=1)[inv]
         mr_max = np.nanmax(np.where(ok_c, re.mass_kg[None, :], np.nan), axis=1)[inv]
+        cr_min = np.nanmin(np.where(ok_c, re.cost[None, :], np.nan), axis=1)[inv]
     ok = ok_c[inv]
     has = has_c[inv]
     t_ok = np.zeros(n_t, dtype=bool)
@@ -138,7 +143,8 @@ def usable(parts: PartTables, allowed: dict | None = None) -> Usable:
                   eta_min=fill(eta_min, 1.0), reducer_mass_min=fill(mr_min, 0.0), reducer_mass_max=fill(mr_max, 0.0),
                   tyres=tyres, tyre_mass_min=float(ty.mass_kg[pick].min()), tyre_mass_max=float(ty.mass_kg[pick].max()),
                   crr_min=float(ty.crr[pick].min()), radius_min=float(ty.radius_m[pick].min()),
-                  radius_max=float(ty.radius_m[pick].max()))
+                  radius_max=float(ty.radius_m[pick].max()), reducer_cost_min=fill(cr_min, 0.0),
+                  tyre_cost_min=float(ty.cost[pick].min()))
 
 
 def cached_usable(parts: PartTables, allowed: dict | None) -> Usable:
@@ -154,6 +160,12 @@ def lightest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
     """Lightest vehicle mass of any design with each motor (single unit) [kg]."""
     v = parts.problem.vehicle
     return v.mass_kg + parts.motors.mass_kg[motors] + use.reducer_mass_min[motors] + v.tyre_count * use.tyre_mass_min
+
+
+def least_cost(parts: PartTables, use: Usable, motors) -> np.ndarray:
+    """Least cost of any design with each motor (single unit; a battery only adds) [currency]."""
+    n = parts.problem.vehicle.tyre_count
+    return parts.motors.cost[motors] + use.reducer_cost_min[motors] + n * use.tyre_cost_min
 
 
 def heaviest_mass_kg(parts: PartTables, use: Usable, motors) -> np.ndarray:
@@ -402,8 +414,13 @@ def _accel_up(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad
         mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max, hl, transfer_sign, l_a, l_b,
         target_mps)))
     t_, p_, wd, k, wm, j, e_hi, e_lo, m, m_hi, c, q, mu, s_max, hl_, sg, la, lb, vt = (a[..., None] for a in args)
-    v, dv = riemann_speeds(args[-1], nodes)
-    vv = np.concatenate([v, args[-1][..., None]], axis=-1)  # the target itself: a_up(V) > 0 is necessary
+    target = np.asarray(target_mps, dtype=float)
+    if target.ndim == 0:  # one target for every block: the nodes once, (nodes + 1,), broadcast below
+        v, dv = riemann_speeds(target, nodes)
+        vv = np.append(v, target)
+    else:
+        v, dv = riemann_speeds(args[-1], nodes)
+        vv = np.concatenate([v, args[-1][..., None]], axis=-1)  # the target itself: a_up(V) > 0 is necessary
     ea, eb = np.exp(la), np.exp(lb)
     torque = envelope_torque_nm(vv * ea, t_, p_, wd, k, wm)
     # every gear: wheel power eta T(w) w <= eta P, the envelope's power limit; so the force is also

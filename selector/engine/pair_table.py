@@ -4,7 +4,8 @@ class, with range-minimum tables of their values (the block bounds of `best_firs
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import cached_property
 
 import numpy as np
 
@@ -33,18 +34,33 @@ def multi_in_windows(gear_l, lo_1, hi_1, *speed_windows, rows: bool = False) -> 
 
 @dataclass
 class _Class:
-    """Single-speed pairs of one reducer rating class, sorted by L."""
+    """Single-speed pairs of one reducer rating class, sorted by L, with range-minimum tables of their
+    values (each built on first use: L ranges alone, e.g. the motors' hulls, need none)."""
 
     torque_nm: float
     speed_rad_s: float
     pairs: np.ndarray
     """Pair positions, sorted by L."""
     l_sorted: np.ndarray
-    cost: RangeMin
-    mass: RangeMin
-    crr: RangeMin
-    neg_eta: RangeMin
-    """-(best gear efficiency), so that its range minimum is the best efficiency's negative."""
+    table: PairTable = field(repr=False, compare=False)
+    """The pair table the values come from."""
+
+    @cached_property
+    def cost(self) -> RangeMin:
+        return RangeMin(self.table.cost[self.pairs])
+
+    @cached_property
+    def mass(self) -> RangeMin:
+        return RangeMin(self.table.mass[self.pairs])
+
+    @cached_property
+    def crr(self) -> RangeMin:
+        return RangeMin(self.table.crr[self.pairs])
+
+    @cached_property
+    def neg_eta(self) -> RangeMin:
+        """-(best gear efficiency), so that its range minimum is the best efficiency's negative."""
+        return RangeMin(-self.table.eta[self.pairs])
 
 
 @dataclass
@@ -74,7 +90,7 @@ class PairTable:
         """Single-speed pairs per reducer rating class (`_Class`), built on first use (the sum-order
         probe of cost and mass studies often proves the result without them)."""
         if self._classes is None:
-            self._classes = self.build_classes()
+            self._classes = self.build_classes(self)
         return self._classes
 
 
@@ -98,27 +114,26 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
     crr = ty.crr[k]
     eta = np.nanmax(re.efficiencies, axis=1)[j]
 
-    def build_classes():
+    def build_classes(table):
         classes = []
         single = np.nonzero(~multi)[0]
         if single.size:
             # rating classes from the reducers (few rows), then every single-speed pair's class; one
-            # stable sort of the pairs by L, split per class (each class keeps L order, ties pair order)
+            # sort of the pairs by (class, L), split per class (each class in L order, ties pair order)
             rating = np.stack([re.max_torque_nm[rj], re.max_speed_rad_s[rj]], axis=1)
             uniq, inv_r = np.unique(rating, axis=0, return_inverse=True)
             inv_r = np.asarray(inv_r).ravel()
             pos_r = np.full(re.max_torque_nm.size, -1, dtype=np.int64)
             pos_r[rj] = np.arange(rj.size)
             inv = inv_r[pos_r[j[single]]]
-            by_l = np.argsort(l_first[single], kind="stable")
-            single_l, inv_l = single[by_l], inv[by_l]
+            by = np.lexsort((l_first[single], inv))  # stable: equal L keep pair order
+            sorted_pairs = single[by]
+            bounds = np.searchsorted(inv[by], np.arange(uniq.shape[0] + 1))
             for c in range(uniq.shape[0]):
-                order = single_l[inv_l == c]
+                order = sorted_pairs[bounds[c]:bounds[c + 1]]
                 if order.size == 0:
                     continue
-                classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order],
-                                      RangeMin(cost[order]), RangeMin(mass[order]), RangeMin(crr[order]),
-                                      RangeMin(-eta[order])))
+                classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order], table))
         return classes
 
     return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0],

@@ -95,6 +95,8 @@ class SingleAxleSearch(BlockBounds, SumOrderProbe, MilpRound):
         self._windows = None
         self._cells = None
         """`BlockBounds._cell_table`, built on first use."""
+        self._l_caps = None
+        """`BlockBounds.closed_form_time`'s largest L of any gear, built on first use."""
         self.unfinished = np.inf
         """Least bound of designs of blocks left unfinished at the time limit."""
         self.small = False

@@ -10,6 +10,7 @@ import numpy as np
 from selector.engine import bounds as B
 from selector.engine.evaluate import tie_tolerance
 from selector.requirements import REL_TOL
+from selector.units import kmh_to_mps
 
 CELLS = 32
 """L cells per motor for the refined acceleration bound [-]."""
@@ -120,6 +121,25 @@ class BlockBounds:
     def time_bound(self, m_pos, l_a, l_b) -> np.ndarray:
         """Certified acceleration-time bound of motors m_pos over L hulls [l_a, l_b] (broadcast) [s]."""
         return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], l_a, l_b, self.target)
+
+    def closed_form_time(self, motors) -> np.ndarray:
+        """`bounds.motor_closed_form_time_s` of motor rows ``motors`` with every gear L at most the
+        largest any admissible design can have [s]: a single-speed pair's one gear must turn at most
+        at the motor's maximum speed at the required top speed and at the acceleration target
+        (L <= ln(w_max / V)), and no pair has a first gear above the pairs' largest first-gear L."""
+        p = self.pairs
+        mo = self.parts.motors
+        if self._l_caps is None:
+            sp, mp = p.single_pairs, p.multi_pairs
+            v = max(self.target, 0.0 if self.req.top_speed_kmh is None else kmh_to_mps(self.req.top_speed_kmh))
+            self._l_caps = (float(p.l_first[sp].max()) if sp.size else -np.inf,
+                            float(p.l_first[mp].max()) if mp.size else -np.inf, v)
+        l_single, l_multi, v = self._l_caps
+        motors = np.asarray(motors, dtype=np.int64)
+        with np.errstate(divide="ignore"):
+            l_gear = np.log(mo.max_speed_rad_s[motors] * (1 + 4 * REL_TOL) / v)
+        l_hi = np.maximum(np.minimum(l_single, l_gear), l_multi)
+        return B.motor_closed_form_time_s(self.parts, self.use, motors, l_hi, self.target)
 
     def gear_time_bound(self, m_pos, gears_l) -> np.ndarray:
         """Certified acceleration-time bound of motors m_pos with gear sets ``gears_l`` ((..., G), NaN

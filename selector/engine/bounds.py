@@ -404,6 +404,41 @@ def optimistic_time_s(torque_nm, power_w, decline_rad_s, decline_exponent, max_s
     return np.where(reach, t, np.inf)
 
 
+def closed_form_time_s(force_n, accel_cap_mps2, power_w, mass_kg, target_mps):
+    """Least 0-to-target time [s] of a vehicle whose acceleration is at most
+    a_up(v) = min(force_n / mass_kg, accel_cap_mps2, power_w / (mass_kg v)) at every speed v (broadcast).
+
+    a_up is non-increasing, and t = integral dv / a(v) >= integral dv / a_up(v), which is exact in
+    closed form: constant acceleration a1 = min(F / m, a_cap) up to v1 = P / (m a1), then constant
+    power (m v dv = P dt). inf where a1 <= 0 (the target is not reached).
+    """
+    v = np.asarray(target_mps, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        a1 = np.minimum(np.asarray(force_n, dtype=float) / mass_kg, accel_cap_mps2)
+        v1 = power_w / (mass_kg * a1)
+        t = np.where(v <= v1, v / a1, v1 / a1 + mass_kg * (v * v - v1 * v1) / (2.0 * power_w))
+    return np.where(a1 > 0, t, np.inf)
+
+
+def motor_closed_form_time_s(parts: PartTables, use: Usable, motors, l_hi, target_mps) -> np.ndarray:
+    """`closed_form_time_s` of every single-unit design with ``motors`` whose gears all have L <= ``l_hi``
+    (broadcast) [s]: a cheap, weaker relative of `optimistic_time_s` (no road load, no inertia).
+
+    Force at most eta_max T_max e^{l_hi} (the envelope never exceeds its torque limit), wheel power
+    at most eta_max P, mass at least the lightest design's, and the traction bound of
+    `traction_tan_bound` times g (the same bound `optimistic_time_s` takes before its road-load and
+    inertia terms, which only lower it).
+    """
+    mo = parts.motors
+    motors = np.asarray(motors, dtype=np.int64)
+    share = max_driven_share(parts, mo.mass_kg[motors], (use.reducer_mass_min[motors], use.reducer_mass_max[motors]),
+                             (use.tyre_mass_min, use.tyre_mass_max))
+    eta = use.eta_max[motors]
+    a_cap = G_N * traction_tan_bound(parts, share, use.crr_min)
+    return closed_form_time_s(eta * mo.torque_nm[motors] * np.exp(l_hi), a_cap, eta * mo.power_w[motors],
+                              lightest_mass_kg(parts, use, motors), target_mps)
+
+
 def _accel_up(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, rotor_inertia_kgm2,
               eta_max, eta_min, mass_min_kg, mass_max_kg, crr_min, q_n_s2_m2, road_friction, driven_share_max,
               hl, transfer_sign, l_a, l_b, target_mps, nodes):

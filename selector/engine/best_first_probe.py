@@ -21,6 +21,8 @@ PROBE_COARSE_NODES = 8
 """Speed nodes of the probe's first, coarse time screen of motors (`bounds.optimistic_time_s`) [-]."""
 PROBE_COARSE_MIN = 256
 """... applied to chunks of more motors than this (below, its fixed cost outweighs what it saves) [-]."""
+PROBE_CLOSED_FORM_MIN = 64
+"""The closed-form time screen of motors is applied to chunks of more motors than this [-]."""
 PROBE_CHUNK_FIRST = 1024
 """Motors prepared in the walk's first chunk (later chunks double) [-]: with the closed-form time
 screen first, preparing a motor costs far less than the fixed costs of a call (measured: 10,000
@@ -95,7 +97,7 @@ class SumOrderProbe:
             a1 = min(n_m, a0 + state["chunk"])
             state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], PROBE_CHUNK_MAX)
             ok = self.motor_screen(cand[a0:a1])
-            if self.accel and limit_t is not None and ok.any():
+            if self.accel and limit_t is not None and a1 - a0 > PROBE_CLOSED_FORM_MIN and ok.any():
                 # the closed-form time bound first (a few operations per motor; most motors that miss
                 # accel_time_s miss it there already): windows and Riemann bounds only for the rest
                 k = np.nonzero(ok)[0]

@@ -69,8 +69,10 @@ class PairTable:
 
     j: np.ndarray
     k: np.ndarray
-    gear_l: np.ndarray
-    """(P, 3) L = ln(G/r) of each gear, NaN beyond the gear count."""
+    log_ratios: np.ndarray
+    """(reducers, 3) ln G of each gear of every reducer, NaN beyond the gear count."""
+    log_radius: np.ndarray
+    """(tyres,) ln r of every tyre."""
     l_first: np.ndarray
     l_tall: np.ndarray
     multi: np.ndarray
@@ -84,6 +86,12 @@ class PairTable:
     single_pairs: np.ndarray
     """Positions of the single-speed pairs."""
     _classes: list | None = None
+
+    @cached_property
+    def gear_l(self) -> np.ndarray:
+        """(P, 3) L = ln(G/r) of each gear, NaN beyond the gear count (built on first use: catalogues
+        without multi-speed reducers never read it)."""
+        return np.take(self.log_ratios, self.j, axis=0) - self.log_radius[self.k][:, None]
 
     @property
     def classes(self) -> list:
@@ -105,9 +113,9 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
     with np.errstate(invalid="ignore", divide="ignore"):
         log_g = np.log(re.ratios)
     log_r = np.log(ty.radius_m)
-    gear_l = log_g[j] - log_r[k][:, None]
-    l_first = gear_l[:, 0]
-    l_tall = gear_l[np.arange(j.size), re.n_gears[j] - 1]
+    lr = log_r[k]
+    l_first = log_g[:, 0][j] - lr
+    l_tall = log_g[np.arange(log_g.shape[0]), re.n_gears - 1][j] - lr
     multi = re.n_gears[j] > 1
     cost = re.cost[j] + n * ty.cost[k]
     mass = re.mass_kg[j] + n * ty.mass_kg[k]
@@ -136,5 +144,5 @@ def pair_table(parts: PartTables, use: B.Usable, reducers) -> PairTable:
                 classes.append(_Class(float(uniq[c, 0]), float(uniq[c, 1]), order, l_first[order], table))
         return classes
 
-    return PairTable(j, k, gear_l, l_first, l_tall, multi, cost, mass, crr, eta, build_classes, np.nonzero(multi)[0],
-                     np.nonzero(~multi)[0])
+    return PairTable(j, k, log_g, log_r, l_first, l_tall, multi, cost, mass, crr, eta, build_classes,
+                     np.nonzero(multi)[0], np.nonzero(~multi)[0])

@@ -72,9 +72,9 @@ class _Sweep:
             return None
         cell = np.clip(np.searchsorted(self.edges, p.l_first[c], side="right") - 1, 0, CELLS - 1)
         tb = np.where(p.multi[c], 0.0, self.t_cell[pos][cell])
-        if p.multi[c].any():
+        if p.multi[c].any():  # a gearbox: gear by gear (`bounds.optimistic_time_s` with gears_l), not its hull
             mc = np.nonzero(p.multi[c])[0]
-            tb[mc] = s.time_bound(np.full(mc.size, pos), p.l_tall[c[mc]], p.l_first[c[mc]])
+            tb[mc] = s.gear_time_bound(np.full(mc.size, pos), p.gear_l[c[mc]])
         keep = np.isfinite(tb)
         c, tb = c[keep], tb[keep]
         if c.size == 0:
@@ -89,9 +89,10 @@ class _Sweep:
         return self.group is None and live_tmin > self.t_cap * self.tol
 
     def gather(self) -> list:
-        """The next designs in axis order across motors: (value, motor position, pair, time bound)."""
-        heap, batch = self.heap, []
-        while heap and len(batch) < CHUNK:
+        """The next designs in axis order across motors, as runs (motor position, first, end) of one
+        motor's candidates."""
+        heap, batch, size = self.heap, [], 0
+        while heap and size < CHUNK:
             v, pos, loaded = heapq.heappop(heap)
             if not loaded:
                 entry = self.load(pos)
@@ -104,28 +105,32 @@ class _Sweep:
             i1 = min(c.size, i0 + 64)
             if heap:  # only as far as the next motor's value, to keep the global order
                 i1 = max(i0 + 1, min(i1, int(np.searchsorted(val, heap[0][0], side="right"))))
-            for q in range(i0, i1):
-                batch.append((val[q], pos, c[q], tb[q]))
+            batch.append((pos, i0, i1))
+            size += i1 - i0
             self.cand[pos][3] = i1
             if i1 < c.size:
                 heapq.heappush(heap, (float(val[i1]), pos, True))
         return batch
 
-    def ordered(self, batch: list) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """(axis values, time bounds, key rows (n, 5)) of ``batch``, by value then part ids."""
-        vals = np.array([b[0] for b in batch])
-        poss = np.array([b[1] for b in batch], dtype=np.int64)
-        pcs = np.array([b[2] for b in batch], dtype=np.int64)
-        tbs = np.array([b[3] for b in batch])
+    def ordered(self, batch: list) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(axis values, time bounds, key rows (n, 5), pair positions) of ``batch``, by value then part ids."""
+        runs = [(self.cand[pos], i0, i1) for pos, i0, i1 in batch]
+        vals, pcs, tbs = (np.concatenate([e[n][i0:i1] for e, i0, i1 in runs]) for n in (1, 0, 2))
+        poss = np.repeat(np.array([b[0] for b in batch], dtype=np.int64), [i1 - i0 for _, i0, i1 in batch])
         keys = np.full((vals.size, 5), -1, dtype=np.int64)
         keys[:, 2], keys[:, 3], keys[:, 4] = self.s.motors[poss], self.p.j[pcs], self.p.k[pcs]
         if self.parts.axles[-1] == "front":
             keys[:, [0, 1]], keys[:, [2, 3]] = keys[:, [2, 3]].copy(), -1
         order = np.lexsort(tuple(keys[:, col] for col in range(4, -1, -1)) + (vals,))
-        return vals[order], tbs[order], keys[order]
+        return vals[order], tbs[order], keys[order], pcs[order]
 
-    def evaluate(self, vals: np.ndarray, tbs: np.ndarray, keys: np.ndarray):
-        """Evaluate the batch in sub-chunks (the caps tighten as points are found) and take each design."""
+    def evaluate(self, vals: np.ndarray, tbs: np.ndarray, keys: np.ndarray, pairs: np.ndarray):
+        """Evaluate the batch in sub-chunks (the caps tighten as points are found) and take each design.
+
+        A design is evaluated only when its cell (or gear-by-gear) bound and then its own bound
+        (`SingleAxleSearch._design_time_bounds`: its L or gears, mass, efficiency, rolling resistance
+        and driven-axle share) are both within the cap: the others cannot qualify.
+        """
         tol = self.tol
         start = 0
         while start < vals.size:
@@ -135,12 +140,20 @@ class _Sweep:
             idx = np.nonzero(need)[0] + start
             times = np.full(stop - start, np.inf)
             if idx.size:
+                motors = keys[idx, 0] if self.parts.axles[-1] == "front" else keys[idx, 2]
+                idx = idx[self.s._design_time_bounds(motors, pairs[idx], cut=cap) <= cap]
+            if idx.size:
                 ok, obj = screen(self.parts.with_requirements(self.base_req), keys[idx], objective="accel_time",
                                  accel_cutoff=cap)
                 self.stats["evaluated"] += idx.size
                 times[idx - start] = np.where(ok, obj, np.inf)
-            for q in range(start, stop):
+            # only designs with a time can open or join a group; the others can only close the open
+            # group (a value beyond its limit), which the next design taken here, or the last value of
+            # the sub-chunk (values ascend), does in the same way
+            for q in np.nonzero(np.isfinite(times))[0] + start:
                 self._take(vals[q], times[q - start], tuple(int(x) for x in keys[q]))
+            if self.group is not None and vals[stop - 1] > self.group[1] * tol:
+                self.close_group()
             start = stop
 
     def _take(self, v, tq, key):

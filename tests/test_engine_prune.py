@@ -7,12 +7,19 @@ with the public loaders).
 - The per-design certified time bound (`SingleAxleSearch._design_time_bounds`: the design's own gear
   hull, mass, static driven-axle share, efficiency and rolling resistance) never exceeds the exact
   0-to-target time of that design.
+- The closed-form time bound (`bounds.closed_form_time_s`) equals the integral of dv / a_up that
+  scipy's solve_ivp computes, and with a motor's gear limit (`SingleAxleSearch.closed_form_time`) never
+  exceeds the exact time of a feasible design with that motor.
+- The per-cell time bounds (`SingleAxleSearch.refine`, from the (rating class, L cell) table) never
+  exceed the exact time of a feasible single-speed design whose first-gear L lies in the cell.
 - Equivalent motor rows (exact copies under other part ids, some dearer) are skipped by the
   sum-order probe and grouped by `bounds.equivalent_motors` without changing the ``count`` best
   designs (values and part-id tie order) that enumeration finds.
 """
 
 from __future__ import annotations
+
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -61,6 +68,61 @@ def test_design_time_bound_never_exceeds_exact_time(seed, tmp_path):
     assert np.median(bound / t[rows]) > 0.5
 
 
+@pytest.mark.parametrize(("force_n", "a_cap", "power_w", "mass_kg", "v_mps"), [
+    (6000.0, 20.0, 150e3, 1500.0, 27.78),  # force-limited start, then constant power
+    (6000.0, 3.0, 150e3, 1500.0, 27.78),  # traction cap below F / m
+    (60000.0, 50.0, 40e3, 1200.0, 20.0),  # power-limited almost from the start
+    (3000.0, 9.0, 400e3, 1500.0, 15.0),  # the target is reached before the power limit binds
+])
+def test_closed_form_time_matches_ode(force_n, a_cap, power_w, mass_kg, v_mps):
+    from scipy.integrate import solve_ivp
+
+    def a_up(v):
+        return min(force_n / mass_kg, a_cap, power_w / (mass_kg * v) if v > 0 else np.inf)
+
+    # dt/dv = 1 / a_up(v), t(0) = 0, integrated to the target speed  # scipy solve_ivp
+    sol = solve_ivp(lambda v, t: [1.0 / a_up(v)], (0.0, v_mps), [0.0], rtol=1e-10, atol=1e-12, max_step=v_mps / 2000)
+    t = float(B.closed_form_time_s(force_n, a_cap, power_w, mass_kg, v_mps))
+    assert t == pytest.approx(float(sol.y[0, -1]), rel=1e-6)
+    assert np.isinf(B.closed_form_time_s(force_n, -1.0, power_w, mass_kg, v_mps))  # no traction: never reached
+
+
+def _feasible_designs(seed, tmp_path):
+    """(study parts, search, key rows, exact times) of the feasible designs of a random accel_time study
+    whose motor the search keeps and whose reducer is rated for it (the designs a block can hold)."""
+    st = random_study(seed, tmp_path, objective="accel_time", gearbox_share=0.4 if seed % 2 else 0.0)
+    req = replace(st.parts.problem.requirements, accel_time_s=None)  # more feasible designs to check
+    parts = st.parts.with_requirements(req)
+    n_m, n_r, n_t = parts.sizes
+    mi, rj, tk = (a.ravel() for a in np.meshgrid(np.arange(n_m), np.arange(n_r), np.arange(n_t), indexing="ij"))
+    keys = parts.single_keys(mi, rj, tk)
+    metrics = evaluate.evaluate(parts, keys)
+    ok = evaluate.feasible(parts, metrics, "accel_time")
+    s = SingleAxleSearch(parts, "accel_time", req, {}, 1, None, None, {})
+    m_r, r_r = _driven(parts, keys)
+    ok &= np.isin(m_r, s.motors) & s.use.compatible[m_r, r_r]
+    return parts, s, keys[ok], np.asarray(metrics["accel_time_s"])[ok]
+
+
+@pytest.mark.parametrize("seed", [7302, 7306, 7307, 7316, 7322, 7323])  # seeds with 10+ feasible designs
+def test_closed_form_and_cell_bounds_never_exceed_exact_time(seed, tmp_path):
+    parts, s, keys, t = _feasible_designs(seed, tmp_path)
+    assert keys.shape[0] >= 10, f"seed {seed}: too few feasible designs to check"
+    m_r, r_r = _driven(parts, keys)
+    t_cf = s.closed_form_time(m_r)
+    assert np.all(t_cf <= t * (1 + 1e-12)), (seed, keys[t_cf > t][:3].tolist())
+    assert np.median(t_cf / t) > 0.3  # not vacuous
+    # cell bounds: the design's motor position and the cell holding its first-gear L (single-speed pairs)
+    single = parts.reducers.n_gears[r_r] == 1
+    pos = np.searchsorted(s.motors, m_r[single])
+    l1 = np.log(parts.reducers.ratios[r_r[single], 0]) - np.log(parts.tyres.radius_m[keys[single, TY]])
+    edges = s.cell_edges()
+    cell = np.clip(np.searchsorted(edges, l1, side="right") - 1, 0, edges.size - 2)
+    t_cell, _ = s.refine(np.arange(s.motors.size))
+    bound = t_cell[pos, cell]
+    assert np.all(bound <= t[single] * (1 + 1e-12)), (seed, keys[single][bound > t[single]][:3].tolist())
+
+
 def _with_copies(parts: PartTables, seed: int) -> PartTables:
     """The study's tables with exact copies of some motor rows (new part ids; half of them dearer)."""
     rng = np.random.default_rng(seed)
@@ -77,7 +139,6 @@ def _with_copies(parts: PartTables, seed: int) -> PartTables:
     cols["supplier"] = mo.supplier[src]
     merged = {f: np.concatenate([np.asarray(getattr(mo, f)), cols[f]]) for f in cols}
     order = np.argsort(merged["part"], kind="stable")  # keep the tables in part-id order
-    from dataclasses import replace
 
     motors = replace(mo, **{f: merged[f][order] for f in merged})
     return replace(parts, motors=motors, cache={})

@@ -124,16 +124,19 @@ class BlockBounds:
 
     def closed_form_time(self, motors) -> np.ndarray:
         """`bounds.motor_closed_form_time_s` of motor rows ``motors`` with every gear L at most the
-        largest any admissible design can have [s]: a single-speed pair's one gear must turn at most
-        at the motor's maximum speed at the required top speed and at the acceleration target
-        (L <= ln(w_max / V)), and no pair has a first gear above the pairs' largest first-gear L."""
+        largest any admissible design can have [s]: a single-speed pair's one gear lies below the
+        single-speed pairs' largest L and must turn at most at the motor's maximum speed at the
+        required top speed and at the acceleration target (L <= ln(w_max / V)); a gearbox pair's
+        gears lie below the largest ln G of the gearbox reducers less the least ln r of their tyres."""
         p = self.pairs
         mo = self.parts.motors
         if self._l_caps is None:
             sp, mp = p.single_pairs, p.multi_pairs
             v = max(self.target, 0.0 if self.req.top_speed_kmh is None else kmh_to_mps(self.req.top_speed_kmh))
-            self._l_caps = (float(p.l_first[sp].max()) if sp.size else -np.inf,
-                            float(p.l_first[mp].max()) if mp.size else -np.inf, v)
+            l_multi = -np.inf
+            if mp.size:
+                l_multi = float(np.nanmax(p.log_ratios[np.unique(p.j[mp])]) - p.log_radius[np.unique(p.k[mp])].min())
+            self._l_caps = (float(p.l_first[sp].max()) if sp.size else -np.inf, l_multi, v)
         l_single, l_multi, v = self._l_caps
         motors = np.asarray(motors, dtype=np.int64)
         with np.errstate(divide="ignore"):

@@ -4,12 +4,15 @@ The design space is partitioned into blocks, one per motor (all its reducer x ty
 block gets a certified lower bound on the objective over its designs that can be feasible:
 
 - the reducer-tyre pairs a motor can use are cut to those whose log-gearing L = ln(G/r) lies in the
-  motor's requirement windows (`bounds.requirement_window`) and whose reducer is rated for it;
+  motor's requirement windows (`bounds.requirement_window`) and whose reducer is rated for it, and
+  (with a budget or mass limit) to those within both; motors whose cheapest, lightest design
+  already exceeds them are out;
 - cost and mass: the motor's own value plus the smallest pair value among those pairs (a
   range-minimum query over pairs sorted by L, per reducer rating class);
 - acceleration time: the certified Riemann bound of `bounds.optimistic_time_s` over L cells
   holding such pairs (first over the motor's whole L range, refined to `CELLS` cells when the motor
-  comes up), which also removes the pairs of cells that cannot meet ``accel_time_s``; on small
+  comes up, from one (rating class, cell) table of the pairs' extremes), which also removes the
+  pairs of cells that cannot meet ``accel_time_s``; on small
   studies (`SMALL_DESIGNS`) no cells: each design of a block gets its own bound instead. A
   multi-speed pair is admissible when its first gear lies in the first-gear window (gradeability and
   launch use first gear) and some gear in the speed window; its time bound is taken gear by gear

@@ -58,7 +58,9 @@ class SumOrderProbe:
 
         Motors are prepared lazily, in chunks of growing size in the walk's motor order, only as far
         as the walk reaches (the set-up over all motors would dominate when the optimum sits among
-        the first designs in objective order): `motor_screen`, the requirement windows (a motor
+        the first designs in objective order): `motor_screen`, with ``accel_time_s`` stated the
+        closed-form time bound (`BlockBounds.closed_form_time`, on chunks of more than
+        `PROBE_CLOSED_FORM_MIN` motors), the requirement windows (a motor
         stays only with an admissible single-speed L or an admissible multi-speed pair, as
         `_multi_ok`; with ``accel_time_s`` stated, the least of the certified time bounds over its
         single-speed window and over the gear hull of its admissible multi-speed pairs must meet

@@ -102,3 +102,26 @@ def test_search_optimum_equals_enumeration(seed, share, tmp_path):
     assert [d.key for d in res.designs] == [d.key for d in enum]
     for got, want in zip(res.designs, enum, strict=True):
         assert abs(got.value - want.value) <= REL_TOL * want.value
+
+
+@pytest.mark.parametrize("merge", [4, 1 << 15])
+def test_queue_takes_the_least_bounds_first(merge, monkeypatch):
+    # reference: a plain sort of every block still waiting (numpy), on random pushes and takes
+    import selector.engine.accel_blocks as ab
+
+    monkeypatch.setattr(ab, "MERGE", merge)
+    rng = np.random.default_rng(5)
+    q, waiting, next_id = ab._Queue(), {}, 0
+    for _ in range(200):
+        n = int(rng.integers(0, 20))
+        b = np.round(rng.uniform(0, 10, n), 1)  # rounded: ties occur
+        q.push(b, np.arange(next_id, next_id + n))
+        waiting.update(zip(range(next_id, next_id + n), b.tolist(), strict=True))
+        next_id += n
+        size, limit = int(rng.integers(1, 15)), float(rng.uniform(2, 12))
+        ids, bounds = q.take(size, limit)
+        want = sorted(v for v in waiting.values() if v <= limit)[:size]
+        assert sorted(bounds.tolist()) == want
+        for i, v in zip(ids.tolist(), bounds.tolist(), strict=True):
+            assert waiting.pop(i) == v
+        assert q.least() == min(waiting.values(), default=np.inf)

@@ -30,7 +30,6 @@ mass end up together and the bounds of deep blocks come close to the designs' ow
 
 from __future__ import annotations
 
-import heapq
 import time
 
 import numpy as np
@@ -38,15 +37,19 @@ import numpy as np
 from selector.engine.accel_block_bounds import block_time_bounds, option_force_profile
 from selector.engine.evaluate import tie_tolerance
 
-LEAF_PAIRS = 128
+LEAF_PAIRS = 256
 """Designs of a block evaluated without further splitting [-]."""
 FIRST_BATCH = 8
-"""Blocks taken from the heap in the first round (later rounds double, up to `MAX_BATCH`) [-]."""
+"""Blocks taken from the queue in the first round (later rounds double, up to `MAX_BATCH`) [-]."""
 MAX_BATCH = 512
-"""Most blocks taken from the heap in one round [-]."""
-PROFILE_MAX = 256
+"""Most blocks taken from the queue in one round [-]."""
+MERGE = 1 << 15
+"""New blocks the queue keeps unsorted before merging them into its sorted array [-]."""
+PROFILE_MAX = 64
 """Nodes of at most this many entries carry the largest of their options' own force profiles at the
 speed nodes (larger ones only min(A, B / v), cheaper to aggregate) [-]."""
+COARSE = 4
+"""Leaf designs are bounded on every COARSE-th speed node first, on all of them if still needed [-]."""
 
 
 def _ranges(lo: np.ndarray, hi: np.ndarray) -> np.ndarray:
@@ -83,6 +86,47 @@ class _Growing:
         if name in cols:
             return cols[name][:self.n]
         raise AttributeError(name)
+
+
+class _Queue:
+    """Blocks waiting to be opened, taken least bound first in batches: a sorted array and a small
+    unsorted buffer of new blocks, merged into the array when it grows past `MERGE` (taking a batch
+    then costs array operations on the batch and the buffer, not one heap operation per block)."""
+
+    def __init__(self):
+        self._b, self._i, self._pos = np.empty(0), np.empty(0, dtype=np.int64), 0
+        self._buf_b, self._buf_i = np.empty(0), np.empty(0, dtype=np.int64)
+
+    def push(self, bounds: np.ndarray, ids: np.ndarray) -> None:
+        """Add blocks ``ids`` with their bounds [s]."""
+        self._buf_b = np.concatenate([self._buf_b, bounds])
+        self._buf_i = np.concatenate([self._buf_i, ids])
+        if self._buf_b.size > MERGE:
+            order = np.argsort(self._buf_b, kind="stable")
+            bb, bi = self._buf_b[order], self._buf_i[order]
+            main_b, main_i = self._b[self._pos:], self._i[self._pos:]
+            at = np.searchsorted(main_b, bb, side="right")
+            self._b, self._i, self._pos = np.insert(main_b, at, bb), np.insert(main_i, at, bi), 0
+            self._buf_b, self._buf_i = np.empty(0), np.empty(0, dtype=np.int64)
+
+    def least(self) -> float:
+        """Least bound of the blocks waiting (inf: none) [s]."""
+        head = self._b[self._pos] if self._pos < self._b.size else np.inf
+        return float(min(head, self._buf_b.min(initial=np.inf)))
+
+    def take(self, size: int, limit: float) -> tuple[np.ndarray, np.ndarray]:
+        """The (up to) ``size`` blocks of least bound among those at most ``limit``: (ids, bounds)."""
+        n_main = min(self._b.size - self._pos, size)  # later array entries cannot be among the least
+        cand_b = np.concatenate([self._b[self._pos:self._pos + n_main], self._buf_b])
+        cand_i = np.concatenate([self._i[self._pos:self._pos + n_main], self._buf_i])
+        order = np.argsort(cand_b, kind="stable")[:size]  # the array's share is a prefix of its slice
+        order = order[cand_b[order] <= limit]
+        from_main = order < n_main
+        self._pos += int(from_main.sum())
+        rest = np.ones(self._buf_b.size, dtype=bool)
+        rest[order[~from_main] - n_main] = False
+        self._buf_b, self._buf_i = self._buf_b[rest], self._buf_i[rest]
+        return cand_i[order], cand_b[order]
 
 
 class _Rows:
@@ -210,15 +254,15 @@ class _Side:
         order = np.lexsort((pos, value, owner))  # ties in part order
         self.perm[where] = pos[order]
 
-    def entry_profiles(self, entries: np.ndarray) -> np.ndarray:
-        """Best-gear wheel force of entries (positions in ``opt``/``col``) at the speed nodes,
-        (entries, speeds) [N]; each entry's is computed once and kept."""
+    def entry_profiles(self, entries: np.ndarray, every: int = 1) -> np.ndarray:
+        """Best-gear wheel force of entries (positions in ``opt``/``col``) at every ``every``-th speed
+        node, (entries, speeds) [N]; each entry's is computed once and kept."""
         new = np.unique(entries[self.entry_rows[entries] < 0])
         if new.size:
             force = option_force_profile(self.parts, self.options[self.opt[new]], self.radius_m[self.col[new]],
                                          self.speeds)
             self.entry_rows[new] = self.entry_profile.append(force)
-        return self.entry_profile.rows[self.entry_rows[entries]]
+        return self.entry_profile.rows[:, ::every][self.entry_rows[entries]]
 
     def envelope(self, nodes: np.ndarray) -> np.ndarray:
         """Upper bounds of the wheel force of every entry of the nodes at the speed nodes, (nodes, speeds)
@@ -247,27 +291,22 @@ def run_accel_blocks(search, tf, tr, front_ok: np.ndarray, rear_ok: np.ndarray):
     rear = front if (tf is tr and np.array_equal(front_ok, rear_ok)) else _Side(p, tr, rear_ok, radius, v.mass_kg,
                                                                                   speeds)
     blocks = _Growing(col=np.int64, f=np.int64, r=np.int64)
-    heap: list[tuple[float, int]] = []
+    queue = _Queue()
     have = np.nonzero((front.root >= 0) & (rear.root >= 0))[0]
-    _push(search, front, rear, blocks, heap, have, front.root[have], rear.root[have], np.zeros(have.size))
+    _push(search, front, rear, blocks, queue, have, front.root[have], rear.root[have], np.zeros(have.size))
     status = "optimal"
     rounds = 0
-    while heap:
+    while queue.least() < np.inf:
         kth = search.kth()
         limit = kth + tie_tolerance(kth)
-        if heap[0][0] > limit:
+        if queue.least() > limit:
             break
         if search.deadline is not None and time.perf_counter() > search.deadline:
             status = "time_limit"
             break
         size = min(MAX_BATCH, FIRST_BATCH * 2 ** min(rounds, 10))
         rounds += 1
-        taken, bounds = [], []
-        while heap and len(taken) < size and heap[0][0] <= limit:
-            b_val, b = heapq.heappop(heap)
-            taken.append(b)
-            bounds.append(b_val)
-        taken, bounds = np.array(taken), np.array(bounds)
+        taken, bounds = queue.take(size, limit)
         search.stats["blocks"] += taken.size
         col, fn, rn = blocks.col[taken], blocks.f[taken], blocks.r[taken]
         nf, nr = front.size(fn), rear.size(rn)
@@ -276,11 +315,11 @@ def run_accel_blocks(search, tf, tr, front_ok: np.ndarray, rear_ok: np.ndarray):
             _evaluate_leaves(search, tf, tr, front, rear, col[leaf], fn[leaf], rn[leaf], bounds[leaf])
         inner = ~leaf
         if inner.any():
-            _split(search, front, rear, blocks, heap, col[inner], fn[inner], rn[inner], bounds[inner])
-    return search._finish(status, heap[0][0] if heap else np.inf)
+            _split(search, front, rear, blocks, queue, col[inner], fn[inner], rn[inner], bounds[inner])
+    return search._finish(status, queue.least())
 
 
-def _split(search, front, rear, blocks, heap, col, fn, rn, parent_bound):
+def _split(search, front, rear, blocks, queue, col, fn, rn, parent_bound):
     """Replace blocks by their children: both nodes halved when both hold several options, else the
     larger one."""
     nf, nr = front.size(fn), rear.size(rn)
@@ -311,11 +350,11 @@ def _split(search, front, rear, blocks, heap, col, fn, rn, parent_bound):
             fs.append(fa[use, a])
             rs.append(ra[use, b])
             pb.append(parent_bound[use])
-    _push(search, front, rear, blocks, heap, np.concatenate(cols), np.concatenate(fs), np.concatenate(rs),
+    _push(search, front, rear, blocks, queue, np.concatenate(cols), np.concatenate(fs), np.concatenate(rs),
           np.concatenate(pb))
 
 
-def _push(search, front, rear, blocks, heap, col, fn, rn, parent_bound):
+def _push(search, front, rear, blocks, queue, col, fn, rn, parent_bound):
     """Bound new blocks (at least the parent's bound) and push those that can hold a design."""
     if col.size == 0:
         return
@@ -338,15 +377,14 @@ def _push(search, front, rear, blocks, heap, col, fn, rn, parent_bound):
     # the pool's count-th best only falls, so a block above it (and the tie tolerance) now is never opened
     kth = search.kth()
     fin = bound <= kth + tie_tolerance(kth) if np.isfinite(kth) else np.isfinite(bound)
-    rows = blocks.append(col=col[fin], f=fn[fin], r=rn[fin])
-    for b_val, b in zip(bound[fin].tolist(), rows.tolist(), strict=True):
-        heapq.heappush(heap, (b_val, b))
+    queue.push(bound[fin], blocks.append(col=col[fin], f=fn[fin], r=rn[fin]))
 
 
 def _evaluate_leaves(search, tf, tr, front, rear, col, fn, rn, bound):
     """Every design of small blocks: cheap necessary conditions, the design's own block bound (its
-    options' force profiles, masses and inertias), then the exact evaluation in order of those bounds,
-    skipping designs whose exact-physics time bracket exceeds the pool's count-th best."""
+    options' force profiles, masses and inertias) on a coarse partition, then on every speed node,
+    then the exact evaluation in order of those bounds, skipping designs whose exact-physics time
+    bracket exceeds the pool's count-th best."""
     nf, nr = front.size(fn), rear.size(rn)
     pairs = nf * nr
     block = np.repeat(np.arange(col.size), pairs)
@@ -355,17 +393,19 @@ def _evaluate_leaves(search, tf, tr, front, rear, col, fn, rn, bound):
     er = rear.perm[rear.nodes.lo[rn][block] + within % nr[block]]
     fi, ri = front.opt[ef], rear.opt[er]
     kk, lb = col[block], bound[block]
-    ok = np.nonzero(search.conditions(tf, fi, tr, ri, kk))[0]
-    if ok.size == 0:
-        return
-    fi, ri, kk, lb, ef, er = fi[ok], ri[ok], kk[ok], lb[ok], ef[ok], er[ok]
-    mf, mr = front.attr["m"][ef], rear.attr["m"][er]
-    own = block_time_bounds(search, kk, front.entry_profiles(ef), mf, mf, front.attr["j"][ef],
-                            rear.entry_profiles(er), mr, mr, rear.attr["j"][er])
-    lb = np.maximum(lb, own)
     kth = search.kth()
-    keep = np.nonzero(lb <= kth + tie_tolerance(kth))[0]
-    if keep.size == 0:
-        return
-    keys = search._keys(tf, fi[keep], tr, ri[keep], kk[keep])
-    search._evaluate(keys, lb[keep], fine=search._point_bounds_staged)
+    for stage in ("conditions", "coarse", "fine"):
+        if stage == "conditions":
+            keep = np.nonzero(search.conditions(tf, fi, tr, ri, kk))[0]
+        else:  # each design's own bound (on every COARSE-th speed node first)
+            every = COARSE if stage == "coarse" else 1
+            mf, mr = front.attr["m"][ef], rear.attr["m"][er]
+            own = block_time_bounds(search, kk, front.entry_profiles(ef, every), mf, mf, front.attr["j"][ef],
+                                    rear.entry_profiles(er, every), mr, mr, rear.attr["j"][er], every=every)
+            lb = np.maximum(lb, own)
+            keep = np.nonzero(lb <= kth + tie_tolerance(kth))[0]
+        if keep.size == 0:
+            return
+        fi, ri, kk, lb, ef, er = fi[keep], ri[keep], kk[keep], lb[keep], ef[keep], er[keep]
+    keys = search._keys(tf, fi, tr, ri, kk)
+    search._evaluate(keys, lb, fine=search._point_bounds_staged)

@@ -206,11 +206,20 @@ class TwoUnitSearch(TwoUnitBounds):
                                              + (fb[fb <= kth + tie_tolerance(kth)],))]
             if chunk.shape[0]:
                 cutoff = kth * (1 + 4 * REL_TOL) if self.objective == "accel_time" and np.isfinite(kth) else None
-                ok, obj = screen(self.parts, chunk, objective=self.objective, accel_cutoff=cutoff)
+                ok, obj = screen(self.parts, chunk, objective=self.objective, accel_cutoff=cutoff,
+                                 keep_best=self._keep_best())
                 self.stats["evaluated"] += chunk.shape[0]
                 self._add(obj[ok], chunk[ok])
             start, size = stop, size * 2
 
+
+    def _keep_best(self) -> int | None:
+        """``keep_best`` of `evaluate.screen` for a chunk: with a cost (mass) objective a design whose
+        time is still undecided after its proved bracket (every design with a gearbox: its bracket has
+        no upper bound) is not integrated when ``count`` designs of the chunk are already proved
+        feasible at a lower value (it cannot be among the ``count`` best). Not with ``per_motor``: the
+        designs that beat it may all belong to other motor pairs."""
+        return self.count if self.objective in ("cost", "mass") and self.per_motor is None else None
 
     def _own_value(self, tf, fi, tr, ri, kk) -> np.ndarray:
         p = self.parts

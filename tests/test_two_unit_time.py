@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from generators import random_study
 
-from selector.engine import evaluate
+from selector.engine import evaluate, two_unit_time
 from selector.engine.two_unit_time import TimeBounds
 from selector.engine.two_units import TwoUnitSearch
 
@@ -41,7 +41,7 @@ def _exact_times(parts, search, tf, tr) -> np.ndarray:
 
 
 @pytest.mark.parametrize("seed", SEEDS)
-def test_time_bounds_never_exceed_the_exact_time(seed, tmp_path):
+def test_time_bounds_never_exceed_the_exact_time(seed, tmp_path, monkeypatch):
     parts, search, tf, tr, order, tb = _setup(seed, tmp_path)
     exact, keys = _exact_times(parts, search, tf, tr)
     nf, nr, nt = exact.shape
@@ -65,6 +65,14 @@ def test_time_bounds_never_exceed_the_exact_time(seed, tmp_path):
     p = tb.first_fast(fi2, kk2, np.zeros(fi2.size, dtype=np.int64), np.full(fi2.size, nr), limit)
     for f, k, q in zip(fi2, kk2, p, strict=True):
         assert not (by_pos[f, :q, k] <= limit).any(), (seed, f, k, q)
+    # open_windows keeps every window that holds a design meeting the limit (windows of 3 positions here)
+    monkeypatch.setattr(two_unit_time, "WINDOW", 3)
+    owner, lo, cnt = tb.open_windows(fi2, kk2, np.zeros(fi2.size, dtype=np.int64), np.full(fi2.size, nr), limit)
+    kept = np.zeros((fi2.size, nr), dtype=bool)
+    for b, a, c in zip(owner, lo, cnt, strict=True):
+        kept[b, a:a + c] = True
+    fast = by_pos[fi2, :, kk2] <= limit  # (blocks, rear positions)
+    assert not (fast & ~kept).any(), seed
 
 
 def test_time_bounds_come_close_to_the_exact_time(tmp_path):

@@ -13,17 +13,18 @@ it is given):
   options' own value): the front option's own envelope, mass and reflected inertia, and for the rear
   the range's extremes (largest A and B, least and largest mass, least reflected inertia; range
   queries on sparse tables, `rmq.RangeMin`). The search asks it when it refines a (front option,
-  tyre) block's cost bound and when it lists a block's designs, for the rear range still open (from
-  the floor of `_floor_memo` to the pool's cut-off): a block whose bound misses the limit holds no
-  feasible design and is dropped (`first_fast`);
+  tyre) block's cost bound, for the rear range still open (from the floor of `_floor_memo` to the
+  pool's cut-off): a block whose bound misses the limit holds no feasible design and is dropped
+  (`first_fast`); and when it lists a block's designs, per window of `WINDOW` rear positions
+  (`open_windows`);
 - per design: both units' own terms (`design_s`), chunk by chunk just before the exact evaluation.
 
 The bounds are taken 1e-6 relative lower (`physics.accel_bounds.MULTI_BOUND_SAFETY`: the run's
 two-unit shift phases are fixed-step Runge-Kutta, so a computed time may lie that far below the exact
-integral the bound is proved against). Narrower rear ranges (skipping the leading rear options that
-are too slow) were tried and cost more than they saved: a range's extremes mix the strongest motor
-of one option with the lightest mass of another, so short ranges rarely miss the limit when their
-options do one by one.
+integral the bound is proved against). Skipping the leading rear options of a block one range at a
+time while refining was tried and cost more than it saved: a range's extremes mix the strongest motor
+of one option with the lightest mass of another, so short ranges often meet the limit when none of
+their options does.
 """
 
 from __future__ import annotations
@@ -35,6 +36,8 @@ from selector.engine.rmq import RangeMin
 from selector.physics.accel_bounds import MULTI_BOUND_SAFETY
 from selector.requirements import REL_TOL
 
+WINDOW = 32
+"""Rear positions per window of a block when its designs are listed [-]."""
 ROWS = 8192
 """Designs or blocks bounded at once [-] (bounds memory: a few dozen arrays of ROWS x 49 floats)."""
 
@@ -115,6 +118,19 @@ class TimeBounds:
         slow = ~meets(self.range_s(np.asarray(fi)[open_], np.asarray(kk)[open_], p[open_], stop[open_]), limit_s)
         p[open_[slow]] = stop[open_[slow]]
         return p
+
+    def open_windows(self, fi, kk, start, count, limit_s: float):
+        """Blocks (front option fi, tyre column kk) with rear positions [start, start + count) split into
+        windows of `WINDOW` positions; returns (block index, start, count) of the windows whose bound
+        meets ``limit_s`` (every design of a window dropped misses it)."""
+        count = np.asarray(count, dtype=np.int64)
+        n_win = -(-count // WINDOW)
+        owner = np.repeat(np.arange(count.size), n_win)
+        k = np.arange(int(n_win.sum())) - np.repeat(np.cumsum(n_win) - n_win, n_win)
+        lo = np.asarray(start, dtype=np.int64)[owner] + k * WINDOW
+        hi = np.minimum(lo + WINDOW, np.asarray(start, dtype=np.int64)[owner] + count[owner])
+        keep = meets(self.range_s(np.asarray(fi)[owner], np.asarray(kk)[owner], lo, hi), limit_s)
+        return owner[keep], lo[keep], (hi - lo)[keep]
 
     def design_s(self, keys) -> np.ndarray:
         """Lower bound of the time of designs ``keys`` (n, 5) from both units' own terms [s]."""

@@ -411,28 +411,30 @@ class TwoUnitSearch(TwoUnitBounds):
 
     def _rear_pairs(self, tf, tr, fb, kb):
         """(block index, rear option) pairs of blocks (front option fb, tyre column kb) that meet the
-        cheap necessary conditions and, for cost and mass, whose value can still enter the pool."""
+        cheap necessary conditions and, for cost and mass, whose value can still enter the pool (and,
+        with time bounds, whose window of rear positions is not proved too slow)."""
         nr = tr.options.shape[0]
         if self.objective in ("cost", "mass"):
             order, sval = self._rear_sorted(tr)
             kth = self.kth()
             base = self._own_value(tf, fb, tr, np.full(fb.size, order[0]), kb) - sval[0]
             first = np.searchsorted(sval, self.floor - base, side="left")  # below the floor: known infeasible
-            if self.time is not None:  # leading rear options proved too slow with the front option
-                first = self.time.first_fast(fb, kb, first, np.full(fb.size, sval.size), self.req.accel_time_s)
             cnt = np.maximum(np.searchsorted(sval, kth + tie_tolerance(kth) - base, side="right") - first, 0)
         else:
             order, first, cnt = np.arange(nr), np.zeros(fb.size, dtype=np.int64), np.full(fb.size, nr)
+        owner = np.arange(fb.size)  # the block of each row (first, cnt)
+        if self.time is not None:  # windows of rear positions proved too slow with the front option: dropped
+            owner, first, cnt = self.time.open_windows(fb, kb, first, cnt, self.req.accel_time_s)
         bis, ris = [], []
         b0 = 0
         csum = np.concatenate([[0], np.cumsum(cnt)])
-        while b0 < fb.size:
+        while b0 < owner.size:
             b1 = max(b0 + 1, int(np.searchsorted(csum, csum[b0] + PAIR_CHUNK, side="right")) - 1)
-            b1 = min(b1, fb.size)
+            b1 = min(b1, owner.size)
             c = cnt[b0:b1]
             total = int(c.sum())
             if total:
-                bi = np.repeat(np.arange(b0, b1), c)
+                bi = owner[np.repeat(np.arange(b0, b1), c)]
                 pos = np.arange(total) - np.repeat(csum[b0:b1] - csum[b0], c) + np.repeat(first[b0:b1], c)
                 ri = order[pos]
                 ok = self.conditions(tf, fb[bi], tr, ri, kb[bi])

@@ -50,9 +50,8 @@ class OptionTable:
         self.fc_top = None if req.top_speed_kmh is None else np.empty((no, nt))
         self.f_acc = None if accel_target is None else np.empty((no, nt))
         step = max(1, CHUNK // max(nt, 1))
-        for s in range(0, no, step):
-            rows = slice(s, min(no, s + step))
-            n = rows.stop - rows.start
+        for rows in _rows_by_gear_count(re.n_gears[rj], step):
+            n = rows.size
             unit = parts.unit(np.repeat(mi[rows], nt), np.repeat(rj[rows], nt))
             radius = np.tile(radius_t, n)
             self.f0[rows] = best_first_gear_force(unit, radius).reshape(n, nt)
@@ -62,6 +61,16 @@ class OptionTable:
             if self.f_acc is not None:
                 v = np.full(n * nt, accel_target)
                 self.f_acc[rows] = best_gear_force_n(unit, radius, v).reshape(n, nt)
+
+
+def _rows_by_gear_count(n_gears: np.ndarray, step: int):
+    """Option positions in chunks of at most ``step``, each chunk of one gear count: the best-gear
+    forces then loop over as many gears as the chunk's units have (a few gearboxes among many
+    single-speed reducers would otherwise make every row pay for the longest gearbox's gears)."""
+    for g in np.unique(n_gears):
+        idx = np.nonzero(n_gears == g)[0]
+        for s in range(0, idx.size, step):
+            yield idx[s:s + step]
 
 
 def best_first_gear_force(unit, radius) -> np.ndarray:

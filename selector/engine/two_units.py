@@ -39,6 +39,7 @@ from selector.engine import bounds as B
 from selector.engine.evaluate import OBJECTIVE_METRIC, designs_of, order_best, screen, tie_tolerance
 from selector.engine.parts import FM, FR, RM, RR, TY, PartTables
 from selector.engine.two_unit_bounds import OptionTable, TwoUnitBounds
+from selector.engine.two_unit_time import TimeBounds, meets
 from selector.requirements import REL_TOL
 from selector.units import kmh_to_mps
 
@@ -85,6 +86,7 @@ class TwoUnitSearch(TwoUnitBounds):
             self.options["front"] = self.options["rear"] = f[keep] if f.size else f
         self.allowed = allowed
         self.floor = -np.inf  # cost (mass) below which every design is known infeasible (`_floor_memo`)
+        self.time: TimeBounds | None = None  # time bounds of a cost (mass) search under accel_time_s
         self.pool_vals = np.empty(0)
         self.pool_keys = np.empty((0, 5), dtype=np.int64)
         self.speeds = [kmh_to_mps(v) for v in (req.top_speed_kmh, req.accel_to_kmh if self.accel else None)
@@ -186,7 +188,9 @@ class TwoUnitSearch(TwoUnitBounds):
         """Evaluate candidate designs exactly in the order of their bound ``key_val``, stopping when done.
 
         ``fine(keys) -> bounds``: an optional tighter bound computed chunk by chunk (designs whose fine
-        bound exceeds the pool's count-th best are skipped without the exact evaluation).
+        bound exceeds the pool's count-th best are skipped without the exact evaluation). With time
+        bounds (`TimeBounds`), designs whose time bound misses ``accel_time_s`` are skipped too, chunk
+        by chunk.
         """
         order = np.lexsort(tuple(keys[:, c] for c in range(4, -1, -1)) + (key_val,))
         keys, key_val = keys[order], key_val[order]
@@ -198,6 +202,10 @@ class TwoUnitSearch(TwoUnitBounds):
             stop = min(keys.shape[0], start + size)
             chunk = keys[start:stop]
             chunk = chunk[key_val[start:stop] <= kth + tie_tolerance(kth)]
+            if self.time is not None and chunk.shape[0]:
+                fast = meets(self.time.design_s(chunk), self.req.accel_time_s)
+                self.stats["time_skipped"] = self.stats.get("time_skipped", 0) + int((~fast).sum())
+                chunk = chunk[fast]
             if fine is not None and chunk.shape[0]:
                 fb = fine(chunk)
                 chunk = chunk[fb <= kth + tie_tolerance(kth)]
@@ -206,11 +214,28 @@ class TwoUnitSearch(TwoUnitBounds):
                                              + (fb[fb <= kth + tie_tolerance(kth)],))]
             if chunk.shape[0]:
                 cutoff = kth * (1 + 4 * REL_TOL) if self.objective == "accel_time" and np.isfinite(kth) else None
-                ok, obj = screen(self.parts, chunk, objective=self.objective, accel_cutoff=cutoff)
+                ok, obj = screen(self.parts, chunk, objective=self.objective, accel_cutoff=cutoff,
+                                 keep_best=self._keep_best())
                 self.stats["evaluated"] += chunk.shape[0]
                 self._add(obj[ok], chunk[ok])
             start, size = stop, size * 2
 
+
+    def _keep_best(self) -> int | None:
+        """``keep_best`` of `evaluate.screen` for a chunk: with a cost (mass) objective a design whose
+        time is still undecided after its proved bracket (every design with a gearbox: its bracket has
+        no upper bound) is not integrated when ``count`` designs of the chunk are already proved
+        feasible at a lower value (it cannot be among the ``count`` best). Not with ``per_motor``: the
+        designs that beat it may all belong to other motor pairs."""
+        return self.count if self.objective in ("cost", "mass") and self.per_motor is None else None
+
+    def _time_bounds(self, tf, tr) -> TimeBounds | None:
+        """`TimeBounds` of a cost (mass) search under ``accel_time_s`` (not with [energy]: the battery's
+        mass would raise the traction limits the bounds take from the parts' masses), else None."""
+        if self.objective not in ("cost", "mass") or not self.accel or self.req.accel_time_s is None or \
+                self.parts.problem.energy is not None:
+            return None
+        return TimeBounds(self, tf, tr, self._rear_sorted(tr)[0])
 
     def _own_value(self, tf, fi, tr, ri, kk) -> np.ndarray:
         p = self.parts
@@ -230,6 +255,7 @@ class TwoUnitSearch(TwoUnitBounds):
         if oi.size == 0:
             return self._finish("optimal", np.inf)
         keys = self._keys(t, oi, t, oi, kk)
+        self.time = self._time_bounds(t, t)
         fine = None
         if self.objective == "accel_time":
             key_val, fine = self._envelope_point_bounds(t, oi, kk), self._point_bounds_staged
@@ -261,6 +287,7 @@ class TwoUnitSearch(TwoUnitBounds):
             front_ok &= tf.lim[fi, kk] * tol >= spd
         fi, kk = fi[front_ok], kk[front_ok]
         rear_ok = self._rear_static(tr)
+        self.time = self._time_bounds(tf, tr)
         if self.objective == "accel_time":
             from selector.engine.accel_blocks import run_accel_blocks
 
@@ -341,25 +368,31 @@ class TwoUnitSearch(TwoUnitBounds):
 
         Rear options are scanned in order of their own value, so a block's bound is its first rear
         option that meets the conditions; a block whose value would exceed the pool's count-th best
-        gets the (proved) value of the first rear option not scanned instead.
+        gets the (proved) value of the first rear option not scanned instead. Rear options whose
+        value lies below the floor (`_floor_memo`) are known infeasible and not scanned, nor, with time
+        bounds (`TimeBounds.first_fast`), the leading rear options proved too slow with the front option.
         """
         order, sval = self._rear_sorted(tr)
         base = self._own_value(tf, fi, tr, np.full(fi.size, order[0]), kk) - sval[0]
         kth = self.kth()
         cap = kth + tie_tolerance(kth) - base  # rear values above cap cannot enter the pool
         out = np.full(fi.size, np.inf)
-        stop_at = np.searchsorted(sval, cap, side="right")  # rear positions [0, stop_at) may
-        open_ = np.nonzero(stop_at > 0)[0]
+        stop_at = np.searchsorted(sval, cap, side="right")  # rear positions [first, stop_at) may
+        first_at = np.searchsorted(sval, self.floor - base, side="left")  # below the floor: infeasible
         beyond = stop_at < sval.size
         out[beyond] = base[beyond] + sval[np.minimum(stop_at, sval.size - 1)[beyond]]
-        start, step = 0, 64
+        if self.time is not None:  # rear positions before first_at are proved too slow with the front option
+            first_at = self.time.first_fast(fi, kk, first_at, stop_at, self.req.accel_time_s)
+            out[first_at >= sval.size] = np.inf
+        open_ = np.nonzero(stop_at > first_at)[0]
+        start, step = int(first_at[open_].min()) if open_.size else 0, 64
         while open_.size and start < sval.size:
             end = min(sval.size, start + step)
             pos = np.arange(start, end)
             for b0 in range(0, open_.size, max(1, PAIR_CHUNK // pos.size)):
                 blk = open_[b0:b0 + max(1, PAIR_CHUNK // pos.size)]
                 ok = self.conditions(tf, fi[blk][:, None], tr, order[pos][None, :], kk[blk][:, None])
-                ok &= pos[None, :] < stop_at[blk][:, None]
+                ok &= (pos[None, :] < stop_at[blk][:, None]) & (pos[None, :] >= first_at[blk][:, None])
                 hit = ok.any(axis=1)
                 first = ok.argmax(axis=1)
                 out[blk[hit]] = base[blk[hit]] + sval[pos[first[hit]]]
@@ -378,7 +411,8 @@ class TwoUnitSearch(TwoUnitBounds):
 
     def _rear_pairs(self, tf, tr, fb, kb):
         """(block index, rear option) pairs of blocks (front option fb, tyre column kb) that meet the
-        cheap necessary conditions and, for cost and mass, whose value can still enter the pool."""
+        cheap necessary conditions and, for cost and mass, whose value can still enter the pool (and,
+        with time bounds, whose window of rear positions is not proved too slow)."""
         nr = tr.options.shape[0]
         if self.objective in ("cost", "mass"):
             order, sval = self._rear_sorted(tr)
@@ -388,16 +422,19 @@ class TwoUnitSearch(TwoUnitBounds):
             cnt = np.maximum(np.searchsorted(sval, kth + tie_tolerance(kth) - base, side="right") - first, 0)
         else:
             order, first, cnt = np.arange(nr), np.zeros(fb.size, dtype=np.int64), np.full(fb.size, nr)
+        owner = np.arange(fb.size)  # the block of each row (first, cnt)
+        if self.time is not None:  # windows of rear positions proved too slow with the front option: dropped
+            owner, first, cnt = self.time.open_windows(fb, kb, first, cnt, self.req.accel_time_s)
         bis, ris = [], []
         b0 = 0
         csum = np.concatenate([[0], np.cumsum(cnt)])
-        while b0 < fb.size:
+        while b0 < owner.size:
             b1 = max(b0 + 1, int(np.searchsorted(csum, csum[b0] + PAIR_CHUNK, side="right")) - 1)
-            b1 = min(b1, fb.size)
+            b1 = min(b1, owner.size)
             c = cnt[b0:b1]
             total = int(c.sum())
             if total:
-                bi = np.repeat(np.arange(b0, b1), c)
+                bi = owner[np.repeat(np.arange(b0, b1), c)]
                 pos = np.arange(total) - np.repeat(csum[b0:b1] - csum[b0], c) + np.repeat(first[b0:b1], c)
                 ri = order[pos]
                 ok = self.conditions(tf, fb[bi], tr, ri, kb[bi])

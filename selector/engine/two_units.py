@@ -19,7 +19,8 @@ tyre load, gearing limits). A block's lower bound:
 - energy: the certified consumption (and battery) bound of `selector.engine.energy` with the
   block's extremes;
 - acceleration time: `selector.engine.accel_blocks`, a best-first search over blocks of a k-d tree
-  of each axle's options, bounded by the certified Riemann bound of `TwoUnitSearch.envelope_bounds`.
+  of each axle's options, bounded by the certified Riemann bound of
+  `selector.engine.accel_block_bounds.block_time_bounds`.
 
 Blocks are evaluated in order of their bound (each rear option exactly through `evaluate.screen`,
 best first) until the next bound exceeds the pool's ``count``-th best value: every design not

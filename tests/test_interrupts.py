@@ -41,7 +41,9 @@ def _alive(pid: int) -> bool:
     return state != "Z"
 
 
-def _start_sweep(tmp_path, workers=2, points=60):
+def _start_sweep(tmp_path, workers=2, points=2000):
+    """A sweep long enough (minutes) that it is still running when the test signals it: a short one
+    can finish first, and a signal during interpreter exit kills the process silently (exit -2)."""
     problem = make_study(tmp_path)
     args = [sys.executable, "-m", "selector", "sweep", str(problem), "--vary", f"vehicle.mass_kg=1800:2600:{points}",
             "--workers", str(workers)]

@@ -36,7 +36,8 @@ from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
 KINDS = ("motors", "reducers", "tyres")
-PROBLEMS = ("parcel_van.toml", "campus_shuttle.toml", "farm_utility.toml", "roadster.toml")
+PROBLEMS = tuple(sorted(p.name for p in (ROOT / "problems").glob("*.toml")))
+"""Every demo problem: single axle, both axles, gearboxes in the catalogues, [energy]."""
 
 HOSTILE_CELLS = [
     "", " ", "nan", "NaN", "inf", "-inf", "-1", "0", "-0", "1e308", "1e309", "1e-320", "9" * 400,
@@ -50,18 +51,19 @@ HOSTILE_TOML = [
     "0.001", "1e6", '"text"', '""', '"Acme\\u001b[2J"', "true", "[]", '["Acme"]', '"Acme"', "{a = 1}",
     "[" * 400 + "]" * 400, "{a = " * 100 + "1" + "}" * 100, '"' + "x" * 3000 + '"', "3.5", "12", "0.5", "2",
     '"both"', '"front"', '"energy"', '"accel_time"', '"mass"', "4000", "-0.0",
+    '"wltc_class3b"', '"us06"', '"nedc "', '"../../etc/passwd"', "false", '["KM-M118", "Acme"]', '[1, 2]',
+    '["' + "x" * 3000 + '"]',
 ]
-PROBLEM_KEYS = {
-    "vehicle": ["mass_kg", "drag_area_m2", "wheelbase_m", "cg_height_m", "rear_axle_share", "driven_axle",
-                "tyre_count", "rolling_radius_factor", "wheel_inertia_kgm2", "frontal_area_m2", "unknown_key"],
-    "environment": ["road_friction", "air_density_kg_m3", "altitude_m", "temperature_c"],
-    "requirements": ["top_speed_kmh", "gradeability_pct", "launch_accel_mps2", "accel_to_kmh", "accel_time_s",
-                     "max_mass_kg", "budget", "speed_limiter_kmh"],
-    "objective": ["minimize"],
-    "procurement": ["distinct", "avoid_suppliers", "max_lead_time_weeks"],
-    "catalogs": ["motors", "reducers", "tyres"],
-    "energy": ["cycle", "range_km"],
-}
+
+
+def _problem_keys() -> dict[str, list[str]]:
+    """Every key of every problem-file table (`selector.io.problem_keys.TABLES`), plus one unknown key each."""
+    from selector.io.problem_keys import TABLES
+
+    return {t: [*keys, "unknown_key"] for t, keys in TABLES.items()}
+
+
+PROBLEM_KEYS = _problem_keys()
 
 
 def _sha(path: Path) -> str:
@@ -259,26 +261,33 @@ PROBLEM_MUTATORS = [(mutate_problem_key, 5), (mutate_problem_syntax, 2)]
 
 def make_case(rng: random.Random, folder: Path) -> dict:
     """Build one case in ``folder``: the mutated study and the command to run."""
-    problem = make_study(folder, rng.choice(PROBLEMS))
+    problem_name = rng.choice(PROBLEMS)
+    problem = make_study(folder, problem_name)
     notes, touched = [], set()
     for _ in range(rng.choice([1, 1, 1, 2, 3])):
         if rng.random() < 0.55:
-            kind = rng.choice(KINDS)
+            maps = sorted((folder / "maps").glob("*.csv"))
             fn = rng.choices([m for m, _ in CATALOGUE_MUTATORS], [w for _, w in CATALOGUE_MUTATORS])[0]
-            target = folder / f"{kind}.csv"
+            if maps and rng.random() < 0.1:  # an efficiency map of a motor (read by [energy] studies)
+                target = rng.choice(maps)
+            else:
+                target = folder / f"{rng.choice(KINDS)}.csv"
         else:
             fn = rng.choices([m for m, _ in PROBLEM_MUTATORS], [w for _, w in PROBLEM_MUTATORS])[0]
             target = problem
         notes.append(f"{target.name}: {fn(rng, target)}")
         touched.add(target.name)
+    notes.insert(0, problem_name)
     r = rng.random()
-    inputs = [problem] + [folder / f"{k}.csv" for k in KINDS]
-    if r < 0.7:
+    inputs = [problem] + [folder / f"{k}.csv" for k in KINDS] + sorted((folder / "maps").glob("*.csv"))
+    if r < 0.65:
         argv = ["check", problem]
-    elif r < 0.85:
+    elif r < 0.8:
         argv = ["solve", problem, "--time-limit", "30"]
+    elif r < 0.85:
+        argv = rng.choice([["explain", problem], ["shortlist", problem, "--count", "3", "--time-limit", "30"]])
     elif r < 0.93:  # an output aimed at an input: must be refused
-        victim = rng.choice(inputs[1:])
+        victim = rng.choice(inputs[1:1 + len(KINDS)])  # a catalogue (a map is an input only while a motor names it)
         argv = ["shortlist", problem, "--count", "2", "--out", victim, "--time-limit", "30"]
     else:
         svg = folder / "problem.svg"

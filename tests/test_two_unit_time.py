@@ -92,3 +92,27 @@ def test_time_bounds_come_close_to_the_exact_time(tmp_path):
         skipped += int((p == nr).sum())
     assert np.median(np.concatenate(ratios)) > 0.5, np.median(np.concatenate(ratios))
     assert skipped > 0
+
+
+@pytest.mark.parametrize("seed", SEEDS[:5])
+def test_coarse_pass_decides_as_the_fine_bound(seed, tmp_path):
+    # With a limit, each bound is first taken on the coarse nodes (a subset of the fine ones); the
+    # limit decisions must be those of the fine bound alone, and every value still a lower bound.
+    parts, search, tf, tr, order, tb = _setup(seed, tmp_path)
+    coarse = search.nodes(two_unit_time.COARSE_NODES)
+    assert np.isin(coarse, search.nodes()).all()  # subset: refining a left Riemann sum of 1/a only adds
+    exact, keys = _exact_times(parts, search, tf, tr)
+    fine = tb.design_s(keys)
+    nf, nr, nt = exact.shape
+    fi, rng_s, kk = (a.ravel() for a in np.meshgrid(np.arange(nf), np.arange(nr), np.arange(nt), indexing="ij"))
+    fine_r = tb.range_s(fi, kk, rng_s, np.full(fi.size, nr))
+    decided = 0
+    for q in (5, 25, 50, 90):
+        limit = float(np.percentile(exact[np.isfinite(exact)], q))
+        two = tb.design_s(keys, limit)
+        assert (two <= exact.ravel() * (1 + 1e-12)).all(), (seed, q)
+        assert np.array_equal(two_unit_time.meets(two, limit), two_unit_time.meets(fine, limit)), (seed, q)
+        two_r = tb.range_s(fi, kk, rng_s, np.full(fi.size, nr), limit)
+        assert np.array_equal(two_unit_time.meets(two_r, limit), two_unit_time.meets(fine_r, limit)), (seed, q)
+        decided += int((two < fine).sum())  # entries the coarse pass decided alone
+    assert decided > 0  # the coarse pass does decide some entries (else it only adds cost)

@@ -204,7 +204,7 @@ class TwoUnitSearch(TwoUnitBounds):
             chunk = keys[start:stop]
             chunk = chunk[key_val[start:stop] <= kth + tie_tolerance(kth)]
             if self.time is not None and chunk.shape[0]:
-                fast = meets(self.time.design_s(chunk), self.req.accel_time_s)
+                fast = meets(self.time.design_s(chunk, self.req.accel_time_s), self.req.accel_time_s)
                 self.stats["time_skipped"] = self.stats.get("time_skipped", 0) + int((~fast).sum())
                 chunk = chunk[fast]
             if fine is not None and chunk.shape[0]:

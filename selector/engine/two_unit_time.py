@@ -39,8 +39,8 @@ from __future__ import annotations
 import numpy as np
 
 from selector.engine.parts import FM, FR, RM, RR, TY
-from selector.engine.two_unit_bounds import BOUND_ROWS, NODES
 from selector.engine.rmq import RangeMin
+from selector.engine.two_unit_bounds import BOUND_ROWS, NODES
 from selector.physics.accel_bounds import MULTI_BOUND_SAFETY
 from selector.requirements import REL_TOL
 

@@ -78,7 +78,10 @@ def envelope_crossing_mps(e, eta, torque_nm, power_w, decline_rad_s, decline_exp
         ex = q * np.exp(2 * u)
         f = c0 - (k + 1) * u - np.log(a0 + ex)
         fp = -(k + 1) - 2 * ex / (a0 + ex)
-        u = np.where(active, u - f / fp, u)
+        u_next = np.where(active, u - f / fp, u)
+        if np.array_equal(u_next, u):  # a fixed point: every further step repeats it (same result, sooner)
+            break
+        u = u_next
     v_d = np.where(active, np.exp(u), np.inf)
     return np.minimum(np.minimum(v_t, v_p), v_d)
 

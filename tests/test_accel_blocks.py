@@ -19,7 +19,7 @@ from generators import random_study
 from selector.engine import evaluate
 from selector.engine import search as engine
 from selector.engine.accel_block_bounds import block_time_bounds
-from selector.engine.accel_blocks import _Side
+from selector.engine.accel_blocks import _over_budget_share, _Side
 from selector.engine.two_units import TwoUnitSearch
 from selector.physics.accel_run import accel_time_s
 from selector.requirements import REL_TOL
@@ -125,3 +125,18 @@ def test_queue_takes_the_least_bounds_first(merge, monkeypatch):
         for i, v in zip(ids.tolist(), bounds.tolist(), strict=True):
             assert waiting.pop(i) == v
         assert q.least() == min(waiting.values(), default=np.inf)
+
+
+@pytest.mark.parametrize("seed, share", CASES[:4])
+def test_over_budget_share_counts_the_pairs(seed, share, tmp_path):
+    # the split weight of cost: the share of (usable front option, usable rear option) pairs whose cost with
+    # the cheapest tyres exceeds the budget, against a direct count over every pair
+    parts, s, tf, tr = _setup(seed, share, tmp_path)
+    f_ok = np.ones((tf.options.shape[0], s.tyres.size), dtype=bool)
+    r_ok = np.ones((tr.options.shape[0], s.tyres.size), dtype=bool)
+    r_ok[::2] = False  # unusable rear options do not count
+    tyres = parts.problem.vehicle.tyre_count * parts.tyres.cost.min()
+    totals = tf.cost[:, None] + tr.cost[None, 1::2] + tyres
+    for budget in np.percentile(totals, [0, 30, 70, 100]) * np.array([0.99, 1.0, 1.0, 1.01]):
+        expect = float((totals > budget * (1 + 4 * REL_TOL)).mean())
+        assert _over_budget_share(parts, tf, tr, f_ok, r_ok, float(budget)) == pytest.approx(expect, abs=1e-12)

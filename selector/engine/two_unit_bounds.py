@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from selector.engine.accel_block_bounds import block_time_bounds
 from selector.engine.evaluate import tie_tolerance
 from selector.engine.parts import FM, FR, RM, RR, TY, PartTables
 from selector.physics.drivetrain import best_gear_force_n, top_gear_limit_mps
@@ -200,47 +201,18 @@ class TwoUnitBounds:
         return self.target * s
 
     def envelope_bounds(self, kk, env_f, mf_min, mf_max, jf_min, env_r, mr_min, mr_max, jr_min,
-                        speeds=None) -> np.ndarray:
-        """Certified acceleration-time bound of blocks of designs at tyre column kk [s].
+                        every: int = 1) -> np.ndarray:
+        """Certified acceleration-time bound of blocks of designs at tyre column kk [s]:
+        `accel_block_bounds.block_time_bounds` (its proof; `MULTI_BOUND_SAFETY` included).
 
-        Each block holds front options whose wheel forces at the nodes are at most ``env_f`` (blocks,
-        NODES + 1), masses in [mf_min, mf_max] and reflected rotor inertia at least ``jf_min``, and
-        likewise rear options. The bound is the left Riemann sum of dv / a_up, a_up the least of the
-        four traction combinations' upper bounds (each axle motor- or traction-limited, see
-        `selector.physics.drivetrain.combination_accels`), each non-increasing in v (see `bounds`).
-        ``speeds``: the nodes [m/s] (default `nodes()`; ``env_f`` and ``env_r`` are given at them).
+        Each block holds front options whose wheel forces at the nodes ``nodes()[::every]`` are at most
+        ``env_f`` (blocks, nodes), masses in [mf_min, mf_max] and reflected rotor inertia at least
+        ``jf_min``, and likewise rear options. The bound is the left Riemann sum of dv / a_up, a_up the
+        least of the four traction combinations' upper bounds (each axle motor- or traction-limited,
+        with the reflected inertias in every term), each non-increasing in v.
         """
-        p = self.parts
-        v = p.problem.vehicle
-        env = p.problem.environment
-        ty = p.tyres
-        k = self.tyres[kk]
-        n = v.tyre_count
-        vv = (self.nodes() if speeds is None else np.asarray(speeds, dtype=float))[None, :]
-        dv = np.diff(vv, axis=1)
-        col = lambda a: np.asarray(a, dtype=float)[:, None]  # noqa: E731
-        m_lo = v.mass_kg + mf_min + mr_min + n * ty.mass_kg[k]
-        m_hi = v.mass_kg + mf_max + mr_max + n * ty.mass_kg[k]
-        crr = ty.crr[k]
-        f_res = col(m_lo) * G_N * col(crr) + p.q_n_s2_m2 * vv * vv
-        dj = jf_min + jr_min + n * v.wheel_inertia_kgm2 / ty.radius_m[k] ** 2
-        m_eff = col(m_lo + dj)
-        mu = env.road_friction
-        hl = v.cg_height_m / v.wheelbase_m
-        half = 0.5 * n * ty.mass_kg[k]
-        w_f_max = G_N * ((1.0 - v.rear_axle_share) * v.mass_kg + half + mf_max)
-        w_r_max = G_N * (v.rear_axle_share * v.mass_kg + half + mr_max)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            mm = (env_f + env_r - f_res) / m_eff
-            tm = (mu * col(w_f_max) + env_r - f_res) / (m_eff + mu * col(m_lo) * hl)
-            den_mt = m_eff - mu * col(m_hi) * hl
-            mt = np.where(den_mt > 0, (env_f + mu * col(w_r_max) - f_res) / den_mt, np.inf)
-            tt = G_N * (mu - col(crr)) - p.q_n_s2_m2 * vv * vv / col(m_hi)
-        a_up = np.minimum(np.minimum(mm, tm), np.minimum(mt, tt))
-        reach = (a_up > 0).all(axis=1)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            t = (dv / a_up[:, :-1]).sum(axis=1)
-        return np.where(reach, t, np.inf)
+        return block_time_bounds(self, kk, env_f, mf_min, mf_max, jf_min, env_r, mr_min, mr_max, jr_min,
+                                 every=every)
 
     def _design_energy_lb(self, keys) -> np.ndarray:
         """Per-design certified lower bound of the energy objective (both units exact, no copper loss)."""

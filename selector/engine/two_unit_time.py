@@ -41,7 +41,6 @@ import numpy as np
 from selector.engine.parts import FM, FR, RM, RR, TY
 from selector.engine.rmq import RangeMin
 from selector.engine.two_unit_bounds import BOUND_ROWS, NODES
-from selector.physics.accel_bounds import MULTI_BOUND_SAFETY
 from selector.requirements import REL_TOL
 
 WINDOW = 32
@@ -76,7 +75,6 @@ class TimeBounds:
         self.column = np.full(p.sizes[2], -1, dtype=np.int64)
         self.column[search.tyres] = np.arange(search.tyres.size)
         self.speeds = search.nodes()
-        self.coarse = search.nodes(COARSE_NODES)
         o = rear_order
         j_free = unit_terms(p, tr.options[o, 0], tr.options[o, 1])["j"]
         # range extremes over rear positions (minima of the negated values are maxima)
@@ -89,10 +87,12 @@ class TimeBounds:
         with np.errstate(divide="ignore"):
             return np.minimum(np.asarray(a_n)[:, None], np.asarray(b_w)[:, None] / speeds[None, :])
 
-    def _bound_at(self, speeds, kk, f: dict, r: dict) -> np.ndarray:
+    def _bound_at(self, every: int, kk, f: dict, r: dict) -> np.ndarray:
+        """`envelope_bounds` on every ``every``-th speed node [s]."""
+        speeds = self.speeds[::every]
         return self.search.envelope_bounds(kk, self._envelope(f["a"], f["b"], speeds), f["m_lo"], f["m_hi"], f["j"],
                                            self._envelope(r["a"], r["b"], speeds), r["m_lo"], r["m_hi"], r["j"],
-                                           speeds=speeds) * (1.0 - MULTI_BOUND_SAFETY)
+                                           every=every)
 
     def _bound(self, kk, front: dict, rear: dict, limit_s: float | None) -> np.ndarray:
         """`envelope_bounds` of entries at tyre columns kk, each side a dict a [N], b [W], m_lo, m_hi [kg],
@@ -106,12 +106,12 @@ class TimeBounds:
             f = {k: np.asarray(v)[sl] for k, v in front.items()}
             r = {k: np.asarray(v)[sl] for k, v in rear.items()}
             if limit_s is None:  # no limit to decide against: the fine bound of every entry
-                out[sl] = self._bound_at(self.speeds, kk[sl], f, r)
+                out[sl] = self._bound_at(1, kk[sl], f, r)
                 continue
-            b = self._bound_at(self.coarse, kk[sl], f, r)
+            b = self._bound_at(NODES // COARSE_NODES, kk[sl], f, r)
             fine = np.nonzero(meets(b, limit_s))[0]
             if fine.size:
-                b[fine] = self._bound_at(self.speeds, kk[sl][fine], {k: v[fine] for k, v in f.items()},
+                b[fine] = self._bound_at(1, kk[sl][fine], {k: v[fine] for k, v in f.items()},
                                          {k: v[fine] for k, v in r.items()})
             out[sl] = b
         return out

@@ -16,7 +16,7 @@ import numpy as np
 import pytest
 from generators import random_study
 
-from selector.engine import evaluate
+from selector.engine import accel_block_bounds, evaluate
 from selector.engine import search as engine
 from selector.engine.accel_block_bounds import block_time_bounds
 from selector.engine.accel_blocks import _over_budget_share, _Side
@@ -60,7 +60,7 @@ def _exact_times(parts, s, tf, tr) -> np.ndarray:
 
 
 @pytest.mark.parametrize("seed, share", CASES)
-def test_block_bound_never_exceeds_the_exact_time_of_its_designs(seed, share, tmp_path):
+def test_block_bound_never_exceeds_the_exact_time_of_its_designs(seed, share, tmp_path, monkeypatch):
     parts, s, tf, tr = _setup(seed, share, tmp_path)
     radius = parts.tyres.radius_m[s.tyres]
     speeds = s.nodes()
@@ -87,6 +87,11 @@ def test_block_bound_never_exceeds_the_exact_time_of_its_designs(seed, share, tm
     single = (front.size(fn) == 1) & (rear.size(rn) == 1) & np.isfinite(best)
     assert np.isfinite(bound).any() and single.any()
     assert np.max(bound[single] / best[single]) > 0.98
+    # computed in chunks of BOUND_ROWS rows: the same values as one call over every block
+    monkeypatch.setattr(accel_block_bounds, "BOUND_ROWS", 7)
+    chunked = block_time_bounds(s, col, front.envelope(fn), fnd.m_lo[fn], fnd.m_hi[fn], fnd.j[fn],
+                                rear.envelope(rn), rnd.m_lo[rn], rnd.m_hi[rn], rnd.j[rn])
+    assert fn.size > 7 and np.array_equal(chunked, bound)
 
 
 @pytest.mark.parametrize("seed, share", CASES[::3])

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from selector.engine.accel_block_bounds import block_time_bounds
+from selector.engine.accel_block_bounds import BOUND_ROWS, block_time_bounds
 from selector.engine.evaluate import tie_tolerance
 from selector.engine.parts import FM, FR, RM, RR, TY, PartTables
 from selector.physics.drivetrain import best_gear_force_n, top_gear_limit_mps
@@ -23,11 +23,6 @@ NODES = 48
 """Speed nodes of the certified acceleration bound [-]."""
 CHUNK = 1 << 18
 """(option, tyre) entries whose per-tyre quantities are computed at once [-] (bounds memory)."""
-BOUND_ROWS = 2048
-"""Rows (designs or blocks) of one `TwoUnitBounds.envelope_bounds` call [-]: its dozen temporaries of
-rows x (NODES + 1) floats then stay within the processor's cache (about 0.8 MB each). Measured on the
-vineyard AWD frontier's per-design bounds (400,000 designs, idle 2-core machine): about 1.05 us per
-design at 1,024-2,048 rows, 1.3-4.2 us at 8,192 (page faults of large temporaries, memory traffic)."""
 
 
 class OptionTable:

@@ -38,15 +38,19 @@ from __future__ import annotations
 
 import numpy as np
 
+from selector.engine.accel_block_bounds import BOUND_ROWS
 from selector.engine.parts import FM, FR, RM, RR, TY
 from selector.engine.rmq import RangeMin
-from selector.engine.two_unit_bounds import BOUND_ROWS, NODES
+from selector.engine.two_unit_bounds import NODES
 from selector.requirements import REL_TOL
 
 WINDOW = 32
 """Rear positions per window of a block when its designs are listed [-]."""
 COARSE_NODES = 8
 """Speed nodes of the first, coarse pass of every bound (a divisor of `two_unit_bounds.NODES`) [-]."""
+assert NODES % COARSE_NODES == 0, "the coarse nodes must be a subset of the fine ones"
+COARSE_EVERY = NODES // COARSE_NODES
+"""The coarse pass takes every COARSE_EVERY-th speed node [-]."""
 
 
 def unit_terms(parts, motors, reducers) -> dict:
@@ -96,10 +100,9 @@ class TimeBounds:
 
     def _bound(self, kk, front: dict, rear: dict, limit_s: float | None) -> np.ndarray:
         """`envelope_bounds` of entries at tyre columns kk, each side a dict a [N], b [W], m_lo, m_hi [kg],
-        j [kg], in chunks of `two_unit_bounds.BOUND_ROWS`, taken `MULTI_BOUND_SAFETY` lower [s]: the
+        j [kg], in chunks of `accel_block_bounds.BOUND_ROWS`, taken `MULTI_BOUND_SAFETY` lower [s]: the
         coarse bound where it already misses ``limit_s`` [s], else (and with ``limit_s`` None) the fine
         one (module docstring)."""
-        assert NODES % COARSE_NODES == 0  # the coarse nodes must be a subset of the fine ones
         out = np.empty(np.size(kk))
         for s in range(0, out.size, BOUND_ROWS):
             sl = slice(s, s + BOUND_ROWS)
@@ -108,7 +111,7 @@ class TimeBounds:
             if limit_s is None:  # no limit to decide against: the fine bound of every entry
                 out[sl] = self._bound_at(1, kk[sl], f, r)
                 continue
-            b = self._bound_at(NODES // COARSE_NODES, kk[sl], f, r)
+            b = self._bound_at(COARSE_EVERY, kk[sl], f, r)
             fine = np.nonzero(meets(b, limit_s))[0]
             if fine.size:
                 b[fine] = self._bound_at(1, kk[sl][fine], {k: v[fine] for k, v in f.items()},

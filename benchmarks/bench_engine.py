@@ -8,7 +8,9 @@ One run prints these tables (invented data throughout: `selector.synthetic`, the
    size's time per combination, marked ``~``), the ratios engine/baseline and enumeration/engine,
    the peak traced memory of one engine run (tracemalloc, numpy buffers included) and the process's
    peak RSS, the engine's block and MILP counts, and whether all optima agree (value and parts).
-   Engine and baseline runs alternate (E B E B ...), and each time is the median of ``--repeats``.
+   Engine and baseline runs alternate (E B E B ...), and each time is the median of at least
+   ``--repeats`` runs; searches of milliseconds repeat until `MIN_TOTAL_S` of measured time (at most
+   `MAX_RUNS` runs), so that a median is not the noise of three runs (the column ``runs``).
 2. ``frontier``: the exact cost-vs-time frontier at 1e6 (engine: `studies.frontier.trace`) against
    an epsilon-constraint frontier built on the baseline search (min cost under a time cap, then min
    time under that cost, cap just below it, repeat), same points required.
@@ -55,6 +57,10 @@ SIZES = {  # approx combinations: (motors, reducers, tyres)
 }
 OBJECTIVES = ("cost", "mass", "accel_time")
 TABLES = ("sizes", "frontier", "many", "two", "demo", "startup")
+MIN_TOTAL_S = 1.0
+"""Measured time (engine + baseline) below which interleaved runs continue past ``--repeats`` [s]."""
+MAX_RUNS = 41
+"""... up to this many runs of each [-]."""
 TWO_UNIT = {"1e9": (100, 30, 111), "1e11": (300, 100, 111)}
 """Two-unit sizes: (motors, reducers, tyres); combinations (motors x reducers)^2 x tyres (1.0e9 and
 1.0e11), with a tyre catalogue of the demo's size (a thousand tyre sizes would multiply the per
@@ -102,7 +108,11 @@ def _engine_vs_baseline(parts, objective, repeats, enum, baseline=True):
 
     t_e, t_b = [], []
     res = base = None
-    for _ in range(repeats):
+    runs = 0
+    # at least `repeats` interleaved runs; short searches (milliseconds) repeat until MIN_TOTAL_S of
+    # measured time or MAX_RUNS, so that the median is not the noise of three runs
+    while runs < repeats or (runs < MAX_RUNS and sum(t_e) + sum(t_b) < MIN_TOTAL_S):
+        runs += 1
         t0 = time.perf_counter()
         res = search(parts, objective)
         t_e.append(time.perf_counter() - t0)
@@ -112,7 +122,7 @@ def _engine_vs_baseline(parts, objective, repeats, enum, baseline=True):
             t_b.append(time.perf_counter() - t0)
     _, mem = _traced(lambda: search(parts, objective))
     eng_best = res.designs[0] if res.designs else None
-    out = {"engine_s": statistics.median(t_e), "engine_all": t_e, "status": res.status,
+    out = {"engine_s": statistics.median(t_e), "engine_all": t_e, "runs": runs, "status": res.status,
            "blocks": res.stats.get("blocks", 0), "milp": res.stats.get("milp", 0),
            "probe": res.stats.get("probe", 0), "mem_mib": mem,
            "value": None if eng_best is None else eng_best.value,
@@ -342,10 +352,11 @@ def _f(x, fmt="8.2f", none="-"):
 
 
 def table_sizes(args):
-    print(f"\n## sizes (synthetic single-axle studies, seed {args.seed}; medians of {args.repeats}, engine and "
+    print(f"\n## sizes (synthetic single-axle studies, seed {args.seed}; medians of at least {args.repeats} "
+          f"runs (runs: how many; short searches repeat for {MIN_TOTAL_S:.0f} s, at most {MAX_RUNS}), engine and "
           f"baseline interleaved; load {_load():.1f})")
     head = (f"{'size':>5} {'objective':>10} {'engine s':>8} {'base s':>8} {'enum s':>9} {'eng/base':>8} "
-            f"{'enum/eng':>8} {'eng MiB':>7} {'RSS MiB':>7} {'blocks':>6} {'milp':>4} same")
+            f"{'enum/eng':>8} {'eng MiB':>7} {'RSS MiB':>7} {'blocks':>6} {'milp':>4} {'runs':>4} same")
     print(head)
     print("-" * len(head))
     rate = {}
@@ -371,8 +382,8 @@ def table_sizes(args):
             ratio = None if enum_t is None else enum_t / r["engine_s"]
             print(f"{label:>5} {objective:>10} {r['engine_s']:8.3f} {r['baseline_s']:8.3f} {enum_s} "
                   f"{r['engine_s'] / r['baseline_s']:8.2f} {_f(ratio, '8.1f')} {r['mem_mib']:7.0f} "
-                  f"{r['rss_mib']:7.0f} {r['blocks']:6d} {r['milp']:4d} {'yes' if r['same'] else 'NO'}",
-                  flush=True)
+                  f"{r['rss_mib']:7.0f} {r['blocks']:6d} {r['milp']:4d} {r['runs']:4d} "
+                  f"{'yes' if r['same'] else 'NO'}", flush=True)
     print("(~ = extrapolated from the largest enumerated size's time per combination; eng MiB = peak traced "
           "memory of one engine search; RSS = peak of the whole measuring process; blocks = motors "
           "evaluated exactly, 0 when the sum-order probe proved the optimum)")
@@ -392,7 +403,7 @@ def table_frontier(args):
 def table_many(args):
     print(f"\n## many parts (near-variant motor rows with duplicates and dominated copies; load {_load():.1f})")
     head = (f"{'rows x reducers x tyres':>26} {'objective':>10} {'combos':>9} {'engine s':>8} {'base s':>8} "
-            f"{'eng/base':>8} {'eng MiB':>7} {'RSS MiB':>7} {'blocks':>6} {'milp':>4} same")
+            f"{'eng/base':>8} {'eng MiB':>7} {'RSS MiB':>7} {'blocks':>6} {'milp':>4} {'runs':>4} same")
     print(head)
     print("-" * len(head))
     cases = [(10_000, 100, 50)] + ([] if args.quick else [(100_000, 100, 50)])
@@ -409,7 +420,7 @@ def table_many(args):
             eb = r.get("baseline_s")
             print(f"{name:>26} {objective:>10} {r['combinations']:9.1e} {r['engine_s']:8.2f} {_f(eb)} "
                   f"{_f(None if eb is None else r['engine_s'] / eb)} {r['mem_mib']:7.0f} {r['rss_mib']:7.0f} "
-                  f"{r['blocks']:6d} {r['milp']:4d} {'yes' if r['same'] else 'NO'}", flush=True)
+                  f"{r['blocks']:6d} {r['milp']:4d} {r['runs']:4d} {'yes' if r['same'] else 'NO'}", flush=True)
 
 
 def table_two(args):

@@ -4,18 +4,16 @@ objectives evaluated in increasing objective order until a proof or a hand-over 
 
 from __future__ import annotations
 
-import bisect
-import heapq
-
 import numpy as np
 
 from selector.engine import bounds as B
 from selector.engine.evaluate import order_best, screen, tie_tolerance
 from selector.engine.pair_table import multi_in_windows
+from selector.engine.sum_order import SumOrderWalk
 from selector.requirements import REL_TOL
 
 PROBE_FIRST_BATCH = 512
-"""Designs the sum-order probe pops for its first exact screen (later batches double) [-]: one
+"""Designs the sum-order probe takes for its first exact screen (later batches double) [-]: one
 `evaluate.screen` call costs about as much as a few hundred designs in it (measured)."""
 PROBE_COARSE_NODES = 8
 """Speed nodes of the probe's first, coarse time screen of motors (`bounds.optimistic_time_s`) [-]."""
@@ -38,22 +36,23 @@ class SumOrderProbe:
     """The probe of `SingleAxleSearch` (a mixin: it reads and updates the search's own state)."""
 
     # ------------------------------------------------------------------ the sum-order probe
-    # Long on purpose: one heap walk whose state (heap, prepared motor chunks, batch, pool, proof value) every
-    # step reads and updates; split into methods it would pass a dozen locals back and forth.
+    # Long on purpose: one walk whose state (prepared motor chunks and their windows, batch, pool, proof
+    # value) every step reads and updates; split into methods it would pass a dozen locals back and forth.
     def sum_order_probe(self) -> str:
         """Cost and mass objectives (no [energy]): evaluate designs in increasing objective order.
 
         The objective is a sum of a motor value and a pair value (reducer + tyre_count x tyre), so a
-        heap over (motor rank, pair rank) into both lists sorted by value yields designs in
-        increasing objective order (from (a, b) come (a, b + 1) and, when b = 0, (a' , 0) with a'
-        the next motor rank still in play). Popped designs whose pair is outside the motor's
-        requirement windows or whose reducer is not rated for the motor fail a necessary condition;
-        the rest go to `evaluate.screen` in batches. When the next value exceeds the ``count``-th
-        best feasible value beyond the tie tolerance (or the heap is empty), every design not
+        walk over (motor rank, pair rank) into both lists sorted by value takes designs in bands of
+        increasing objective value (`sum_order.SumOrderWalk`, vectorised; the band of the first
+        batch holds about `PROBE_FIRST_BATCH` designs, later ones double). Taken designs whose pair
+        is outside the motor's requirement windows or whose reducer is not rated for the motor fail a
+        necessary condition; the rest go to `evaluate.screen` one band at a time. When the least
+        value not taken (`SumOrderWalk.next_value`, from the actual sums) exceeds the ``count``-th
+        best feasible value beyond the tie tolerance (or no design is left), every design not
         evaluated is provably worse or infeasible: a complete proof and the pool is set ("proved").
         Otherwise, after `PROBE_DESIGNS` designs, it hands over to the block search ("handover",
         keeping its best design when ``count`` is 1, where a design seen twice does no harm). At the
-        deadline it stops ("time_limit") with the heap's least value as the proved bound of every
+        deadline it stops ("time_limit") with the least value not taken as the proved bound of every
         design not evaluated (``self.probe_bound``).
 
         Motors are prepared lazily, in chunks of growing size in the walk's motor order, only as far
@@ -83,8 +82,8 @@ class SumOrderProbe:
         m_ord = np.lexsort((cand, c_val))
         cand = cand[m_ord]
         p_ord = np.argsort(p_val, kind="stable")  # pairs are stored in (reducer, tyre) order: ties keep it
-        m_sorted, p_sorted = c_val[m_ord].tolist(), p_val[p_ord].tolist()
-        n_m, n_p = cand.size, len(p_sorted)
+        m_sorted, p_sorted = c_val[m_ord], p_val[p_ord]
+        n_m = cand.size
         valid = np.zeros(n_m, dtype=bool)
         lo_r = np.full(n_m, np.inf)
         hi_r = np.full(n_m, -np.inf)
@@ -157,57 +156,27 @@ class SumOrderProbe:
             lo_r[a0 + sub], hi_r[a0 + sub] = lo, hi
             win[:, a0 + sub] = l1, h1, w_top[0], w_top[1], w_acc[0], w_acc[1]
 
-        valid_ranks: list = []  # the valid ranks prepared so far, increasing
-        valid_ranks_upto = [0]
-
-        def next_valid(a):
-            while a < n_m:
-                while state["prepared"] <= a:
-                    prepare()
-                    valid_ranks.extend(np.flatnonzero(valid[valid_ranks_upto[0]:state["prepared"]])
-                                       + valid_ranks_upto[0])
-                    valid_ranks_upto[0] = state["prepared"]
-                i = bisect.bisect_left(valid_ranks, a)
-                if i < len(valid_ranks):
-                    return int(valid_ranks[i])
-                a = state["prepared"]
-            return None
-
-        a_first = next_valid(0)
-        if a_first is None:
-            return "proved"
-        heap = [(m_sorted[a_first] + p_sorted[0], a_first, 0)]
+        walk = SumOrderWalk(m_sorted, p_sorted, valid, lambda: prepare() or state["prepared"])
         found_v, found_k = [], []
         kth = np.inf
-        evaluated = 0
         batch = PROBE_FIRST_BATCH
         outcome = "proved"
-        while heap:
-            if heap[0][0] > kth + tie_tolerance(kth):
+        while True:
+            nxt = walk.next_value()
+            if nxt == np.inf or not nxt <= kth + tie_tolerance(kth):  # no design left, or every one is worse
                 break
-            if evaluated >= PROBE_DESIGNS:
+            if walk.n_taken >= PROBE_DESIGNS:
                 if self.count == 1 and found_v:
                     self._add(np.concatenate(found_v), np.concatenate(found_k))
-                self.stats["probe"] = evaluated
+                self.stats["probe"] = walk.n_taken
                 return "handover"
-            if evaluated and self.expired():  # (after one batch: some progress in any case)
+            if walk.n_taken and self.expired():  # (after one batch: some progress in any case)
                 outcome = "time_limit"
-                self.probe_bound = heap[0][0]
+                self.probe_bound = nxt
                 break
-            a_l, b_l = [], []
-            limit = kth + tie_tolerance(kth)
-            while heap and len(a_l) < batch and heap[0][0] <= limit:
-                _, a, b = heapq.heappop(heap)
-                a_l.append(a)
-                b_l.append(b)
-                if b + 1 < n_p:
-                    heapq.heappush(heap, (m_sorted[a] + p_sorted[b + 1], a, b + 1))
-                if b == 0:
-                    a2 = next_valid(a + 1)
-                    if a2 is not None:
-                        heapq.heappush(heap, (m_sorted[a2] + p_sorted[0], a2, 0))
-            ranks = np.asarray(a_l, dtype=np.int64)
-            pair = p_ord[np.asarray(b_l, dtype=np.int64)]
+            ranks, b_r = walk.take(batch, kth + tie_tolerance(kth))
+            batch = min(2 * batch, 8192)
+            pair = p_ord[b_r]
             motor = cand[ranks]
             ok = self.use.compatible[motor, p.j[pair]]
             single = ~p.multi[pair]
@@ -216,8 +185,6 @@ class SumOrderProbe:
             if not single.all():  # a multi-speed pair: first gear in the first-gear window, a gear in each speed one
                 w = win[:, ranks]
                 ok &= single | multi_in_windows(p.gear_l[pair], w[0], w[1], (w[2], w[3]), (w[4], w[5]), rows=True)
-            evaluated += len(a_l)
-            batch = min(2 * batch, 8192)
             if not ok.any():
                 continue
             keys = parts.single_keys(motor[ok], p.j[pair[ok]], p.k[pair[ok]])
@@ -232,6 +199,6 @@ class SumOrderProbe:
                     kth = float(fv[order_best(fv, fk, self.count)[-1]])
         if found_v:
             self._add(np.concatenate(found_v), np.concatenate(found_k))
-        self.stats["probe"] = evaluated
+        self.stats["probe"] = walk.n_taken
         self.stats["probe_motors"] = state["prepared"]
         return outcome

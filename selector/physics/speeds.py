@@ -29,7 +29,10 @@ from selector.physics.drivetrain import (
 from selector.units import G_N
 
 NEWTON_STEPS = 40
-"""Newton iterations for the decline-branch crossing (converges to machine precision far sooner) [-]."""
+"""Newton iterations for the decline-branch crossing, at most (converges to machine precision far sooner) [-]."""
+NEWTON_ULPS = 4
+"""The decline-branch Newton iteration stops when no step exceeds this many units in the last place of
+ln v (the relative error of v is then a few 1e-16) [-]."""
 BISECT_STEPS = 80
 """Bisection halvings for the two-unit crossing (2^-80 of the bracket: below floating-point resolution) [-]."""
 
@@ -79,9 +82,12 @@ def envelope_crossing_mps(e, eta, torque_nm, power_w, decline_rad_s, decline_exp
         f = c0 - (k + 1) * u - np.log(a0 + ex)
         fp = -(k + 1) - 2 * ex / (a0 + ex)
         u_next = np.where(active, u - f / fp, u)
-        if np.array_equal(u_next, u):  # a fixed point: every further step repeats it (same result, sooner)
-            break
+        step = np.abs(u_next - u)
         u = u_next
+        # converged to rounding: quadratic convergence takes a 1e-8 step to ~1e-16, and at that
+        # level Newton can alternate between neighbouring floats for ever
+        if not (step > NEWTON_ULPS * np.finfo(float).eps * np.maximum(np.abs(u), 1.0)).any():
+            break
     v_d = np.where(active, np.exp(u), np.inf)
     return np.minimum(np.minimum(v_t, v_p), v_d)
 

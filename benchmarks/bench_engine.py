@@ -11,17 +11,20 @@ One run prints these tables (invented data throughout: `selector.synthetic`, the
    Engine and baseline runs alternate (E B E B ...), and each time is the median of at least
    ``--repeats`` runs; searches of milliseconds repeat until `MIN_TOTAL_S` of measured time (at most
    `MAX_RUNS` runs), so that a median is not the noise of three runs (the column ``runs``).
-2. ``frontier``: the exact cost-vs-time frontier at 1e6 (engine: `studies.frontier.trace`) against
+2. ``seeds``: the sizes table's studies up to 1e6 drawn with seeds 1..``--seeds``: the median, best
+   and worst engine/baseline ratio over the seeds and how many seeds have the engine behind (a
+   single seed's study can favour either search).
+3. ``frontier``: the exact cost-vs-time frontier at 1e6 (engine: `studies.frontier.trace`) against
    an epsilon-constraint frontier built on the baseline search (min cost under a time cap, then min
    time under that cost, cap just below it, repeat), same points required.
-3. ``many``: many parts: 10,000 near-variant motor rows x 100 reducers x 50 tyres, and 100,000
+4. ``many``: many parts: 10,000 near-variant motor rows x 100 reducers x 50 tyres, and 100,000
    motor rows (`synthetic.variant_study`); engine and baseline.
-4. ``two``: two-unit synthetic studies of about 1e9 and 1e11 combinations (engine only; enumeration
+5. ``two``: two-unit synthetic studies of about 1e9 and 1e11 combinations (engine only; enumeration
    extrapolated from a timed sample of front options).
-5. ``demo``: the demo problems (problems/*.toml), their all-wheel-drive variants (about 1e9
+6. ``demo``: the demo problems (problems/*.toml), their all-wheel-drive variants (about 1e9
    combinations) and an energy variant of the parcel van (demo size, about 3e5 combinations) against
    enumeration.
-6. ``startup``: median wall time of ``python -c "import selector.cli"`` and of ``selector solve`` on
+7. ``startup``: median wall time of ``python -c "import selector.cli"`` and of ``selector solve`` on
    a demo problem (fresh processes).
 
 Each case runs in a fresh subprocess (its own peak RSS). The load average is printed with each
@@ -56,11 +59,13 @@ SIZES = {  # approx combinations: (motors, reducers, tyres)
     "1e8": (1000, 100, 1000),
 }
 OBJECTIVES = ("cost", "mass", "accel_time")
-TABLES = ("sizes", "frontier", "many", "two", "demo", "startup")
+TABLES = ("sizes", "seeds", "frontier", "many", "two", "demo", "startup")
 MIN_TOTAL_S = 1.0
 """Measured time (engine + baseline) below which interleaved runs continue past ``--repeats`` [s]."""
 MAX_RUNS = 41
 """... up to this many runs of each [-]."""
+SEEDS_MAX = 1e6
+"""Largest size of the ``seeds`` table (above, one study per size and objective takes seconds) [-]."""
 TWO_UNIT = {"1e9": (100, 30, 111), "1e11": (300, 100, 111)}
 """Two-unit sizes: (motors, reducers, tyres); combinations (motors x reducers)^2 x tyres (1.0e9 and
 1.0e11), with a tyre catalogue of the demo's size (a thousand tyre sizes would multiply the per
@@ -188,8 +193,12 @@ def child_two(spec):
                                                                    max_mass_kg=2500))
     parts = PartTables.build(problem, catalogs)
     t0 = time.perf_counter()
-    res, mem = _traced(lambda: search(parts, spec["objective"], time_limit_s=spec["time_limit_s"]))
+    res = search(parts, spec["objective"], time_limit_s=spec["time_limit_s"])
     eng = time.perf_counter() - t0
+    # memory from a second, traced run on freshly built part tables (no table the first run built
+    # is reused; tracing slows the search, so it is not the timed one)
+    _, mem = _traced(lambda: search(PartTables.build(problem, catalogs), spec["objective"],
+                                    time_limit_s=spec["time_limit_s"]))
     search_rss = _rss_mib()  # before the enumeration sample, which holds designs of its own
     # enumeration rate: every rear option and tyre for a few front options, in chunks of rear options
     rear = unit_options(parts, "rear")
@@ -389,6 +398,30 @@ def table_sizes(args):
           "evaluated exactly, 0 when the sum-order probe proved the optimum)")
 
 
+def table_seeds(args):
+    print(f"\n## seeds (the sizes table's studies up to {min(args.max, SEEDS_MAX):.0e} drawn with seeds "
+          f"1..{args.seeds}: engine/baseline per seed, each a median as in the sizes table; load {_load():.1f})")
+    head = f"{'size':>5} {'objective':>10} {'median':>7} {'best':>6} {'worst':>6} {'seeds > 1':>9} all same"
+    print(head)
+    print("-" * len(head))
+    for label, sizes in SIZES.items():
+        if float(label) > min(args.max, SEEDS_MAX):
+            break
+        for objective in args.objectives:
+            ratios, same = [], True
+            for seed in range(1, args.seeds + 1):
+                r = _run("size", {"sizes": sizes, "objective": objective, "seed": seed, "repeats": args.repeats,
+                                  "enum": False})
+                if "error" in r:
+                    print(f"{label:>5} {objective:>10} seed {seed} error: {r['error']}")
+                    continue
+                ratios.append(r["engine_s"] / r["baseline_s"])
+                same &= r["same"]
+            if ratios:
+                print(f"{label:>5} {objective:>10} {statistics.median(ratios):7.2f} {min(ratios):6.2f} "
+                      f"{max(ratios):6.2f} {sum(x > 1 for x in ratios):9d} {'yes' if same else 'NO'}", flush=True)
+
+
 def table_frontier(args):
     print(f"\n## frontier at 1e6 (cost vs accel_time; load {_load():.1f})")
     r = _run("frontier", {"seed": args.seed, "repeats": 1})
@@ -441,8 +474,10 @@ def table_two(args):
             print(f"{label:>5} {objective:>10} {r['combinations']:9.1e} {r['engine_s']:8.2f} {r['status']:>10} "
                   f"{'~' + format(r['enum_est_s'], '.0f'):>11} {r['enum_est_s'] / r['engine_s']:8.0f} "
                   f"{r['mem_mib']:7.0f} {r['search_rss_mib']:7.0f} {r['blocks']:7d}", flush=True)
-    print("(enum est = time per combination of exhaustive screening over a sample of front options, times the "
-          "combinations; RSS = peak of the measuring process at the end of the search, before that sample)")
+    print("(engine s: an untraced search; eng MiB: peak traced memory of a second, traced search with part "
+          "tables built anew inside it; enum est = "
+          "time per combination of exhaustive screening over a sample of front options, times the "
+          "combinations; RSS = peak of the measuring process after both searches, before that sample)")
 
 
 def table_demo(args):
@@ -498,6 +533,7 @@ def main(argv=None):
     ap.add_argument("--repeats", type=int, default=3)
     ap.add_argument("--two-limit", type=float, default=120.0, help="time limit of two-unit searches [s]")
     ap.add_argument("--seed", type=int, default=1)
+    ap.add_argument("--seeds", type=int, default=8, help="seeds of the seeds table (1..N)")
     ap.add_argument("--child")
     ap.add_argument("--spec")
     args = ap.parse_args(argv)

@@ -71,7 +71,7 @@ def test_block_cut_short_inside_its_chunks(monkeypatch):
         return self.stats["evaluated"] > 0
 
     monkeypatch.setattr(SingleAxleSearch, "expired", expired)
-    monkeypatch.setattr("selector.engine.best_first.FIRST_CHUNK_TIME", 4)
+    monkeypatch.setattr("selector.engine.best_first_block.FIRST_CHUNK_TIME", 4)
     parts = _parts("accel_time", sizes=(30, 25, 25), seed=2)
     res = engine.search(parts, "accel_time", time_limit_s=3600.0)
     _check_stopped(parts, res, "accel_time")

@@ -161,10 +161,12 @@ def screen(parts: PartTables, keys, rj=None, tk=None, objective: str = "cost", n
     load first (`_cheap_checks`), then speeds, grade, launch and the speed-dependent tyre checks,
     then the acceleration run (`_accel_stage`: proved time brackets first, see there). With the
     accel_time objective, ``accel_cutoff`` [s] drops designs whose lower bound exceeds it (they
-    cannot improve on a known design; reported as not feasible here). With ``keep_best`` = N (cost
-    and mass objectives), a design still undecided on ``accel_time_s`` whose objective exceeds the
-    N-th best design already proved feasible in this call (beyond the tie tolerance) is not
-    integrated: it cannot be among the N best (reported as not feasible here).
+    cannot improve on a known design; reported as not feasible here). With ``keep_best`` = N, a
+    design that cannot be among the N best of this call is not integrated (reported as not feasible
+    here): under cost and mass, one still undecided on ``accel_time_s`` whose objective exceeds the
+    N-th best design already proved feasible in this call (beyond the tie tolerance); under
+    accel_time, one whose proved lower time bound exceeds the N-th least proved upper bound of the
+    designs proved feasible in this call (beyond the tie tolerance).
     Returns (feasible[n], objective[n]) with the objective +inf where infeasible.
     """
     keys = as_keys(parts, keys, rj, tk)
@@ -284,6 +286,14 @@ def _accel_stage(parts: PartTables, keys, m: dict, sub_ok, objective: str, accel
             vals = m[OBJECTIVE_METRIC[objective]][idx]
             cut = float(np.partition(vals[sure], keep_best - 1)[keep_best - 1])
             exact &= ~(vals > cut + tie_tolerance(cut))
+    if objective == "accel_time" and keep_best is not None:
+        # the keep_best-th least proved upper bound among designs proved feasible (every other check
+        # passed, upper bound within accel_time_s): a design whose lower bound exceeds it beyond the
+        # tie tolerance is not among the keep_best fastest
+        proved = exact & np.isfinite(hi) & (True if limit is None else hi <= limit)
+        if int(proved.sum()) >= keep_best:
+            cut = float(np.partition(hi[proved], keep_best - 1)[keep_best - 1])
+            exact &= ~(lo > cut * (1 + 2 * REL_TOL))
     rows = np.nonzero(exact)[0]
     if rows.size:
         from selector.physics.drivetrain import take_axles, take_fields

@@ -18,7 +18,8 @@ import time
 
 import numpy as np
 
-from selector.engine.best_first import CELLS, SingleAxleSearch
+from selector.engine.best_first import SingleAxleSearch
+from selector.engine.best_first_bounds import CELLS
 from selector.engine.evaluate import order_best, screen
 from selector.engine.parts import PartTables
 from selector.requirements import REL_TOL

@@ -48,8 +48,12 @@ from selector.units import G_N
 
 GL_NODES = 20
 """Gauss-Legendre nodes per smooth piece [-]."""
+PIECE_ELEMENTS = 1 << 18
+"""Speeds `_integrate_pieces` evaluates in one `state_accel` call, at most (pieces grouped) [-]."""
 CROSS_SAMPLES = 17
 """Samples per piece when looking for a change of the limiting traction combination [-]."""
+CROSS_ROWS = 20000
+"""Brackets of traction-combination changes refined in one `refine_first_true` call, at most [-]."""
 BISECT_STEPS = 42
 """Resolution of a combination change: 2^-42 of the sample spacing [-]."""
 REFINE_POINTS = 15
@@ -192,47 +196,64 @@ def refine_first_true(pred, a, b, bits: int, points: int = REFINE_POINTS):
     return a, b
 
 
-def _crossings(st: _State, lo, hi, v_end):
-    """First and last change of the limiting combination on each piece [lo, hi] (v_end where none)."""
-    col = lambda a: a[:, None]  # noqa: E731
-    frac = np.linspace(0.0, 1.0, CROSS_SAMPLES)[None, :]
-    vs = col(lo) + (col(hi) - col(lo)) * frac
-    acc, lab = state_accel(st, vs, labels=True)
-    change = (lab[:, 1:] != lab[:, :-1]) & np.isfinite(acc[:, 1:]) & np.isfinite(acc[:, :-1])
-    has = change.any(axis=1) & (hi > lo)
-    first = np.argmax(change, axis=1)
-    last = change.shape[1] - 1 - np.argmax(change[:, ::-1], axis=1)
-    out = []
-    for idx, use in ((first, has), (last, has & (last != first))):
-        rows = np.nonzero(use)[0]
-        cross = v_end.copy()
-        if rows.size:
-            sub = _take_state(st, rows)
-            lab_a = lab[rows, idx[rows]][:, None]
-            a, b = refine_first_true(lambda v, sub=sub, lab_a=lab_a: state_accel(sub, v, labels=True)[1] != lab_a,
-                                     vs[rows, idx[rows]], vs[rows, idx[rows] + 1], BISECT_STEPS)
-            cross[rows] = 0.5 * (a + b)
-        out.append(cross)
-    return out
+def _crossings(st: _State, base, v_end):
+    """First and last change of the limiting combination on each piece [base[:, i], base[:, i + 1]]:
+    a list of (n,) arrays, two per piece (v_end where none). All pieces are sampled in one
+    `state_accel` call and every bracket is refined in one `refine_first_true` call (each row's
+    result is what one piece at a time gives)."""
+    n, n_pieces = base.shape[0], base.shape[1] - 1
+    lo, hi = base[:, :-1], base[:, 1:]
+    frac = np.linspace(0.0, 1.0, CROSS_SAMPLES)
+    vs = lo[:, :, None] + (hi - lo)[:, :, None] * frac[None, None, :]
+    acc, lab = state_accel(st, vs.reshape(n, -1), labels=True)
+    acc = acc.reshape(n, n_pieces, CROSS_SAMPLES)
+    lab = lab.reshape(n, n_pieces, CROSS_SAMPLES)
+    change = (lab[:, :, 1:] != lab[:, :, :-1]) & np.isfinite(acc[:, :, 1:]) & np.isfinite(acc[:, :, :-1])
+    has = change.any(axis=2) & (hi > lo)
+    first = np.argmax(change, axis=2)
+    last = change.shape[2] - 1 - np.argmax(change[:, :, ::-1], axis=2)
+    cross = np.repeat(v_end[:, None, None], n_pieces, axis=1).repeat(2, axis=2)  # (n, pieces, first | last)
+    rows, pieces, which, idx = [], [], [], []
+    for w, (at, use) in enumerate(((first, has), (last, has & (last != first)))):
+        r, q = np.nonzero(use)
+        rows.append(r)
+        pieces.append(q)
+        which.append(np.full(r.size, w))
+        idx.append(at[r, q])
+    rows, pieces, which, idx = (np.concatenate(x) for x in (rows, pieces, which, idx))
+    for c0 in range(0, rows.size, CROSS_ROWS):  # (brackets of several pieces and rows in one call)
+        r, q, w, k = (x[c0:c0 + CROSS_ROWS] for x in (rows, pieces, which, idx))
+        sub = _take_state(st, r)
+        lab_a = lab[r, q, k][:, None]
+        a, b = refine_first_true(lambda v, sub=sub, lab_a=lab_a: state_accel(sub, v, labels=True)[1] != lab_a,
+                                 vs[r, q, k], vs[r, q, k + 1], BISECT_STEPS)
+        cross[r, q, w] = 0.5 * (a + b)
+    return [cross[:, q, w] for q in range(n_pieces) for w in (0, 1)]
 
 
 def _integrate_pieces(st: _State, edges):
-    """sum over pieces of Gauss-Legendre integrals of 1/a; and where a <= 0 at a node (n,) [s]."""
+    """sum over pieces of Gauss-Legendre integrals of 1/a; and where a <= 0 at a node (n,) [s].
+
+    The nodes of several pieces go to `state_accel` in one call (at most `PIECE_ELEMENTS` speeds per
+    call); each piece's sum over its nodes and the running sum over pieces are taken in the same order
+    as one piece at a time, so the result does not depend on how pieces are grouped."""
     gl_x, gl_w = gauss_legendre(GL_NODES)
-    col = lambda a: a[:, None]  # noqa: E731
-    tot = np.zeros(edges.shape[0])
-    bad_any = np.zeros(edges.shape[0], dtype=bool)
-    for i in range(edges.shape[1] - 1):
-        a, b = edges[:, i], edges[:, i + 1]
+    n, n_pieces = edges.shape[0], edges.shape[1] - 1
+    tot = np.zeros(n)
+    bad_any = np.zeros(n, dtype=bool)
+    per_call = max(1, PIECE_ELEMENTS // max(n * GL_NODES, 1))
+    for p0 in range(0, n_pieces, per_call):
+        p1 = min(n_pieces, p0 + per_call)
+        a, b = edges[:, p0:p1], edges[:, p0 + 1:p1 + 1]
         half = 0.5 * (b - a)
-        v = col(0.5 * (a + b)) + col(half) * gl_x[None, :]
-        acc = state_accel(st, v)
+        v = (0.5 * (a + b))[:, :, None] + half[:, :, None] * gl_x[None, None, :]
+        acc = state_accel(st, v.reshape(n, -1)).reshape(n, p1 - p0, GL_NODES)
         width_pos = half > 0
-        bad = width_pos & (acc <= 0).any(axis=1)
+        bad_any |= (width_pos & (acc <= 0).any(axis=2)).any(axis=1)
         with np.errstate(divide="ignore", invalid="ignore"):
-            contrib = half * (gl_w[None, :] / acc).sum(axis=1)
-        tot += np.where(width_pos, contrib, 0.0)
-        bad_any |= bad
+            contrib = half * (gl_w[None, None, :] / acc).sum(axis=2)
+        for i in range(p1 - p0):
+            tot += np.where(width_pos[:, i], contrib[:, i], 0.0)
     return tot, bad_any
 
 
@@ -256,9 +277,7 @@ def integrate_segment(st: _State, v_lo, v_hi):
     ok = a_end > 0
     base = [v_lo] + _unit_breaks(st, v_lo, v_hi) + [v_hi]
     base = np.sort(np.stack(base, axis=1), axis=1)
-    edges = [base[:, i] for i in range(base.shape[1])]
-    for i in range(base.shape[1] - 1):
-        edges += _crossings(st, base[:, i], base[:, i + 1], v_hi)
+    edges = [base[:, i] for i in range(base.shape[1])] + _crossings(st, base, v_hi)
     br = np.sort(np.stack(edges, axis=1), axis=1)
     # grading towards v_hi where 1/a has a pole just beyond it
     length = v_hi - v_lo

@@ -95,3 +95,15 @@ def test_sweep_vary_out_of_range_is_bad_input(tmp_path):
     proc = run_cli("sweep", problem, "--vary", "vehicle.mass_kg=1000:1e12:2", "--workers", "1")
     assert_clean_answer(proc, codes=(2,))
     assert "--vary vehicle.mass_kg: value 1e+12 [kg] must be between 0 and 1e+06" in proc.stderr
+
+
+def test_vanishing_target_speed_warns_and_solves(tmp_path):
+    # found by the fuzz run of 2026-12-03: accel_to_kmh = 9.6e-105 gave 1.3e-105 s in the search and
+    # 0.0 s in the time-domain re-check, whose speed tolerance (1e-12 m/s) cannot resolve such a run;
+    # the re-check now accepts times within 1e-9 s, and the value is flagged as unusual
+    problem = make_study(tmp_path)
+    set_key(problem, "requirements", "accel_to_kmh", "9.583255851067448e-105")
+    proc = run_cli("solve", problem)
+    assert_clean_answer(proc, codes=(0,))
+    assert "accel_to_kmh = 9.583255851067448e-105; outside 1..400 [km/h], unusual" in proc.stderr
+    assert "optimal" in proc.stdout

@@ -174,10 +174,10 @@ RANGES: dict[str, dict[str, tuple]] = {
         "air_density_kg_m3": ((0.01, 3.0), (0.3, 1.6)),
     },
     "requirements": {
-        "top_speed_kmh": ((0.0, 1000.0), (0.0, 400.0)),
+        "top_speed_kmh": ((0.0, 1000.0), (1.0, 400.0)),
         "gradeability_pct": ((0.0, 500.0), (0.0, 100.0)),
         "launch_accel_mps2": ((0.0, 100.0), (0.0, 15.0)),
-        "accel_to_kmh": ((0.0, 1000.0), (0.0, 400.0)),
+        "accel_to_kmh": ((0.0, 1000.0), (1.0, 400.0)),
         "accel_time_s": ((0.0, 3600.0), None),
         "max_mass_kg": ((0.0, 1e6), None),
         "budget": ((0.0, 1e12), None),

@@ -86,6 +86,8 @@ class SingleAxleSearch(BlockBounds, BlockEvaluation, SumOrderProbe, MilpRound):
         self.metric = OBJECTIVE_METRIC[objective]
         self.accel = req.accel_to_kmh is not None and (req.accel_time_s is not None or objective == "accel_time")
         self.target = kmh_to_mps(req.accel_to_kmh) if self.accel else None
+        self.time_limit_s = np.inf if req.accel_time_s is None else req.accel_time_s * (1 + 2 * REL_TOL)
+        """accel_time_s with the pass tolerance (inf when not stated): a bound above it rules a design out [s]."""
         self.use = B.cached_usable(parts, allowed)
         reducers = allowed.get("reducers")
         self.pairs = pair_table(parts, self.use, np.arange(parts.sizes[1]) if reducers is None else reducers)
@@ -341,7 +343,7 @@ class SingleAxleSearch(BlockBounds, BlockEvaluation, SumOrderProbe, MilpRound):
         batch = np.array(batch)
         t_cell, t_multi = self.refine(batch)
         self.stats["refined"] += batch.size
-        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        limit = self.time_limit_s
         for row, p2 in enumerate(batch):
             cl = t_cell[row]
             refined[p2] = True

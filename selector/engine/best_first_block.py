@@ -29,7 +29,7 @@ class BlockEvaluation:
         cand = self.affordable(i, self.candidates(pos))
         if cand.size == 0:
             return None
-        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        limit = self.time_limit_s
         if self.accel and self.small:
             # a small study: each design's own certified bound (no cells; see `SMALL_DESIGNS`); designs
             # above accel_time_s or, under the accel_time objective, the pool's count-th best cannot count
@@ -105,7 +105,7 @@ class BlockEvaluation:
         mot, cand, key_val = mot[order], cand[order], key_val[order]
         found_v, found_k = [], []
         start, size = 0, FIRST_CHUNK if self.objective != "accel_time" else FIRST_CHUNK_TIME
-        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        limit = self.time_limit_s
         while start < cand.size:
             nxt = key_val[start]
             kth = self.kth()

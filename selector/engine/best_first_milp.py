@@ -9,7 +9,6 @@ import time
 import numpy as np
 
 from selector.engine.evaluate import tie_tolerance
-from selector.requirements import REL_TOL
 
 
 class MilpRound:
@@ -33,7 +32,7 @@ class MilpRound:
         hi = np.full(n_all, -np.inf)
         tmin = np.full(n_all, np.inf)
         h_lo, h_hi = self.hull(open_pos)
-        limit = np.inf if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        limit = self.time_limit_s
         edges = self.cell_edges()
         for n, pos in enumerate(open_pos):
             a, b = h_lo[n], h_hi[n]

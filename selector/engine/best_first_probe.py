@@ -10,7 +10,6 @@ from selector.engine import bounds as B
 from selector.engine.evaluate import order_best, screen, tie_tolerance
 from selector.engine.pair_table import multi_in_windows
 from selector.engine.sum_order import SumOrderWalk
-from selector.requirements import REL_TOL
 
 PROBE_FIRST_BATCH = 512
 """Designs the sum-order probe takes for its first exact screen (later batches double) [-]: one
@@ -91,9 +90,11 @@ class SumOrderProbe:
         seen: dict[bytes, list] = {}
         state = {"prepared": 0, "chunk": PROBE_CHUNK_FIRST}
         mp = p.multi_pairs
-        limit_t = None if self.req.accel_time_s is None else self.req.accel_time_s * (1 + 2 * REL_TOL)
+        limit_t = self.time_limit_s if np.isfinite(self.time_limit_s) else None
 
-        def prepare():
+        def prepare() -> int:
+            """Prepare the next chunk of motors (filling ``valid`` and their windows); returns how many
+            motors are prepared so far (`SumOrderWalk`'s ``prepare``)."""
             a0 = state["prepared"]
             a1 = min(n_m, a0 + state["chunk"])
             state["prepared"], state["chunk"] = a1, min(2 * state["chunk"], PROBE_CHUNK_MAX)
@@ -105,7 +106,7 @@ class SumOrderProbe:
                 ok[k[~(self.closed_form_time(cand[a0:a1][k]) <= limit_t)]] = False
             sub = np.nonzero(ok)[0]
             if sub.size == 0:  # (valid stays False)
-                return
+                return a1
             mi, ok = cand[a0:a1][sub], ok[sub]
             (ls, hs), (l1, h1), w_top, w_acc = self.windows(mi, split=True)
             lo, hi = np.maximum(ls, l1), np.minimum(hs, h1)
@@ -155,8 +156,9 @@ class SumOrderProbe:
             valid[a0 + sub] = ok
             lo_r[a0 + sub], hi_r[a0 + sub] = lo, hi
             win[:, a0 + sub] = l1, h1, w_top[0], w_top[1], w_acc[0], w_acc[1]
+            return a1
 
-        walk = SumOrderWalk(m_sorted, p_sorted, valid, lambda: prepare() or state["prepared"])
+        walk = SumOrderWalk(m_sorted, p_sorted, valid, prepare)
         found_v, found_k = [], []
         kth = np.inf
         batch = PROBE_FIRST_BATCH

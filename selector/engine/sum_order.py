@@ -46,6 +46,8 @@ class SumOrderWalk:
         self.prepared = 0
         self.taken = np.zeros(self.m.size, dtype=np.int64)
         self.n_taken = 0
+        self._state = None
+        """(least value, its motor rank, live ranks) once settled (`_settled`); None after a change."""
 
     def _live(self) -> np.ndarray:
         """Prepared valid motor ranks with designs not taken yet."""
@@ -61,21 +63,28 @@ class SumOrderWalk:
         i = int(np.argmin(vals))
         return float(vals[i]), int(idx[i]), idx
 
+    def _settled(self):
+        """`_next` after preparing every motor whose least value m[a] + p[0] could come first; kept until
+        the next `take` or preparation changes it."""
+        if self._state is None:
+            while True:
+                state = self._next()
+                if self.prepared < self.m.size and self.m[self.prepared] + self.p[0] <= state[0]:
+                    self.prepared = self._prepare()
+                    continue
+                self._state = state
+                break
+        return self._state
+
     def next_value(self) -> float:
         """Least value of a valid design not taken yet (inf when none): a lower bound of every such design."""
         if self.p.size == 0:
             return np.inf
-        while True:
-            v, _, _ = self._next()
-            if self.prepared < self.m.size and self.m[self.prepared] + self.p[0] <= v:
-                self.prepared = self._prepare()
-                continue
-            return v
+        return self._settled()[0]
 
-    def _band(self, batch: int, limit: float, v0: float):
-        """(threshold T, per-motor counts, live ranks, rank of v0's motor) of a band of about ``batch``
-        designs of the prepared motors, T <= ``limit``."""
-        _, a0, idx = self._next()
+    def _band(self, batch: int, limit: float, v0: float, a0: int, idx: np.ndarray):
+        """(threshold T, per-motor counts of the live ranks ``idx``) of a band of about ``batch`` designs
+        of the prepared motors, T <= ``limit``; ``a0`` is the rank of the motor of the least value ``v0``."""
         m, start = self.m[idx], self.taken[idx]
 
         def counts(t):
@@ -100,7 +109,7 @@ class SumOrderWalk:
                     if n <= most:
                         break
             t = hi
-        return t, c, idx, a0
+        return t, c
 
     def take(self, batch: int, limit: float) -> tuple[np.ndarray, np.ndarray]:
         """The designs of the next value band: (motor ranks, pair ranks), about ``batch`` of them
@@ -113,12 +122,15 @@ class SumOrderWalk:
         v0 = self.next_value()
         if v0 == np.inf or not v0 <= limit:  # (no design left, even with an infinite limit)
             return empty, empty
+        _, a0, idx = self._settled()
         while True:
-            t, c, idx, a0 = self._band(batch, limit, v0)
+            t, c = self._band(batch, limit, v0, a0, idx)
             if self.prepared < self.m.size and self.m[self.prepared] + self.p[0] <= t:
                 self.prepared = self._prepare()
+                idx = self._live()  # (v0 and its motor stay: the new motors' values are above v0)
                 continue
             break
+        self._state = None
         start = self.taken[idx]
         c[idx == a0] = np.maximum(c[idx == a0], 1)  # progress whatever the rounding of t - m
         total = int(c.sum())

@@ -154,14 +154,14 @@ def explain(study: Study, step_pct: float = STEP_PCT, near_miss_pct: float = NEA
 
 
 def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None) -> FrontierResult:
-    """The exact frontier of cost (or vehicle mass) against the 0-to-accel_to_kmh time.
+    """The exact frontier of cost (or vehicle mass, or energy per km) against the 0-to-accel_to_kmh time.
 
     Parameters
     ----------
     study : Study
         The loaded study; its problem needs ``requirements.accel_to_kmh`` [km/h].
     axis : str
-        "cost" or "mass" [-].
+        "cost", "mass" or "energy" (the energy per km at the battery; studies with [energy]) [-].
     time_limit_s : float, optional
         Wall-clock limit of each search [s]; reaching it is an error (the frontier would not be exact).
 

@@ -230,7 +230,7 @@ class ExplainResult(Result):
 
 
 class FrontierResult(Result):
-    """The exact cost (or mass) versus acceleration-time frontier (`selector.frontier`).
+    """The exact cost (or mass, or energy per km) versus acceleration-time frontier (`selector.frontier`).
 
     ``status``: "optimal" (the frontier is exact and has points) or "infeasible" (no design meets
     the other requirements and reaches accel_to_kmh). ``designs``: the points, by the axis value.
@@ -272,7 +272,9 @@ class SweepResult(Result):
 
     def to_frame(self) -> pd.DataFrame:
         """One row per grid point: the swept keys (units in the names), status, objective, the parts,
-        ``cost`` [currency], ``mass_kg`` [kg], ``accel_time_s`` [s] and ``reason`` (infeasible points)."""
+        ``cost`` [currency], ``mass_kg`` [kg], ``accel_time_s`` [s], in energy studies
+        ``energy_wh_per_km`` [Wh/km], ``battery_kwh`` [kWh], ``battery_mass_kg`` [kg] and ``battery_cost``
+        [currency], and ``reason`` (infeasible points)."""
         import pandas as pd
 
         cols = list(self._data["columns"])

@@ -153,3 +153,38 @@ def test_cli_table_and_bad_axis(tmp_path, capsys):
     assert run(["frontier", str(s.problem_path), "--axis", "price"]) == 2
     assert run(["frontier", str(s.problem_path), "--plot", str(tmp_path / "x.jpg")]) == 2
     assert "not a known output format" in capsys.readouterr().err
+
+
+# ----------------------------------------------------------------------------- energy axis
+
+@pytest.mark.parametrize("seed", (203, 216, 217, 224))
+def test_energy_frontier_equals_enumeration(seed, tmp_path):
+    # energy per km at the battery against time; random energy studies (UDDS, with or without a range)
+    s = random_study(seed, tmp_path / str(seed), sizes=SIZES, objective="accel_time", energy=True)
+    allowed = {k: np.arange(n) for k, n in zip(("motors", "reducers", "tyres"), s.parts.sizes, strict=True)}
+    pts, stats = trace(Study(s.parts, allowed), "energy")
+    expected = pareto_by_enumeration(s, "energy_wh_per_km")
+    assert len(pts) == len(expected) >= 2
+    for (e, t, d), (ee, te) in zip(pts, expected, strict=True):
+        assert math.isclose(e, ee, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)
+        m = evaluate.evaluate(s.parts, [d.key])
+        assert math.isclose(m["energy_wh_per_km"][0], e, rel_tol=2 * REL)
+    assert stats["searches"] >= len(pts) + 1  # one search per point (more where designs tie), the last infeasible
+
+
+def test_energy_axis_json_and_cli(tmp_path, capsys):
+    s = random_study(216, tmp_path / "s", sizes=SIZES, objective="cost", energy=True)
+    assert run(["frontier", str(s.problem_path), "--axis", "energy", "--format", "json"]) == 0
+    res = json.loads(capsys.readouterr().out)
+    assert (res["axis"], res["axis_key"], res["axis_unit"]) == ("energy", "energy_wh_per_km", "Wh/km")
+    assert res["limit"] == {"name": None, "required": None}
+    pts = res["points"]
+    energies = [q["energy_wh_per_km"] for q in pts]
+    assert len(pts) >= 2 and energies == sorted(energies)
+    assert [q["accel_time_s"] for q in pts] == sorted((q["accel_time_s"] for q in pts), reverse=True)
+    assert all(q["energy"]["wh_per_km"] == q["energy_wh_per_km"] for q in pts)
+    assert res["chosen"]["energy_wh_per_km"] is not None
+    # a study without [energy] has no energy axis: a clear input error naming what to add
+    assert run(["frontier", "problems/roadster.toml", "--axis", "energy"]) == 2
+    err = capsys.readouterr().err
+    assert "needs an [energy] table" in err and "Traceback" not in err

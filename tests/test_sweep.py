@@ -70,6 +70,54 @@ def test_cli_bad_sweeps_exit_2(argv, message, capsys):
     assert message in err and "Traceback" not in err
 
 
+ENERGY_VAN = "problems/delivery_van_energy.toml"
+
+
+@pytest.mark.parametrize("problem, argv, message", [
+    (VAN, ["--vary", "energy.range_km=100:200:2"], "has no [energy] table"),
+    (ENERGY_VAN, ["--vary", "energy.range_km=0:200:2"], "must be > 0"),
+    (ENERGY_VAN, ["--vary", "energy.rang_km=100:200:2"], "Did you mean 'energy.range_km'"),
+])
+def test_cli_bad_energy_sweeps_exit_2(problem, argv, message, capsys):
+    assert run(["sweep", problem, *argv]) == 2
+    err = capsys.readouterr().err
+    assert message in err and "Traceback" not in err
+
+
+def test_battery_keys_without_a_range_are_refused():
+    import dataclasses
+
+    problem = load_study(ENERGY_VAN)[0]
+    no_range = dataclasses.replace(problem, energy=dataclasses.replace(problem.energy, range_km=None),
+                                   requirements=dataclasses.replace(problem.requirements, range_km=None))
+    with pytest.raises(InputError, match="no range_km, so no battery is sized"):
+        apply_overrides(no_range, {"energy.cost_per_kwh": 100.0})
+
+
+def test_range_sweep_points_equal_enumeration_and_size_the_battery(tmp_path):
+    # every point's optimum equals the exhaustive optimum of the problem with that range, and its battery
+    # holds the range: usable energy = range x consumption at the vehicle's mass with it (mass spiral)
+    s = random_study(216, tmp_path / "s", sizes=((3, 6), (3, 5), (3, 5)), objective="cost", energy=True)
+    assert s.problem.energy.range_km is not None
+    for range_km in (60.0, 150.0, 300.0):
+        row = sweep_point(s.problem, {"energy.range_km": range_km}, s.catalogs)
+        prob = apply_overrides(s.problem, {"energy.range_km": range_km})
+        assert prob.requirements.range_km == prob.energy.range_km == range_km
+        parts = PartTables.build(prob, s.catalogs)
+        best = evaluate.enumerate_designs(parts, "cost", 1)
+        if not best:
+            assert row["status"] == "infeasible"
+            continue
+        assert row["status"] == "optimal"
+        assert row["objective"] == pytest.approx(best[0][0], rel=1e-9)
+        e = prob.energy
+        usable_kwh = row["battery_kwh"] * e.usable_fraction
+        assert usable_kwh == pytest.approx(range_km * row["energy_wh_per_km"] / 1000.0, rel=1e-6)
+        assert row["battery_mass_kg"] == pytest.approx(row["battery_kwh"] * 1000.0 / e.specific_energy_wh_per_kg,
+                                                       rel=1e-9)
+        assert row["battery_cost"] == pytest.approx(row["battery_kwh"] * e.cost_per_kwh, rel=1e-9)
+
+
 def test_accel_time_sweep_needs_accel_to_kmh(capsys):
     assert run(["sweep", "problems/campus_shuttle.toml", "--vary", "requirements.accel_time_s=5:6:2"]) == 2
     assert "accel_to_kmh" in capsys.readouterr().err

@@ -1,18 +1,19 @@
-"""``selector frontier PROBLEM [--axis cost|mass] [--plot FILE] [--format table|json]``."""
+"""``selector frontier PROBLEM [--axis cost|mass|energy] [--plot FILE] [--format table|json]``."""
 
 from __future__ import annotations
 
 from selector.cli.args import add_common
 from selector.records import CAUTION, design_name, fmt, table
 
-HELP = "exact cost (or mass) versus acceleration-time frontier"
+HELP = "exact cost (or mass, or energy per km) versus acceleration-time frontier"
 
 
 def setup(p):
     """Arguments of the frontier command."""
     add_common(p)
-    p.add_argument("--axis", choices=("cost", "mass"), default="cost",
-                   help="trade the acceleration time against cost (default) or vehicle mass")
+    p.add_argument("--axis", choices=("cost", "mass", "energy"), default="cost",
+                   help="trade the acceleration time against cost (default), vehicle mass, or the energy per km "
+                        "at the battery (studies with [energy])")
     p.add_argument("--plot", metavar="FILE", help="write the frontier chart (.png, .svg or .pdf)")
 
 

@@ -79,6 +79,10 @@ def handle(args) -> int:
     return 0
 
 
+ENERGY_SHOWN = {"energy_wh_per_km": "Wh/km", "battery_kwh": "battery [kWh]"}
+"""Energy columns of the terminal table (column: heading); the CSV and JSON rows have them all."""
+
+
 def render(res: dict) -> str:
     """Terminal rendering of a sweep result."""
     keys = [q["key"] for q in res["parameters"]]
@@ -93,6 +97,7 @@ def render(res: dict) -> str:
     lines.append("")
     rows = []
     two = "front_motor" in res["columns"]
+    energy = [c for c in ENERGY_SHOWN if c in res["columns"]]
     for row in res["rows"]:
         motor, reducer = row["motor"], row["reducer"]
         if two and row.get("front_motor") is not None:
@@ -100,12 +105,14 @@ def render(res: dict) -> str:
             reducer = f"front {row['front_reducer']}, rear {row['rear_reducer']}"
         rows.append([fmt(row[k]) for k in keys] + [row["status"], fmt(row["objective"]), motor or "-",
                                                    reducer or "-", row["tyre"] or "-", fmt(row["cost"]),
-                                                   fmt(row["mass_kg"]), fmt(row["accel_time_s"])])
+                                                   fmt(row["mass_kg"]), fmt(row["accel_time_s"])]
+                    + [fmt(row.get(c)) for c in energy])
     units = {q["key"]: q["unit"] for q in res["parameters"]}
     head = [f"{k} [{units[k]}]" for k in keys] + ["status", f"min {obj['minimize']} [{obj['unit']}]",
                                                  "motor", "reducer",
-                                                  "tyre", "cost", "mass_kg", "accel_time_s"]
-    lines.append(table(head, rows, "r" * len(keys) + "lrlllrrr"))
+                                                  "tyre", "cost", "mass_kg", "accel_time_s"] \
+        + [ENERGY_SHOWN[c] for c in energy]
+    lines.append(table(head, rows, "r" * len(keys) + "lrlllrrr" + "r" * len(energy)))
     for extra in ("csv", "plot"):
         if res.get(extra):
             lines.append(f"{'CSV' if extra == 'csv' else 'plot'} written to {res[extra]}")

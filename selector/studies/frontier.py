@@ -17,6 +17,11 @@ the cheaper of them. Times within 2e-9 relative (the pass tolerance on both side
 ``t_cap``) count as equal, as do costs within 2e-9. Every point is verified by the
 independent physics re-check (`api.records`). With ``axis="mass"`` the same holds for the
 vehicle mass and ``max_mass_kg`` instead of the cost and ``budget``.
+
+With ``axis="energy"`` (studies with an [energy] table) the axis is the energy per km at the
+battery, which no requirement limits, so one search per point does both steps: the least-energy
+designs under the time cap, as many as are tied on energy (``count`` doubled until the last one is
+not tied), and of those the fastest is the point.
 """
 
 from __future__ import annotations
@@ -27,7 +32,7 @@ from dataclasses import replace
 
 from selector.api import Study, header, records
 from selector.design import Design
-from selector.engine.evaluate import evaluate
+from selector.engine.evaluate import evaluate, tie_tolerance
 from selector.engine.search import (
     STATUS_INFEASIBLE,
     STATUS_OPTIMAL,
@@ -42,6 +47,7 @@ AXES = {
     # axis: (objective, requirement limiting it, design-record key, label, unit)
     "cost": ("cost", "budget", "cost", "cost", "currency"),
     "mass": ("mass", "max_mass_kg", "mass_kg", "vehicle mass", "kg"),
+    "energy": ("energy", None, "energy_wh_per_km", "energy per km at the battery", "Wh/km"),
 }
 """Axes a frontier can be traced against the acceleration time."""
 
@@ -60,10 +66,18 @@ class FrontierTimeLimit(SelectorError):
     """A search of the frontier hit its time limit (the frontier would not be exact)."""
 
 
+TIED_FIRST = 4
+"""Least-energy designs asked for first by a point of the energy frontier (doubled while all are tied) [-]."""
+
+
 def _requirements_check(study: Study, axis: str):
     if axis not in AXES:
         raise InputError(f"axis {axis!r}: must be one of {', '.join(AXES)}.")
     p = study.parts.problem
+    if axis == "energy" and p.energy is None:
+        where = f"{p.path}: " if p.path else ""
+        raise InputError(f"{where}axis 'energy' needs an [energy] table (the driving cycle the energy per km is "
+                         "taken over). Add one, e.g. [energy] cycle = \"wltc_class3b\", or use axis 'cost' or 'mass'.")
     if p.requirements.accel_to_kmh is None:
         where = f"{p.path}: " if p.path else ""
         raise InputError(f"{where}[requirements] accel_to_kmh is missing; the frontier plots the 0-to-accel_to_kmh "
@@ -94,6 +108,8 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
     _requirements_check(study, axis)
     parts = study.parts
     t0 = time.perf_counter()
+    if axis == "energy":
+        return _trace_energy(study, time_limit_s, t0)
     if not parts.two_units and parts.problem.energy is None and not any(
             a is not None and len(a) == 0 for a in study.allowed.values()):
         return _trace_sweep(study, axis, time_limit_s, t0)
@@ -159,6 +175,35 @@ def _trace_searches(study: Study, axis: str, time_limit_s: float | None, t0: flo
     return points, {"searches": searches, "elapsed_s": round(time.perf_counter() - t0, 3)}
 
 
+def _trace_energy(study: Study, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
+    """`trace` on the energy axis: one exact search per point (module docstring)."""
+    parts = study.parts
+    base, _ = _base_and_limit(study, "cost")
+    t_cap = ANY_FINITE_TIME_S
+    points, searches = [], 0
+    session = SearchSession()
+    count = TIED_FIRST
+    while True:  # each loop adds a point strictly faster than the last, so it ends
+        req = replace(base, accel_time_s=t_cap)
+        while True:
+            res = search(parts, objective="energy", count=count, requirements=req, allowed=study.allowed,
+                         time_limit_s=time_limit_s, session=session)
+            searches += 1
+            _check_status(res, "min energy")
+            tied = [d for d in res.designs if d.value <= res.designs[0].value + tie_tolerance(res.designs[0].value)]
+            if len(tied) < count:
+                break
+            count *= 2
+        if res.status == STATUS_INFEASIBLE:
+            break
+        times = evaluate(parts.with_requirements(req), [d.key for d in tied])["accel_time_s"]
+        n = int(min(range(len(tied)), key=lambda q: (times[q], q)))  # the fastest; ties in the search's order
+        best = Design(float(times[n]), tied[n].key)
+        points.append((float(tied[n].value), best.value, best))
+        t_cap = best.value * (1.0 - STRICTLY_FASTER)
+    return points, {"searches": searches, "elapsed_s": round(time.perf_counter() - t0, 3)}
+
+
 def _chosen(study: Study, time_limit_s: float | None):
     """The problem's own optimum (its objective and all its requirements), or None if infeasible."""
     res = search(study.parts, allowed=study.allowed, time_limit_s=time_limit_s)
@@ -198,7 +243,8 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
         "axis": axis, "axis_key": key, "axis_label": label, "axis_unit": unit,
         "accel_to_kmh": clean(problem.requirements.accel_to_kmh),
         "requirement": clean(req_t),
-        "limit": {"name": limit_key, "required": clean(getattr(problem.requirements, limit_key))},
+        "limit": {"name": limit_key,
+                  "required": None if limit_key is None else clean(getattr(problem.requirements, limit_key))},
         "points": out_points,
         "chosen": chosen,
         "search": {**stats, "catalogue_sizes": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
@@ -219,16 +265,27 @@ def _chosen_record(parts, chosen_ids: Design, recs: list[dict], key: str) -> dic
               "tyre": str(parts.tyres.part[chosen_ids.tyre]), "cost": clean(m["cost"][0]),
               "mass_kg": clean(m["mass_kg"][0]), "accel_time_s": clean(m["accel_time_s"][0]),
               "objective": parts.problem.objective}
-    chosen["on_frontier"] = any(_same(r[key], chosen[key]) and _same(r["performance"]["accel_time_s"],
-                                                                    chosen["accel_time_s"]) for r in recs)
+    if "energy_wh_per_km" in m:
+        chosen["energy_wh_per_km"] = clean(m["energy_wh_per_km"][0])
+    chosen["on_frontier"] = any(_same(_axis_value(r, key), chosen[key])
+                                and _same(r["performance"]["accel_time_s"], chosen["accel_time_s"]) for r in recs)
     chosen["units"] = units
     return chosen
 
 
+def _axis_value(rec: dict, key: str):
+    """A design record's value on the axis ``key`` (the energy per km sits in its ``energy`` entry)."""
+    if key == "energy_wh_per_km":
+        return (rec.get("energy") or {}).get("wh_per_km")
+    return rec[key]
+
+
 def _point_record(rec: dict, t_exact: float, req_t: float | None, chosen: dict | None) -> dict:
-    """One frontier point: the verified design record reordered, with ``meets_accel_time_s`` and ``chosen``."""
+    """One frontier point: the verified design record reordered, with ``meets_accel_time_s`` and ``chosen``
+    (and ``energy_wh_per_km`` in energy studies)."""
+    energy = {} if not rec.get("energy") else {"energy_wh_per_km": rec["energy"]["wh_per_km"]}
     return {"motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"], "cost": rec["cost"],
-            "mass_kg": rec["mass_kg"], "accel_time_s": rec["performance"]["accel_time_s"],
+            "mass_kg": rec["mass_kg"], **energy, "accel_time_s": rec["performance"]["accel_time_s"],
             "meets_accel_time_s": None if req_t is None else bool(passes("max", req_t, t_exact)),
             "chosen": bool(chosen is not None and rec["tyre"] == chosen["tyre"]
                            and [(u["axle"], u["motor"], u["reducer"]) for u in rec["units"]]

@@ -47,11 +47,16 @@ COLUMNS = ("status", "objective", "motor", "reducer", "tyre", "cost", "mass_kg",
 """Result columns of every row, after the parameter columns."""
 SLOT_COLUMNS = ("front_motor", "front_reducer", "rear_motor", "rear_reducer")
 """Further columns of a two-unit study's rows (its rows have null motor and reducer, as its design records)."""
+ENERGY_COLUMNS = {"energy_wh_per_km": "wh_per_km", "battery_kwh": "battery_kwh", "battery_mass_kg": "battery_mass_kg",
+                  "battery_cost": "battery_cost"}
+"""Further columns of an energy study's rows (column: key of the design record's ``energy``)."""
 
 
 def columns(problem: Problem) -> tuple[str, ...]:
-    """Result columns of a study's rows: `COLUMNS`, plus `SLOT_COLUMNS` for a two-unit study."""
-    return COLUMNS + (SLOT_COLUMNS if len(problem.axles) > 1 else ())
+    """Result columns of a study's rows: `COLUMNS`, plus `SLOT_COLUMNS` for a two-unit study and
+    `ENERGY_COLUMNS` for an energy study."""
+    return (COLUMNS + (SLOT_COLUMNS if len(problem.axles) > 1 else ())
+            + (tuple(ENERGY_COLUMNS) if problem.energy is not None else ()))
 
 
 DASK_CONNECT_TIMEOUT_S = 10
@@ -98,7 +103,8 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
     dict with the override values, then status ("optimal" | "infeasible"), objective (value),
     motor, reducer, tyre, cost, mass_kg, accel_time_s (None where not applicable), and reason
     (infeasible points); a two-unit study's rows have null motor and reducer and name the units in
-    front_motor, front_reducer, rear_motor, rear_reducer.
+    front_motor, front_reducer, rear_motor, rear_reducer; an energy study's rows add
+    energy_wh_per_km [Wh/km], battery_kwh [kWh], battery_mass_kg [kg] and battery_cost [currency].
     """
     from selector.api import procurement_filter, records
     from selector.engine.parts import PartTables
@@ -128,6 +134,8 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
         if parts.two_units:
             for u in rec["units"]:
                 row[f"{u['axle']}_motor"], row[f"{u['axle']}_reducer"] = u["motor"], u["reducer"]
+        if rec.get("energy"):
+            row.update({c: rec["energy"][k] for c, k in ENERGY_COLUMNS.items()})
     else:
         row["reason"] = res.reason
     return row

@@ -43,8 +43,15 @@ SWEEPABLE: dict[str, tuple[str, str]] = {
     "requirements.budget": ("currency", "motor + reducer + all tyres"),
     "requirements.speed_limiter_kmh": ("km/h", "speed limiter"),
     "procurement.max_lead_time_weeks": ("weeks", "longest acceptable lead time"),
+    "energy.range_km": ("km", "range the battery must cover on the cycle"),
+    "energy.specific_energy_wh_per_kg": ("Wh/kg", "pack-level specific energy"),
+    "energy.cost_per_kwh": ("currency/kWh", "battery price"),
+    "energy.auxiliary_w": ("W", "auxiliary load at all times"),
 }
 """Problem keys a sweep can vary (dotted: table.key), with their unit and meaning."""
+
+BATTERY_KEYS = ("energy.specific_energy_wh_per_kg", "energy.cost_per_kwh")
+"""Energy keys that only matter with a range (they size and price the battery)."""
 
 ISA_KEYS = ("environment.altitude_m", "environment.temperature_c")
 """Keys that set the air density through the ISA instead of directly."""
@@ -150,6 +157,7 @@ def validate(problem: Problem, varies: list[tuple[str, np.ndarray]]) -> None:
     if "requirements.accel_time_s" in keys and req.accel_to_kmh is None and "requirements.accel_to_kmh" not in keys:
         raise InputError("vary requirements.accel_time_s: the problem has no [requirements] accel_to_kmh "
                          "(the target speed of the acceleration run). Add it to the problem file.")
+    _check_energy_keys(problem, keys)
     n = int(np.prod([len(v) for _, v in varies]))
     if n > MAX_POINTS:
         raise InputError(f"the grid has {n:,} points (more than {MAX_POINTS:,}); use fewer values per vary key.")
@@ -162,6 +170,29 @@ def validate(problem: Problem, varies: list[tuple[str, np.ndarray]]) -> None:
                                  "allowed range.")
 
 
+def _check_energy_keys(problem: Problem, keys) -> None:
+    """InputError for swept energy keys the problem cannot use: no [energy] table, a range without the
+    battery keys, battery keys without a range (no battery is sized, they would change nothing)."""
+    swept = [k for k in keys if k.startswith("energy.")]
+    if not swept:
+        return
+    e = problem.energy
+    if e is None:
+        raise InputError(f"vary {swept[0]}: the problem has no [energy] table (driving cycle, battery). Add one, "
+                         "e.g. [energy] cycle = \"wltc_class3b\", or vary another key.")
+    if "energy.range_km" in keys:
+        for k in BATTERY_KEYS:
+            if getattr(e, k.split(".", 1)[1]) is None and k not in keys:
+                raise InputError(f"vary energy.range_km: the problem's [energy] table has no {k.split('.', 1)[1]}; "
+                                 f"sizing the battery for a range needs it. Add it [{SWEEPABLE[k][0]}].")
+    elif e.range_km is None:
+        for k in BATTERY_KEYS:
+            if k in keys:
+                raise InputError(f"vary {k}: the problem's [energy] table has no range_km, so no battery is sized and "
+                                 f"{k.split('.', 1)[1]} changes nothing. Add range_km [km], or vary energy.range_km "
+                                 "as well.")
+
+
 # ----------------------------------------------------------------------------- applying a point
 
 def apply_overrides(problem: Problem, overrides: dict) -> Problem:
@@ -169,11 +200,13 @@ def apply_overrides(problem: Problem, overrides: dict) -> Problem:
 
     ``environment.altitude_m`` / ``environment.temperature_c`` recompute the air density by the
     ISA (`physics.atmosphere.isa_density_kg_m3`); the other key of the pair, when not given,
-    is ISA standard (altitude 0, ISA temperature at the altitude).
+    is ISA standard (altitude 0, ISA temperature at the altitude). ``energy.range_km`` sets the
+    [energy] range and the requirement the battery is sized for.
     """
     from selector.physics.atmosphere import isa_density_kg_m3
 
-    tables = {"vehicle": {}, "environment": {}, "requirements": {}, "procurement": {}}
+    _check_energy_keys(problem, list(overrides))
+    tables = {"vehicle": {}, "environment": {}, "requirements": {}, "procurement": {}, "energy": {}}
     for key, value in overrides.items():
         check_key(key)
         rule = _check_value(key, value)
@@ -184,11 +217,16 @@ def apply_overrides(problem: Problem, overrides: dict) -> Problem:
     env = tables["environment"]
     if "altitude_m" in env or "temperature_c" in env:
         env["air_density_kg_m3"] = float(isa_density_kg_m3(env.pop("altitude_m", 0.0), env.pop("temperature_c", None)))
+    energy = problem.energy
+    if tables["energy"]:
+        energy = replace(energy, **tables["energy"])
+        if "range_km" in tables["energy"]:
+            tables["requirements"]["range_km"] = tables["energy"]["range_km"]
     return replace(problem,
                    vehicle=replace(problem.vehicle, **tables["vehicle"]),
                    environment=replace(problem.environment, **env),
                    requirements=replace(problem.requirements, **tables["requirements"]),
-                   procurement=replace(problem.procurement, **tables["procurement"]))
+                   procurement=replace(problem.procurement, **tables["procurement"]), energy=energy)
 
 
 def file_isa_context(problem: Problem, keys, source: dict | None = None) -> dict:

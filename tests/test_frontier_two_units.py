@@ -62,3 +62,27 @@ def test_two_unit_cost_frontier_equals_enumeration(layout, seed, tmp_path):
     for (c, t), (ce, te) in zip(got, expected, strict=True):
         assert math.isclose(c, ce, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)
     assert stats["searches"] == 2 * len(pts) + 1
+
+
+def pareto_with_ties(parts: PartTables, axis_metric: str) -> list[tuple[float, float]]:
+    """As `pareto`, with values within 2e-9 relative equal (the frontier's rule): a design whose energy
+    ties with a faster one's (a front/rear mirror, equal up to rounding) is dominated."""
+    tol = 2 * REL
+    pts = pareto(parts, axis_metric)
+    return [(a, b) for a, b in pts
+            if not any(c <= a * (1 + tol) and d <= b * (1 + tol) and (c < a * (1 - tol) or d < b * (1 - tol))
+                       for c, d in pts)]
+
+
+@pytest.mark.parametrize("seed", (304, 317, 321))
+def test_two_unit_energy_frontier_equals_enumeration(seed, tmp_path):
+    # seed 317 has two mirrored designs whose energies differ by 6e-14 relative: one point, the faster
+    s = random_study(seed, tmp_path / str(seed), sizes=((3, 5), (2, 4), (2, 3)), layout="both", gearbox_share=0.2,
+                     objective="accel_time", energy=True)
+    parts = s.parts
+    allowed = {k: np.arange(n) for k, n in zip(("motors", "reducers", "tyres"), parts.sizes, strict=True)}
+    pts, _ = trace(Study(parts, allowed), "energy")
+    expected = pareto_with_ties(parts, "energy_wh_per_km")
+    assert len(pts) == len(expected) >= 3
+    for (e, t, _), (ee, te) in zip(pts, expected, strict=True):
+        assert math.isclose(e, ee, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)

@@ -144,11 +144,38 @@ class BlockBounds:
         l_hi = np.maximum(np.minimum(l_single, l_gear), l_multi)
         return B.motor_closed_form_time_s(self.parts, self.use, motors, l_hi, self.target)
 
-    def gear_time_bound(self, m_pos, gears_l) -> np.ndarray:
+    def gear_time_bound(self, m_pos, gears_l, nodes: int = B.RIEMANN_NODES) -> np.ndarray:
         """Certified acceleration-time bound of motors m_pos with gear sets ``gears_l`` ((..., G), NaN
         beyond the gear count; broadcast), gear by gear (`bounds.optimistic_time_s`) [s]."""
         return B.motor_time_bound_s(self.parts, self.use, self.motors[m_pos], 0.0, 0.0, self.target,
-                                    gears_l=gears_l)
+                                    gears_l=gears_l, nodes=nodes)
+
+    def least_gear_time_bound(self, row, m_pos, gears_l, cap) -> np.ndarray:
+        """Per row r: the lesser of ``cap[r]`` and the least `gear_time_bound` of the entries with
+        ``row == r`` (motor positions ``m_pos``, gear sets ``gears_l``) [s].
+
+        The same values as bounding every entry, with the fine bound on few of them: each entry's
+        bound on `COARSE_NODES` nodes first (a coarser partition of the same graded nodes, so never
+        above the fine bound; compared with a 1e-12 relative margin for rounding); entries whose coarse
+        bound is not below their row's cap cannot lower it; of the others, the fine bound of each
+        row's entry with the least coarse bound, then of the entries whose coarse bound is below the
+        row's least so far (the rest cannot be less).
+        """
+        best = np.array(cap, dtype=float)
+        if row.size == 0:
+            return best
+        coarse = self.gear_time_bound(m_pos, gears_l, nodes=COARSE_NODES) * (1.0 - 1e-12)
+        live = np.nonzero(coarse < best[row])[0]
+        if live.size == 0:
+            return best
+        order = live[np.lexsort((coarse[live], row[live]))]
+        first = order[np.r_[True, row[order][1:] != row[order][:-1]]]  # per row, its least coarse bound
+        np.minimum.at(best, row[first], self.gear_time_bound(m_pos[first], gears_l[first]))
+        rest = coarse < best[row]
+        rest[first] = False
+        if rest.any():
+            np.minimum.at(best, row[rest], self.gear_time_bound(m_pos[rest], gears_l[rest]))
+        return best
 
     def cell_edges(self, cells: int = CELLS):
         lo, hi = self.l_range
@@ -296,9 +323,10 @@ class BlockBounds:
         """Per motor: certified time bounds of its admissible designs, per L cell and for multi-speed pairs.
 
         Returns (cell_lb (m, CELLS): bound over the single-speed pairs in each cell, inf for cells
-        without admissible pairs; multi_lb (m,): least bound over its admissible multi-speed pairs,
-        each gear by gear with the motor's extremes, inf if none). A cell or pair whose bound exceeds accel_time_s holds
-        no feasible design.
+        without admissible pairs; multi_lb (m,): the lesser of the least cell bound and the least bound
+        over its admissible multi-speed pairs, each gear by gear with the motor's extremes; inf without
+        such pairs). A cell or
+        pair whose bound exceeds accel_time_s holds no feasible design.
         """
         t = self.cell_bounds(m_pos)
         multi = np.full(m_pos.size, np.inf)
@@ -313,7 +341,8 @@ class BlockBounds:
             r, c = np.nonzero(mo)
             adm[r, inv.ravel()[c]] = True
             r, u = np.nonzero(adm)
-            np.minimum.at(multi, r, self.gear_time_bound(m_pos[r], uniq[u]))
+            # (only the lesser of the two bounds counts: capped at the least cell bound)
+            multi = self.least_gear_time_bound(r, m_pos[r], uniq[u], t.min(axis=1))
         return t, multi
 
     def _cell_battery(self, pos: int, cand: np.ndarray, what: str) -> np.ndarray:

@@ -159,3 +159,23 @@ def test_equivalent_copies_change_no_result(seed, tmp_path):
     grouped = B.equivalent_motors(parts, np.arange(parts.sizes[0]), 1, True)
     assert grouped.size < parts.sizes[0]  # the copies are grouped (NaN loss columns compare equal)
 
+
+
+@pytest.mark.parametrize("seed", (7101, 7103, 7105))
+def test_least_gear_time_bound_equals_the_least_fine_bound(seed, tmp_path):
+    # the coarse-first shortcut of `refine` returns exactly min(cap, least fine bound) per motor
+    st = random_study(seed, tmp_path, objective="accel_time", gearbox_share=0.4)
+    s = SingleAxleSearch(st.parts, "accel_time", st.parts.problem.requirements, {}, 1, None, None, {})
+    g = s.pairs.gear_l[s.pairs.multi_pairs]
+    assert g.shape[0] > 0
+    rng = np.random.default_rng(seed)
+    n_m = s.motors.size
+    row = np.repeat(np.arange(n_m), g.shape[0])
+    gears = np.tile(g, (n_m, 1))
+    fine = s.gear_time_bound(row, gears)
+    least = np.full(n_m, np.inf)
+    np.minimum.at(least, row, fine)
+    assert np.isfinite(least).any()
+    for cap in (np.full(n_m, np.inf), least * rng.uniform(0.9, 1.1, n_m)):
+        got = s.least_gear_time_bound(row, row, gears, cap)
+        np.testing.assert_array_equal(got, np.minimum(cap, least))

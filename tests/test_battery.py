@@ -77,6 +77,28 @@ def test_general_solver_on_convex_consumption_finds_the_smallest_battery():
     assert res.mass_kg[0] == pytest.approx(m_small, rel=1e-8)
 
 
+def test_root_below_the_drivable_limit_is_not_stepped_over():
+    # linear consumption (closed form above) up to a drivable limit m_fail, infinite beyond (too heavy to follow
+    # the cycle); roots just below m_fail, where the scan's 1.6x steps jump from below the root past m_fail
+    c0, c1, sigma, u = 150.0, 0.05, 160.0, 0.9
+    rng = np.random.default_rng(11)
+    n = 40
+    rng_km = rng.uniform(80, 400, n)
+    closed = battery_energy_linear_wh(rng_km, c0, c1, sigma, u) / sigma  # the smallest battery [kg]
+    m_fail = closed * rng.uniform(1.0001, 1.3, n)
+    m_fail[:5] = closed[:5] * rng.uniform(0.7, 0.9999, 5)  # these cannot drive with the battery they need
+
+    def consumption(m, i):
+        return np.where(m < m_fail[i], c0 + c1 * m, np.inf)
+
+    res = size_battery(consumption, rng_km, sigma, u, n, max_battery_kg=6000.0)
+    np.testing.assert_array_equal(res.found, np.arange(n) >= 5)
+    np.testing.assert_allclose(res.mass_kg[5:], closed[5:], rtol=1e-8)
+    # where none is found: the largest drivable battery tried, just below the drivable limit
+    assert np.all(res.short_kg[:5] < m_fail[:5]) and np.all(res.short_kg[:5] > m_fail[:5] * (1 - 1e-8))
+    assert np.all(np.isnan(res.short_kg[5:]))
+
+
 def test_search_limit_and_zero_consumption():
     res = size_battery(lambda m, i: np.full(len(i), 150.0) + 0.05 * m, 300.0, 160.0, 0.9, 1, max_battery_kg=100.0)
     assert not res.found[0] and np.isnan(res.mass_kg[0])  # needs 349 kg, limit 100 kg

@@ -267,7 +267,8 @@ def _size_for_range(st: EnergySetup, consumption, n: int, cap: float):
     """Battery for the range of n designs (``consumption(m_b, index)``) and the range covered.
 
     Returns (`BatterySizing`, range [km]): the sized battery's range where found; else the longest
-    range over the batteries of `REACH_SCAN` (shares of the largest battery considered, ``cap`` [kg]).
+    range over the largest drivable battery the sizing tried (``short_kg``) and the batteries of
+    `REACH_SCAN` (shares of the largest battery considered, ``cap`` [kg]).
     """
     sized = size_battery(consumption, st.range_km, st.specific_energy_wh_per_kg, st.usable_fraction, n, cap)
     found = sized.found
@@ -277,6 +278,8 @@ def _size_for_range(st: EnergySetup, consumption, n: int, cap: float):
     # where no battery covers the range: the longest range over batteries up to the largest considered
     miss = np.nonzero(~found)[0]
     reach = np.where(found, reach_found, 0.0)
+    if miss.size:
+        reach[miss] = _reach(st, consumption, miss, sized.short_kg[miss])
     for frac in REACH_SCAN if miss.size else ():
         reach[miss] = np.maximum(reach[miss], _reach(st, consumption, miss, np.full(miss.size, frac * cap)))
     # a battery in the scan covers the range although the sizing's geometric scan stepped over it (the

@@ -135,6 +135,9 @@ class BatterySizing:
         Consumption with that battery [Wh/km]; NaN where not found.
     evaluations : int
         Calls of the consumption function [-].
+    short_kg : ndarray
+        Where not found: the largest battery tried that the design can drive with, which falls short
+        of the range (0 when none) [kg]; NaN where found.
     """
 
     found: np.ndarray
@@ -142,6 +145,7 @@ class BatterySizing:
     mass_kg: np.ndarray
     consumption_wh_per_km: np.ndarray
     evaluations: int
+    short_kg: np.ndarray | None = None
 
 
 def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fraction, n, max_battery_kg,
@@ -155,7 +159,11 @@ def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fracti
     hi - lo <= rtol hi or the surplus g(hi) <= rtol u sigma hi (the battery is then at most about
     rtol too large); the answer is hi, a battery that covers the range. The scan finds the
     smallest root when g crosses zero once between scan points, which holds for consumption
-    linear or convex in mass. Designs whose g stays < 0 up to the limit are reported not found.
+    linear or convex in mass. Where a scan step lands on a battery the design cannot drive with
+    (consumption not finite: too heavy to follow the cycle; a heavier one cannot either), the
+    step is bisected between the last drivable battery and that one, down to `SCAN_RTOL`,
+    instead of growing on: a root below the drivable limit is not stepped over. Designs whose g
+    stays < 0 up to the limit (or up to the drivable limit) are reported not found.
 
     Parameters
     ----------
@@ -191,7 +199,8 @@ def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fracti
     _illinois(g, br, found, rtol, max_iter)
     mass = np.where(found, br.hi, np.nan)
     return BatterySizing(found=found, energy_wh=mass * sigma, mass_kg=mass,
-                         consumption_wh_per_km=np.where(found, br.c_hi, np.nan), evaluations=g.calls)
+                         consumption_wh_per_km=np.where(found, br.c_hi, np.nan), evaluations=g.calls,
+                         short_kg=np.where(found, np.nan, br.lo))
 
 
 class _Surplus:
@@ -209,9 +218,16 @@ class _Surplus:
         return np.where(np.isfinite(val), val, -np.inf), c
 
 
+SCAN_FACTOR = 1.6
+"""Growth of the battery per step of the upward scan [-]."""
+SCAN_RTOL = 1e-9
+"""Relative width at which the bisection towards the drivable limit stops (no battery found) [-]."""
+
+
 @dataclass
 class _Bracket:
-    """Per design: g(lo) < 0 <= g(hi) (hi NaN where no battery up to the limit covers the range)."""
+    """Per design: g(lo) < 0 <= g(hi) (hi NaN where no battery up to the limit covers the range; lo is
+    then the largest drivable battery tried)."""
 
     lo: np.ndarray
     g_lo: np.ndarray
@@ -244,19 +260,32 @@ def _bracket(g: _Surplus, n: int, m_max: np.ndarray) -> _Bracket:
     lo_p = ~done0 & ~p_ok & np.isfinite(g_p)
     lo[lo_p], g_lo[lo_p] = probe[lo_p], g_p[lo_p]
     m = start.copy()
-    active = ~done0 & ~p_ok
+    top = np.full(n, np.inf)  # least battery tried that the design cannot drive with
+    top[~done0 & ~p_ok & ~np.isfinite(g_p)] = probe[~done0 & ~p_ok & ~np.isfinite(g_p)]
+    m = np.where(np.isfinite(top), 0.5 * (lo + top), m)
+    active = ~done0 & ~p_ok & np.isfinite(g_lo)
     while active.any():
         idx = np.flatnonzero(active)
         gm, cm = g(m[idx], idx)
         ok = gm >= 0
         hi[idx[ok]], g_hi[idx[ok]], c_hi[idx[ok]] = m[idx[ok]], gm[ok], cm[ok]
-        below = idx[~ok]
-        lo[below], g_lo[below] = m[below], gm[~ok]
-        at_max = m[below] >= m_max[below]
         active[idx[ok]] = False
-        active[below[at_max]] = False
-        grow = below[~at_max]
-        m[grow] = np.minimum(m[grow] * 1.6, m_max[grow])
+        fin = np.isfinite(gm) & ~ok
+        short = idx[fin]  # drivable, short of the range: the bracket's low end
+        lo[short], g_lo[short] = m[short], gm[fin]
+        heavy = idx[~np.isfinite(gm)]  # too heavy to drive: the drivable limit is below
+        top[heavy] = m[heavy]
+        left = idx[~ok]
+        halving = np.isfinite(top[left])
+        closed = halving & (top[left] - lo[left] <= SCAN_RTOL * top[left])
+        active[left[closed]] = False
+        bis = left[halving & ~closed]
+        m[bis] = 0.5 * (lo[bis] + top[bis])
+        grow = left[~halving]
+        at_max = m[grow] >= m_max[grow]
+        active[grow[at_max]] = False
+        grow = grow[~at_max]
+        m[grow] = np.minimum(m[grow] * SCAN_FACTOR, m_max[grow])
     return br
 
 

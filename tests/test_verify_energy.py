@@ -136,3 +136,62 @@ def test_recheck_figures_follow_the_cycle_arithmetic(tmp_path):
     assert fig["followed"] and not fig["out_of_map"]
     assert fig["wh_per_km"] > aux_per_km
     assert 0.0 <= fig["regen_share"] < 1.0
+
+
+def test_gears_tied_to_rounding_take_the_lowest_gear_in_both_computations(tmp_path):
+    # A flat efficiency map, a negligible rotor inertia, a three-speed gearbox with equal gear efficiencies:
+    # every usable gear needs the same battery power in exact arithmetic (shaft power F v / eta in each), so
+    # the choice is a tie everywhere and the documented rule (the lowest gear within the tie tolerance) keeps first gear
+    # throughout: no shift, and the energy of the single-speed part with the first ratio. Decided by the
+    # last digits instead, the two computations chose different gears and disagreed on the shift energy.
+    from selector.engine.parts import PartTables
+    from selector.io.problem import load_study
+    from selector.synthetic_files import motor_row, reducer_row, tyre_row, write_csv, write_problem
+
+    speeds = [0, 2000, 4000, 6000, 8000, 10000, 12000]
+    torques = [-250, -125, 0, 125, 250]
+    lines = ["speed_rpm,torque_nm,efficiency_pct"] + [f"{w},{t},90" for w in speeds for t in torques]
+    (tmp_path / "flat.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    write_csv(tmp_path / "motors.csv", "motors",
+              [motor_row("M-FLAT", efficiency_map="flat.csv", rotor_inertia_kgm2=1e-12)])
+    write_csv(tmp_path / "reducers.csv", "reducers", [
+        reducer_row("R-3S", ratio=6.0, ratio_2=5.0, ratio_3=4.0, efficiency_2_pct=97, efficiency_3_pct=97,
+                    shift_time_s=0.3),
+        reducer_row("R-1S", ratio=6.0)])
+    write_csv(tmp_path / "tyres.csv", "tyres", [tyre_row("T-1")])
+    write_problem(tmp_path / "problem.toml", "Flat map (invented data)", HAND_VEHICLE_ENERGY, {"road_friction": 0.9},
+                  {}, "energy", energy={"cycle": "udds", "regen_min_speed_kmh": 8.0})
+    problem, catalogs = load_study(tmp_path / "problem.toml")
+    parts = PartTables.build(problem, catalogs)
+    keys = np.array([[-1, -1, 0, 0, 0], [-1, -1, 0, 1, 0]], dtype=np.int64)
+    m = evaluate(parts, keys)
+    assert np.all(m["cycle_followed_pct"] == 100.0)
+    assert m["energy_wh_per_km"][0] == pytest.approx(m["energy_wh_per_km"][1], rel=1e-12)
+    assert m["regen_share"][0] == pytest.approx(m["regen_share"][1], rel=1e-12)
+    assert energy_disagreements(parts, keys, m) == []
+
+
+HAND_VEHICLE_ENERGY = {"mass_kg": 1500.0, "drag_area_m2": 0.8, "wheelbase_m": 2.8, "cg_height_m": 0.6,
+                       "rear_axle_share": 0.5, "driven_axle": "rear", "tyre_count": 4}
+
+
+def test_map_motor_gearbox_with_rounding_ties_passes_the_recheck(tmp_path):
+    # Found by an independent audit: the demo map motor KM-M118 with the three-speed AT-T10-124 on the FTP-75,
+    # where gears tie at zero power (braking below regen_min_speed_kmh) and on the map's plateaus; the two
+    # computations broke the ties by the last digits differently and disagreed on regen_share (exit 1)
+    text = "\n".join([
+        'name = "Rounding ties (invented data)"', "[catalogs]",
+        *(f'{k} = "{(ROOT / "catalogs" / f"{k}.csv").as_posix()}"' for k in ("motors", "reducers", "tyres")),
+        "[vehicle]", "mass_kg = 1786.4", "drag_area_m2 = 0.840", "wheelbase_m = 3.0", "cg_height_m = 0.595",
+        "rear_axle_share = 0.464", 'driven_axle = "rear"', "tyre_count = 4",
+        "[environment]", "air_density_kg_m3 = 1.2451", "road_friction = 0.609",
+        "[energy]", 'cycle = "ftp75"', "range_km = 447.2", "specific_energy_wh_per_kg = 140.8",
+        "cost_per_kwh = 184.8", "regen_max_kw = 67.9", "regen_min_speed_kmh = 5.28", ""])
+    (tmp_path / "p.toml").write_text(text, encoding="utf-8")
+    parts = open_study(tmp_path / "p.toml").parts
+    ids = {"motors": "KM-M118", "reducers": "AT-T10-124", "tyres": "AW-T2220"}
+    pos = {k: int(np.flatnonzero(getattr(parts, k).part == v)[0]) for k, v in ids.items()}
+    keys = np.array([[-1, -1, pos["motors"], pos["reducers"], pos["tyres"]]], dtype=np.int64)
+    m = evaluate(parts, keys)
+    assert np.isfinite(m["energy_wh_per_km"][0])
+    assert energy_disagreements(parts, keys, m) == []

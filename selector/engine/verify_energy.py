@@ -25,6 +25,7 @@ from __future__ import annotations
 import numpy as np
 
 from selector.engine.parts import AXLE_COLUMNS, TY, PartTables
+from selector.physics.energy_inputs import CHOICE_TIE_ABS_W, CHOICE_TIE_REL
 from selector.physics.motor import envelope_torque_nm
 from selector.units import G_N
 
@@ -108,18 +109,16 @@ class _Unit:
         return np.where(can & ~outside, battery, np.inf), outside
 
     def best_gear(self, force_n, share, cyc, env):
-        """Least battery power over the gears (ties: the lowest gear), the gear index and the map misses."""
-        best = gear_of = None
+        """Least battery power over the gears (ties to the documented tolerance: the lowest gear), the gear
+        index and the map misses."""
+        powers = []
         outside = np.zeros(cyc["v"].shape, dtype=bool)
-        for g, gear in enumerate(self.gears):
+        for gear in self.gears:
             p, off = self.battery_w(gear, force_n, share, cyc, env)
             outside |= off
-            if best is None:
-                best, gear_of = p, np.zeros(p.shape, dtype=int)
-            else:
-                better = p < best
-                best, gear_of = np.where(better, p, best), np.where(better, g, gear_of)
-        return best, gear_of, outside
+            powers.append(p)
+        gear_of = _first_within_tie(np.stack(powers))
+        return np.choose(gear_of, powers), gear_of, outside
 
     def strongest_force_n(self):
         """Largest wheel force of the unit in any usable gear at each interval [N]."""
@@ -136,6 +135,18 @@ class _Unit:
                                                                                "w")]
         whole = np.where(force_n >= 0.0, force_n * pick[0], force_n * pick[1])
         return whole, pick[2], pick[3]
+
+
+def _first_within_tie(powers: np.ndarray) -> np.ndarray:
+    """Per interval (axis 1), the first candidate (axis 0) whose power is within the tie tolerance of the
+    least (DEVELOPERS.md, energy model: CHOICE_TIE_REL of its magnitude plus CHOICE_TIE_ABS_W)."""
+    least = np.min(powers, axis=0)
+    with np.errstate(invalid="ignore"):
+        ok = powers - least <= CHOICE_TIE_REL * np.abs(least) + CHOICE_TIE_ABS_W
+    first = np.zeros(least.shape, dtype=int)
+    for k in range(powers.shape[0] - 1, -1, -1):  # the first that qualifies wins
+        first = np.where(ok[k], k, first)
+    return first
 
 
 def _cycle(parts: PartTables) -> tuple[dict, dict]:
@@ -211,7 +222,7 @@ def interval_power_w(parts: PartTables, key, mass_kg: float) -> tuple[np.ndarray
             half = int(np.argmin([abs(s - 0.5) for s in SPLIT_GRID]))
             off_map |= add(_stationary_share(units, force, options[half][1]))
         totals = np.stack([p for p, _ in options])
-        pick = np.argmin(totals, axis=0)
+        pick = _first_within_tie(totals)
         power = np.take_along_axis(totals, pick[None], axis=0)[0]
         chosen = {pos: np.choose(pick, [g[pos] for _, g in options]) for pos in units}
     # rotor kinetic energy at each change of gear, between contiguous intervals both followed

@@ -14,7 +14,7 @@ the vehicle runs at the mean speed v with the constant acceleration a. Per desig
 2. **Split between the drive units.** A design has a front and a rear unit, either of which may be
    absent. A unit alone takes all of F. With both present, the front takes s F and the rear
    (1 - s) F, s chosen per interval among these candidates (the one with the least battery power
-   wins; ties: the first in this order):
+   wins; ties, to the tolerance of the gear choice below: the first in this order):
 
    - the grid `EnergyParams.split_fractions` (default 0, 0.25, 0.5, 0.75, 1), which holds "front
      only" and "rear only", so a split is never worse than either unit alone at any interval;
@@ -38,7 +38,8 @@ the vehicle runs at the mean speed v with the constant acceleration a. Per desig
    the motor does not over-speed (v_high G / r <= w_max, v_high the higher end speed of the
    interval) and, when motoring, T_m does not exceed the peak envelope at w. Among the usable gears
    of a multi-speed gearbox the one with the least electrical power is chosen, interval by
-   interval (ties: the lowest gear; no look-ahead, no shift-time limits). At a change of gear the
+   interval (ties, within `energy_inputs.CHOICE_TIE_REL` of the lesser plus `CHOICE_TIE_ABS_W`:
+   the lowest gear; no look-ahead, no shift-time limits). At a change of gear the
    rotor's kinetic energy changes by 0.5 J (w_new^2 - w_old^2) at the boundary speed; the motor
    supplies it from the battery (1 / eta_inv) or returns it (x eta_inv), motor losses of the
    synchronisation neglected. Because the choice ignores this shift energy, a gearbox that shifts

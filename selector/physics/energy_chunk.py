@@ -15,7 +15,7 @@ import dataclasses
 import numpy as np
 
 from selector.physics.cycles import cycle_steps
-from selector.physics.energy_inputs import EnergyParams, check_unit
+from selector.physics.energy_inputs import EnergyParams, check_unit, first_least
 from selector.physics.energy_inputs import gear_count as _gear_count
 from selector.physics.energy_points import (
     GearState,
@@ -213,21 +213,19 @@ class PreparedChunk:
     def _candidate(self, pos, f, force, t1s, oom):
         """Battery power of unit ``pos`` at share f (scalar or (D, S)) in its best gear, and that gear."""
         r = self.rows[pos]
-        pb_best = gear_best = None
+        pbs = []
         for gi, g in enumerate(self.states[pos]):
             if r.any_map:
                 out = unit_power(r, g, force, f, self.params, False)
-                pb = out["pb"]
+                pbs.append(out["pb"])
                 oom |= out["oom"]
             else:
-                pb = unit_battery_power(g, t1s[pos][gi], f, self.params.inverter_efficiency)
-            if gi == 0:
-                pb_best, gear_best = pb, np.zeros(self.shape, dtype=np.int8)
-            else:
-                better = pb < pb_best
-                np.copyto(pb_best, pb, where=better)
-                gear_best[better] = gi
-        return pb_best, gear_best
+                pbs.append(unit_battery_power(g, t1s[pos][gi], f, self.params.inverter_efficiency))
+        if len(pbs) == 1:
+            return pbs[0], np.zeros(self.shape, dtype=np.int8)
+        pbs = np.stack(pbs)
+        gear_best = first_least(pbs)  # ties (to the tolerance): the lowest gear
+        return np.take_along_axis(pbs, gear_best[None], axis=0)[0], gear_best.astype(np.int8)
 
     def _choose(self, force, t1s, oom):
         """The split and gears of least battery power per interval: (total (D, S), chosen candidate,
@@ -259,7 +257,7 @@ class PreparedChunk:
             add(s_opt)
         fracs = {"front": front, "rear": [1.0 - x for x in front]}
         totals = np.stack([best["front"][0][k] + best["rear"][0][k] for k in range(len(front))])
-        choice = np.argmin(totals, axis=0)
+        choice = first_least(totals)  # ties (to the tolerance): the first candidate
         total = np.take_along_axis(totals, choice[None], axis=0)[0]
         return total, choice, best, fracs
 

@@ -12,10 +12,34 @@ import numpy as np
 
 from selector.physics.losses import EfficiencyGrid
 
-__all__ = ["DEFAULT_SPLIT_FRACTIONS", "EnergyParams", "EnergyUnit", "EnergyVehicle", "check_unit", "gear_count"]
+__all__ = ["CHOICE_TIE_ABS_W", "CHOICE_TIE_REL", "DEFAULT_SPLIT_FRACTIONS", "EnergyParams", "EnergyUnit",
+           "EnergyVehicle", "check_unit", "first_least", "gear_count"]
 
 DEFAULT_SPLIT_FRACTIONS = (0.0, 0.25, 0.5, 0.75, 1.0)
 """Front share of the wheel force tried at each interval when a design has two units [-]."""
+CHOICE_TIE_REL = 1e-9
+"""Battery powers of two gears (or splits) within this share of the lesser, plus `CHOICE_TIE_ABS_W`,
+are tied, and the first in order wins [-]: equal in exact arithmetic (a map's plateau, braking
+without regeneration) they differ in the last digits, and a gear chosen by rounding changes the
+shift energy."""
+CHOICE_TIE_ABS_W = 1e-6
+"""Absolute part of the tie tolerance of the gear and split choice [W]."""
+
+
+def first_least(values) -> np.ndarray:
+    """Index of the least of ``values`` along axis 0, the first one within the tie tolerance
+    (`CHOICE_TIE_REL`, `CHOICE_TIE_ABS_W`) of the least winning; 0 where none is finite.
+
+    Parameters
+    ----------
+    values : array_like, shape (K, ...)
+        Battery power of K candidates in order [W] (inf: not usable).
+    """
+    v = np.asarray(values, dtype=float)
+    least = v.min(axis=0)
+    with np.errstate(invalid="ignore"):
+        tied = v <= least + CHOICE_TIE_REL * np.abs(least) + CHOICE_TIE_ABS_W
+    return np.argmax(tied, axis=0)
 
 
 @dataclass(frozen=True, eq=False)

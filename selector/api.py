@@ -404,12 +404,35 @@ def unmet(parts: PartTables, rec: dict, metrics: dict) -> list[dict]:
             got = ("never reaches accel_to_kmh" if r["name"] == "accel_time_s" and r["achieved"] is None
                    else f"achieved {fmt(r['achieved'])} {r['unit']}")
             out.append({"name": r["name"], "why": f"{got}; required {r['sense']} {fmt(r['required'])} {r['unit']}"})
+    if parts.problem.energy is not None:
+        out += _energy_unmet(parts, rec, metrics)
     objective = parts.problem.objective
     if not np.isfinite(metrics[OBJECTIVE_METRIC[objective]][0]) and objective == "accel_time":
         out.append({"name": "accel_to_kmh",
                     "why": (f"never reaches accel_to_kmh = {fmt(parts.problem.requirements.accel_to_kmh)} km/h "
                             "(infinite time); the accel_time objective counts such a design infeasible")})
     return out
+
+
+def _energy_unmet(parts: PartTables, rec: dict, metrics: dict) -> list[dict]:
+    """Why an energy study cannot use a design beyond its requirement rows: a motor without loss data,
+    operating points outside an efficiency map."""
+    out = []
+    for u in rec["units"]:
+        m = int(np.flatnonzero(parts.motors.part == u["motor"])[0])
+        if not parts.motors.has_loss_model[m]:
+            out.append({"name": "motor_loss_data", "why": f"motor {u['motor']} has neither the loss_* columns nor "
+                        "an efficiency_map: it cannot be used in an energy study (add its loss model or map)"})
+    off = float(metrics.get("cycle_out_of_map_pct", np.zeros(1))[0])
+    if off > 0:
+        out.append({"name": "efficiency_map", "why": f"{fmt(off)} % of the cycle's intervals fall outside the "
+                    "motor's efficiency map (within its envelope; a map is never extrapolated)"})
+    return out
+
+
+def motors_without_loss_data(parts: PartTables) -> list[str]:
+    """Part ids of the motors an energy study cannot use (neither loss_* columns nor an efficiency_map)."""
+    return [str(x) for x in parts.motors.part[~parts.motors.has_loss_model]]
 
 
 def problem_summary(study: Study) -> dict:
@@ -425,6 +448,8 @@ def problem_summary(study: Study) -> dict:
            "air_density_kg_m3": clean(p.environment.air_density_kg_m3),
            "path": str(Path(p.path)) if p.path else None}
     out["layout"] = layout_summary(parts)
+    if p.energy is not None:
+        out["energy"] = {"cycle": p.energy.cycle, "motors_without_loss_data": motors_without_loss_data(parts)}
     return out
 
 

@@ -126,3 +126,44 @@ def test_demo_motors_have_plausible_loss_models_and_maps():
             assert 0.90 <= g.efficiency.max() <= 0.965
         assert "illustrative" in (DEMO / "maps" / f"{r.part}.csv").read_text(encoding="utf-8").splitlines()[0] \
             if g is not None else True
+
+
+def _energy_study(tmp_path: Path):
+    """Three motors (invented data): one with the loss model, one without loss data, one with a map that ends at
+    60 N m (the cycle needs more torque at some intervals); a rear-drive van on the WLTC, 200 km."""
+    from selector.synthetic_files import motor_row, reducer_row, tyre_row, write_csv, write_problem
+
+    speeds, torques = [0, 3000, 6000, 9000, 12000], [0, 30, 60]
+    lines = ["speed_rpm,torque_nm,efficiency_pct"] + [f"{w},{t},{0 if w == 0 or t == 0 else 92}"
+                                                      for w in speeds for t in torques]
+    (tmp_path / "small.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    loss = {"loss_copper_w_per_nm2": 0.05, "loss_iron_nm": 0.6, "loss_windage_w_s3": 1e-7,
+            "loss_constant_w": 100}
+    write_csv(tmp_path / "motors.csv", "motors", [motor_row("M-LOSS", **loss), motor_row("M-NONE"),
+                                                  motor_row("M-MAP", efficiency_map="small.csv")])
+    write_csv(tmp_path / "reducers.csv", "reducers", [reducer_row("R-1")])
+    write_csv(tmp_path / "tyres.csv", "tyres", [tyre_row("T-1")])
+    vehicle = {"mass_kg": 1500.0, "drag_area_m2": 0.8, "wheelbase_m": 2.8, "cg_height_m": 0.6,
+               "rear_axle_share": 0.5, "driven_axle": "rear", "tyre_count": 4}
+    write_problem(tmp_path / "problem.toml", "Energy diagnostics (invented data)", vehicle, {"road_friction": 0.9},
+                  {}, "cost", energy={"cycle": "wltc_class3b", "range_km": 200, "specific_energy_wh_per_kg": 160,
+                                      "cost_per_kwh": 140})
+    return tmp_path / "problem.toml"
+
+
+def test_energy_study_names_motors_without_loss_data_and_points_outside_a_map(tmp_path, capsys):
+    from selector.api import open_study, simulate
+    from selector.cli import run
+
+    path = _energy_study(tmp_path)
+    assert run(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "1 motor without loss data" in out and "M-NONE" in out and "M-LOSS" not in out.split("loss data")[1]
+    study = open_study(path)
+    rec = simulate(study, motor="M-NONE", reducer="R-1", tyre="T-1")
+    assert not rec["feasible"] and "motor_loss_data" in [u["name"] for u in rec["unmet"]]
+    rec = simulate(study, motor="M-MAP", reducer="R-1", tyre="T-1")
+    why = {u["name"]: u["why"] for u in rec["unmet"]}
+    assert "efficiency_map" in why and "outside the motor's efficiency map" in why["efficiency_map"]
+    rec = simulate(study, motor="M-LOSS", reducer="R-1", tyre="T-1")
+    assert not {"motor_loss_data", "efficiency_map"} & {u["name"] for u in rec["unmet"]}

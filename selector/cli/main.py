@@ -50,6 +50,10 @@ def _out(args, text_or_obj):
 
 # ----------------------------------------------------------------------------- check
 
+LISTED_IDS = 20
+"""Part ids `check` lists by name before "and N more" [-]."""
+
+
 def _setup_check(p):
     add_common(p)
 
@@ -76,6 +80,11 @@ def _cmd_check(args) -> int:
     lines.append(f"air density: {fmt(s['air_density_kg_m3'])} kg/m^3")
     lines.append(f"objective: minimise {s['objective']}")
     lines.append("requirements: " + (", ".join(f"{k} = {fmt(v)}" for k, v in s["requirements"].items()) or "none"))
+    if s.get("energy") and s["energy"]["motors_without_loss_data"]:
+        ids = s["energy"]["motors_without_loss_data"]
+        shown = ", ".join(ids[:LISTED_IDS]) + (f" and {len(ids) - LISTED_IDS} more" if len(ids) > LISTED_IDS else "")
+        lines.append(f"energy study ({s['energy']['cycle']}): {len(ids)} motor{'s' if len(ids) != 1 else ''} "
+                     f"without loss data (neither the loss_* columns nor an efficiency_map) cannot be used: {shown}")
     print("\n".join(lines))
     return 0
 

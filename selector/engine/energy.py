@@ -12,7 +12,10 @@ spiral); this module builds their inputs from the catalogue arrays and returns p
   none is found, the range of the largest battery considered);
 - ``regen_share``: energy the units return to the battery / energy they draw from it [-];
 - ``cycle_followed_pct``: share of the cycle's intervals the design can follow within its envelope
-  and, for map-based motors, within its efficiency map [%] (100 % is required).
+  and, for map-based motors, within its efficiency map [%] (100 % is required); 0 for a design
+  with a motor that has neither a loss model nor a map;
+- ``cycle_out_of_map_pct``: share of the intervals within the envelope but outside a motor's
+  efficiency map [%] (what `api.unmet` names as the reason).
 
 The battery sits with the vehicle's own static axle share. Its mass counts in every requirement and
 check (acceleration, grade, tyre load, max_mass_kg) and its cost in ``budget`` and in the cost
@@ -211,6 +214,7 @@ def energy_metrics(parts: PartTables, keys, parts_mass_kg) -> dict:
     out = {k: np.full(n, np.nan) for k in ("energy_wh_per_km", "battery_kwh", "battery_mass_kg", "battery_cost",
                                            "range_reach_km", "regen_share")}
     out["cycle_followed_pct"] = np.zeros(n)
+    out["cycle_out_of_map_pct"] = np.zeros(n)
     out["cycle_required_pct"] = np.full(n, 100.0)
     usable = np.ones(n, dtype=bool)
     for m_col, _ in AXLE_COLUMNS.values():
@@ -230,6 +234,7 @@ def _batch_metrics(parts: PartTables, st: EnergySetup, k: np.ndarray, pm: np.nda
     missed = base.infeasible_steps + base.out_of_map_steps
     followed = 100.0 * np.clip(1.0 - missed / steps, 0.0, 1.0)
     out["cycle_followed_pct"][rows] = np.where(base.feasible & ~base.out_of_map, 100.0, followed)
+    out["cycle_out_of_map_pct"][rows] = 100.0 * np.clip(base.out_of_map_steps / steps, 0.0, 1.0)
     ok = base.feasible & ~base.out_of_map & np.isfinite(base.wh_per_km)
     if st.range_km is None:
         out["energy_wh_per_km"][rows] = np.where(ok, base.wh_per_km, np.nan)

@@ -132,6 +132,9 @@ def test_user_file_by_path_and_base_dir(tmp_path):
     ("time_s,speed_kmh\n0,0\n1,5,3\n", "line 3: 3 cells; each row must be time_s,speed_kmh"),
     ("time_s,speed_kmh\n0,0\n", "1 data row; a cycle needs at least two rows"),
     ("# only comments\n", "no header row"),
+    ("time_s,speed_kmh\n0,0\n1,1e300\n", "line 3: speed_kmh = 1e300; must be at most 500 [km/h]"),
+    ("time_s,speed_kmh\n0,0\n\n1,5\n2,0\n", "line 3: blank line among the data rows"),
+    ("time_s,speed_kmh\n0,0\n1,0\n2,0\n", "every speed is 0; the vehicle never moves"),
 ])
 def test_user_file_errors(tmp_path, text, expected):
     p = write(tmp_path, text)
@@ -140,6 +143,10 @@ def test_user_file_errors(tmp_path, text, expected):
     msg = str(info.value)
     assert expected in msg
     assert msg.startswith(str(p))
+
+
+def test_blank_lines_at_the_end_are_allowed(tmp_path):
+    assert load_cycle(write(tmp_path, "time_s,speed_kmh\n0,0\n1,3.6\n2,0\n\n\n")).duration_s == 2.0
 
 
 def test_all_errors_listed_at_once(tmp_path):

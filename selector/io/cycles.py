@@ -9,9 +9,10 @@ File format (the built-in cycles in ``selector/data/cycles/`` use it too)::
     ...
 
 - the header is exactly ``time_s,speed_kmh``; comment lines starting with ``#`` and blank lines are
-  allowed only above it;
+  allowed only above it (and blank lines at the end of the file);
 - one row per second: the first time is 0 and each next time is 1 s later;
-- speeds are finite and >= 0 [km/h]; at least two rows.
+- speeds are finite, >= 0 and at most `MAX_SPEED_KMH` [km/h]; at least two rows, and the vehicle
+  moves (a distance above 0: the energy per km of a cycle that never moves is undefined).
 
 Every problem found is reported at once in one `InputError` naming the file, the line, what is
 wrong and what to do.
@@ -41,6 +42,9 @@ HEADER = ("time_s", "speed_kmh")
 """The header row of a cycle file."""
 
 _MAX_LISTED = 20  # errors listed in one message; the rest are counted
+MAX_SPEED_KMH = 500.0
+"""Highest speed a cycle file may hold [km/h] (common practice, no published source: no road-vehicle
+driving cycle comes near it; a larger value is a unit or typing error)."""
 _TIME_TOL_S = 1e-9
 
 
@@ -198,9 +202,15 @@ def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[
     times: list[float] = []
     speeds: list[float] = []
     prev_t = None
-    for line_no in range(head_no + 1, len(lines) + 1):
+    last = len(lines)
+    while last > head_no and not lines[last - 1].strip():  # blank lines at the end of the file
+        last -= 1
+    for line_no in range(head_no + 1, last + 1):
         row = lines[line_no - 1]
         if not row.strip():
+            errors.append(f"{disp} line {line_no}: blank line among the data rows; blank lines are allowed only "
+                          "above the header. Remove it (or give the missing second's row).")
+            prev_t = None
             continue
         cells = row.split(",")
         where = f"{disp} line {line_no}"
@@ -215,6 +225,10 @@ def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[
         if v is not None and v < 0:
             errors.append(f"{where}: speed_kmh = {cells[1].strip()}; must be >= 0 [km/h]. Fix the value.")
             v = None
+        elif v is not None and v > MAX_SPEED_KMH:
+            errors.append(f"{where}: speed_kmh = {cells[1].strip()}; must be at most {MAX_SPEED_KMH:g} [km/h] (no "
+                          "driving cycle comes near it). Check the value and that the column is in km/h.")
+            v = None
         if t is not None:
             expected = 0.0 if not times else (prev_t + 1.0 if prev_t is not None else float(len(times)))
             _check_time(t, expected, bool(times), cells[0].strip(), where, errors)
@@ -224,6 +238,9 @@ def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[
     if not errors and len(times) < 2:
         errors.append(f"{disp}: {len(times)} data row{'s' if len(times) != 1 else ''}; a cycle needs at least two "
                       "rows (times 0 and 1). Add the rows.")
+    elif not errors and max(speeds) <= 0.0:
+        errors.append(f"{disp}: every speed is 0; the vehicle never moves (distance 0 km), so no energy per km "
+                      "can be taken over this cycle. Give a cycle that moves.")
     if errors:
         n = len(errors)
         shown = errors[:_MAX_LISTED]

@@ -13,8 +13,10 @@ envelope definition (`physics.motor.envelope_torque_nm`) and the cycle samples:
 - the least battery power over the gears of each unit and, for two units, over the candidate splits
   (the grid, the capability split, the loss model's stationary split);
 - the rotor's kinetic energy at each change of gear; the auxiliary load over the whole cycle;
-- with a range: the sized battery must be the fixed point of the mass spiral, u E = R c(m + m_b),
-  m_b = E / sigma, and its cost E x price.
+- with a range: the sized battery must cover it, u E >= R c(m + m_b), m_b = E / sigma, and be the
+  smallest that does: the fixed point u E = R c of the mass spiral, or, where the consumption jumps
+  with mass (a gear choice that changes), a battery ENERGY_REL_TOL smaller must fall short; its
+  cost E x price.
 
 `energy_disagreements` returns messages; `engine.verify.verify_designs` turns them into a
 `VerificationError`.
@@ -281,9 +283,19 @@ def energy_disagreements(parts: PartTables, keys, metrics: dict) -> list[tuple[i
         kwh = float(metrics["battery_kwh"][b])
         usable_wh = e.usable_fraction * kwh * 1e3
         need_wh = range_km * mine["wh_per_km"]
-        if not abs(usable_wh - need_wh) <= ENERGY_REL_TOL * need_wh:
+        if not usable_wh >= need_wh * (1.0 - ENERGY_REL_TOL):
             problems.append((b, f"battery {kwh!r} kWh gives {usable_wh!r} Wh usable but {range_km} km at "
                                 f"{mine['wh_per_km']!r} Wh/km needs {need_wh!r} Wh"))
+        elif usable_wh > need_wh * (1.0 + ENERGY_REL_TOL):
+            # a surplus only at a jump of the consumption (a gear choice that changes with mass): the battery
+            # ENERGY_REL_TOL smaller must then fall short, else it is not the smallest that covers the range
+            smaller_kg = battery_kg * (1.0 - ENERGY_REL_TOL)
+            small = design_energy(parts, key, float(parts_mass[b]) + smaller_kg)
+            if np.isfinite(small["wh_per_km"]) and \
+                    e.usable_fraction * smaller_kg * e.specific_energy_wh_per_kg >= range_km * small["wh_per_km"]:
+                problems.append((b, f"battery {kwh!r} kWh gives {usable_wh!r} Wh usable, more than the {need_wh!r} Wh "
+                                    f"{range_km} km need, and a battery {ENERGY_REL_TOL:g} smaller covers the range "
+                                    "too: it is not the smallest"))
         if not abs(battery_kg - kwh * 1e3 / e.specific_energy_wh_per_kg) <= 1e-9 * max(battery_kg, 1.0):
             problems.append((b, f"battery mass {battery_kg!r} kg is not {kwh!r} kWh / "
                                 f"{e.specific_energy_wh_per_kg} Wh/kg"))

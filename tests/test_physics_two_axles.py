@@ -67,3 +67,30 @@ def test_all_wheel_drive_never_beats_v_over_mu_g(torque_nm, rear_share):
     t = float(accel_run(axles, body, np.full(1, target)).time_s[0])
     assert t >= target / (1.0 * G_N)
     assert target / G_N == pytest.approx(2.833, abs=5e-4)
+
+
+def test_two_unit_top_speed_at_a_jump_of_the_force_reaches_the_gear_limit():
+    # Found by fuzzing (a demo-like saloon, invented data): two-speed units whose second gear is 1.9e4 times
+    # taller than the first (almost no force there). The summed continuous force drops below the road load
+    # exactly at the front unit's first-gear limit w_max r / G1, with the speed cap (the tallest gears' limit)
+    # 1.9e4 times higher; the bracket must still close on that limit (closed form), not 2e-7 short of it
+    from selector.physics.speeds import sustained_top_speed_mps
+
+    one = lambda x: np.full(1, float(x))  # noqa: E731
+    rpm = 2.0 * np.pi / 60.0
+
+    def unit(torque_nm, max_rpm, j):
+        return DUnit(present=np.ones(1, dtype=bool), torque_nm=one(torque_nm), power_w=one(85e3),
+                     cont_torque_nm=one(torque_nm), cont_power_w=one(55.5e3), decline_rad_s=one(np.inf),
+                     decline_exponent=one(1.0), max_speed_rad_s=one(max_rpm * rpm), rotor_inertia_kgm2=one(j),
+                     ratio=np.array([[11.5, 0.000616579]]), efficiency=np.array([[0.959, 0.966]]),
+                     shift_time_s=one(0.45))
+
+    body = Body(mass_kg=one(1971.1), rear_share=one(0.52), crr=one(0.0072), q_n_s2_m2=one(0.5 * 1.225 * 0.62),
+                road_friction=one(1.0), cg_height_m=one(0.5), wheelbase_m=one(2.9), rear_drive=np.ones(1, bool),
+                wheel_inertia_total_kgm2=one(0.0), speed_limit_mps=one(np.inf))
+    radius = 0.97 * (15 * 25.4 + 2 * 225 * 0.70) / 2000.0  # 225/70R15 rolling radius [m]
+    axles = Axles(front=unit(94.0, 16100.0, 0.0191), rear=unit(126.0, 14300.0, 0.018), radius_m=one(radius))
+    v = float(sustained_top_speed_mps(axles, body)[0])
+    limit = 16100.0 * rpm * radius / 11.5  # the front unit's first-gear limit [m/s]
+    assert v == pytest.approx(limit, rel=1e-12)

@@ -33,8 +33,9 @@ NEWTON_STEPS = 40
 NEWTON_ULPS = 4
 """The decline-branch Newton iteration stops when no step exceeds this many units in the last place of
 ln v (the relative error of v is then a few 1e-16) [-]."""
-BISECT_STEPS = 80
-"""Bisection halvings for the two-unit crossing (2^-80 of the bracket: below floating-point resolution) [-]."""
+BISECT_STEPS = 4 * 64
+"""Iterations of the two-unit crossing: every fourth bisects, so 64 halvings at least (2^-64 of the
+bracket: below floating-point resolution of the cap's 1e-15 stop) [-]."""
 
 
 def _cubic_root(a0, q, p_force):
@@ -125,46 +126,56 @@ def _summed_crossing_mps(axles: Axles, body, continuous: bool) -> np.ndarray:
     The surplus (summed forces minus road load) is non-increasing, so the crossing is bracketed and
     found by the Illinois variant of regula falsi, with a bisection step every fourth iteration to
     guarantee the bracket halves; it stops when the bracket is below 1e-15 of the cap (the answer is
-    the bracket's feasible end).
+    the bracket's feasible end). The surplus may jump at the root (a unit reaching its gear's speed
+    limit and shifting to a much weaker gear); regula falsi then gains little, and the bisections
+    alone must close the bracket: `BISECT_STEPS` allows 64 of them, and the iterations run on the
+    designs whose bracket is still open only.
     """
     hi = speed_cap_mps(axles)
     a0 = _level_a0(body)
     q = body.q_n_s2_m2
 
-    def surplus(v):
-        f = (best_gear_force_n(axles.front, axles.radius_m, v, continuous)
-             + best_gear_force_n(axles.rear, axles.radius_m, v, continuous))
-        return f - (a0 + q * v * v)
+    def surplus(ax, v, rows):
+        f = (best_gear_force_n(ax.front, ax.radius_m, v, continuous)
+             + best_gear_force_n(ax.rear, ax.radius_m, v, continuous))
+        a0_r = a0[rows] if np.ndim(a0) else a0
+        q_r = q[rows] if np.ndim(q) else q
+        return f - (a0_r + q_r * v * v)
 
+    all_rows = np.arange(axles.n)
     # at the cap itself the force of the limiting gear still counts (limit inclusive)
-    f_hi = surplus(hi)
+    f_hi = surplus(axles, hi, all_rows)
     top_ok = f_hi >= 0
     lo_v = np.zeros(axles.n)
-    f_lo = surplus(lo_v)
+    f_lo = surplus(axles, lo_v, all_rows)
     start_ok = f_lo >= 0
     hi_v = hi.copy()
-    active = start_ok & ~top_ok
+    rows = np.nonzero(start_ok & ~top_ok)[0]
+    sub = take_axles(axles, rows)
     side = np.zeros(axles.n)  # Illinois: which end was kept last (-1 lo, +1 hi)
     for it in range(BISECT_STEPS):
-        if not active.any():
+        if rows.size == 0:
             break
+        a, b, fa, fb = lo_v[rows], hi_v[rows], f_lo[rows], f_hi[rows]
         if it % 4 == 3:
-            mid = 0.5 * (lo_v + hi_v)
+            mid = 0.5 * (a + b)
         else:
             with np.errstate(divide="ignore", invalid="ignore"):
-                mid = (lo_v * f_hi - hi_v * f_lo) / (f_hi - f_lo)
-            bad = ~np.isfinite(mid) | (mid <= lo_v) | (mid >= hi_v)
-            mid = np.where(bad, 0.5 * (lo_v + hi_v), mid)
-        f_mid = surplus(mid)
+                mid = (a * fb - b * fa) / (fb - fa)
+            bad = ~np.isfinite(mid) | (mid <= a) | (mid >= b)
+            mid = np.where(bad, 0.5 * (a + b), mid)
+        f_mid = surplus(sub, mid, rows)
         ok = f_mid >= 0
-        keep_lo = active & ok
-        keep_hi = active & ~ok
-        lo_v = np.where(keep_lo, mid, lo_v)
-        f_lo = np.where(keep_lo, f_mid, np.where(keep_hi & (side == -1), 0.5 * f_lo, f_lo))
-        hi_v = np.where(keep_hi, mid, hi_v)
-        f_hi = np.where(keep_hi, f_mid, np.where(keep_lo & (side == 1), 0.5 * f_hi, f_hi))
-        side = np.where(keep_lo, 1.0, np.where(keep_hi, -1.0, side))
-        active &= (hi_v - lo_v) > 1e-15 * np.maximum(hi, 1e-300)
+        sd = side[rows]
+        lo_v[rows] = np.where(ok, mid, a)
+        f_lo[rows] = np.where(ok, f_mid, np.where(sd == -1, 0.5 * fa, fa))
+        hi_v[rows] = np.where(ok, b, mid)
+        f_hi[rows] = np.where(ok, np.where(sd == 1, 0.5 * fb, fb), f_mid)
+        side[rows] = np.where(ok, 1.0, -1.0)
+        still = (hi_v[rows] - lo_v[rows]) > 1e-15 * np.maximum(hi[rows], 1e-300)
+        if not still.all():
+            rows = rows[still]
+            sub = take_axles(sub, still)
     return np.where(top_ok, hi, np.where(start_ok, lo_v, 0.0))
 
 

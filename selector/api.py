@@ -20,10 +20,11 @@ from selector import __version__
 from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, feasible
 from selector.engine.parts import PartTables
 from selector.engine.verify import design_keys, verify_designs
-from selector.errors import InputError, argument_error
+from selector.errors import ArgumentError, InputError, argument_error
 from selector.inputs import Catalogs, Problem, Procurement
 from selector.io.problem import load_study
 from selector.records import BINDING_RULE, CAUTION, as_design, clean, design_record, fmt
+from selector.studies.defaults import MAX_COUNT
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -88,6 +89,8 @@ class Study:
         from selector.frames import load_frames
 
         _check_procurement("Study.from_frames", procurement)
+        if base_dir is not None and not isinstance(base_dir, (str, os.PathLike)):
+            raise argument_error("Study.from_frames", "base_dir", base_dir, "a folder path (str or PathLike) or None")
         prob, catalogs = load_frames(motors, reducers, tyres, problem, base_dir)
         return replace(_build_study(prob, catalogs, procurement), problem_dict=dict(problem))
 
@@ -274,13 +277,16 @@ def check_study_args(function: str, study, count=1, time_limit_s=None, objective
 
     if not isinstance(study, Study):
         raise argument_error(function, "study", study, "a Study from selector.api.open_study(path)")
-    if isinstance(count, bool) or not isinstance(count, numbers.Integral) or count < 1:
-        raise argument_error(function, "count", count, "a whole number >= 1")
+    if isinstance(count, bool) or not isinstance(count, numbers.Integral) or not 1 <= count <= MAX_COUNT:
+        raise argument_error(function, "count", count, f"a whole number from 1 to {MAX_COUNT:,}")
     if time_limit_s is not None and (isinstance(time_limit_s, bool) or not isinstance(time_limit_s, numbers.Real)
                                      or not math.isfinite(time_limit_s) or time_limit_s <= 0):
         raise argument_error(function, "time_limit_s", time_limit_s, "a number of seconds > 0, or None")
-    if objective is not None and objective not in OBJECTIVE_METRIC:
+    if objective is not None and (not isinstance(objective, str) or objective not in OBJECTIVE_METRIC):
         raise argument_error(function, "objective", objective, f"one of {', '.join(OBJECTIVE_METRIC)} or None")
+    if objective == "energy" and study.parts.problem.energy is None:
+        raise ArgumentError(f"{function}(objective='energy'): the study has no [energy] table (the driving cycle the "
+                            "energy per km is taken over); add one to the problem, or choose another objective.")
 
 
 def simulate(study: Study, motor: str | None = None, reducer: str | None = None, tyre: str | None = None, *,

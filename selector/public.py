@@ -12,8 +12,8 @@ import numbers
 from collections.abc import Mapping, Sequence
 from typing import TYPE_CHECKING
 
-from selector.errors import InputError
-from selector.studies.defaults import NEAR_MISS_PCT, STEP_PCT
+from selector.errors import InputError, argument_error
+from selector.studies.defaults import MAX_COUNT, NEAR_MISS_PCT, STEP_PCT
 
 if TYPE_CHECKING:
     from selector.api import Study
@@ -34,9 +34,11 @@ DIAGNOSE_MAX_ENERGY = 20_000
 """The same for energy studies, whose every design is simulated over the whole driving cycle [-]."""
 
 
-def _whole(name: str, value) -> int:
+def _whole(name: str, value, most: int | None = None) -> int:
     if isinstance(value, bool) or not isinstance(value, numbers.Integral) or int(value) < 1:
         raise InputError(f"{name} {value!r}: must be a whole number >= 1.")
+    if most is not None and int(value) > most:
+        raise InputError(f"{name} {value!r}: must be at most {most:,}.")
     return int(value)
 
 
@@ -80,8 +82,10 @@ def solve(study: Study, count: int = 1, time_limit_s: float | None = None, objec
     from selector import api
     from selector.results import SolveResult
 
-    count = _whole("count", count)
+    count = _whole("count", count, MAX_COUNT)
     time_limit_s = _time_limit(time_limit_s)
+    if not isinstance(diagnose, bool):
+        raise argument_error("solve", "diagnose", diagnose, "True or False")
     res = api.solve(study, count=count, time_limit_s=time_limit_s, objective=objective)
     if res["status"] == "infeasible" and diagnose:
         combos = study.parts.combinations  # two-unit studies: (units)^2 x tyres, the size explain enumerates
@@ -146,9 +150,11 @@ def explain(study: Study, step_pct: float = STEP_PCT, near_miss_pct: float = NEA
     -------
     ExplainResult
     """
+    from selector.api import check_study_args
     from selector.results import ExplainResult
     from selector.studies.explain import explain as run_explain
 
+    check_study_args("explain", study)
     return ExplainResult(run_explain(study, step_pct=_pct("step_pct", step_pct),
                                      near_miss_pct=_pct("near_miss_pct", near_miss_pct), progress=progress))
 
@@ -169,9 +175,14 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
     -------
     FrontierResult
     """
+    from selector.api import check_study_args
     from selector.results import FrontierResult
+    from selector.studies.frontier import AXES
     from selector.studies.frontier import frontier as run_frontier
 
+    check_study_args("frontier", study)
+    if not isinstance(axis, str) or axis not in AXES:
+        raise argument_error("frontier", "axis", axis, f"one of {', '.join(repr(a) for a in AXES)}")
     return FrontierResult(run_frontier(study, axis=axis, time_limit_s=_time_limit(time_limit_s)))
 
 
@@ -201,9 +212,14 @@ def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], wor
     -------
     SweepResult
     """
+    from selector.api import check_study_args
     from selector.results import SweepResult
     from selector.studies.sweep import sweep_problem
 
+    check_study_args("sweep", study)
+    if not (isinstance(vary, (str, Mapping)) or (isinstance(vary, (list, tuple))
+                                                 and all(isinstance(v, str) for v in vary))):
+        raise argument_error("sweep", "vary", vary, '{dotted key: values} or a list of "KEY=START:STOP:N" texts')
     if workers is not None:
         workers = _whole("workers", workers)
     if study.catalogs is None:
@@ -235,9 +251,11 @@ def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: i
     -------
     ShortlistResult
     """
+    from selector.api import check_study_args
     from selector.results import ShortlistResult
     from selector.studies.shortlist import shortlist as run_shortlist
 
-    return ShortlistResult(run_shortlist(study, _whole("count", count), distinct=distinct,
+    check_study_args("shortlist", study)
+    return ShortlistResult(run_shortlist(study, _whole("count", count, MAX_COUNT), distinct=distinct,
                                          vehicles=_whole("vehicles", vehicles),
                                          time_limit_s=_time_limit(time_limit_s), objective=objective))

@@ -60,3 +60,42 @@ def test_thousands_separator_advice(tmp_path, cell, advice):
     proc = run_cli("check", problem)
     assert_clean_answer(proc, codes=(2,))
     assert advice in proc.stderr
+
+
+@pytest.mark.parametrize("call, name", [
+    (lambda s, p: p.solve(s, objective="energy"), "objective"),  # the study has no [energy] table
+    (lambda s, p: p.solve(s, objective=["cost"]), "objective"),
+    (lambda s, p: p.solve(s, diagnose="yes"), "diagnose"),
+    (lambda s, p: p.explain(str(PROBLEM)), "study"),
+    (lambda s, p: p.frontier(None), "study"),
+    (lambda s, p: p.frontier(s, axis=["cost"]), "axis"),
+    (lambda s, p: p.shortlist({}, 2), "study"),
+    (lambda s, p: p.sweep(str(PROBLEM), {"requirements.top_speed_kmh": [140]}), "study"),
+    (lambda s, p: p.sweep(s, None), "vary"),
+    (lambda s, p: p.sweep(s, 1), "vary"),
+    (lambda s, p: p.sweep(s, [b"x"]), "vary"),
+])
+def test_public_api_wrong_arguments_name_the_parameter(study, call, name):
+    # found by fuzzing the Python API: these raised raw AttributeError / TypeError from deep inside
+    import selector
+
+    with pytest.raises(ArgumentError, match=rf"\({name}="):
+        call(study, selector)
+
+
+def test_count_has_an_upper_limit(study):
+    import selector
+
+    for call in (lambda: selector.solve(study, count=10**30), lambda: selector.shortlist(study, 10**30)):
+        with pytest.raises(InputError, match=r"^count 10+: must be at most 100,000"):
+            call()
+
+
+def test_from_frames_base_dir_must_be_a_path():
+    import pandas as pd
+
+    import selector
+
+    frames = {k: pd.read_csv(ROOT / "catalogs" / f"{k}.csv", comment="#") for k in ("motors", "reducers", "tyres")}
+    with pytest.raises(ArgumentError, match=r"\(base_dir=5\)"):
+        selector.Study.from_frames(**frames, problem={"vehicle": {}}, base_dir=5)

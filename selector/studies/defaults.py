@@ -4,3 +4,6 @@ STEP_PCT = 5.0
 """Default loosening step of explain's price of a requirement [%]."""
 NEAR_MISS_PCT = 3.0
 """Default largest miss of explain's near-miss designs [%]."""
+
+MAX_COUNT = 100_000
+"""Most designs one search may be asked for (``count`` of solve and shortlist) [-]."""

@@ -110,13 +110,13 @@ def test_name_is_case_insensitive_and_unknown_names_suggest():
 
 
 def test_user_file_by_path_and_base_dir(tmp_path):
-    p = write(tmp_path, "# my own test loop (illustrative)\ntime_s,speed_kmh\n0,0\n1,3.6\n2,7.2\n3,0\n")
+    p = write(tmp_path, "# my own test loop (illustrative)\ntime_s,speed_kmh\n0,0\n1,180\n2,360\n3,0\n")
     c = load_cycle(p)
     assert c.name == "my_cycle" and c.source == ("my own test loop (illustrative)",)
-    np.testing.assert_allclose(c.speed_mps, [0, 1, 2, 0])
-    # trapezoid: 0.5 + 1.5 + 1.0 = 3 m (computed by hand)
-    assert c.distance_m == pytest.approx(3.0, rel=1e-12)
-    assert load_cycle("my_cycle.csv", base_dir=tmp_path).distance_m == pytest.approx(3.0, rel=1e-12)
+    np.testing.assert_allclose(c.speed_mps, [0, 50, 100, 0])
+    # trapezoid: 25 + 75 + 50 = 150 m (computed by hand)
+    assert c.distance_m == pytest.approx(150.0, rel=1e-12)
+    assert load_cycle("my_cycle.csv", base_dir=tmp_path).distance_m == pytest.approx(150.0, rel=1e-12)
     assert load_cycle(str(p)).duration_s == 3.0
 
 
@@ -134,7 +134,9 @@ def test_user_file_by_path_and_base_dir(tmp_path):
     ("# only comments\n", "no header row"),
     ("time_s,speed_kmh\n0,0\n1,1e300\n", "line 3: speed_kmh = 1e300; must be at most 500 [km/h]"),
     ("time_s,speed_kmh\n0,0\n\n1,5\n2,0\n", "line 3: blank line among the data rows"),
-    ("time_s,speed_kmh\n0,0\n1,0\n2,0\n", "every speed is 0; the vehicle never moves"),
+    ("time_s,speed_kmh\n0,0\n1,0\n2,0\n", "the cycle covers 0 m; at least 100 m"),
+    ("time_s,speed_kmh\n0,0\n1,1e-12\n2,0\n", "the cycle covers 2.78e-13 m; at least 100 m"),
+    ("time_s,speed_kmh\n" + "".join(f"{t},10\n" for t in range(36_002)), "36,002 data rows; at most 36,001"),
 ])
 def test_user_file_errors(tmp_path, text, expected):
     p = write(tmp_path, text)
@@ -146,7 +148,7 @@ def test_user_file_errors(tmp_path, text, expected):
 
 
 def test_blank_lines_at_the_end_are_allowed(tmp_path):
-    assert load_cycle(write(tmp_path, "time_s,speed_kmh\n0,0\n1,3.6\n2,0\n\n\n")).duration_s == 2.0
+    assert load_cycle(write(tmp_path, "time_s,speed_kmh\n0,0\n1,360\n2,360\n3,0\n\n\n")).duration_s == 3.0
 
 
 def test_all_errors_listed_at_once(tmp_path):

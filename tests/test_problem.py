@@ -245,7 +245,7 @@ def test_energy_table_defaults_and_builtin_cycle(tmp_path):
 
 
 def test_energy_table_all_keys_and_a_user_cycle(tmp_path):
-    (tmp_path / "loop.csv").write_text("# my loop (illustrative)\ntime_s,speed_kmh\n0,0\n1,10\n2,0\n",
+    (tmp_path / "loop.csv").write_text("# my loop (illustrative)\ntime_s,speed_kmh\n0,0\n1,400\n2,0\n",
                                        encoding="utf-8")
     text = ('\n[energy]\ncycle = "loop.csv"\nrange_km = 220\nspecific_energy_wh_per_kg = 155\ncost_per_kwh = 130\n'
             'usable_fraction = 0.92\ninverter_efficiency_pct = 96.5\nauxiliary_w = 450\nregen_max_kw = 0\n'

@@ -11,8 +11,9 @@ File format (the built-in cycles in ``selector/data/cycles/`` use it too)::
 - the header is exactly ``time_s,speed_kmh``; comment lines starting with ``#`` and blank lines are
   allowed only above it (and blank lines at the end of the file);
 - one row per second: the first time is 0 and each next time is 1 s later;
-- speeds are finite, >= 0 and at most `MAX_SPEED_KMH` [km/h]; at least two rows, and the vehicle
-  moves (a distance above 0: the energy per km of a cycle that never moves is undefined).
+- speeds are finite, >= 0 and at most `MAX_SPEED_KMH` [km/h]; at least two rows and at most
+  `MAX_ROWS`; the cycle covers at least `MIN_DISTANCE_M` (the energy per km of a cycle that
+  hardly moves is meaningless).
 
 Every problem found is reported at once in one `InputError` naming the file, the line, what is
 wrong and what to do.
@@ -42,6 +43,12 @@ HEADER = ("time_s", "speed_kmh")
 """The header row of a cycle file."""
 
 _MAX_LISTED = 20  # errors listed in one message; the rest are counted
+MIN_DISTANCE_M = 100.0
+"""Shortest distance a cycle may cover [m] (common practice, no published source: the standard
+cycles cover 5 to 23 km)."""
+MAX_ROWS = 36_001
+"""Most rows a cycle file may hold: ten hours at 1 Hz (the energy model holds arrays over the
+cycle for every design it evaluates at once) [-]."""
 MAX_SPEED_KMH = 500.0
 """Highest speed a cycle file may hold [km/h] (common practice, no published source: no road-vehicle
 driving cycle comes near it; a larger value is a unit or typing error)."""
@@ -238,9 +245,13 @@ def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[
     if not errors and len(times) < 2:
         errors.append(f"{disp}: {len(times)} data row{'s' if len(times) != 1 else ''}; a cycle needs at least two "
                       "rows (times 0 and 1). Add the rows.")
-    elif not errors and max(speeds) <= 0.0:
-        errors.append(f"{disp}: every speed is 0; the vehicle never moves (distance 0 km), so no energy per km "
-                      "can be taken over this cycle. Give a cycle that moves.")
+    elif not errors and len(times) > MAX_ROWS:
+        errors.append(f"{disp}: {len(times):,} data rows; at most {MAX_ROWS:,} (ten hours at 1 Hz). Use a shorter "
+                      "cycle, e.g. one representative part of the duty.")
+    elif not errors and (dist := cycle_distance_m(np.asarray(times), np.asarray(speeds) / KMH_PER_MPS)) \
+            < MIN_DISTANCE_M:
+        errors.append(f"{disp}: the cycle covers {dist:.3g} m; at least {MIN_DISTANCE_M:g} m, or no meaningful "
+                      "energy per km can be taken over it. Give a cycle that moves.")
     if errors:
         n = len(errors)
         shown = errors[:_MAX_LISTED]

@@ -202,3 +202,41 @@ def test_multi_speed_time_bracket_is_a_lower_bound(tmp_path, layout):
         tight += int((lo[fin] >= 0.8 * t[fin]).sum())
     assert checked >= 200
     assert tight >= 0.5 * checked  # not vacuous: mostly within 20 % of the run's time
+
+
+def test_two_units_target_passed_during_a_shift_agrees_with_time_domain_ode():
+    # Front: one gear; rear: two-speed with a 0.35 s shift. Lossless ideal motors, no rotor inertia, road
+    # load, no traction limit. The rear shifts at the start of its tie band, v_s = w_b r / G2 (both gears
+    # then give P / v: "ties shift at the earliest speed"); during its shift only the front drives, and
+    # its own corner w_b r / G_f (24.3 m/s) lies inside that phase, as does the target (24.6 m/s). Found
+    # by an independent audit: the time was 2-7e-7 too long (a linear interpolation inside the shift
+    # phase's Runge-Kutta step, and steps too coarse across the corner).
+    from selector.physics.drivetrain import pad_gears
+
+    q, crr, g = 0.42, 0.011, 9.80665
+    g_f = W_B * R / 24.3
+    b = body(q=q, crr=crr)
+    front = pad_gears(unit([g_f]), 2)
+    rear = unit([G1, G2], shift_s=0.35)
+    target = 24.6
+    res = accel_run(Axles(front=front, rear=rear, radius_m=np.full(1, R)), b, np.full(1, target))
+    v_s = W_B * R / G2
+    assert res.shift_speed_mps[0, 0] == pytest.approx(v_s, rel=1e-9)
+
+    def both(_t, y):
+        return [(force(y[0], g_f) + force(y[0], G1) - M * g * crr - q * y[0] ** 2) / M]
+
+    def front_only(_t, y):
+        return [(force(y[0], g_f) - M * g * crr - q * y[0] ** 2) / M]
+
+    at_shift = lambda _t, y: y[0] - v_s  # noqa: E731
+    at_shift.terminal = True
+    at_target = lambda _t, y: y[0] - target  # noqa: E731
+    at_target.terminal = True
+    corner = lambda _t, y: y[0] - W_B * R / g_f  # noqa: E731  (the kink: an event, so the solver steps onto it)
+    s1 = solve_ivp(both, (0, 100), [0.0], events=at_shift, rtol=1e-13, atol=1e-13, method="DOP853")
+    s2 = solve_ivp(front_only, (0, 0.35), [v_s], events=[at_target, corner], rtol=1e-13, atol=1e-13,
+                   method="DOP853")
+    assert s2.t_events[0].size == 1  # the target is passed during the shift
+    t = s1.t_events[0][0] + s2.t_events[0][0]
+    assert res.time_s[0] == pytest.approx(t, rel=1e-8)

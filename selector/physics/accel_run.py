@@ -71,8 +71,11 @@ SHIFT_BISECT = 60
 """Resolution of a shift point: 2^-60 of the sample spacing [-]."""
 SHIFT_TIE = 1e-12
 """The next gear 'gives at least as much acceleration' when a_next >= a_now (1 - SHIFT_TIE) [-]."""
-SHIFT_RK_STEPS = 64
+SHIFT_RK_STEPS = 256
 """Runge-Kutta steps of a shift phase in which the other unit keeps driving [-]."""
+SHIFT_CROSS_NODES = 12
+"""Gauss-Legendre nodes of the time from the start of the Runge-Kutta step in which the target is
+passed during a shift phase to the target [-]."""
 
 _GL_CACHE: dict = {}
 
@@ -386,14 +389,28 @@ def _shift_phase(st: _State, which: str, v_start, target):
             k4 = f(v + h * k3)
             v_new = np.maximum(v + h / 6.0 * (k1 + 2 * k2 + 2 * k3 + k4), 0.0)
             crossed = np.isinf(hit) & (v < target[rows]) & (v_new >= target[rows])
-            with np.errstate(divide="ignore", invalid="ignore"):
-                frac = np.where(v_new > v, (target[rows] - v) / (v_new - v), 0.0)
-            hit = np.where(crossed, tt + frac * h, hit)
+            if crossed.any():
+                # the time from this step's start to the target in the speed domain, t = integral dv / a(v)
+                # (Gauss-Legendre on the short interval), not by interpolating the step linearly
+                c = np.nonzero(crossed)[0]
+                hit[c] = tt[c] + _time_between(_take_state(sub, c), v[c], target[rows][c])
             v = v_new
             tt = tt + h
         v_end[rows] = v
         t_hit[rows] = hit
     return v_end, t_hit
+
+
+def _time_between(st: _State, v_a, v_b) -> np.ndarray:
+    """Time to accelerate from ``v_a`` to ``v_b`` in one gear state, integral of dv / a(v) by
+    `SHIFT_CROSS_NODES`-point Gauss-Legendre (a > 0 on the interval: within one Runge-Kutta step of a
+    shift phase that ends above ``v_b``) [s]."""
+    x, w = gauss_legendre(SHIFT_CROSS_NODES)
+    half = 0.5 * (v_b - v_a)
+    v = (v_a + half)[:, None] + half[:, None] * x[None, :]
+    a = state_accel(st, v)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return half * np.sum(w[None, :] / a, axis=1)
 
 
 # ----------------------------------------------------------------------------------------- the run

@@ -240,3 +240,35 @@ def test_two_units_target_passed_during_a_shift_agrees_with_time_domain_ode():
     assert s2.t_events[0].size == 1  # the target is passed during the shift
     t = s1.t_events[0][0] + s2.t_events[0][0]
     assert res.time_s[0] == pytest.approx(t, rel=1e-8)
+
+
+def test_identical_units_shift_front_first_then_rear_after_the_front_shift():
+    # Two identical two-speed units (lossless ideal motors, no rotor inertia): both shift points are
+    # v_s = w_b r / G2 exactly, so rounding decided which unit went first, and the search and the re-check
+    # chose differently (found by an independent audit: exit 1). The rule: coinciding points go front first;
+    # the rear, whose point passed during the front's shift, shifts when it ends. Reference by solve_ivp,
+    # phase by phase: both in first gear; front shifting (rear in first); rear shifting (front in second);
+    # both in second to the target.
+    q, crr, g, t_s = 0.42, 0.011, 9.80665, 0.3
+    b = body(q=q, crr=crr)
+    u = unit([G1, G2], shift_s=t_s)
+    target = 38.0
+    res = accel_run(Axles(front=u, rear=u, radius_m=np.full(1, R)), b, np.full(1, target))
+    v_s = W_B * R / G2
+    assert res.shift_axle[0].tolist() == [0, 1]
+    assert res.shift_speed_mps[0, 0] == pytest.approx(v_s, rel=1e-9)
+
+    def phase(forces):
+        return lambda _t, y: [(sum(force(y[0], gr) for gr in forces) - M * g * crr - q * y[0] ** 2) / M]
+
+    at = lambda v: (lambda _t, y: y[0] - v)  # noqa: E731
+    e_s, e_t = at(v_s), at(target)
+    e_s.terminal = e_t.terminal = True
+    kw = {"rtol": 1e-13, "atol": 1e-13, "method": "DOP853"}
+    s1 = solve_ivp(phase([G1, G1]), (0, 100), [0.0], events=e_s, **kw)
+    s2 = solve_ivp(phase([G1]), (0, t_s), [v_s], **kw)
+    s3 = solve_ivp(phase([G2]), (0, t_s), [s2.y[0, -1]], **kw)
+    s4 = solve_ivp(phase([G2, G2]), (0, 100), [s3.y[0, -1]], events=e_t, **kw)
+    t = s1.t_events[0][0] + 2 * t_s + s4.t_events[0][0]
+    assert res.shift_speed_mps[0, 1] == pytest.approx(s2.y[0, -1], rel=1e-9)
+    assert res.time_s[0] == pytest.approx(t, rel=1e-8)

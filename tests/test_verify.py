@@ -221,3 +221,25 @@ def test_v_tyre_capacity_reduced_above_210_kmh(tmp_path):
     fig = V.recheck(parts, parts.single_keys([0], [0], [0]), m)[0]
     assert fig["tyre_load_capacity_kg"] == pytest.approx(615.0 * share, rel=1e-9)
     assert not fig["disagreements"]
+
+
+def test_identical_gearbox_units_pass_the_recheck(tmp_path):
+    # Found by an independent audit: the same two-speed unit on both axles (demo parts KM-M182 + SP-D50-110,
+    # invented data) reaches both shift points at the same speed; the search and the re-check let rounding
+    # decide which axle shifts first and disagreed on the time (exit 1). Both now shift the front first.
+    from pathlib import Path
+
+    from selector.api import open_study, simulate
+
+    cats = Path(__file__).resolve().parents[1] / "catalogs"
+    text = "\n".join([
+        'name = "Identical units (invented data)"', "[catalogs]",
+        *(f'{k} = "{(cats / f"{k}.csv").as_posix()}"' for k in ("motors", "reducers", "tyres")),
+        "[vehicle]", "mass_kg = 1520.0", "drag_area_m2 = 1.709", "wheelbase_m = 3.103", "cg_height_m = 0.403",
+        "rear_axle_share = 0.543", 'driven_axle = "both"', "tyre_count = 4",
+        "[environment]", "air_density_kg_m3 = 1.0158", "road_friction = 0.452",
+        "[requirements]", "accel_to_kmh = 109.817", "[drive]", "same_unit = true", ""])
+    (tmp_path / "p.toml").write_text(text, encoding="utf-8")
+    rec = simulate(open_study(tmp_path / "p.toml"), front_motor="KM-M182", front_reducer="SP-D50-110",
+                   rear_motor="KM-M182", rear_reducer="SP-D50-110", tyre="TR-T1406")
+    assert [s["axle"] for s in rec["shifts"]][:2] == ["front", "rear"]

@@ -29,6 +29,8 @@ ODE_ATOL = 1e-12
 """Absolute tolerance of solve_ivp in the re-check [m/s]."""
 SHIFT_TIE = 1e-12
 """A unit upshifts where a_next >= a_now - SHIFT_TIE |a_now| (the model's tie rule) [-]."""
+SHIFT_ORDER_TIE = 1e-9
+"""Shift points of two units within this share of each other: the front shifts first (the model's rule) [-]."""
 PROBE_REL = 1e-12
 """A restarted integration takes the regime found this fraction above the restart speed [-]."""
 LIMIT_EARLY_REL = 1e-10
@@ -198,13 +200,22 @@ def _integrate(veh: _Vehicle, gears: dict, engaged: dict, t0: float, v0: float, 
                             f"{MAX_RESTARTS} times")
 
 
+def _front_due(veh: _Vehicle, units: dict, gears: dict, holds, v: float) -> bool:
+    """True when the front unit's own shift point (its shift rule, or its forced shift at the gear's
+    speed limit) is within SHIFT_ORDER_TIE above ``v`` [m/s]."""
+    up = v * (1.0 + SHIFT_ORDER_TIE)
+    lim = _gear_limit(veh, units["front"], gears["front"]) * (1.0 - LIMIT_EARLY_REL)
+    return holds("front", up) or lim <= up
+
+
 def run_time_s(veh: _Vehicle, target: float, t_cap: float) -> float:
     """Time from rest to ``target`` [m/s] by solve_ivp in the time domain (inf if not reached by t_cap) [s].
 
     Every unit starts in first gear; a unit upshifts where its next gear gives at least as much
     acceleration from the motors, traction limits aside (an event on a_next - a_now) or at its gear's
     speed limit; during its shift time it gives no force and its rotor is decoupled (integrated as
-    well, `_shift`); no downshifts.
+    well, `_shift`); no downshifts. Two units never shift at once: a unit whose shift point passed
+    during the other's shift shifts when that one ends; coinciding points go front first.
     """
     units = veh.units
     cap = min(_gear_limit(veh, u, len(u.ratios) - 1) for u in units.values())
@@ -243,6 +254,8 @@ def run_time_s(veh: _Vehicle, target: float, t_cap: float) -> float:
             if what == "reach" or v >= target:
                 return t
             which = what
+            if which == "rear" and "front" in can and _front_due(veh, units, gears, holds, v):
+                which = "front"  # shift points within SHIFT_ORDER_TIE of each other: the front first
         reached, t, v = _shift(veh, gears, engaged, which, t, v, target)
         if reached:
             return t

@@ -8,6 +8,9 @@ m a h/L, best torque split). A run is a sequence of segments between shift event
   least as much vehicle acceleration as its current one (counting each gear's reflected rotor
   inertia, so the shift point is where a_g(v) = a_g+1(v)), or where its motor reaches its maximum
   speed in the current gear; exact ties shift at the earliest speed; no downshifts during the run.
+  Two units never shift at once: a unit whose shift point falls within the other's shift waits for
+  it to end and shifts then (if the target is not reached first); shift points within
+  `SHIFT_ORDER_TIE` of each other go front first (torque stays on one axle throughout).
   The gears are compared by what the motors can deliver (`state_motor_accel`), traction limits
   aside: while both gears are traction-limited the next gear would only shed rotor inertia, and its
   torque interruption would stall a launch (a shift at 0 km/h);
@@ -71,6 +74,9 @@ SHIFT_BISECT = 60
 """Resolution of a shift point: 2^-60 of the sample spacing [-]."""
 SHIFT_TIE = 1e-12
 """The next gear 'gives at least as much acceleration' when a_next >= a_now (1 - SHIFT_TIE) [-]."""
+SHIFT_ORDER_TIE = 1e-9
+"""Two units whose shift points are within this share of each other shift front first (then the rear,
+when the front's shift has ended) [-]."""
 SHIFT_RK_STEPS = 256
 """Runge-Kutta steps of a shift phase in which the other unit keeps driving [-]."""
 SHIFT_CROSS_NODES = 12
@@ -453,7 +459,8 @@ def _run_chunk(axles: Axles, body, target, res: RunResult, out_rows):
         finished = ~failed & (v_end >= v_t)
         res.time_s[out_rows[rows[finished]]] = t_new[finished]
         shifting = ~failed & ~finished
-        which_f = shifting & (shift_at["front"] <= shift_at["rear"])
+        # the front first when both shift points coincide to SHIFT_ORDER_TIE (identical units: rounding decides)
+        which_f = shifting & (shift_at["front"] <= shift_at["rear"] * (1.0 + SHIFT_ORDER_TIE))
         active[rows[failed | finished]] = False
         for which, mask in (("front", which_f), ("rear", shifting & ~which_f)):
             idx = np.nonzero(mask)[0]

@@ -243,3 +243,26 @@ def test_identical_gearbox_units_pass_the_recheck(tmp_path):
     rec = simulate(open_study(tmp_path / "p.toml"), front_motor="KM-M182", front_reducer="SP-D50-110",
                    rear_motor="KM-M182", rear_reducer="SP-D50-110", tyre="TR-T1406")
     assert [s["axle"] for s in rec["shifts"]][:2] == ["front", "rear"]
+
+
+def test_recheck_passes_an_axle_touching_its_friction_limit(tmp_path):
+    # Found by an independent audit (demo parts BI-M200 + FG-S45-044 front, BI-M200 + AT-T10-124 rear, invented
+    # data): near 6.69 km/h the rear axle's force touches its friction limit with zero slope, the slip event
+    # fired again at the same speed on every restart and the re-check gave up after 400 (exit 1). Reference:
+    # 11.754 s from the audit's own time-domain integration.
+    from pathlib import Path
+
+    from selector.api import open_study, simulate
+
+    cats = Path(__file__).resolve().parents[1] / "catalogs"
+    text = "\n".join([
+        'name = "Friction touch (invented data)"', "[catalogs]",
+        *(f'{k} = "{(cats / f"{k}.csv").as_posix()}"' for k in ("motors", "reducers", "tyres")),
+        "[vehicle]", "mass_kg = 2406.6", "drag_area_m2 = 0.925", "wheelbase_m = 3.358", "cg_height_m = 0.677",
+        "rear_axle_share = 0.53", 'driven_axle = "both"', "tyre_count = 4",
+        "[environment]", "air_density_kg_m3 = 1.0553", "road_friction = 0.898",
+        "[requirements]", "accel_to_kmh = 171.983", ""])
+    (tmp_path / "p.toml").write_text(text, encoding="utf-8")
+    rec = simulate(open_study(tmp_path / "p.toml"), front_motor="BI-M200", front_reducer="FG-S45-044",
+                   rear_motor="BI-M200", rear_reducer="AT-T10-124", tyre="GR-T1613")
+    assert rec["performance"]["accel_time_s"] == pytest.approx(11.754, abs=5e-4)  # audit's figure, 5 digits

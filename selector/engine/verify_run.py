@@ -36,6 +36,10 @@ PROBE_REL = 1e-12
 LIMIT_EARLY_REL = 1e-10
 """The forced shift at a gear's speed limit fires this fraction below it, so that an envelope corner
 at the same speed (decline speed = maximum speed) cannot end the gear's force first [-]."""
+STUCK_PROBE_GROWTH = 1000.0
+"""Each restart in a row without progress probes the next regime this many times further ahead [-]."""
+STUCK_PROBE_MAX = 1e-6
+"""... up to this share of the speed [-]."""
 MAX_RESTARTS = 400
 """Most regime changes of one integration phase before the re-check gives up (an internal error) [-]."""
 
@@ -68,10 +72,10 @@ class _Regime:
     slipping: frozenset
 
 
-def _regime_at(veh: _Vehicle, gears: dict, engaged: dict, v: float) -> _Regime:
-    """The regime just above speed v (probed `PROBE_REL` ahead, so a run restarted at a switch continues
+def _regime_at(veh: _Vehicle, gears: dict, engaged: dict, v: float, probe_rel: float = PROBE_REL) -> _Regime:
+    """The regime just above speed v (probed ``probe_rel`` ahead, so a run restarted at a switch continues
     in the new regime)."""
-    vp = v + PROBE_REL * max(v, 1.0)
+    vp = v + probe_rel * max(v, 1.0)
     branch = []
     forces = {}
     for name, u in veh.units.items():
@@ -164,6 +168,7 @@ def _integrate(veh: _Vehicle, gears: dict, engaged: dict, t0: float, v0: float, 
     from scipy.integrate import solve_ivp
 
     t, v = t0, v0
+    stuck = 0  # restarts in a row that made no progress in speed
     for _ in range(MAX_RESTARTS):
         # at a (re)start, an event whose condition already holds fires (e.g. a gear's speed limit that
         # coincides with an envelope corner), and a run that cannot accelerate here has stalled
@@ -172,7 +177,10 @@ def _integrate(veh: _Vehicle, gears: dict, engaged: dict, t0: float, v0: float, 
         for name, fn, _direction in events:
             if fn(v) >= 0.0:
                 return name, t, v
-        reg = _regime_at(veh, gears, engaged, v)
+        # where a switch keeps firing at the same speed (an axle's force touching its friction limit:
+        # the margin is zero there with zero slope), take the regime probed further ahead; both regimes
+        # give the same acceleration at the switch, so the time does not depend on the choice
+        reg = _regime_at(veh, gears, engaged, v, min(PROBE_REL * STUCK_PROBE_GROWTH ** stuck, STUCK_PROBE_MAX))
         if v > 0.0 and _regime_accel(veh, gears, engaged, reg, v)[0] <= 0.0:
             return "stall", t, v
 
@@ -195,6 +203,7 @@ def _integrate(veh: _Vehicle, gears: dict, engaged: dict, t0: float, v0: float, 
             return "end", float(sol.t[-1]), float(sol.y[0][-1])
         if best[0] != "regime":
             return best
+        stuck = stuck + 1 if best[2] <= v + PROBE_REL * max(v, 1.0) else 0
         t, v = best[1], best[2]
     raise VerificationError("internal error: the re-check's integration changed regime more than "
                             f"{MAX_RESTARTS} times")

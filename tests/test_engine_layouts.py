@@ -102,3 +102,22 @@ if __name__ == "__main__":
     cnt = int(sys.argv[3]) if len(sys.argv) > 3 else 1
     with tempfile.TemporaryDirectory() as tmp:
         print(compare(fam, sd, Path(tmp), cnt))
+
+
+@pytest.mark.parametrize("drive, message", [
+    ('same_unit = true\nfront_motors = ["HD-M124"]\nrear_motors = ["BI-M090"]', "have no motor in common"),
+    ("front_motors = []", "front_motors = []: an empty list allows no motor"),
+])
+def test_drive_rules_that_allow_no_design_are_input_errors(tmp_path, drive, message):
+    # found by an independent audit: answered "no design passes the part-rating checks ... add parts"
+    from pathlib import Path
+
+    from selector.api import open_study
+    from selector.errors import InputError
+
+    root = Path(__file__).resolve().parents[1]
+    text = (root / "problems" / "vineyard_awd.toml").read_text(encoding="utf-8")
+    text = text.replace("../catalogs/", (root / "catalogs").as_posix() + "/") + f"\n[drive]\n{drive}\n"
+    (tmp_path / "p.toml").write_text(text, encoding="utf-8")
+    with pytest.raises(InputError, match=message.replace("[", r"\[").replace("]", r"\]")):
+        open_study(tmp_path / "p.toml")

@@ -169,7 +169,17 @@ def _axle_motors(problem: Problem, motors: MotorArrays) -> dict:
                 raise InputError(f"{where}[drive] {axle}_motors: {name!r} is neither a motor part id nor a supplier "
                                  f"of the motor catalogue.{did} Fix the list.")
             keep |= hit
+        if not len(names):
+            where = f"{problem.path}: " if problem.path else ""
+            raise InputError(f"{where}[drive] {axle}_motors = []: an empty list allows no motor on the {axle} axle, "
+                             "so no design exists. Name the motors (part ids or suppliers) allowed there, or remove "
+                             "the key to allow every motor.")
         out[axle] = np.nonzero(keep)[0]
+    if problem.drive.same_unit and len(out) == 2 and not np.intersect1d(out["front"], out["rear"]).size:
+        where = f"{problem.path}: " if problem.path else ""
+        raise InputError(f"{where}[drive] same_unit = true fits the same motor on both axles, but front_motors and "
+                         "rear_motors have no motor in common, so no design exists. Allow a common motor on both "
+                         "axles, or set same_unit = false.")
     return out
 
 

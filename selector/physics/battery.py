@@ -161,8 +161,10 @@ def size_battery(consumption, range_km, specific_energy_wh_per_kg, usable_fracti
     smallest root when g crosses zero once between scan points, which holds for consumption
     linear or convex in mass. Where a scan step lands on a battery the design cannot drive with
     (consumption not finite: too heavy to follow the cycle; a heavier one cannot either), the
-    step is bisected between the last drivable battery and that one, down to `SCAN_RTOL`,
-    instead of growing on: a root below the drivable limit is not stepped over. Designs whose g
+    step is narrowed between the last drivable battery and that one instead of growing on (a root
+    below the drivable limit is not stepped over): by the secant through the last two drivable
+    points, whose root is a lower bound of g's for concave g (so none below the limit when it lies
+    beyond it), else by halving, down to `SCAN_RTOL`. Designs whose g
     stays < 0 up to the limit (or up to the drivable limit) are reported not found.
 
     Parameters
@@ -258,6 +260,8 @@ def _bracket(g: _Surplus, n: int, m_max: np.ndarray) -> _Bracket:
     p_ok = ~done0 & (g_p >= 0)
     hi[p_ok], g_hi[p_ok], c_hi[p_ok] = probe[p_ok], g_p[p_ok], c_p[p_ok]
     lo_p = ~done0 & ~p_ok & np.isfinite(g_p)
+    prev_lo, prev_g = np.full(n, np.nan), np.full(n, np.nan)  # the drivable point before lo (secant)
+    prev_lo[lo_p], prev_g[lo_p] = 0.0, g_lo[lo_p]
     lo[lo_p], g_lo[lo_p] = probe[lo_p], g_p[lo_p]
     m = start.copy()
     top = np.full(n, np.inf)  # least battery tried that the design cannot drive with
@@ -272,6 +276,7 @@ def _bracket(g: _Surplus, n: int, m_max: np.ndarray) -> _Bracket:
         active[idx[ok]] = False
         fin = np.isfinite(gm) & ~ok
         short = idx[fin]  # drivable, short of the range: the bracket's low end
+        prev_lo[short], prev_g[short] = lo[short], g_lo[short]
         lo[short], g_lo[short] = m[short], gm[fin]
         heavy = idx[~np.isfinite(gm)]  # too heavy to drive: the drivable limit is below
         top[heavy] = m[heavy]
@@ -280,7 +285,19 @@ def _bracket(g: _Surplus, n: int, m_max: np.ndarray) -> _Bracket:
         closed = halving & (top[left] - lo[left] <= SCAN_RTOL * top[left])
         active[left[closed]] = False
         bis = left[halving & ~closed]
-        m[bis] = 0.5 * (lo[bis] + top[bis])
+        # below the drivable limit: g lies under its secant through the last two drivable points (g concave,
+        # as assumed above), so the root is at or above the secant's root; none below the limit when the
+        # secant falls or reaches 0 only beyond it. Else the secant's root is the next try (at least a
+        # SCAN_RTOL step above lo), converging from below; at an undrivable try the limit is below the root.
+        with np.errstate(divide="ignore", invalid="ignore"):
+            slope = (g_lo[bis] - prev_g[bis]) / (lo[bis] - prev_lo[bis])
+            m_lin = lo[bis] - g_lo[bis] / slope
+        secant = np.isfinite(slope) & (lo[bis] > prev_lo[bis])
+        hopeless = secant & ((slope <= 0) | (m_lin >= top[bis]))
+        active[bis[hopeless]] = False
+        step = SCAN_RTOL * top[bis]
+        m[bis] = np.where(secant, np.minimum(np.maximum(m_lin, lo[bis] + step), top[bis] - step),
+                          0.5 * (lo[bis] + top[bis]))
         grow = left[~halving]
         at_max = m[grow] >= m_max[grow]
         active[grow[at_max]] = False

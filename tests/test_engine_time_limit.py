@@ -77,3 +77,27 @@ def test_block_cut_short_inside_its_chunks(monkeypatch):
     _check_stopped(parts, res, "accel_time")
     assert res.stats["blocks"] == 1
     assert 0 < res.stats["evaluated"] <= 4
+
+
+def test_two_unit_chunk_loop_stops_at_the_deadline(monkeypatch, tmp_path):
+    # A two-unit search whose clock check expires once designs have been evaluated: a block's chunk loop stops
+    # between chunks (found by fuzzing: an energy study ran 19 s on a 1 s limit), the status is time_limit and
+    # the bound includes the least bound of the chunks left; checked against enumeration.
+    import numpy as np
+
+    from selector.engine import two_units
+    from selector.synthetic import _all_keys, random_study
+
+    st = random_study(8100, tmp_path, sizes=(5, 5, 3), layout="both", objective="cost", requirement_share=0.5)
+    monkeypatch.setattr(two_units.TwoUnitSearch, "expired", lambda self: self.stats["evaluated"] > 0)
+    monkeypatch.setattr(two_units, "FIRST_CHUNK", 4)
+    res = engine.search(st.parts, "cost", time_limit_s=3600.0)
+    assert res.status == engine.STATUS_TIME_LIMIT and res.bound is not None
+    assert 0 < res.stats["evaluated"] <= 4
+    m = evaluate.evaluate(st.parts, _all_keys(st.parts))
+    ok = evaluate.feasible(st.parts, m, "cost")
+    optimum = float(np.min(m["cost"][ok]))
+    assert res.bound <= optimum * (1 + 1e-9)
+    if res.designs:
+        assert res.designs[0].value >= optimum * (1 - 1e-9)
+        verify_designs(st.parts, res.designs, "cost")

@@ -61,6 +61,7 @@ class TwoUnitSearch(TwoUnitBounds):
         self.count = count
         self.per_motor = per_motor
         self.deadline = deadline
+        self.cut_short = np.inf  # least bound of the designs a chunk loop left at the deadline
         self.stats = stats
         self.metric = OBJECTIVE_METRIC[objective]
         self.same = parts.problem.drive.same_unit
@@ -166,11 +167,17 @@ class TwoUnitSearch(TwoUnitBounds):
         key = ("two_unit_floor", self.objective, repr(replace(self.req, accel_time_s=None)), allowed)
         return self.parts.cache.setdefault(key, {})
 
+    def expired(self) -> bool:
+        """True once the search's deadline has passed."""
+        return self.deadline is not None and time.perf_counter() > self.deadline
+
     def _finish(self, status, heap_min):
         bound = None
+        if status == "optimal" and self.cut_short < np.inf:
+            status = "time_limit"  # a chunk loop stopped at the deadline
         if status == "time_limit":
             best = self.pool_vals.min() if self.pool_vals.size else np.inf
-            lo = min(heap_min, best)
+            lo = min(heap_min, best, self.cut_short)
             bound = float(lo) if np.isfinite(lo) else None
         order = order_best(self.pool_vals, self.pool_keys, self.count)
         designs: list[Design] = designs_of(self.pool_vals, self.pool_keys, order)
@@ -199,6 +206,9 @@ class TwoUnitSearch(TwoUnitBounds):
         while start < keys.shape[0]:
             kth = self.kth()
             if key_val[start] > kth + tie_tolerance(kth):
+                break
+            if start and self.expired():
+                self.cut_short = min(self.cut_short, float(key_val[start]))  # (sorted: the rest's least bound)
                 break
             stop = min(keys.shape[0], start + size)
             chunk = keys[start:stop]
@@ -265,7 +275,7 @@ class TwoUnitSearch(TwoUnitBounds):
         else:
             key_val = self._own_value(t, oi, t, oi, kk)
         self.stats["blocks"] += 1
-        if self.deadline is not None and time.perf_counter() > self.deadline:
+        if self.expired():
             return self._finish("time_limit", float(key_val.min()))
         self._evaluate(keys, key_val, fine=fine)
         return self._finish("optimal", np.inf)
@@ -330,7 +340,7 @@ class TwoUnitSearch(TwoUnitBounds):
             next_heap = heap[0][0] if heap else np.inf
             if (waiting >= order.size and not heap) or min(next_wait, next_heap) > limit:
                 break
-            if self.deadline is not None and time.perf_counter() > self.deadline:
+            if self.expired():
                 status = "time_limit"
                 break
             if waiting < order.size and next_wait <= next_heap:

@@ -263,3 +263,12 @@ def test_valid_files_do_not_warn():
         warnings.simplefilter("error")
         for kind in ("motors", "reducers", "tyres"):
             assert isinstance(load_catalog(kind, VALID / f"{kind}.csv"), pd.DataFrame)
+
+
+def test_low_efficiency_of_a_further_gear_warns(tmp_path):
+    # found by fuzzing: efficiency_2_pct = 2.5 passed silently while efficiency_pct = 10 warned
+    p = write(tmp_path, "r.csv", "part,supplier,ratio,efficiency_pct,max_input_torque_nm,max_input_speed_rpm,mass_kg,"
+              "unit_cost,lead_time_weeks,ratio_2,efficiency_2_pct,shift_time_s\n"
+              "R-1,Geartech,8,97,300,14000,14,620,5,5,2.5,0.3\n")
+    with pytest.warns(CatalogWarning, match=r'line 2 \(part "R-1"\): efficiency_2_pct = 2.5; below 80 %'):
+        load_catalog("reducers", p)

@@ -274,3 +274,9 @@ def test_readme_lists_every_problem_key_range():
         for key, (limits, usual) in keys.items():
             row = f"| `[{table}] {key}` | {TABLES[table][key].unit or '-'} | {span(limits)} | {span(usual)} |"
             assert row in readme, f"README lacks the range row: {row}"
+
+
+def test_energy_fractions_given_as_percent_warn(tmp_path):
+    # found by fuzzing: inverter_efficiency_pct = 0.97 (a fraction) passed without a word
+    with pytest.warns(ProblemWarning, match=r"inverter_efficiency_pct = 0.97; outside 80..100 \[%\], unusual"):
+        load_problem(minimal(tmp_path, '\n[energy]\ncycle = "udds"\ninverter_efficiency_pct = 0.97\n'))

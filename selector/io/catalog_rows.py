@@ -145,15 +145,16 @@ def _check_motor_mass(v: dict, loc: str):
 
 
 def _check_reducer(v: dict, loc: str):
-    """Unusual efficiency (a fraction instead of percent) and first-gear ratio."""
+    """Unusual efficiency of any gear (a fraction instead of percent) and first-gear ratio."""
     odd = []
-    eff = v["efficiency_pct"]
-    if eff < EFFICIENCY_WARN_PCT:
-        hint = (" It looks like a fraction; efficiency_pct is in percent (96 means 96 %)." if eff <= 1
+    for col in ("efficiency_pct", "efficiency_2_pct", "efficiency_3_pct"):
+        eff = v.get(col)
+        if eff is None or not eff == eff or not eff < EFFICIENCY_WARN_PCT:  # (empty cells are NaN or absent)
+            continue
+        hint = (f" It looks like a fraction; {col} is in percent (96 means 96 %)." if eff <= 1
                 else " Check the value.")
         a, b = distinct_numbers(eff, EFFICIENCY_WARN_PCT)
-        odd.append(f"{loc}: efficiency_pct = {a}; below {b} %, unusual for a "
-                   f"reducer.{hint}")
+        odd.append(f"{loc}: {col} = {a}; below {b} %, unusual for a reducer.{hint}")
     lo, hi = RATIO_WARN
     if not lo <= v["ratio"] <= hi:
         a, b, c = distinct_numbers(v["ratio"], lo, hi)

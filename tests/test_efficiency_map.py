@@ -157,9 +157,13 @@ def test_energy_study_names_motors_without_loss_data_and_points_outside_a_map(tm
 
     path = _energy_study(tmp_path)
     assert run(["check", str(path)]) == 0
-    out = capsys.readouterr().out
+    captured = capsys.readouterr()
+    out = captured.out
+    assert 'efficiency_map = "small.csv" reaches 12000 rpm and 60 N m' in captured.err
     assert "1 motor without loss data" in out and "M-NONE" in out and "M-LOSS" not in out.split("loss data")[1]
-    study = open_study(path)
+    # the map that ends at 60 N m is warned about when the catalogue is read (found by fuzzing: silent before)
+    with pytest.warns(CatalogWarning, match=r'"M-MAP"\): efficiency_map = "small.csv" reaches 12000 rpm and 60 N m'):
+        study = open_study(path)
     rec = simulate(study, motor="M-NONE", reducer="R-1", tyre="T-1")
     assert not rec["feasible"] and "motor_loss_data" in [u["name"] for u in rec["unmet"]]
     rec = simulate(study, motor="M-MAP", reducer="R-1", tyre="T-1")
@@ -167,3 +171,13 @@ def test_energy_study_names_motors_without_loss_data_and_points_outside_a_map(tm
     assert "efficiency_map" in why and "outside the motor's efficiency map" in why["efficiency_map"]
     rec = simulate(study, motor="M-LOSS", reducer="R-1", tyre="T-1")
     assert not {"motor_loss_data", "efficiency_map"} & {u["name"] for u in rec["unmet"]}
+
+
+def test_map_with_implausible_efficiency_warns(tmp_path):
+    from selector.synthetic_files import motor_row, write_csv
+
+    lines = ["speed_rpm,torque_nm,efficiency_pct"] + [f"{w},{t},99.5" for w in (0, 6000, 12000) for t in (0, 125, 250)]
+    (tmp_path / "perfect.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    write_csv(tmp_path / "motors.csv", "motors", [motor_row("M-1", efficiency_map="perfect.csv")])
+    with pytest.warns(CatalogWarning, match=r"has efficiencies up to 99.5 %; at or above 99 %"):
+        load_catalog("motors", tmp_path / "motors.csv")

@@ -30,6 +30,7 @@ from selector.io.catalog_rows import LOSS_COLUMNS, check_row
 from selector.io.efficiency_map import load_efficiency_map
 from selector.io.schema import KINDS, SOURCE_ROW, Column, columns
 from selector.physics.tyres import load_capacity_kg, parse_tyre_size, speed_rating_kmh, unloaded_diameter_m
+from selector.units import RPM_TO_RAD_S
 
 __all__ = ["LOSS_COLUMNS", "CatalogWarning", "distinct_numbers", "load_catalog", "load_catalogs",
            "motor_loss_models"]
@@ -165,7 +166,7 @@ def _load(kind: str, schema: tuple[Column, ...], path: Path, disp: str):
         raise InputError(report(disp, kind, errors))
     grids = None
     if kind == "motors":
-        grids = _load_efficiency_maps(typed, lines, path, disp, errors)
+        grids = _load_efficiency_maps(typed, lines, path, disp, errors, odd)
         if errors:
             raise InputError(report(disp, kind, errors))
 
@@ -231,8 +232,16 @@ def _typed_row(schema, rec: dict, part: str, loc: str, errors: list[str]):
     return vals, row_ok
 
 
-def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, errors: list[str]) -> list:
-    """Load the efficiency map of every motor row that names one (each file once); collect errors."""
+MAP_COVER_WARN = 0.99
+"""A map reaching less than this share of its motor's maximum speed or peak torque is warned about [-]."""
+MAP_EFFICIENCY_WARN = 0.99
+"""A map efficiency at or above this is warned about (no traction motor reaches it) [-]."""
+
+
+def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, errors: list[str],
+                          odd: list[str]) -> list:
+    """Load the efficiency map of every motor row that names one (each file once); collect errors, and
+    warnings for a map that does not cover its motor's envelope or has implausibly high efficiencies."""
     grids: list = []
     loaded: dict[Path, object] = {}
     for line, part, given in zip(lines, typed["part"], typed[MAP_COLUMN], strict=False):
@@ -253,7 +262,25 @@ def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, 
             grids.append(None)
         else:
             grids.append(got)
+            odd += _map_findings(got, location(disp, line, part or ""), given, typed, len(grids) - 1)
     return grids
+
+
+def _map_findings(grid, loc: str, given: str, typed: dict, row: int) -> list[str]:
+    """Warnings for one motor's map: coverage of its envelope, efficiencies at or above `MAP_EFFICIENCY_WARN`."""
+    out = []
+    w_max = float(typed["max_speed_rpm"][row]) * RPM_TO_RAD_S
+    t_max = float(typed["peak_torque_nm"][row])
+    reach_w, reach_t = float(grid.speed_rad_s[-1]), float(grid.torque_nm[-1])
+    if reach_w < MAP_COVER_WARN * w_max or reach_t < MAP_COVER_WARN * t_max:
+        out.append(f"{loc}: {MAP_COLUMN} = \"{given}\" reaches {reach_w / RPM_TO_RAD_S:.6g} rpm and {reach_t:.6g} N m, "
+                   f"the motor's envelope {w_max / RPM_TO_RAD_S:.6g} rpm and {t_max:.6g} N m; operating points "
+                   "beyond the map make a design fail an energy study (a map is never extrapolated). Check the map.")
+    top = float(np.nanmax(grid.efficiency))
+    if top >= MAP_EFFICIENCY_WARN:
+        out.append(f"{loc}: {MAP_COLUMN} = \"{given}\" has efficiencies up to {100 * top:.6g} %; at or above "
+                   f"{100 * MAP_EFFICIENCY_WARN:g} %, unusual for a traction motor. Check the map.")
+    return out
 
 
 

@@ -59,8 +59,11 @@ def test_cost_frontier_equals_enumeration(seed, tmp_path):
     assert len(got) == len(expected), (got, expected)
     for (c, t), (ce, te) in zip(got, expected, strict=True):
         assert math.isclose(c, ce, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)
-    # one exact sweep (single-axle studies), or two searches per point plus the final infeasible one
-    assert stats["searches"] == (1 if stats.get("method") == "sweep" else 2 * len(pts) + 1)
+    # one exact sweep (single-axle studies), or one search per point (more where designs tie) plus the last
+    if stats.get("method") == "sweep":
+        assert stats["searches"] == 1
+    else:
+        assert stats["searches"] >= len(pts) + 1
     # each point's own design has the reported cost and time (exact re-evaluation)
     for c, t, d in pts:
         m = evaluate.evaluate(s.parts, [d.key])

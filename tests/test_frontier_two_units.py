@@ -1,7 +1,7 @@
 """The exact frontier of two-unit studies against exhaustive enumeration (invented random studies).
 
-The two-unit frontier is traced by epsilon-constraint searches that share option tables and the
-proved optima of earlier min-cost searches (`TwoUnitSearch._floor_memo`); the oracle evaluates every
+The two-unit frontier is traced by epsilon-constraint searches, one per point, that share option tables
+and the proved optima of earlier min-cost searches (`TwoUnitSearch._floor_memo`); the oracle evaluates every
 (front unit, rear unit, tyre) design with the exact physics and filters the non-dominated set from
 the definition (no other design at most as costly and at most as slow, better on one).
 """
@@ -61,7 +61,7 @@ def test_two_unit_cost_frontier_equals_enumeration(layout, seed, tmp_path):
     assert len(got) == len(expected) >= 2, (got, expected)
     for (c, t), (ce, te) in zip(got, expected, strict=True):
         assert math.isclose(c, ce, rel_tol=2 * REL) and math.isclose(t, te, rel_tol=2 * REL)
-    assert stats["searches"] == 2 * len(pts) + 1
+    assert stats["searches"] >= len(pts) + 1  # one search per point (more where designs tie), the last infeasible
 
 
 def pareto_with_ties(parts: PartTables, axis_metric: str) -> list[tuple[float, float]]:

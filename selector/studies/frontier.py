@@ -5,23 +5,24 @@ A design is on the frontier when it meets every requirement of the problem excep
 time), and no other such design is both cheaper (or equally cheap) and faster (or equally fast),
 with one of the two strictly.
 
-The frontier is traced with the exact engine, two searches per point:
+The frontier is traced with the exact engine, point by point:
 
-1. min cost subject to time <= t_cap (t_cap = "any finite time" at first) -> c;
-2. min time subject to cost <= c (1 + 1e-9) (and the problem's own budget) -> point (c, t);
+1. the least cost subject to time <= t_cap (t_cap = "any finite time" at first) -> c;
+2. the fastest design of cost c (within 1e-9; and within the problem's own budget) -> point (c, t):
+   the designs cheaper than c are all slower than t_cap, so it is the fastest of cost <= c;
 3. t_cap = t (1 - 3e-9), strictly faster than the last point; repeat until step 1 is infeasible.
 
-Every search is exact (`engine.search`), so the frontier is exact: each point is the fastest
-design at its cost, and no design with a cost between two consecutive points is faster than
-the cheaper of them. Times within 2e-9 relative (the pass tolerance on both sides of
-``t_cap``) count as equal, as do costs within 2e-9. Every point is verified by the
+A single-axle study without [energy] does this in one sweep (`engine.frontier_sweep`). Two-unit and
+energy studies do steps 1 and 2 in one exact search per point: the least-cost designs under the
+cap, as many as tie on cost (``count`` `TIED_FIRST`, doubled while every returned design ties),
+and of those the fastest by exact evaluation. Every search is exact (`engine.search`), so the
+frontier is exact: each point is the fastest design at its cost, and no design with a cost
+between two consecutive points is faster than the cheaper of them. Times within 2e-9 relative (the
+pass tolerance on both sides of ``t_cap``) count as equal, as do costs within 2e-9. Every point is verified by the
 independent physics re-check (`api.records`). With ``axis="mass"`` the same holds for the
 vehicle mass and ``max_mass_kg`` instead of the cost and ``budget``.
-
 With ``axis="energy"`` (studies with an [energy] table) the axis is the energy per km at the
-battery, which no requirement limits, so one search per point does both steps: the least-energy
-designs under the time cap, as many as are tied on energy (``count`` doubled until the last one is
-not tied), and of those the fastest is the point.
+battery, traced the same way.
 """
 
 from __future__ import annotations
@@ -108,8 +109,6 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
     _requirements_check(study, axis)
     parts = study.parts
     t0 = time.perf_counter()
-    if axis == "energy":
-        return _trace_energy(study, time_limit_s, t0)
     if not parts.two_units and parts.problem.energy is None and not any(
             a is not None and len(a) == 0 for a in study.allowed.values()):
         return _trace_sweep(study, axis, time_limit_s, t0)
@@ -119,7 +118,8 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
 def _base_and_limit(study: Study, axis: str):
     """The requirements without accel_time_s, and the problem's own budget (or max_mass_kg) [currency or kg]."""
     req0 = study.parts.problem.requirements
-    return replace(req0, accel_time_s=None), getattr(req0, AXES[axis][1])
+    limit_key = AXES[axis][1]
+    return replace(req0, accel_time_s=None), None if limit_key is None else getattr(req0, limit_key)
 
 
 def _trace_sweep(study: Study, axis: str, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
@@ -140,56 +140,22 @@ def _trace_sweep(study: Study, axis: str, time_limit_s: float | None, t0: float)
 
 
 def _trace_searches(study: Study, axis: str, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
-    """`trace` by the two exact searches per point of the module docstring (two-unit and energy studies)."""
-    objective, limit_key, _, _, _ = AXES[axis]
+    """`trace` by one exact search per point (two-unit and energy studies; module docstring)."""
+    objective = AXES[axis][0]
     parts = study.parts
-    base, own_limit = _base_and_limit(study, axis)
+    base, _ = _base_and_limit(study, axis)  # (the problem's own budget or max_mass_kg stays in base)
     t_cap = ANY_FINITE_TIME_S
     points, searches = [], 0
     session = SearchSession()  # slices and models shared by every search below (they differ only in limits)
-    # Each loop adds one point with a strictly larger axis value and strictly smaller time,
-    # so it ends after at most (number of designs) loops.
+    # Each loop adds one point strictly faster than the last, so it ends after at most (designs) loops.
     while True:
-        cheapest = search(parts, objective=objective, requirements=replace(base, accel_time_s=t_cap),
-                          allowed=study.allowed, time_limit_s=time_limit_s, session=session)
-        searches += 1
-        _check_status(cheapest, f"min {objective}")
-        if cheapest.status == STATUS_INFEASIBLE:
-            break
-        value = cheapest.designs[0].value
-        limit = value * (1.0 + LIMIT_SLACK)
-        if own_limit is not None:
-            limit = min(limit, own_limit)
-        fastest = search(parts, objective="accel_time", requirements=replace(base, **{limit_key: limit}),
-                         allowed=study.allowed, time_limit_s=time_limit_s, session=session)
-        searches += 1
-        _check_status(fastest, "min accel_time")
-        if fastest.status == STATUS_INFEASIBLE:  # cannot happen: the cheapest design qualifies
-            raise SelectorError("frontier: the fastest-design search found nothing where the cheapest-design "
-                                "search found a design; please report this bug")
-        best = fastest.designs[0]
-        t = best.value
-        points.append((float(value), float(t), best))
-        t_cap = t * (1.0 - STRICTLY_FASTER)
-    # axis value of each point is the design's own (may differ from the cheapest design's by ties)
-    return points, {"searches": searches, "elapsed_s": round(time.perf_counter() - t0, 3)}
-
-
-def _trace_energy(study: Study, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
-    """`trace` on the energy axis: one exact search per point (module docstring)."""
-    parts = study.parts
-    base, _ = _base_and_limit(study, "cost")
-    t_cap = ANY_FINITE_TIME_S
-    points, searches = [], 0
-    session = SearchSession()
-    count = TIED_FIRST
-    while True:  # each loop adds a point strictly faster than the last, so it ends
         req = replace(base, accel_time_s=t_cap)
+        count = TIED_FIRST
         while True:
-            res = search(parts, objective="energy", count=count, requirements=req, allowed=study.allowed,
+            res = search(parts, objective=objective, count=count, requirements=req, allowed=study.allowed,
                          time_limit_s=time_limit_s, session=session)
             searches += 1
-            _check_status(res, "min energy")
+            _check_status(res, f"min {objective}")
             tied = [d for d in res.designs if d.value <= res.designs[0].value + tie_tolerance(res.designs[0].value)]
             if len(tied) < count:
                 break

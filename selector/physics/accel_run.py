@@ -47,6 +47,7 @@ from selector.physics.drivetrain import (
     take_fields,
     unit_force_n,
 )
+from selector.physics.road import coast_speed_mps
 from selector.units import G_N
 
 GL_NODES = 20
@@ -335,28 +336,6 @@ def _shift_point(st: _State, which: str, v_lo, v_hi):
         s1, s2 = _take_state(st, rows), _take_state(nxt, rows)
         _, out[rows] = refine_first_true(lambda v: holds(s1, s2, v), vs[rows, first[rows] - 1],
                                          vs[rows, first[rows]], SHIFT_BISECT)
-    return out
-
-
-def coast_speed_mps(v_start, t_s, mass_kg, a0_n, q_n_s2_m2):
-    """Speed after coasting t_s seconds from v_start against road load a0 + q v^2 [m/s] (closed form).
-
-    m dv/dt = -(a0 + q v^2): v = sqrt(a0/q) tan(atan(v0 sqrt(q/a0)) - t sqrt(a0 q)/m), stopping at 0;
-    v0 / (1 + q v0 t/m) without rolling resistance; v0 - a0 t/m without drag.
-    """
-    v0 = np.asarray(v_start, dtype=float)
-    a0 = np.asarray(a0_n, dtype=float) + 0.0 * v0
-    q = np.asarray(q_n_s2_m2, dtype=float) + 0.0 * v0
-    m = np.asarray(mass_kg, dtype=float) + 0.0 * v0
-    t = np.asarray(t_s, dtype=float) + 0.0 * v0
-    with np.errstate(divide="ignore", invalid="ignore"):
-        k = np.sqrt(a0 / q)
-        both = k * np.tan(np.arctan(v0 / k) - t * np.sqrt(a0 * q) / m)
-        stop_both = t * np.sqrt(a0 * q) / m >= np.arctan(v0 / k)
-        aero = v0 / (1.0 + q * v0 * t / m)
-        rolling = v0 - a0 * t / m
-    out = np.where((a0 > 0) & (q > 0), np.where(stop_both, 0.0, both),
-                   np.where(q > 0, aero, np.where(a0 > 0, np.maximum(rolling, 0.0), v0)))
     return out
 
 

@@ -285,25 +285,34 @@ def _bracket(g: _Surplus, n: int, m_max: np.ndarray) -> _Bracket:
         closed = halving & (top[left] - lo[left] <= SCAN_RTOL * top[left])
         active[left[closed]] = False
         bis = left[halving & ~closed]
-        # below the drivable limit: g lies under its secant through the last two drivable points (g concave,
-        # as assumed above), so the root is at or above the secant's root; none below the limit when the
-        # secant falls or reaches 0 only beyond it. Else the secant's root is the next try (at least a
-        # SCAN_RTOL step above lo), converging from below; at an undrivable try the limit is below the root.
-        with np.errstate(divide="ignore", invalid="ignore"):
-            slope = (g_lo[bis] - prev_g[bis]) / (lo[bis] - prev_lo[bis])
-            m_lin = lo[bis] - g_lo[bis] / slope
-        secant = np.isfinite(slope) & (lo[bis] > prev_lo[bis])
-        hopeless = secant & ((slope <= 0) | (m_lin >= top[bis]))
-        active[bis[hopeless]] = False
-        step = SCAN_RTOL * top[bis]
-        m[bis] = np.where(secant, np.minimum(np.maximum(m_lin, lo[bis] + step), top[bis] - step),
-                          0.5 * (lo[bis] + top[bis]))
+        m[bis], give_up = _next_below_limit(bis, lo, g_lo, prev_lo, prev_g, top)
+        active[bis[give_up]] = False
         grow = left[~halving]
         at_max = m[grow] >= m_max[grow]
         active[grow[at_max]] = False
         grow = grow[~at_max]
         m[grow] = np.minimum(m[grow] * SCAN_FACTOR, m_max[grow])
     return br
+
+
+def _next_below_limit(bis, lo, g_lo, prev_lo, prev_g, top) -> tuple[np.ndarray, np.ndarray]:
+    """Next battery to try for the designs ``bis`` whose root lies below a drivable limit in (lo, top)
+    [kg], and which of them have none there.
+
+    g lies under its secant through the last two drivable points (g concave, as `size_battery`
+    assumes), so the root is at or above the secant's root: none below the limit when the secant
+    falls or reaches 0 only beyond it. Otherwise the secant's root is the next try (at least a
+    `SCAN_RTOL` step inside the bracket), converging from below; where the secant is not defined yet,
+    the middle of the bracket.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = (g_lo[bis] - prev_g[bis]) / (lo[bis] - prev_lo[bis])
+        m_lin = lo[bis] - g_lo[bis] / slope
+    secant = np.isfinite(slope) & (lo[bis] > prev_lo[bis])
+    give_up = secant & ((slope <= 0) | (m_lin >= top[bis]))
+    step = SCAN_RTOL * top[bis]
+    nxt = np.where(secant, np.minimum(np.maximum(m_lin, lo[bis] + step), top[bis] - step), 0.5 * (lo[bis] + top[bis]))
+    return nxt, give_up
 
 
 def _illinois(g: _Surplus, br: _Bracket, found: np.ndarray, rtol: float, max_iter: int) -> None:

@@ -83,7 +83,7 @@ def test_missing_folder(tmp_path):
 
 def test_path_is_a_folder(tmp_path):
     (tmp_path / "out.csv").mkdir()
-    with pytest.raises(InputError, match="is a folder"):
+    with pytest.raises(InputError, match=r"is a folder. Give the name of a file, e.g. .*out-1\.csv"):
         export.write_csv(tmp_path / "out.csv", SHEET)
     assert listing(tmp_path) == ["out.csv"] and listing(tmp_path / "out.csv") == []
 

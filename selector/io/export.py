@@ -98,7 +98,9 @@ def check_output_path(path, protected=(), option: str = "--out", formats: dict |
             raise InputError(f"{option} {path}: this is an input file of the study ({q}); selector never "
                              "overwrites its inputs. Choose another output file name.")
     if absolute.is_dir():
-        raise InputError(f"{option} {path}: is a folder. Give a file name, e.g. {Path(path) / 'shortlist.xlsx'}.")
+        q = Path(path)  # (its extension is a known format: checked above)
+        raise InputError(f"{option} {path}: is a folder. Give the name of a file, e.g. "
+                         f"{q.with_name(f'{q.stem}-1{q.suffix}')}.")
     parent = absolute.parent
     if not parent.exists():
         raise InputError(f"{option} {path}: the folder {parent} does not exist. Create it first or choose "

@@ -72,3 +72,15 @@ def cli_json(runs: dict, capsys, *argv) -> dict:
         assert code == 0, err
         runs[key] = out
     return json.loads(runs[key])
+
+
+def demo_catalogue_study(tmp_path: Path, name: str, tables: list[str]):
+    """A study on the demo catalogues (invented data): a problem file named ``name`` with the TOML lines
+    ``tables`` ([vehicle], [environment], ... tables and keys), loaded with `selector.api.open_study`."""
+    from selector.api import open_study
+
+    head = [f'name = "{name} (invented data)"', "[catalogs]",
+            *(f'{k} = "{(ROOT / "catalogs" / f"{k}.csv").as_posix()}"' for k in ("motors", "reducers", "tyres"))]
+    path = tmp_path / "problem.toml"
+    path.write_text("\n".join([*head, *tables, ""]), encoding="utf-8")
+    return open_study(path)

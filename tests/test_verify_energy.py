@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from generators import random_study
 
-from selector.api import open_study
+from selector.api import design_from_ids, open_study
 from selector.engine.energy import energy_metrics
 from selector.engine.evaluate import evaluate
 from selector.engine.parts import FM, FR, RM, RR, TY
@@ -179,19 +179,15 @@ def test_map_motor_gearbox_with_rounding_ties_passes_the_recheck(tmp_path):
     # Found by an independent audit: the demo map motor KM-M118 with the three-speed AT-T10-124 on the FTP-75,
     # where gears tie at zero power (braking below regen_min_speed_kmh) and on the map's plateaus; the two
     # computations broke the ties by the last digits differently and disagreed on regen_share (exit 1)
-    text = "\n".join([
-        'name = "Rounding ties (invented data)"', "[catalogs]",
-        *(f'{k} = "{(ROOT / "catalogs" / f"{k}.csv").as_posix()}"' for k in ("motors", "reducers", "tyres")),
+    from conftest import demo_catalogue_study
+
+    parts = demo_catalogue_study(tmp_path, "Rounding ties", [
         "[vehicle]", "mass_kg = 1786.4", "drag_area_m2 = 0.840", "wheelbase_m = 3.0", "cg_height_m = 0.595",
         "rear_axle_share = 0.464", 'driven_axle = "rear"', "tyre_count = 4",
         "[environment]", "air_density_kg_m3 = 1.2451", "road_friction = 0.609",
         "[energy]", 'cycle = "ftp75"', "range_km = 447.2", "specific_energy_wh_per_kg = 140.8",
-        "cost_per_kwh = 184.8", "regen_max_kw = 67.9", "regen_min_speed_kmh = 5.28", ""])
-    (tmp_path / "p.toml").write_text(text, encoding="utf-8")
-    parts = open_study(tmp_path / "p.toml").parts
-    ids = {"motors": "KM-M118", "reducers": "AT-T10-124", "tyres": "AW-T2220"}
-    pos = {k: int(np.flatnonzero(getattr(parts, k).part == v)[0]) for k, v in ids.items()}
-    keys = np.array([[-1, -1, pos["motors"], pos["reducers"], pos["tyres"]]], dtype=np.int64)
+        "cost_per_kwh = 184.8", "regen_max_kw = 67.9", "regen_min_speed_kmh = 5.28"]).parts
+    keys = np.array([design_from_ids(parts, motor="KM-M118", reducer="AT-T10-124", tyre="AW-T2220").key])
     m = evaluate(parts, keys)
     assert np.isfinite(m["energy_wh_per_km"][0])
     assert energy_disagreements(parts, keys, m) == []
@@ -203,9 +199,7 @@ def test_battery_at_a_jump_of_the_consumption_is_the_smallest_that_covers(tmp_pa
     # battery covering 200 km covers 200.14 km; the re-check once demanded the fixed point u E = R c and
     # rejected it (exit 1). Checked here against the cycle recomputation: covers, and 1e-6 less does not.
     parts = open_study(ROOT / "problems" / "delivery_van_energy.toml").parts
-    ids = {"motors": "LA-M097", "reducers": "AT-T10-124", "tyres": "AW-T2221"}
-    pos = {k: int(np.flatnonzero(getattr(parts, k).part == v)[0]) for k, v in ids.items()}
-    keys = np.array([[-1, -1, pos["motors"], pos["reducers"], pos["tyres"]]], dtype=np.int64)
+    keys = np.array([design_from_ids(parts, motor="LA-M097", reducer="AT-T10-124", tyre="AW-T2221").key])
     m = evaluate(parts, keys)
     assert energy_disagreements(parts, keys, m) == []
     e, range_km = parts.problem.energy, parts.problem.requirements.range_km

@@ -263,10 +263,9 @@ def _bracket(g: _Surplus, n: int, m_max: np.ndarray) -> _Bracket:
     prev_lo, prev_g = np.full(n, np.nan), np.full(n, np.nan)  # the drivable point before lo (secant)
     prev_lo[lo_p], prev_g[lo_p] = 0.0, g_lo[lo_p]
     lo[lo_p], g_lo[lo_p] = probe[lo_p], g_p[lo_p]
-    m = start.copy()
     top = np.full(n, np.inf)  # least battery tried that the design cannot drive with
     top[~done0 & ~p_ok & ~np.isfinite(g_p)] = probe[~done0 & ~p_ok & ~np.isfinite(g_p)]
-    m = np.where(np.isfinite(top), 0.5 * (lo + top), m)
+    m = np.where(np.isfinite(top), 0.5 * (lo + top), start)  # (a probe the design cannot drive: halve)
     active = ~done0 & ~p_ok & np.isfinite(g_lo)
     while active.any():
         idx = np.flatnonzero(active)

@@ -450,6 +450,7 @@ def problem_summary(study: Study) -> dict:
            "parts": dict(zip(("motors", "reducers", "tyres"), parts.sizes, strict=False)),
            "combinations": int(parts.combinations),
            "after_procurement_filters": {k: int(len(v)) for k, v in study.allowed.items()},
+           "combinations_in_play": parts.combinations_in_play(study.allowed),
            "requirements": req, "objective": p.objective,
            "air_density_kg_m3": clean(p.environment.air_density_kg_m3),
            "path": str(Path(p.path)) if p.path else None}

@@ -45,6 +45,8 @@ def _toml_value(v) -> str:
         return "true" if v else "false"
     if isinstance(v, (int, np.integer)):
         return str(int(v))
+    if isinstance(v, (list, tuple)):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
     f = float(v)
     if not math.isfinite(f):
         raise ValueError(f"cannot write {f!r} to TOML")

@@ -452,3 +452,20 @@ def test_two_unit_shortlist_xlsx_rows_per_axle(same, tmp_path):
     bom_head, *bom = list(wb["BOM"].values)
     motor_lines = [r for r in bom if r[bom_head.index("item")] == "motor (both axles)"]
     assert len(motor_lines) == len(rows) and all(r[bom_head.index("quantity_per_vehicle")] == 2 for r in motor_lines)
+
+
+@pytest.mark.parametrize("same_unit", [False, True])
+def test_check_counts_the_designs_in_play(tmp_path, same_unit):
+    # Project convention: `combinations` counts every catalogue choice; `combinations_in_play` only those
+    # that pass the procurement filter and the [drive] motor filters, counted here by enumeration.
+    motors = MOTORS + [motor_row("M-C", supplier="Far Away Motors", lead_time_weeks=20)]
+    path = write_study(tmp_path, drive={"same_unit": same_unit, "front_motors": ["M-A", "M-C"]}, motors=motors)
+    path.write_text(path.read_text() + "\n[procurement]\nmax_lead_time_weeks = 10\n")
+    s = problem_summary(open_study(path))
+    ok = [m["part"] for m in motors if m["lead_time_weeks"] <= 10]
+    front = [m for m in ok if m in ("M-A", "M-C")]
+    units_f = [(m, r["part"]) for m in front for r in REDUCERS]
+    units_r = [(m, r["part"]) for m in ok for r in REDUCERS]
+    designs = [(f, r, t["part"]) for f in units_f for r in units_r for t in TYRES if not same_unit or f == r]
+    assert s["combinations"] == (3 * 3) ** (1 if same_unit else 2) * 2
+    assert s["combinations_in_play"] == len(designs) == (3 * 2 if same_unit else 3 * 6 * 2)

@@ -76,7 +76,9 @@ def _cmd_check(args) -> int:
                  + ("; the same unit on both axles (same_unit)" if lay["same_unit"] else "")
                  + "; motors allowed per axle: " + ", ".join(f"{a} {n}" for a, n in lay["motors_per_axle"].items())
                  + f"; multi-speed reducers in the catalogue: {lay['multi_speed_reducers']}")
-    lines.append(f"combinations: {s['combinations']:,}")
+    lines.append(f"combinations: {s['combinations']:,}"
+                 + (f" ({s['combinations_in_play']:,} after the procurement, [drive] and loss-data filters)"
+                    if s["combinations_in_play"] != s["combinations"] else ""))
     lines.append(f"air density: {fmt(s['air_density_kg_m3'])} kg/m^3")
     lines.append(f"objective: minimise {s['objective']}")
     lines.append("requirements: " + (", ".join(f"{k} = {fmt(v)}" for k, v in s["requirements"].items()) or "none"))

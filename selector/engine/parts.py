@@ -267,6 +267,23 @@ class PartTables:
             return units * n_t
         return units * units * n_t
 
+    def combinations_in_play(self, allowed: dict) -> int:
+        """Number of designs the study can choose from [-]: `combinations` after the procurement filter
+        (``allowed`` positions per catalogue), the [drive] motor filters per axle and, in an energy
+        study, without the motors that have no loss data."""
+        motors = np.asarray(allowed["motors"], dtype=np.int64)
+        if self.problem.energy is not None:
+            motors = motors[self.motors.has_loss_model[motors]]
+        per_axle = [motors if a not in self.axle_motors else np.intersect1d(motors, self.axle_motors[a])
+                    for a in self.axles]
+        n_r, n_t = len(allowed["reducers"]), len(allowed["tyres"])
+        if self.two_units and self.problem.drive.same_unit:
+            return len(np.intersect1d(*per_axle)) * n_r * n_t
+        out = n_t
+        for m in per_axle:
+            out *= len(m) * n_r
+        return int(out)
+
     def subset(self, motors=None, reducers=None, tyres=None) -> "PartTables":
         """The tables restricted to some rows (positions, in part-id order); the [drive] motor filters
         are mapped to the new positions. Used to build small models over the parts still in play."""

@@ -169,7 +169,8 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
     axis : str
         "cost", "mass" or "energy" (the energy per km at the battery; studies with [energy]) [-].
     time_limit_s : float, optional
-        Wall-clock limit of each search [s]; reaching it is an error (the frontier would not be exact).
+        Wall-clock limit of the whole frontier [s]; when reached, the status is "time_limit" and the
+        designs are the exact frontier's first points from the low end of the axis.
 
     Returns
     -------

@@ -232,13 +232,14 @@ class ExplainResult(Result):
 class FrontierResult(Result):
     """The exact cost (or mass, or energy per km) versus acceleration-time frontier (`selector.frontier`).
 
-    ``status``: "optimal" (the frontier is exact and has points) or "infeasible" (no design meets
-    the other requirements and reaches accel_to_kmh). ``designs``: the points, by the axis value.
+    ``status``: "optimal" (the frontier is exact and has points), "infeasible" (no design meets
+    the other requirements and reaches accel_to_kmh) or "time_limit" (the time limit stopped the
+    tracing: the points are the exact frontier's first ones). ``designs``: the points, by the axis value.
     """
 
     @property
     def status(self) -> str:
-        return "optimal" if self._data["points"] else "infeasible"
+        return self._data["status"]
 
     @property
     def designs(self) -> list[dict]:

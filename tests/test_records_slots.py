@@ -469,3 +469,47 @@ def test_check_counts_the_designs_in_play(tmp_path, same_unit):
     designs = [(f, r, t["part"]) for f in units_f for r in units_r for t in TYRES if not same_unit or f == r]
     assert s["combinations"] == (3 * 3) ** (1 if same_unit else 2) * 2
     assert s["combinations_in_play"] == len(designs) == (3 * 2 if same_unit else 3 * 6 * 2)
+
+
+def test_frontier_time_limit_keeps_the_exact_points_traced(awd, monkeypatch):
+    # Project convention: a frontier stopped by its time limit lists the exact frontier's first points
+    # (from the low end of the axis) with status "time_limit". The limit is simulated by letting the
+    # third search stop, so the test does not depend on the machine's speed.
+    import selector.studies.frontier as fr
+    from selector.engine.search import SearchResult
+
+    study = open_study(awd)
+    whole = frontier(study)
+    assert whole["status"] == "optimal" and len(whole["points"]) >= 3
+    real, calls = fr.search, []
+
+    def stops_at_the_third(*args, **kw):
+        calls.append(kw.get("time_limit_s"))
+        if len(calls) == 3:
+            return SearchResult(status="time_limit", objective=kw.get("objective") or "cost")
+        return real(*args, **kw)
+
+    monkeypatch.setattr(fr, "search", stops_at_the_third)
+    part = frontier(study, time_limit_s=3600.0)
+    assert part["status"] == "time_limit"
+    # time was left for the problem's own optimum; on_frontier is True only if it is among the points
+    # traced, else unknown (None), never False
+    assert part["chosen"]["on_frontier"] in (True, None)
+    assert {k: v for k, v in part["chosen"].items() if k != "on_frontier"} == \
+        {k: v for k, v in whole["chosen"].items() if k != "on_frontier"}
+    assert 1 <= len(part["points"]) < len(whole["points"])
+    key = lambda q: (q["cost"], q["accel_time_s"], q["tyre"], [(u["motor"], u["reducer"]) for u in q["units"]])  # noqa: E731
+    assert [key(q) for q in part["points"]] == [key(q) for q in whole["points"][:len(part["points"])]]
+    assert all(0.0 < left <= 3600.0 for left in calls)  # each search gets what is left of the whole limit
+    assert run(["frontier", str(awd), "--time-limit", "1e-9"]) == 0  # nothing traced: an honest empty answer
+
+
+def test_frontier_time_limit_on_a_single_axle_sweep(tmp_path, capsys):
+    # The one-sweep frontier of a single-axle study has no exact point until it ends: none are listed.
+    path = write_study(tmp_path, driven_axle="rear")
+    res = frontier(open_study(path), time_limit_s=1e-9)
+    assert res["status"] == "time_limit" and res["points"] == [] and res["chosen"] is None
+    assert run(["frontier", str(path), "--time-limit", "1e-9"]) == 0
+    out = capsys.readouterr().out
+    assert "stopped at the time limit after 0 points" in out and "frontier is empty" not in out
+    assert frontier(open_study(path))["status"] == "optimal"

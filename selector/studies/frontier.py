@@ -40,7 +40,7 @@ from selector.engine.search import (
     SearchSession,
     search,
 )
-from selector.errors import InputError, SelectorError
+from selector.errors import InputError
 from selector.records import clean
 from selector.requirements import REL_TOL, passes
 
@@ -63,10 +63,6 @@ LIMIT_SLACK = REL_TOL
 """Relative slack on the cost (or mass) limit of the min-time search [-]."""
 
 
-class FrontierTimeLimit(SelectorError):
-    """A search of the frontier hit its time limit (the frontier would not be exact)."""
-
-
 TIED_FIRST = 4
 """Least-energy designs asked for first by a point of the energy frontier (doubled while all are tied) [-]."""
 
@@ -86,10 +82,17 @@ def _requirements_check(study: Study, axis: str):
                          "Add accel_to_kmh [km/h] to the [requirements] table.")
 
 
-def _check_status(res, what: str):
-    if res.status not in (STATUS_OPTIMAL, STATUS_INFEASIBLE):
-        raise FrontierTimeLimit(f"the {what} search stopped at its time limit; the frontier would not be exact. "
-                                "Rerun without time_limit_s or with a longer one.")
+STATUS_COMPLETE = "complete"
+"""Frontier status: every point traced, the frontier is exact and whole."""
+
+STATUS_TIME_LIMIT = "time_limit"
+"""Frontier status: the time limit stopped the tracing; the points listed are exact frontier points, from
+the low end of the axis, and the frontier beyond the last one is not traced."""
+
+
+def _remaining_s(deadline: float | None) -> float | None:
+    """Seconds left before ``deadline`` (time.perf_counter), None without one [s]."""
+    return None if deadline is None else deadline - time.perf_counter()
 
 
 def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -> tuple[list, dict]:
@@ -98,21 +101,23 @@ def trace(study: Study, axis: str = "cost", time_limit_s: float | None = None) -
     Parameters
     ----------
     study : the loaded study (procurement filters apply)
-    axis : "cost" or "mass" [-]
-    time_limit_s : wall-clock limit of each search [s] (None = none)
+    axis : "cost", "mass" or "energy" [-]
+    time_limit_s : wall-clock limit of the whole tracing [s] (None = none)
 
     Returns
     -------
     (points, stats): points as (axis value, accel time, `selector.design.Design`), ordered by the
-    axis value (increasing) and the time (decreasing); stats {"searches", "elapsed_s"}.
+    axis value (increasing) and the time (decreasing); stats {"status", "searches", "elapsed_s"}.
+    With status `STATUS_TIME_LIMIT` the points are the exact frontier's first points (possibly none).
     """
     _requirements_check(study, axis)
     parts = study.parts
     t0 = time.perf_counter()
+    deadline = None if time_limit_s is None else t0 + time_limit_s
     if not parts.two_units and parts.problem.energy is None and not any(
             a is not None and len(a) == 0 for a in study.allowed.values()):
-        return _trace_sweep(study, axis, time_limit_s, t0)
-    return _trace_searches(study, axis, time_limit_s, t0)
+        return _trace_sweep(study, axis, deadline, t0)
+    return _trace_searches(study, axis, deadline, t0)
 
 
 def _base_and_limit(study: Study, axis: str):
@@ -122,60 +127,69 @@ def _base_and_limit(study: Study, axis: str):
     return replace(req0, accel_time_s=None), None if limit_key is None else getattr(req0, limit_key)
 
 
-def _trace_sweep(study: Study, axis: str, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
-    """`trace` of a single-axle, non-energy study: one exact sweep (`engine.frontier_sweep`)."""
+def _trace_sweep(study: Study, axis: str, deadline: float | None, t0: float) -> tuple[list, dict]:
+    """`trace` of a single-axle, non-energy study: one exact sweep (`engine.frontier_sweep`); a sweep
+    stopped by ``deadline`` (time.perf_counter) has no exact point to give."""
     from selector.engine.frontier_sweep import sweep_frontier
 
     base, own_limit = _base_and_limit(study, axis)
-    deadline = None if time_limit_s is None else t0 + time_limit_s
     res = sweep_frontier(study.parts, AXES[axis][0], base, study.allowed, own_limit, ANY_FINITE_TIME_S,
                          STRICTLY_FASTER, LIMIT_SLACK, deadline)
+    elapsed = round(time.perf_counter() - t0, 3)
     if res is None:
-        raise FrontierTimeLimit("the frontier sweep stopped at its time limit; the frontier would not be exact. "
-                                "Rerun without time_limit_s or with a longer one.")
+        return [], {"status": STATUS_TIME_LIMIT, "method": "sweep", "searches": 1, "elapsed_s": elapsed}
     pts, st = res
     points = [(v, t, Design.of(t, key)) for v, t, key in pts]
-    return points, {"method": "sweep", "searches": 1, "elapsed_s": round(time.perf_counter() - t0, 3),
+    return points, {"status": STATUS_COMPLETE, "method": "sweep", "searches": 1, "elapsed_s": elapsed,
                     "evaluated": st["evaluated"]}
 
 
-def _trace_searches(study: Study, axis: str, time_limit_s: float | None, t0: float) -> tuple[list, dict]:
+def _trace_searches(study: Study, axis: str, deadline: float | None, t0: float) -> tuple[list, dict]:
     """`trace` by one exact search per point (two-unit and energy studies; module docstring)."""
     objective = AXES[axis][0]
     parts = study.parts
     base, _ = _base_and_limit(study, axis)  # (the problem's own budget or max_mass_kg stays in base)
     t_cap = ANY_FINITE_TIME_S
-    points, searches = [], 0
+    points, searches, status = [], 0, STATUS_COMPLETE
     session = SearchSession()  # slices and models shared by every search below (they differ only in limits)
     # Each loop adds one point strictly faster than the last, so it ends after at most (designs) loops.
     while True:
         req = replace(base, accel_time_s=t_cap)
         count = TIED_FIRST
         while True:
+            left = _remaining_s(deadline)
+            if left is not None and left <= 0.0:
+                status = STATUS_TIME_LIMIT
+                break
             res = search(parts, objective=objective, count=count, requirements=req, allowed=study.allowed,
-                         time_limit_s=time_limit_s, session=session)
+                         time_limit_s=left, session=session)
             searches += 1
-            _check_status(res, f"min {objective}")
+            if res.status not in (STATUS_OPTIMAL, STATUS_INFEASIBLE):
+                status = STATUS_TIME_LIMIT
+                break
             tied = [d for d in res.designs if d.value <= res.designs[0].value + tie_tolerance(res.designs[0].value)]
             if len(tied) < count:
                 break
             count *= 2
-        if res.status == STATUS_INFEASIBLE:
+        if status == STATUS_TIME_LIMIT or res.status == STATUS_INFEASIBLE:
             break
         times = evaluate(parts.with_requirements(req), [d.key for d in tied])["accel_time_s"]
         n = int(min(range(len(tied)), key=lambda q: (times[q], q)))  # the fastest; ties in the search's order
         best = Design(float(times[n]), tied[n].key)
         points.append((float(tied[n].value), best.value, best))
         t_cap = best.value * (1.0 - STRICTLY_FASTER)
-    return points, {"searches": searches, "elapsed_s": round(time.perf_counter() - t0, 3)}
+    return points, {"status": status, "searches": searches, "elapsed_s": round(time.perf_counter() - t0, 3)}
 
 
-def _chosen(study: Study, time_limit_s: float | None):
-    """The problem's own optimum (its objective and all its requirements), or None if infeasible."""
+def _chosen(study: Study, time_limit_s: float | None) -> tuple[Design | None, bool]:
+    """The problem's own optimum (its objective and all its requirements), or None if infeasible, and
+    whether its search ran to proof (False: no time left, or the time limit stopped it; design None)."""
+    if time_limit_s is not None and time_limit_s <= 0.0:
+        return None, False
     res = search(study.parts, allowed=study.allowed, time_limit_s=time_limit_s)
-    if res.status != STATUS_OPTIMAL or not res.designs:
-        return None
-    return res.designs[0]
+    if res.status not in (STATUS_OPTIMAL, STATUS_INFEASIBLE):
+        return None, False
+    return (res.designs[0] if res.status == STATUS_OPTIMAL and res.designs else None), True
 
 
 def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None) -> dict:
@@ -185,28 +199,39 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
     ``axis_unit``, ``accel_to_kmh``, ``requirement`` (the problem's accel_time_s [s] or None),
     ``points`` (ordered by the axis value; each a verified design record plus ``accel_time_s``,
     ``meets_accel_time_s`` and ``chosen``), ``chosen`` (the problem's optimum design ids with its
-    cost, mass and time, and ``on_frontier``; None when the problem is infeasible) and
-    ``search`` (searches, elapsed_s).
+    cost, mass and time, and ``on_frontier``; None when the problem is infeasible or the time limit
+    left no time for it), ``status`` ("optimal": the whole exact frontier; "infeasible": it is empty;
+    "time_limit": ``time_limit_s`` [s], the wall-clock limit of the whole frontier, stopped the tracing
+    and ``points`` are the exact frontier's first points from the low end of the axis) and ``search``
+    (searches, elapsed_s).
     """
     _requirements_check(study, axis)
     _, limit_key, key, label, unit = AXES[axis]
     parts = study.parts
     problem = parts.problem
     req_t = problem.requirements.accel_time_s
+    t_start = time.perf_counter()
     pts, stats = trace(study, axis, time_limit_s)
+    status = stats.pop("status")
     base_parts = replace(parts, problem=replace(problem, requirements=replace(problem.requirements,
                                                                               accel_time_s=None)))
     designs = [Design(t, d.key) for _, t, d in pts]
     recs = records(base_parts, designs, "accel_time")
     t0 = time.perf_counter()
-    chosen_ids = _chosen(study, time_limit_s)
-    stats["searches"] += 1
+    left = None if time_limit_s is None else time_limit_s - (t0 - t_start)
+    chosen_ids, proved = _chosen(study, left)
+    stats["searches"] += int(left is None or left > 0.0)
+    if not proved:
+        status = STATUS_TIME_LIMIT
     stats["elapsed_s"] = round(stats["elapsed_s"] + time.perf_counter() - t0, 3)
-    chosen = None if chosen_ids is None else _chosen_record(parts, chosen_ids, recs, key)
+    chosen = None if chosen_ids is None else _chosen_record(parts, chosen_ids, recs, key,
+                                                            status == STATUS_COMPLETE)
     out_points = [_point_record(rec, t_exact, req_t, chosen) for rec, (_, t_exact, _) in zip(recs, pts, strict=False)]
+    if status == STATUS_COMPLETE:
+        status = STATUS_OPTIMAL if pts else STATUS_INFEASIBLE
     out = header(parts)
     out.update({
-        "axis": axis, "axis_key": key, "axis_label": label, "axis_unit": unit,
+        "status": status, "axis": axis, "axis_key": key, "axis_label": label, "axis_unit": unit,
         "accel_to_kmh": clean(problem.requirements.accel_to_kmh),
         "requirement": clean(req_t),
         "limit": {"name": limit_key,
@@ -221,8 +246,9 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
     return out
 
 
-def _chosen_record(parts, chosen_ids: Design, recs: list[dict], key: str) -> dict:
-    """The problem's optimum as the frontier result's ``chosen`` (ids, cost, mass, time, ``on_frontier``)."""
+def _chosen_record(parts, chosen_ids: Design, recs: list[dict], key: str, complete: bool = True) -> dict:
+    """The problem's optimum as the frontier result's ``chosen`` (ids, cost, mass, time, ``on_frontier``;
+    None when it is not among the points of a frontier the time limit stopped: not known)."""
     m = evaluate(parts, [chosen_ids.key])
     two = chosen_ids.two_units
     units = [{"axle": a, "motor": str(parts.motors.part[i]), "reducer": str(parts.reducers.part[r])}
@@ -235,6 +261,8 @@ def _chosen_record(parts, chosen_ids: Design, recs: list[dict], key: str) -> dic
         chosen["energy_wh_per_km"] = clean(m["energy_wh_per_km"][0])
     chosen["on_frontier"] = any(_same(_axis_value(r, key), chosen[key])
                                 and _same(r["performance"]["accel_time_s"], chosen["accel_time_s"]) for r in recs)
+    if not chosen["on_frontier"] and not complete:
+        chosen["on_frontier"] = None
     chosen["units"] = units
     return chosen
 

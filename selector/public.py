@@ -188,7 +188,8 @@ def frontier(study: Study, axis: str = "cost", time_limit_s: float | None = None
 
 
 def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], workers: int | None = None,
-          scheduler: str | None = None, progress: bool = False, large: bool = False) -> SweepResult:
+          scheduler: str | None = None, progress: bool = False, large: bool = False,
+          time_limit_s: float | None = None) -> SweepResult:
     """Re-solve a study exactly over a grid of problem values.
 
     Parameters
@@ -208,6 +209,9 @@ def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], wor
     large : bool
         Allow grids above `selector.studies.sweep.LARGE_POINTS` points and more local workers than
         CPU cores (otherwise an error asks for it).
+    time_limit_s : float, optional
+        Wall-clock limit of each point's search [s]; a point that reaches it has status "time_limit"
+        and the best design found (or none).
 
     Returns
     -------
@@ -226,7 +230,8 @@ def sweep(study: Study, vary: Mapping[str, Sequence[float]] | Sequence[str], wor
     if study.catalogs is None:
         raise InputError("study: has no catalogues attached; make it with open_study or Study.from_frames.")
     return SweepResult(sweep_problem(study.problem, study.catalogs, vary, workers=workers, scheduler=scheduler,
-                                     progress=progress, source=study.problem_dict, large=large))
+                                     progress=progress, source=study.problem_dict, large=large,
+                                     time_limit_s=_time_limit(time_limit_s)))
 
 
 def shortlist(study: Study, count: int, distinct: str | None = None, vehicles: int = 1,

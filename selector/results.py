@@ -256,16 +256,14 @@ class FrontierResult(Result):
 class SweepResult(Result):
     """Exact re-solves over a grid of problem values (`selector.sweep`).
 
-    ``status``: "optimal" when every point is, "infeasible" when none is, else "mixed" (the rows
-    keep their own status). ``designs``: the rows (one per grid point, grid order).
+    ``status``: the rows' status when they all share it ("optimal", "infeasible" or "time_limit"),
+    else "mixed" (the rows keep their own status). ``designs``: the rows (one per grid point, grid order).
     """
 
     @property
     def status(self) -> str:
         st = {r["status"] for r in self._data["rows"]}
-        if st == {"optimal"}:
-            return "optimal"
-        return "infeasible" if "optimal" not in st else "mixed"
+        return st.pop() if len(st) == 1 else "mixed"
 
     @property
     def designs(self) -> list[dict]:

@@ -234,3 +234,39 @@ def test_cli_json_csv_and_plot(tmp_path, capsys):
     ok = [r for r in rows if r["status"] == "optimal"]
     assert line.get_xydata().tolist() == [[r["requirements.top_speed_kmh"], r["objective"]] for r in ok]
     assert not [p for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
+
+
+def test_time_limited_points_keep_the_best_design_found(monkeypatch, capsys):
+    # Project convention: a point stopped by --time-limit has status time_limit and shows its incumbent.
+    # The stop is simulated (the real search runs, its answer is relabelled) so the test does not
+    # depend on the machine's speed; every search must receive the limit.
+    import selector.engine.search as engine_search
+    from selector.engine.search import SearchResult
+
+    real, limits = engine_search.search, []
+
+    def stopped_above_110(parts, **kw):
+        limits.append(kw.get("time_limit_s"))
+        res = real(parts, **kw)
+        if parts.problem.requirements.top_speed_kmh > 110:
+            return SearchResult(status="time_limit", objective=res.objective, designs=res.designs,
+                                bound=0.0, reason="time limit reached; gap not closed")
+        return res
+
+    vary = ["requirements.top_speed_kmh=100:120:2"]
+    whole = sweep(VAN, vary, workers=1)
+    monkeypatch.setattr(engine_search, "search", stopped_above_110)
+    res = sweep(VAN, vary, workers=1, time_limit_s=30.0)
+    assert limits == [30.0, 30.0]
+    assert [r["status"] for r in res["rows"]] == ["optimal", "time_limit"]
+    assert res["time_limit"] == 1 and res["infeasible"] == 0
+    stopped, full = res["rows"][1], whole["rows"][1]
+    assert stopped["reason"] == "time limit reached; gap not closed"
+    assert {k: v for k, v in stopped.items() if k not in ("status", "reason")} == \
+        {k: v for k, v in full.items() if k not in ("status", "reason")}
+    assert "time_limit" in to_csv(res)
+    assert run(["sweep", VAN, "--vary", vary[0], "--workers", "1", "--time-limit", "30"]) == 0
+    assert "1 stopped at the time limit" in capsys.readouterr().out
+    from selector.results import SweepResult
+
+    assert SweepResult(res).status == "mixed" and SweepResult(whole).status == "optimal"

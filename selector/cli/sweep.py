@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import sys
 
-from selector.cli.args import add_common, positive_int
+from selector.cli.args import add_common, positive_float, positive_int
 from selector.errors import InputError
 from selector.records import CAUTION, fmt, table
 
@@ -23,6 +23,9 @@ def setup(p):
     p.add_argument("--scheduler", metavar="ADDRESS", help="run on a Dask cluster, e.g. tcp://host:8786")
     p.add_argument("--large", action="store_true",
                    help="allow a grid above 5,000 points or more --workers than CPU cores")
+    p.add_argument("--time-limit", type=positive_float, metavar="SECONDS",
+                   help="wall-clock limit of each point's search; a point that reaches it has status time_limit "
+                        "and shows the best design found")
 
 
 def handle(args) -> int:
@@ -54,14 +57,9 @@ def handle(args) -> int:
             check_out(args.out, protected, formats=csv_only)
         if args.plot is not None:
             check_output_path(args.plot, protected=protected)
-        protected = (problem.path, *problem.catalog_paths.values())  # never overwrite an input
-        if args.out is not None:
-            check_out(args.out, protected, formats=csv_only)
-        if args.plot is not None:
-            check_output_path(args.plot, protected=protected)
     progress = args.format == "table" and sys.stderr.isatty()
     result = sweep(study, args.vary, workers=args.workers, scheduler=args.scheduler, progress=progress,
-                   large=args.large)
+                   large=args.large, time_limit_s=args.time_limit)
     if args.out is not None:
         text = to_csv(result.data)
         atomic_write(args.out, lambda tmp: Path(tmp).write_text(text, encoding="utf-8", newline=""),
@@ -92,7 +90,9 @@ def render(res: dict) -> str:
     lines = [res["problem"],
              f"sweep of {len(res['rows'])} points ({' x '.join(str(q['n']) for q in res['parameters'])}), "
              f"minimise {obj['minimize']} [{obj['unit']}], each solved exactly and verified; "
-             f"{res['infeasible']} infeasible; {r['elapsed_s']:.1f} s ({how})"]
+             f"{res['infeasible']} infeasible; "
+             + (f"{res['time_limit']} stopped at the time limit (best design found shown); " if res["time_limit"] else "")
+             + f"{r['elapsed_s']:.1f} s ({how})"]
     lines += [f"note: {n}" for n in res["notes"]]
     lines.append("")
     rows = []

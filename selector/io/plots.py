@@ -451,10 +451,12 @@ def sweep_plot(result: dict, path):
                 ax.annotate("\n".join(changed), (r[first], r["objective"]), textcoords="offset points",
                             xytext=(4, 6), fontsize=6, color=color)
             prev = ids
-    infeasible = sum(r["status"] != "optimal" for r in result["rows"])
+    infeasible = sum(r["status"] == "infeasible" for r in result["rows"])
+    stopped = sum(r["status"] == "time_limit" for r in result["rows"])
     ax.set_xlabel(f"{first} [{result['parameters'][0]['unit']}]")
     ax.set_ylabel(f"optimal {obj['minimize']} [{obj['unit']}]")
-    note = f"; {infeasible} infeasible point{'s' if infeasible != 1 else ''} not drawn" if infeasible else ""
+    note = "".join(f"; {n} {what} point{'s' if n != 1 else ''} not drawn"
+                   for n, what in ((infeasible, "infeasible"), (stopped, "time-limited")) if n)
     ax.set_title(f"{result['problem']}\nsweep of {len(result['rows'])} points{note}; diamonds: chosen parts change",
                  fontsize=10)
     ax.grid(True, alpha=0.3)

@@ -89,7 +89,8 @@ def _init_worker(problem: Problem, catalogs: Catalogs) -> None:
     _CATALOGS[_catalog_key(problem)] = catalogs
 
 
-def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> dict:
+def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None,
+                time_limit_s: float | None = None) -> dict:
     """Solve one grid point exactly and verify it (the worker; picklable, returns a plain dict).
 
     Parameters
@@ -97,18 +98,19 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
     problem : `study.Problem`, or the path of a problem file
     overrides : {dotted key: value} of this point (see `apply_overrides`)
     catalogs : the study's catalogues (default: read once per process from the problem's paths)
+    time_limit_s : wall-clock limit of the point's search [s] (None = none)
 
     Returns
     -------
-    dict with the override values, then status ("optimal" | "infeasible"), objective (value),
-    motor, reducer, tyre, cost, mass_kg, accel_time_s (None where not applicable), and reason
-    (infeasible points); a two-unit study's rows have null motor and reducer and name the units in
+    dict with the override values, then status ("optimal" | "infeasible" | "time_limit"), objective
+    (value), motor, reducer, tyre, cost, mass_kg, accel_time_s (None where not applicable; at a time
+    limit those of the best design found, if any), and reason (points that are not optimal); a two-unit study's rows have null motor and reducer and name the units in
     front_motor, front_reducer, rear_motor, rear_reducer; an energy study's rows add
     energy_wh_per_km [Wh/km], battery_kwh [kWh], battery_mass_kg [kg] and battery_cost [currency].
     """
     from selector.api import procurement_filter, records
     from selector.engine.parts import PartTables
-    from selector.engine.search import STATUS_OPTIMAL, search
+    from selector.engine.search import STATUS_INFEASIBLE, STATUS_OPTIMAL, search
     from selector.records import clean
 
     if not isinstance(problem, Problem):
@@ -121,11 +123,11 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
     parts = PartTables.build(prob, catalogs)
     allowed, _ = procurement_filter(parts)
     with _SOLVE_LOCK:
-        res = search(parts, allowed=allowed)
+        res = search(parts, allowed=allowed, time_limit_s=time_limit_s)
     row = {k: float(v) for k, v in overrides.items()}
     row.update(dict.fromkeys(columns(prob)))
     row["status"] = res.status
-    if res.status == STATUS_OPTIMAL and res.designs:
+    if res.status != STATUS_INFEASIBLE and res.designs:
         best = res.designs[0]
         rec = records(parts, [best], res.objective)[0]
         row.update({"objective": clean(best.value), "motor": rec["motor"], "reducer": rec["reducer"],
@@ -136,7 +138,7 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None) -> d
                 row[f"{u['axle']}_motor"], row[f"{u['axle']}_reducer"] = u["motor"], u["reducer"]
         if rec.get("energy"):
             row.update({c: rec["energy"][k] for c, k in ENERGY_COLUMNS.items()})
-    else:
+    if res.status != STATUS_OPTIMAL:
         row["reason"] = res.reason
     return row
 
@@ -152,29 +154,31 @@ def _progress(total: int, enabled: bool):
 
 
 def run_points(problem: Problem, catalogs: Catalogs, points: list[dict], workers: int | None = None,
-               scheduler: str | None = None, progress: bool = False) -> tuple[list[dict], dict]:
+               scheduler: str | None = None, progress: bool = False,
+               time_limit_s: float | None = None) -> tuple[list[dict], dict]:
     """Rows of every grid point, in grid order, and how they ran.
 
     ``workers``: local processes (default os.cpu_count(); 1 = in this process). ``scheduler``:
     address of a Dask scheduler (``tcp://host:8786``); then the cluster's workers run the points.
+    ``time_limit_s``: wall-clock limit of each point's search [s].
     """
     n = len(points)
     bar = _progress(n, progress)
     t0 = time.perf_counter()
     try:
         if scheduler:
-            rows, runner = _run_dask(problem, catalogs, points, scheduler, bar)
+            rows, runner = _run_dask(problem, catalogs, points, scheduler, bar, time_limit_s)
         else:
             workers = max(1, min(workers or os.cpu_count() or 1, n))
             if workers == 1:
                 rows = []
                 for pt in points:
-                    rows.append(sweep_point(problem, pt, catalogs))
+                    rows.append(sweep_point(problem, pt, catalogs, time_limit_s))
                     if bar is not None:
                         bar.update(1)
                 runner = {"mode": "serial", "workers": 1}
             else:
-                rows = _run_processes(problem, catalogs, points, workers, bar)
+                rows = _run_processes(problem, catalogs, points, workers, bar, time_limit_s)
                 runner = {"mode": "processes", "workers": workers}
     finally:
         if bar is not None:
@@ -214,14 +218,14 @@ def stop_pool(ex) -> None:
             pass
 
 
-def _run_processes(problem, catalogs, points, workers, bar) -> list[dict]:
+def _run_processes(problem, catalogs, points, workers, bar, time_limit_s) -> list[dict]:
     from concurrent.futures import ProcessPoolExecutor, as_completed
     from concurrent.futures.process import BrokenProcessPool
 
     rows = [None] * len(points)
     ex = ProcessPoolExecutor(max_workers=workers, initializer=_init_pool_worker, initargs=(problem, catalogs))
     try:
-        futures = {ex.submit(sweep_point, problem, pt): n for n, pt in enumerate(points)}
+        futures = {ex.submit(sweep_point, problem, pt, None, time_limit_s): n for n, pt in enumerate(points)}
         for fut in as_completed(futures):
             rows[futures[fut]] = fut.result()
             if bar is not None:
@@ -238,7 +242,7 @@ def _run_processes(problem, catalogs, points, workers, bar) -> list[dict]:
     return rows
 
 
-def _run_dask(problem, catalogs, points, address, bar) -> tuple[list[dict], dict]:
+def _run_dask(problem, catalogs, points, address, bar, time_limit_s) -> tuple[list[dict], dict]:
     try:
         from distributed import Client, as_completed
     except ImportError as exc:  # pragma: no cover - dask[distributed] is a dependency
@@ -252,7 +256,7 @@ def _run_dask(problem, catalogs, points, address, bar) -> tuple[list[dict], dict
     with client:
         n_workers = len(client.scheduler_info().get("workers", {}))
         cat = client.scatter(catalogs, broadcast=True)
-        futures = [client.submit(sweep_point, problem, pt, cat, pure=False) for pt in points]
+        futures = [client.submit(sweep_point, problem, pt, cat, time_limit_s, pure=False) for pt in points]
         try:
             for _ in as_completed(futures):
                 if bar is not None:
@@ -274,14 +278,14 @@ def _run_dask(problem, catalogs, points, address, bar) -> tuple[list[dict], dict
 
 
 def sweep(problem_path, vary, workers: int | None = None, scheduler: str | None = None,
-          progress: bool = False, large: bool = False) -> dict:
+          progress: bool = False, large: bool = False, time_limit_s: float | None = None) -> dict:
     """Run a sweep given the problem file and ``vary`` (see `parse_varies`); the JSON-ready result.
 
     Keys: the common head (selector_version, problem, problem_file, caution), ``objective``
     {minimize, unit}, ``parameters`` [{key, unit, start, stop, n, values}], ``columns`` (row keys in
     order), ``rows`` (one per grid point, grid order), ``infeasible`` (count), ``notes`` and
     ``runner`` (mode, workers, elapsed_s). ``large``: allow grids above `LARGE_POINTS` points and more
-    local workers than CPU cores.
+    local workers than CPU cores. ``time_limit_s``: wall-clock limit of each point's search [s].
     """
     import warnings
 
@@ -292,12 +296,12 @@ def sweep(problem_path, vary, workers: int | None = None, scheduler: str | None 
         warnings.simplefilter("default")
         problem, catalogs = load_study(problem_path)
     return sweep_problem(problem, catalogs, varies, workers=workers, scheduler=scheduler, progress=progress,
-                         large=large)
+                         large=large, time_limit_s=time_limit_s)
 
 
 def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | None = None,
                   scheduler: str | None = None, progress: bool = False, source: dict | None = None,
-                  large: bool = False) -> dict:
+                  large: bool = False, time_limit_s: float | None = None) -> dict:
     """Run a sweep of a loaded problem and its catalogues; the JSON-ready result (as `sweep`).
 
     Parameters
@@ -306,7 +310,7 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
         The validated problem (its procurement filters apply at every point).
     catalogs : Catalogs
         The validated catalogues, shipped once to each worker.
-    vary, workers, scheduler, progress, large
+    vary, workers, scheduler, progress, large, time_limit_s
         As `selector.public.sweep`, the documented entry point (which checks ``workers`` and the
         study first); ``vary`` may also be the (key, values) pairs of `parse_varies`.
     source : dict, optional
@@ -328,7 +332,8 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
                      (f" (fixed from the {origin}: {fixed})" if context else ""))
     points = grid(varies)
     run_pts = [{**pt, **context} for pt in points]
-    rows, runner = run_points(problem, catalogs, run_pts, workers=workers, scheduler=scheduler, progress=progress)
+    rows, runner = run_points(problem, catalogs, run_pts, workers=workers, scheduler=scheduler, progress=progress,
+                              time_limit_s=time_limit_s)
     # the fixed ISA context is not a swept column
     for row in rows:
         for k in context:
@@ -341,7 +346,8 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
                         "values": [float(x) for x in v]} for k, v in varies],
         "columns": keys + list(columns(problem)),
         "rows": rows,
-        "infeasible": sum(r["status"] != "optimal" for r in rows),
+        "infeasible": sum(r["status"] == "infeasible" for r in rows),
+        "time_limit": sum(r["status"] == "time_limit" for r in rows),
         "notes": notes,
         "runner": runner,
     })

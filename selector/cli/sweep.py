@@ -91,7 +91,8 @@ def render(res: dict) -> str:
              f"sweep of {len(res['rows'])} points ({' x '.join(str(q['n']) for q in res['parameters'])}), "
              f"minimise {obj['minimize']} [{obj['unit']}], each solved exactly and verified; "
              f"{res['infeasible']} infeasible; "
-             + (f"{res['time_limit']} stopped at the time limit (best design found shown); " if res["time_limit"] else "")
+             + (f"{res['time_limit']} stopped at the time limit (best design found shown); "
+                if res["time_limit"] else "")
              + f"{r['elapsed_s']:.1f} s ({how})"]
     lines += [f"note: {n}" for n in res["notes"]]
     lines.append("")

@@ -104,8 +104,9 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None,
     -------
     dict with the override values, then status ("optimal" | "infeasible" | "time_limit"), objective
     (value), motor, reducer, tyre, cost, mass_kg, accel_time_s (None where not applicable; at a time
-    limit those of the best design found, if any), and reason (points that are not optimal); a two-unit study's rows have null motor and reducer and name the units in
-    front_motor, front_reducer, rear_motor, rear_reducer; an energy study's rows add
+    limit those of the best design found, if any), and reason (points that are not optimal); a
+    two-unit study's rows have null motor and reducer and name the units in front_motor,
+    front_reducer, rear_motor, rear_reducer; an energy study's rows add
     energy_wh_per_km [Wh/km], battery_kwh [kWh], battery_mass_kg [kg] and battery_cost [currency].
     """
     from selector.api import procurement_filter, records

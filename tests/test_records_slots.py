@@ -513,3 +513,30 @@ def test_frontier_time_limit_on_a_single_axle_sweep(tmp_path, capsys):
     out = capsys.readouterr().out
     assert "stopped at the time limit after 0 points" in out and "frontier is empty" not in out
     assert frontier(open_study(path))["status"] == "optimal"
+
+
+def test_grade_beyond_all_wheel_traction_is_infeasible_before_any_search(tmp_path, monkeypatch):
+    # Wong, Theory of Ground Vehicles: with every wheel driven the traction-limited grade is
+    # tan(theta) = mu - f_r whatever the load transfer (mu = 0.9, f_r = 8 N/kN -> 89.2 %).
+    import selector.studies.explain_relax as relax
+    from selector.studies.explain import explain
+
+    limit_pct = 100.0 * (0.9 - 8.0 / 1000.0)
+    path = write_study(tmp_path, requirements={**REQUIREMENTS, "gradeability_pct": 95})
+    res = solve(open_study(path))
+    assert res["status"] == "infeasible"
+    assert "traction of both axles" in res["reason"] and f"{limit_pct:.4g} %" in res["reason"]
+    # explain on a study above its enumeration limit: the impossibility, its own conflict, and the
+    # relaxation to the limit confirmed by a re-solve, without a closest design
+    monkeypatch.setattr(relax, "EXPLAIN_MAX_DESIGNS", 1)
+    ex = explain(open_study(path))
+    assert [d["name"] for d in ex["impossible"]] == ["gradeability_pct"]
+    assert ex["impossible"][0]["limit"] == pytest.approx(limit_pct, rel=1e-12)
+    assert ex["conflicts"] == [["gradeability_pct"]] and ex["closest"] is None
+    assert "enumeration limit" in ex["closest_note"]
+    relaxed = ex["relaxation"]["gradeability_pct"]
+    assert relaxed <= limit_pct and relaxed == pytest.approx(limit_pct, rel=1e-3)
+    assert ex["relaxation_verified"] is True
+    check = solve(open_study(write_study(tmp_path / "relaxed", requirements={**REQUIREMENTS,
+                                                                             "gradeability_pct": relaxed})))
+    assert check["status"] == "optimal" and check["objective"]["value"] == ex["relaxed_optimum"]["objective"]

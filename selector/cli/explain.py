@@ -116,21 +116,29 @@ def render_infeasible(res: dict) -> str:
             if "reach_kmh" in r and not r["met"] and (r["name"] == "accel_to_kmh" or r["achieved"] is None):
                 lines.append(f"{r['name']}: never reaches {fmt(r['accel_to_kmh'])} km/h; its acceleration run ends at "
                              f"{fmt(r['reach_kmh'])} km/h ({r['reach_limit']} limit)")
+    if c is not None or res.get("relaxation_options"):
         lines.append("")
-        if res["relaxation_verified"]:
-            lines.append(f"Relax {_relax(res['relaxation'])}  (confirmed: a re-solve with these values is feasible)")
-            o = res["relaxed_optimum"]
-            lines.append(f"optimum with the relaxed requirements: {_ids(o)}   "
-                         f"{res['objective']['minimize']} {fmt(o['objective'])} {res['objective']['unit']}")
-        else:
-            note = res.get("relaxation_note") or "no confirmed relaxation"
-            lines.append(note[0].upper() + note[1:])
-        others = [o for o in res.get("relaxation_options", []) if o["relaxation"] != res["relaxation"]]
-        for o in others:
-            verdict = "also confirmed by a re-solve" if o["verified"] else "NOT confirmed by a re-solve"
-            lines.append(f"{'or relax' if o['verified'] else 'tried'} {_relax(o['relaxation'])}  ({verdict})")
+        lines += _relaxation_lines(res)
     lines += ["", "Summary"] + [f"- {s}" for s in res["summary"]]
     return "\n".join(lines)
+
+
+def _relaxation_lines(res: dict) -> list[str]:
+    """The confirmed relaxation and its optimum (or why there is none), then the other options tried."""
+    lines = []
+    if res["relaxation_verified"]:
+        lines.append(f"Relax {_relax(res['relaxation'])}  (confirmed: a re-solve with these values is feasible)")
+        o = res["relaxed_optimum"]
+        lines.append(f"optimum with the relaxed requirements: {_ids(o)}   "
+                     f"{res['objective']['minimize']} {fmt(o['objective'])} {res['objective']['unit']}")
+    else:
+        note = res.get("relaxation_note") or "no confirmed relaxation"
+        lines.append(note[0].upper() + note[1:])
+    for o in res.get("relaxation_options", []):
+        if o["relaxation"] != res["relaxation"]:
+            verdict = "also confirmed by a re-solve" if o["verified"] else "NOT confirmed by a re-solve"
+            lines.append(f"{'or relax' if o['verified'] else 'tried'} {_relax(o['relaxation'])}  ({verdict})")
+    return lines
 
 
 def _cmd(args) -> int:

@@ -38,6 +38,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from selector.engine.parts import PartTables
+from selector.physics.climb import traction_grade_tan
 from selector.physics.motor import envelope_torque_nm
 from selector.requirements import REL_TOL
 from selector.units import G_N, kmh_to_mps
@@ -270,6 +271,30 @@ def traction_tan_bound(parts: PartTables, driven_share, crr):
 
 
 # ------------------------------------------------------------------------------------------ windows
+
+
+def traction_limits(parts: PartTables, allowed: dict) -> dict:
+    """Upper bounds on launch acceleration [m/s^2] and gradeability [%] that no part can exceed.
+
+    One driven axle: a_T = (mu W_driven - m g Crr) / ((1 - kappa) m_eff) with kappa = +-mu (m/m_eff)
+    h/L is at most (mu s - Crr) g / (1 -+ mu h/L) (m_eff >= m), with the largest driven-axle share s
+    over the catalogue and the lowest Crr; gradeability tan(theta) = (mu s - Crr) / (1 -+ mu h/L).
+    Both axles driven: s = 1 and the load transfers cancel, tan = mu - Crr (`traction_grade_tan`).
+    """
+    crr = float(parts.tyres.crr[allowed["tyres"]].min())
+    if parts.two_units:
+        v = parts.problem.vehicle
+        s = 1.0
+        tan = float(traction_grade_tan(parts.problem.environment.road_friction, 1.0, crr,
+                                       v.cg_height_m / v.wheelbase_m, 0))
+    else:
+        mr = parts.reducers.mass_kg[allowed["reducers"]]
+        mt = parts.tyres.mass_kg[allowed["tyres"]]
+        s = float(max_driven_share(parts, parts.motors.mass_kg[allowed["motors"]], (mr.min(), mr.max()),
+                                   (mt.min(), mt.max())).max())
+        tan = float(traction_tan_bound(parts, s, crr))
+    return {"launch_accel_mps2": tan * G_N, "gradeability_pct": 100.0 * tan, "driven_share": s, "crr": crr}
+
 
 def power_window(torque_nm, power_w, decline_rad_s, decline_exponent, max_speed_rad_s, shaft_power_w):
     """Shaft speeds where the envelope's power w T(w) reaches ``shaft_power_w``: [w_lo, w_hi] [rad/s].

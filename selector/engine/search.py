@@ -18,11 +18,14 @@ from __future__ import annotations
 import time
 from dataclasses import dataclass, field, replace
 
+import numpy as np
+
 from selector.design import Design
 from selector.engine.evaluate import OBJECTIVE_METRIC
 from selector.engine.parts import PartTables
 from selector.errors import InputError
 from selector.inputs import Requirements
+from selector.requirements import REL_TOL
 
 STATUS_OPTIMAL = "optimal"
 STATUS_INFEASIBLE = "infeasible"
@@ -156,11 +159,30 @@ def _check_objective(objective: str, req: Requirements) -> None:
         raise InputError("objective accel_time needs [requirements] accel_to_kmh (the target speed of the run)")
 
 
+def _beyond_traction(parts: PartTables, req: Requirements, allowed: dict) -> str | None:
+    """A reason when launch or gradeability is above what the driven axles' traction allows with any
+    parts (`bounds.traction_limits`, a proved upper bound), else None."""
+    from selector.engine.bounds import traction_limits
+
+    n = parts.sizes
+    full = {k: np.arange(size) if allowed.get(k) is None else allowed[k]
+            for k, size in zip(("motors", "reducers", "tyres"), n, strict=True)}
+    limits = traction_limits(parts, full)
+    for key, unit in (("gradeability_pct", "%"), ("launch_accel_mps2", "m/s^2")):
+        v = getattr(req, key)
+        if v is not None and v > limits[key] * (1 + REL_TOL):
+            axles = "both axles" if parts.two_units else f"the {parts.axles[0]} axle"
+            return (f"{key} = {v:g} {unit} is above what the traction of {axles} allows with any part "
+                    f"({limits[key]:.4g} {unit} at road_friction {parts.problem.environment.road_friction:g})")
+    return None
+
+
 def _ruled_out(parts: PartTables, req: Requirements, allowed: dict) -> str | None:
-    """Why the study is infeasible before any search (no parts left, a speed above the limiter), else None."""
+    """Why the study is infeasible before any search (no parts left, a speed above the limiter, launch
+    or grade beyond the driven axles' traction), else None."""
     if any(a is not None and len(a) == 0 for a in allowed.values()):
         return "no parts left after the procurement filters"
-    return _impossible(parts, req)
+    return _impossible(parts, req) or _beyond_traction(parts, req, allowed)
 
 
 def _engine(parts: PartTables, objective: str, req: Requirements, allowed: dict, count: int, per_motor,

@@ -7,3 +7,7 @@ NEAR_MISS_PCT = 3.0
 
 MAX_COUNT = 100_000
 """Most designs one search may be asked for (``count`` of solve and shortlist) [-]."""
+
+EXPLAIN_MAX_DESIGNS = 5_000_000
+"""Most designs explain enumerates for the closest design of an infeasible study [-]; above it (large
+two-unit studies) explain reports the impossibilities and tries their relaxation, without a closest design."""

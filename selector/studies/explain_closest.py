@@ -10,17 +10,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from selector.engine.bounds import traction_limits
 from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, order_best, slice_keys, tie_tolerance, unit_options
 from selector.engine.parts import PartTables
 from selector.engine.search import STATUS_INFEASIBLE
 from selector.inputs import Requirements
 from selector.io.catalog import distinct_numbers
-from selector.physics import climb
 from selector.records import clean
 from selector.requirements import REL_TOL, check_rows, margin_fraction, passes, stated
 from selector.studies.explain_common import Context, accel_times, reach_speed_kmh
 from selector.studies.explain_text import num
-from selector.units import G_N
 
 INF_SHORTFALL = 1e6
 """Normalised shortfall counted for an infinite acceleration time (target unreachable) [-]."""
@@ -31,31 +30,6 @@ ACCEL_BATCH = 4096
 
 
 # ----------------------------------------------------------------------------- impossibilities
-
-def traction_limits(parts: PartTables, allowed: dict) -> dict:
-    """Upper bounds on launch acceleration [m/s^2] and gradeability [%] that no part can exceed.
-
-    One driven axle: a_T = (mu W_driven - m g Crr) / ((1 - kappa) m_eff) with kappa = +-mu (m/m_eff)
-    h/L is at most (mu s - Crr) g / (1 -+ mu h/L) (m_eff >= m), with the largest driven-axle share s
-    over the catalogue and the lowest Crr; gradeability tan(theta) = (mu s - Crr) / (1 -+ mu h/L).
-    Both axles driven: s = 1 and the load transfers cancel, tan = mu - Crr (`climb.traction_grade_tan`).
-    """
-    from selector.engine.bounds import max_driven_share, traction_tan_bound
-
-    crr = float(parts.tyres.crr[allowed["tyres"]].min())
-    if parts.two_units:
-        v = parts.problem.vehicle
-        s = 1.0
-        tan = float(climb.traction_grade_tan(parts.problem.environment.road_friction, 1.0, crr,
-                                             v.cg_height_m / v.wheelbase_m, 0))
-    else:
-        mr = parts.reducers.mass_kg[allowed["reducers"]]
-        mt = parts.tyres.mass_kg[allowed["tyres"]]
-        s = float(max_driven_share(parts, parts.motors.mass_kg[allowed["motors"]], (mr.min(), mr.max()),
-                                   (mt.min(), mt.max())).max())
-        tan = float(traction_tan_bound(parts, s, crr))
-    return {"launch_accel_mps2": tan * G_N, "gradeability_pct": 100.0 * tan, "driven_share": s, "crr": crr}
-
 
 def impossibilities(parts: PartTables, allowed: dict) -> list[dict]:
     """Requirements that no part can fix: above the speed limiter or the driven axles' traction limit."""

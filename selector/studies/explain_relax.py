@@ -16,6 +16,7 @@ from selector.engine.search import STATUS_OPTIMAL
 from selector.inputs import Requirements
 from selector.records import clean
 from selector.requirements import margin_fraction, passes, stated
+from selector.studies.defaults import EXPLAIN_MAX_DESIGNS
 from selector.studies.explain_closest import closest_design, conflicts, enumerate_shortfalls, impossibilities
 from selector.studies.explain_common import (
     BISECT_STEPS,
@@ -251,6 +252,32 @@ def _confirmed(ctx: Context, req0: Requirements, first: dict, cands: list[dict])
     return options
 
 
+def _impossible_only(ctx: Context, out: dict, first: dict, n_designs: int) -> dict:
+    """The diagnosis of a study too large to enumerate (`EXPLAIN_MAX_DESIGNS`): each impossibility is a
+    conflict by itself, and the relaxation to the impossibilities' limits (rounded on the loosening
+    side) is tried by a re-solve; no closest design."""
+    req0 = ctx.parts.problem.requirements
+    out["conflicts"] = [[d["name"]] for d in out["impossible"]]
+    cand = dict(first)
+    for d in out["impossible"]:
+        if d["name"] in ("gradeability_pct", "launch_accel_mps2"):
+            cand[d["name"]] = round_safe(float(d["limit"]), "min")
+    note = (f"the closest design is not searched: {n_designs:,} designs are above explain's enumeration limit "
+            f"({EXPLAIN_MAX_DESIGNS:,}); narrow the catalogues (procurement or [drive] filters) to get it")
+    options = _confirmed(ctx, req0, {}, [cand]) if cand else []
+    chosen = next((o for o in options if o["verified"]), None)
+    out["closest_note"] = note
+    out["relaxation_options"] = options
+    out["relaxation_verified"] = chosen is not None
+    if chosen is not None:
+        out["relaxation"], out["relaxed_optimum"] = chosen["relaxation"], chosen["relaxed_optimum"]
+    else:
+        out["relaxation_note"] = (f"no confirmed relaxation: {note}" if not options else
+                                  f"no confirmed relaxation: loosening the impossible requirements to their limits "
+                                  f"did not make a re-solve feasible; {note}")
+    return out
+
+
 def explain_infeasible(ctx: Context, reason: str | None, max_conflict_size: int = 3) -> dict:
     """Impossibilities, conflicts (up to ``max_conflict_size`` requirements), closest design and the
     relaxation confirmed by a re-solve (or, when none is confirmed, an explicit note)."""
@@ -266,6 +293,9 @@ def explain_infeasible(ctx: Context, reason: str | None, max_conflict_size: int 
         # no design reaches a target above the limiter: search with the target lowered to the limiter
         first["accel_to_kmh"] = float(req0.speed_limiter_kmh)
         eparts = with_requirements(parts, dataclasses.replace(req0, accel_to_kmh=req0.speed_limiter_kmh))
+    n_designs = parts.subset(allowed["motors"], allowed["reducers"], allowed["tyres"]).combinations
+    if n_designs > EXPLAIN_MAX_DESIGNS:
+        return _impossible_only(ctx, out, first, n_designs)
     en = enumerate_shortfalls(eparts, allowed, ctx.objective, progress=ctx.progress)
     if en.keys.shape[0] == 0:
         cycle = ", and following the energy study's cycle" if parts.problem.energy is not None else ""

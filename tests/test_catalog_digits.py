@@ -127,3 +127,10 @@ def test_distinct_numbers_preserves_order():
         assert (float(sa) > float(sb)) == (a > b) and (float(sa) < float(sb)) == (a < b)
     assert distinct_numbers(4.0, 4.0, 20.0) == ["4", "4", "20"]  # equal values stay equal
     assert distinct_numbers(45, 40) == ["45", "40"]  # as ":g" when that already shows the order
+
+
+@pytest.mark.parametrize("cell", ["2_00", "\uff12\uff10\uff10", "0x10"])
+def test_numbers_are_plain_ascii_decimals(tmp_path, cell):
+    # float() alone reads "2_00" as 200 and full-width digits as digits: in a catalogue those are typos
+    msg = message(write_motors(tmp_path, peak_torque_nm=cell))
+    assert f'peak_torque_nm = "{cell}"; must be a number' in msg

@@ -137,6 +137,13 @@ def test_user_file_by_path_and_base_dir(tmp_path):
     ("time_s,speed_kmh\n0,0\n1,0\n2,0\n", "the cycle covers 0 m; at least 100 m"),
     ("time_s,speed_kmh\n0,0\n1,1e-12\n2,0\n", "the cycle covers 2.78e-13 m; at least 100 m"),
     ("time_s,speed_kmh\n" + "".join(f"{t},10\n" for t in range(36_002)), "36,002 data rows; at most 36,001"),
+    # project convention: a cycle starts and ends at rest (else its energy counts kinetic energy)
+    ("time_s,speed_kmh\n" + "".join(f"{t},{120 - t}\n" for t in range(121)),
+     "line 2 (the first row) has speed_kmh = 120; a cycle must start and end at rest"),
+    ("time_s,speed_kmh\n" + "".join(f"{t},{t}\n" for t in range(60)), "line 61 (the last row) has speed_kmh = 59"),
+    # plain ASCII decimal numbers only (float() alone would read 5_0 as 50)
+    ("time_s,speed_kmh\n0,0\n1,5_0\n2,0\n", "line 3: speed_kmh = '5_0'; must be a number [km/h]"),
+    ("time_s,speed_kmh\n0,0\n1,\uff15\n2,0\n", "line 3: speed_kmh = '\uff15'; must be a number [km/h]"),
 ])
 def test_user_file_errors(tmp_path, text, expected):
     p = write(tmp_path, text)

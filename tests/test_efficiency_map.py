@@ -48,6 +48,8 @@ def test_valid_map_any_row_and_column_order():
     ("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n0,1,0\n1,0,0\n1,1,inf\n", "line 5: efficiency_pct = inf; must be "
      "a finite number [%]"),
     ("# only comments\n", "no header row"),
+    ("speed_rpm,torque_nm,efficiency_pct\n0,0,0\n0,1,0\n1,0,0\n1,1,\uff19\uff10\n", "line 5: efficiency_pct = "
+     "'\uff19\uff10'; must be a number [%]"),  # plain ASCII digits only
 ])
 def test_map_errors(tmp_path, text, expected):
     p = write(tmp_path, text)

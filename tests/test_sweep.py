@@ -50,6 +50,10 @@ def test_parse_vary_linspace_and_grid_order():
     ("requirements.top_speed_kmh=100:130:0", "N must be >= 1"),
     ("requirements.top_speed_kmh=100:130:1", "N = 1 gives one value"),
     ("requirements.top_speed_kmh", "KEY=START:STOP:N"),
+    ("requirements.top_speed_kmh=100:130:1000000000", "N = 1,000,000,000 values; at most 100,000"),
+    ("requirements.top_speed_kmh=1_00:130:3", "must be numbers"),
+    ("requirements.top_speed_kmh=\uff11\uff10\uff10:130:3", "must be numbers"),
+    ("requirements.top_speed_kmh=100:130:\uff13", "whole number"),
 ])
 def test_parse_vary_errors(text, message):
     with pytest.raises(InputError, match=message.replace("(", r"\(").replace("'", "'")):

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 
-from selector.io.files import MAX_CELL_CHARS, control_char, printable_problem, shown
+from selector.io.files import MAX_CELL_CHARS, control_char, plain_number, printable_problem, shown
 from selector.io.schema import MAX_SIZE_CHARS, Column
 from selector.physics.tyres import (
     LOAD_INDEX_KG,
@@ -38,7 +38,8 @@ def _number_with_unit(raw: str) -> bool:
         if m > k:
             j = m
     rest = t[j:].lstrip()
-    return bool(rest) and not (rest[0].isdigit() or rest[0] in ".,+-")
+    hexadecimal = t[i:j] == "0" and rest[:1] in ("x", "X")
+    return bool(rest) and not (rest[0].isdigit() or rest[0] in ".,+-_" or hexadecimal)
 
 
 def _comma_advice(raw: str) -> str | None:
@@ -78,7 +79,7 @@ def check_cell(c: Column, raw: str, loc: str):
     if c.type == "str":
         return _check_text(c, raw, loc)
     try:
-        v = float(raw)
+        v = plain_number(raw)
     except ValueError:
         advice = _comma_advice(raw) if "," in raw else None
         if advice:

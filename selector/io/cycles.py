@@ -11,7 +11,8 @@ File format (the built-in cycles in ``selector/data/cycles/`` use it too)::
 - the header is exactly ``time_s,speed_kmh``; comment lines starting with ``#`` and blank lines are
   allowed only above it (and blank lines at the end of the file);
 - one row per second: the first time is 0 and each next time is 1 s later;
-- speeds are finite, >= 0 and at most `MAX_SPEED_KMH` [km/h]; at least two rows and at most
+- speeds are plain numbers (ASCII digits), finite, >= 0 and at most `MAX_SPEED_KMH` [km/h]; the
+  first and the last speed are 0 (the cycle starts and ends at rest); at least two rows and at most
   `MAX_ROWS`; the cycle covers at least `MIN_DISTANCE_M` (the energy per km of a cycle that
   hardly moves is meaningless).
 
@@ -30,7 +31,7 @@ from pathlib import Path
 import numpy as np
 
 from selector.errors import InputError
-from selector.io.files import read_input_text, split_lines_after_comments
+from selector.io.files import plain_number, read_input_text, split_lines_after_comments
 from selector.physics.cycles import cycle_distance_m
 from selector.units import KMH_PER_MPS
 
@@ -248,6 +249,13 @@ def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[
     elif not errors and len(times) > MAX_ROWS:
         errors.append(f"{disp}: {len(times):,} data rows; at most {MAX_ROWS:,} (ten hours at 1 Hz). Use a shorter "
                       "cycle, e.g. one representative part of the duty.")
+    elif not errors and (speeds[0] != 0.0 or speeds[-1] != 0.0):
+        ends = [f"line {head_no + 1} (the first row) has speed_kmh = {speeds[0]:g}" if speeds[0] != 0.0 else "",
+                f"line {head_no + len(speeds)} (the last row) has speed_kmh = {speeds[-1]:g}"
+                if speeds[-1] != 0.0 else ""]
+        errors.append(f"{disp}: {' and '.join(e for e in ends if e)}; a cycle must start and end at rest "
+                      "(0 km/h), or its energy per km counts kinetic energy the vehicle gains or gives back "
+                      "instead of what the drive uses. Add the rows from and to standstill.")
     elif not errors and (dist := cycle_distance_m(np.asarray(times), np.asarray(speeds) / KMH_PER_MPS)) \
             < MIN_DISTANCE_M:
         errors.append(f"{disp}: the cycle covers {dist:.3g} m; at least {MIN_DISTANCE_M:g} m, or no meaningful "
@@ -274,7 +282,7 @@ def _check_time(t: float, expected: float, later: bool, raw: str, where: str, er
 def _number(raw: str, column: str, unit: str, where: str, errors: list[str]):
     s = raw.strip()
     try:
-        v = float(s)
+        v = plain_number(s)
     except ValueError:
         if "," in s or (s.count(".") == 0 and s.replace(",", "").isdigit()):
             fix = "Use a decimal point, not a comma."

@@ -29,7 +29,7 @@ from pathlib import Path
 import numpy as np
 
 from selector.errors import InputError
-from selector.io.files import read_input_text, split_lines_after_comments
+from selector.io.files import plain_number, read_input_text, split_lines_after_comments
 from selector.physics.losses import EfficiencyGrid
 from selector.units import RPM_TO_RAD_S
 
@@ -190,7 +190,7 @@ def _read_text(path: Path, disp: str) -> str:
 
 def _number(raw: str, column: str, where: str, errors: list[str]):
     try:
-        v = float(raw)
+        v = plain_number(raw)
     except ValueError:
         fix = "Write a plain number (the unit is in the header)."
         errors.append(f"{where}: {column} = {raw!r}; must be a number [{_UNITS[column]}]. {fix}")

@@ -25,6 +25,23 @@ from pathlib import Path
 
 from selector.errors import InputError
 
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:[0-9]+\.?[0-9]*|\.[0-9]+)(?:[eE][+-]?[0-9]+)?|[+-]?(?:inf|infinity|nan)",
+                           re.IGNORECASE)
+
+
+def plain_number(text: str) -> float:
+    """``text`` as a float when it is a plain decimal number (ASCII digits, optional sign, point and
+    exponent; also inf and nan, which callers reject with their own message); ValueError otherwise.
+
+    Python's float() also takes digit-group underscores ("5_2" is 52) and non-ASCII digits, which in
+    a catalogue, a cycle or a map are far more likely typos than intent. The pattern has no nested
+    quantifier, so matching is linear in the (bounded) cell length."""
+    s = text.strip()
+    if not _PLAIN_NUMBER.fullmatch(s):
+        raise ValueError(f"not a plain number: {text!r}")
+    return float(s)
+
+
 MAX_INPUT_BYTES = 64 * 1024 * 1024
 """Largest input file read [bytes] (64 MiB; the largest catalogues in the benchmarks are a few MiB)."""
 MAX_LINE_CHARS = 65_536

@@ -60,6 +60,10 @@ CROSS_ROWS = 20000
 """Brackets of traction-combination changes refined in one `refine_first_true` call, at most [-]."""
 BISECT_STEPS = 42
 """Resolution of a combination change: 2^-42 of the sample spacing [-]."""
+CROSS_ROUNDS = 4
+"""Most further searches for changes of the limiting combination between two found ones [-]."""
+CROSS_NEW = 1e-12
+"""A change found within this share of an edge is that edge, not a new one [-]."""
 REFINE_POINTS = 15
 """Interior samples per refinement round of a combination change or a shift point (4 bits a round) [-]."""
 GRADE_RATIO = 0.35
@@ -208,9 +212,9 @@ def refine_first_true(pred, a, b, bits: int, points: int = REFINE_POINTS):
 
 def _crossings(st: _State, base, v_end):
     """First and last change of the limiting combination on each piece [base[:, i], base[:, i + 1]]:
-    a list of (n,) arrays, two per piece (v_end where none). All pieces are sampled in one
-    `state_accel` call and every bracket is refined in one `refine_first_true` call (each row's
-    result is what one piece at a time gives)."""
+    a list of (n,) arrays, two per piece (v_end where none; the same speed twice where one). All
+    pieces are sampled in one `state_accel` call and every bracket is refined in one
+    `refine_first_true` call (each row's result is what one piece at a time gives)."""
     n, n_pieces = base.shape[0], base.shape[1] - 1
     lo, hi = base[:, :-1], base[:, 1:]
     frac = np.linspace(0.0, 1.0, CROSS_SAMPLES)
@@ -224,7 +228,8 @@ def _crossings(st: _State, base, v_end):
     last = change.shape[2] - 1 - np.argmax(change[:, :, ::-1], axis=2)
     cross = np.repeat(v_end[:, None, None], n_pieces, axis=1).repeat(2, axis=2)  # (n, pieces, first | last)
     rows, pieces, which, idx = [], [], [], []
-    for w, (at, use) in enumerate(((first, has), (last, has & (last != first)))):
+    for w, at in enumerate((first, last)):  # the last change also where it shares the first's sample interval
+        use = has
         r, q = np.nonzero(use)
         rows.append(r)
         pieces.append(q)
@@ -234,11 +239,52 @@ def _crossings(st: _State, base, v_end):
     for c0 in range(0, rows.size, CROSS_ROWS):  # (brackets of several pieces and rows in one call)
         r, q, w, k = (x[c0:c0 + CROSS_ROWS] for x in (rows, pieces, which, idx))
         sub = _take_state(st, r)
-        lab_a = lab[r, q, k][:, None]
-        a, b = refine_first_true(lambda v, sub=sub, lab_a=lab_a: state_accel(sub, v, labels=True)[1] != lab_a,
-                                 vs[r, q, k], vs[r, q, k + 1], BISECT_STEPS)
+        lab_a, lab_b, last_w = lab[r, q, k][:, None], lab[r, q, k + 1][:, None], (w == 1)[:, None]
+
+        def changed(v, sub=sub, lab_a=lab_a, lab_b=lab_b, last_w=last_w):
+            # first change: where the label leaves its value at the left sample; last change: where it
+            # takes its value at the right sample (two changes between two samples give both)
+            now = state_accel(sub, v, labels=True)[1]
+            return np.where(last_w, now == lab_b, now != lab_a)
+
+        a, b = refine_first_true(changed, vs[r, q, k], vs[r, q, k + 1], BISECT_STEPS)
         cross[r, q, w] = 0.5 * (a + b)
     return [cross[:, q, w] for q in range(n_pieces) for w in (0, 1)]
+
+
+def _with_crossings(st: _State, base, v_end):
+    """``base`` (n, k) sorted edges with every change of the limiting combination added [m/s].
+
+    `_crossings` finds the first and the last change on each piece from samples; two changes between
+    the same two samples look like one. So the pieces are split at what was found and searched again
+    (rows that found a change), `CROSS_ROUNDS` times at most, until a round finds nothing new (a
+    change closer than `CROSS_NEW` of an edge is that edge). Columns that are v_end in every row are
+    dropped (zero-width pieces)."""
+    edges = _compact(np.sort(np.concatenate([base, np.stack(_crossings(st, base, v_end), axis=1)], axis=1),
+                             axis=1), v_end)
+    todo = np.nonzero((edges < v_end[:, None]).sum(axis=1) > (base < v_end[:, None]).sum(axis=1))[0]
+    for _ in range(CROSS_ROUNDS):
+        if todo.size == 0:
+            break
+        e = edges[todo]
+        found = np.stack(_crossings(_take_state(st, todo), e, v_end[todo]), axis=1)
+        near = np.abs(found[:, :, None] - e[:, None, :]).min(axis=2) <= CROSS_NEW * np.abs(found)
+        new = (found < v_end[todo, None]) & ~near
+        keep = new.any(axis=1)
+        if not keep.any():
+            break
+        add = np.repeat(v_end[:, None], found.shape[1], axis=1)
+        add[todo[keep]] = np.where(new[keep], found[keep], v_end[todo[keep], None])
+        edges = _compact(np.sort(np.concatenate([edges, add], axis=1), axis=1), v_end)
+        todo = todo[keep]
+    return edges
+
+
+def _compact(edges, v_end):
+    """``edges`` without the trailing columns that are v_end in every row (sorted rows) [m/s]."""
+    real = (edges < v_end[:, None]).sum(axis=1)
+    width = int(real.max(initial=0)) + 1
+    return edges[:, :max(width, 2)]
 
 
 def _integrate_pieces(st: _State, edges):
@@ -287,8 +333,7 @@ def integrate_segment(st: _State, v_lo, v_hi):
     ok = a_end > 0
     base = [v_lo] + _unit_breaks(st, v_lo, v_hi) + [v_hi]
     base = np.sort(np.stack(base, axis=1), axis=1)
-    edges = [base[:, i] for i in range(base.shape[1])] + _crossings(st, base, v_hi)
-    br = np.sort(np.stack(edges, axis=1), axis=1)
+    br = _with_crossings(st, base, v_hi)
     # grading towards v_hi where 1/a has a pole just beyond it
     length = v_hi - v_lo
     delta = pole_distance_mps(st, v_hi, a_end)

@@ -20,6 +20,7 @@ import numpy as np
 
 from selector.errors import InputError
 from selector.inputs import Problem
+from selector.io.files import plain_number
 
 SWEEPABLE: dict[str, tuple[str, str]] = {
     # key: (unit, what)
@@ -80,18 +81,22 @@ def parse_vary(text: str) -> tuple[str, np.ndarray]:
         raise InputError(f"vary {text!r}: the range must be START:STOP:N (three values separated by ':'), "
                          f"got {spec!r}.")
     try:
-        start, stop = float(bits[0]), float(bits[1])
+        start, stop = plain_number(bits[0]), plain_number(bits[1])
     except ValueError:
         raise InputError(f"vary {text!r}: START and STOP must be numbers, got {bits[0]!r} and {bits[1]!r}.") from None
     if not (math.isfinite(start) and math.isfinite(stop)):
         raise InputError(f"vary {text!r}: START and STOP must be finite numbers.")
     try:
+        if not bits[2].strip().isascii():
+            raise ValueError(bits[2])
         n = int(bits[2])
     except ValueError:
         raise InputError(f"vary {text!r}: N must be a whole number >= 1 (the number of values), "
                          f"got {bits[2]!r}.") from None
     if n < 1:
         raise InputError(f"vary {text!r}: N must be >= 1 (the number of values), got {n}.")
+    if n > MAX_POINTS:  # before any value is made (a typo such as 1e9 values)
+        raise InputError(f"vary {text!r}: N = {n:,} values; at most {MAX_POINTS:,} points in a grid. Use fewer values.")
     if n == 1 and start != stop:
         raise InputError(f"vary {text!r}: N = 1 gives one value, but START != STOP. Use START:START:1 or N >= 2.")
     values = np.array([float(f"{v:.12g}") for v in np.linspace(start, stop, n)])

@@ -187,7 +187,7 @@ RANGES: dict[str, dict[str, tuple]] = {
         "max_lead_time_weeks": ((0.0, 1e4), None),
     },
     "energy": {
-        "range_km": ((0.0, 1e5), (0.0, 3000.0)),
+        "range_km": ((0.01, 1e5), (1.0, 3000.0)),
         "usable_fraction": ((0.0, 1.0), (0.5, 1.0)),
         "inverter_efficiency_pct": ((0.0, 100.0), (80.0, 100.0)),
         "specific_energy_wh_per_kg": ((0.0, 2000.0), (30.0, 500.0)),

@@ -455,6 +455,9 @@ def problem_summary(study: Study) -> dict:
            "air_density_kg_m3": clean(p.environment.air_density_kg_m3),
            "path": str(Path(p.path)) if p.path else None}
     out["layout"] = layout_summary(parts)
+    from selector.engine.search import no_motor_reason
+
+    out["no_design_left"] = no_motor_reason(parts, study.allowed)  # None, or why no design can be chosen
     if p.energy is not None:
         out["energy"] = {"cycle": p.energy.cycle, "motors_without_loss_data": motors_without_loss_data(parts)}
     return out

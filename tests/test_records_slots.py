@@ -540,3 +540,23 @@ def test_grade_beyond_all_wheel_traction_is_infeasible_before_any_search(tmp_pat
     check = solve(open_study(write_study(tmp_path / "relaxed", requirements={**REQUIREMENTS,
                                                                              "gradeability_pct": relaxed})))
     assert check["status"] == "optimal" and check["objective"]["value"] == ex["relaxed_optimum"]["objective"]
+
+
+def test_filters_that_leave_an_axle_without_motors_are_named(tmp_path, capsys):
+    # Project convention: when the procurement filter and [drive] front_motors together leave the front
+    # axle no motor, check warns and solve and explain name both rules (not "no design passes").
+    from selector.studies.explain import explain
+
+    motors = MOTORS + [motor_row("M-C", supplier="Far Away Motors", lead_time_weeks=20)]
+    path = write_study(tmp_path, drive={"front_motors": ["M-C"]}, motors=motors)
+    path.write_text(path.read_text() + "\n[procurement]\nmax_lead_time_weeks = 10\n")
+    study = open_study(path)
+    s = problem_summary(study)
+    assert s["combinations_in_play"] == 0
+    assert "no motor is left for the front axle" in s["no_design_left"]
+    assert run(["check", str(path)]) == 0 and "warning: no motor is left" in capsys.readouterr().out
+    res = solve(study)
+    assert res["status"] == "infeasible" and "procurement filters" in res["reason"]
+    assert "[drive] front_motors" in res["reason"]
+    ex = explain(study)
+    assert ex["closest"] is None and "no motor is left for the front axle" in ex["closest_note"]

@@ -79,6 +79,8 @@ def _cmd_check(args) -> int:
     lines.append(f"combinations: {s['combinations']:,}"
                  + (f" ({s['combinations_in_play']:,} after the procurement, [drive] and loss-data filters)"
                     if s["combinations_in_play"] != s["combinations"] else ""))
+    if s["no_design_left"]:
+        lines.append(f"warning: {s['no_design_left']} (every search of this study is infeasible)")
     lines.append(f"air density: {fmt(s['air_density_kg_m3'])} kg/m^3")
     lines.append(f"objective: minimise {s['objective']}")
     lines.append("requirements: " + (", ".join(f"{k} = {fmt(v)}" for k, v in s["requirements"].items()) or "none"))

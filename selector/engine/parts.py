@@ -267,18 +267,28 @@ class PartTables:
             return units * n_t
         return units * units * n_t
 
-    def combinations_in_play(self, allowed: dict) -> int:
-        """Number of designs the study can choose from [-]: `combinations` after the procurement filter
-        (``allowed`` positions per catalogue), the [drive] motor filters per axle and, in an energy
-        study, without the motors that have no loss data."""
+    def usable_motors(self, allowed: dict) -> dict:
+        """Motor positions each driven axle can use: the procurement filter's (``allowed["motors"]``),
+        within the axle's [drive] filter and, in an energy study, with loss data; with ``same_unit``
+        the motors both axles can use."""
         motors = np.asarray(allowed["motors"], dtype=np.int64)
         if self.problem.energy is not None:
             motors = motors[self.motors.has_loss_model[motors]]
-        per_axle = [motors if a not in self.axle_motors else np.intersect1d(motors, self.axle_motors[a])
-                    for a in self.axles]
+        out = {a: motors if a not in self.axle_motors else np.intersect1d(motors, self.axle_motors[a])
+               for a in self.axles}
+        if self.two_units and self.problem.drive.same_unit:
+            both = np.intersect1d(out["front"], out["rear"])
+            out = {"front": both, "rear": both}
+        return out
+
+    def combinations_in_play(self, allowed: dict) -> int:
+        """Number of designs the study can choose from [-]: `combinations` after the procurement filter
+        (``allowed`` positions per catalogue), the [drive] motor filters per axle and, in an energy
+        study, without the motors that have no loss data (`usable_motors`)."""
+        per_axle = list(self.usable_motors(allowed).values())
         n_r, n_t = len(allowed["reducers"]), len(allowed["tyres"])
         if self.two_units and self.problem.drive.same_unit:
-            return len(np.intersect1d(*per_axle)) * n_r * n_t
+            return len(per_axle[0]) * n_r * n_t
         out = n_t
         for m in per_axle:
             out *= len(m) * n_r

@@ -182,7 +182,27 @@ def _ruled_out(parts: PartTables, req: Requirements, allowed: dict) -> str | Non
     or grade beyond the driven axles' traction), else None."""
     if any(a is not None and len(a) == 0 for a in allowed.values()):
         return "no parts left after the procurement filters"
-    return _impossible(parts, req) or _beyond_traction(parts, req, allowed)
+    return no_motor_reason(parts, allowed) or _impossible(parts, req) or _beyond_traction(parts, req, allowed)
+
+
+def no_motor_reason(parts: PartTables, allowed: dict) -> str | None:
+    """A reason when a driven axle has no motor left (procurement filter, [drive] filter, loss data), else None."""
+    full = {"motors": np.arange(parts.sizes[0]) if allowed.get("motors") is None else allowed["motors"]}
+    usable = parts.usable_motors({**full, "reducers": (), "tyres": ()})
+    for axle, motors in usable.items():
+        if len(motors) == 0:
+            filtered = len(full["motors"]) < parts.sizes[0]
+            why = ["the procurement filters (avoid_suppliers, max_lead_time_weeks)"] if filtered else []
+            if axle in parts.axle_motors:
+                why.append(f"[drive] {axle}_motors")
+            if parts.two_units and parts.problem.drive.same_unit:
+                why.append("[drive] same_unit (a motor allowed on both axles)")
+            if parts.problem.energy is not None:
+                why.append("the energy study's need for loss data (loss_* columns or an efficiency_map)")
+            rule = (f"together, {', '.join(why)} rule out every motor; loosen one of them" if len(why) > 1
+                    else f"{why[0]} rules out every motor; loosen it")
+            return f"no motor is left for the {axle} axle: {rule}"
+    return None
 
 
 def _engine(parts: PartTables, objective: str, req: Requirements, allowed: dict, count: int, per_motor,

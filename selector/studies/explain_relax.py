@@ -12,7 +12,7 @@ import numpy as np
 from selector.design import Design
 from selector.engine.evaluate import evaluate, feasible
 from selector.engine.parts import PartTables
-from selector.engine.search import STATUS_OPTIMAL
+from selector.engine.search import STATUS_OPTIMAL, no_motor_reason
 from selector.inputs import Requirements
 from selector.records import clean
 from selector.requirements import margin_fraction, passes, stated
@@ -288,6 +288,9 @@ def explain_infeasible(ctx: Context, reason: str | None, max_conflict_size: int 
     if any(len(a) == 0 for a in allowed.values()):
         return _without_closest(out, "no parts left after the procurement filters: relax avoid_suppliers or "
                                      "max_lead_time_weeks")
+    no_motor = no_motor_reason(parts, allowed)
+    if no_motor:
+        return _without_closest(out, no_motor)
     first, req0, eparts = {}, parts.problem.requirements, parts
     if any(d["name"] == "accel_to_kmh" for d in out["impossible"]):
         # no design reaches a target above the limiter: search with the target lowered to the limiter

@@ -191,3 +191,30 @@ def test_energy_axis_json_and_cli(tmp_path, capsys):
     assert run(["frontier", "problems/roadster.toml", "--axis", "energy"]) == 2
     err = capsys.readouterr().err
     assert "needs an [energy] table" in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize("seed", (100, 127))
+def test_cheaper_clone_with_a_later_id_is_the_frontier_point(seed, tmp_path):
+    # Regression (independent check): every motor gets a copy, identical but 1 cheaper, whose part id
+    # sorts last. Equal times, so the frontier point at each cost is the copy; the one-sweep frontier
+    # had kept the first id of the equal motors, as a time-only search may, and reported a dearer point.
+    import pandas as pd
+
+    from selector.io.problem import load_study
+
+    s = random_study(seed, tmp_path / str(seed), sizes=SIZES, objective="accel_time")
+    path = tmp_path / str(seed) / "motors.csv"
+    head = [ln for ln in path.read_text().splitlines() if ln.startswith("#")]
+    motors = pd.read_csv(path, comment="#", dtype=str, keep_default_na=False)
+    clones = motors.copy()
+    clones["part"] = "ZZ-" + clones["part"]
+    clones["unit_cost"] = (clones["unit_cost"].astype(float) - 1.0).map(repr)
+    path.write_text("\n".join(head) + "\n" + pd.concat([motors, clones]).to_csv(index=False))
+    problem, catalogs = load_study(tmp_path / str(seed) / "problem.toml")
+    s2 = dataclasses.replace(s, problem=problem, catalogs=catalogs, parts=PartTables.build(problem, catalogs))
+    study = open_study(tmp_path / str(seed) / "problem.toml")
+    pts, _ = trace(study, "cost")
+    expected = pareto_by_enumeration(s2, "cost")
+    assert [round(c, 6) for c, *_ in pts] == [round(c, 6) for c, _ in expected] and pts
+    for _, _, d in pts:
+        assert study.parts.motors.part[d.units[0][1]].startswith("ZZ-")

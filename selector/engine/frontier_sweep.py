@@ -42,6 +42,8 @@ class _Sweep:
         self.own_limit, self.strictly_faster, self.limit_slack = own_limit, strictly_faster, limit_slack
         self.stats = {"blocks": 0, "refined": 0, "evaluated": 0}
         s = SingleAxleSearch(parts, "accel_time", base_req, allowed, 1, None, None, self.stats, milp="never")
+        # the axis is the cost: of motors equal in all else, the cheapest stands for them (not the first id)
+        s.cost_matters = s.cost_matters or axis_objective == "cost"
         self.s, self.p = s, s.pairs
         n = s.motors.size
         self.own = parts.motors.cost if axis_objective == "cost" else parts.motors.mass_kg

@@ -16,16 +16,14 @@ import numpy as np
 
 from selector.api import Study, records
 from selector.design import Design
-from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, feasible, tie_tolerance
+from selector.engine.evaluate import evaluate, tie_tolerance
 from selector.engine.parts import FM, RM, TY, PartTables
 from selector.engine.search import SearchResult, search
-from selector.engine.verify import VerificationError
 from selector.inputs import Requirements
 from selector.physics import accel_run, climb, speeds
 from selector.physics import performance as perf
 from selector.physics.drivetrain import combination_accels, speed_cap_mps, state_effective_mass_kg
-from selector.records import PERFORMANCE_UNITS, clean, requirement_rows
-from selector.requirements import BY_NAME, check_rows, margin_fraction, passes
+from selector.requirements import BY_NAME
 from selector.units import G_N, mps_to_kmh
 
 REACH_LIMITS = ("gearing", "motor", "traction", "limiter")
@@ -72,50 +70,22 @@ def design_ids(parts: PartTables, d: Design) -> dict:
     return {"motor": one["motor"], "reducer": one["reducer"], "tyre": str(parts.tyres.part[d.tyre]), "units": units}
 
 
-def _two_unit_record(parts: PartTables, d: Design, metrics: dict) -> dict:
-    """Record of a two-unit design: ids, totals, performance, requirement rows and per-axle checks."""
-    checks = []
-    for c, axle, limit, demand in check_rows(parts.axles, parts.problem.energy is not None):
-        lim, got = float(metrics[limit][0]), float(metrics[demand][0])
-        checks.append({"name": c.name, "axle": axle, "required": clean(lim), "achieved": clean(got), "unit": c.unit,
-                       "sense": "at least" if c.sense == "min" else "at most",
-                       "margin_pct": clean(100.0 * float(margin_fraction(c.sense, lim, got))),
-                       "met": bool(passes(c.sense, lim, got))})
-    rows = requirement_rows(parts, metrics, 0)
-    margins = [r["margin_pct"] for r in rows + checks if r["margin_pct"] is not None]
-    return {**design_ids(parts, d), "cost": clean(metrics["cost"][0]), "mass_kg": clean(metrics["mass_kg"][0]),
-            "lead_time_weeks": clean(metrics["lead_time_weeks"][0]),
-            "performance": {k: clean(metrics[k][0]) for k in PERFORMANCE_UNITS},
-            "requirements": rows, "checks": checks, "smallest_margin_pct": clean(min(margins)) if margins else None}
-
-
 def verified_record(parts: PartTables, d: Design, objective: str, expect_feasible: bool = True) -> dict:
-    """The record of one design, re-checked by the full physics.
-
-    Single-unit designs go through `api.records` (the independent re-check of `verify.py`). Two-unit
-    designs are re-evaluated by `evaluate.evaluate` and checked against `evaluate.feasible` and the
-    claimed objective here, and their record (ids, ``units``, totals, requirement rows, per-axle
-    checks) is built here, until the shared record builder takes them.
-    """
-    if not d.two_units:
-        if expect_feasible:
-            rec = records(parts, [d], objective)[0]
-        else:
-            from selector.engine.verify import verify_designs
-            from selector.records import design_record
-
-            metrics = verify_designs(parts, [d], objective, expect_feasible=False)
-            rec = design_record(parts, d[1], d[2], d[3], metrics)
-        rec.setdefault("units", design_ids(parts, d)["units"])
-        return rec
-    metrics = evaluate(parts, [d.key])
+    """The record of one design, re-checked by the full physics (the independent re-check of
+    `verify.py`), as `api.records` builds it for solve: one- or two-unit, with the shift run of a
+    multi-speed design. ``expect_feasible=False`` (a closest design) records its misses instead of
+    raising."""
     if expect_feasible:
-        if not bool(feasible(parts, metrics, objective)[0]):
-            raise VerificationError(f"two-unit design {design_ids(parts, d)} fails on re-check; please report this bug")
-        got = float(metrics[OBJECTIVE_METRIC[objective]][0])
-        if not np.isclose(got, d.value, rtol=1e-9, atol=0.0):
-            raise VerificationError("objective values differ between search and re-check; please report this bug")
-    return _two_unit_record(parts, d, metrics)
+        rec = records(parts, [d], objective)[0]
+    else:
+        from selector.api import shift_run
+        from selector.engine.verify import verify_designs
+        from selector.records import design_record
+
+        metrics = verify_designs(parts, [d], objective, expect_feasible=False)
+        rec = design_record(parts, d, metrics, 0, run=shift_run(parts, np.asarray([d.key]), metrics))
+    rec.setdefault("units", design_ids(parts, d)["units"])
+    return rec
 
 
 @dataclass

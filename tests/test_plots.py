@@ -104,6 +104,7 @@ def test_plot_files_png_and_svg(van, tmp_path):
     svg = tmp_path / "te.svg"
     tractive_effort_plot(study, *DESIGN, svg)
     assert "<svg" in svg.read_text(encoding="utf-8")[:2000]
+    assert any("Caution: figures are estimates" in t.get_text() for t in fig.texts)  # printed on every chart
     assert sorted(p.name for p in tmp_path.iterdir()) == ["te.png", "te.svg"]  # no temporary files left
 
 

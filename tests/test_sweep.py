@@ -16,6 +16,7 @@ from selector.engine import evaluate
 from selector.engine.parts import PartTables
 from selector.errors import InputError
 from selector.io.problem import load_study
+from selector.records import CAUTION
 from selector.studies.sweep import (
     apply_overrides,
     grid,
@@ -228,6 +229,7 @@ def test_cli_json_csv_and_plot(tmp_path, capsys):
     assert len(back) == 3
     for r, b in zip(rows, back, strict=True):
         assert b["status"] == r["status"] and float(b["requirements.top_speed_kmh"]) == r["requirements.top_speed_kmh"]
+        assert b["caution"] == CAUTION  # the safety caution on every row of the file
         assert (b["objective"] == "") == (r["objective"] is None)
         if r["objective"] is not None:
             assert float(b["objective"]) == r["objective"] and b["motor"] == r["motor"]

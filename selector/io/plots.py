@@ -39,10 +39,16 @@ def check_output_path(path, option: str = "--plot", protected=()) -> Path:
 
 
 def save_figure(fig, path) -> None:
-    """Save a figure atomically in the format of the file name's suffix."""
+    """Save a figure atomically in the format of the file name's suffix, with the caution printed
+    below it (every chart shows parts the tool recommends or compares)."""
+    import textwrap
+
+    from selector.records import CAUTION
+
+    fig.text(0.01, -0.01, "\n".join(textwrap.wrap(CAUTION, 150)), ha="left", va="top", fontsize=6, color="0.3")
     fmt = export.output_format(path, "--plot", PLOT_FORMATS)
-    export.atomic_write(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=120), option="--plot",
-                        formats=PLOT_FORMATS)
+    export.atomic_write(path, lambda tmp: fig.savefig(tmp, format=fmt, dpi=120, bbox_inches="tight"),
+                        option="--plot", formats=PLOT_FORMATS)
 
 
 def _figure(nrows=1, ncols=1, size=(8.0, 5.0)):

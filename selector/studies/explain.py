@@ -260,5 +260,5 @@ def diagnose(study: Study, reason: str | None = None, max_conflict_size: int = 2
     its shortfalls, the relaxation that makes it feasible (verified by a re-solve), and a summary."""
     ctx = Context(study, study.parts.problem.objective)
     inf = explain_infeasible(ctx, reason, max_conflict_size=max_conflict_size)
-    inf["summary"] = text.infeasible_summary(inf)
+    inf["summary"] = text.infeasible_summary(inf, max_conflict_size)
     return inf

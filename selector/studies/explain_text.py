@@ -125,8 +125,11 @@ def energy_sentences(e: dict | None, objective: str) -> list[str]:
     return out
 
 
-def infeasible_summary(inf: dict) -> list[str]:
-    """Plain sentences for an infeasible study."""
+SET_SIZES = {1: "one", 2: "two", 3: "three"}
+
+
+def infeasible_summary(inf: dict, max_conflict_size: int = 3) -> list[str]:
+    """Plain sentences for an infeasible study (``max_conflict_size``: the largest conflict sets tested)."""
     out = []
     for d in inf["impossible"]:
         req, lim = distinct_numbers(d["required"], d["limit"], digits=(4, 4))
@@ -135,7 +138,9 @@ def infeasible_summary(inf: dict) -> list[str]:
     if inf["conflicts"]:
         out.append("cannot be met together: " + "; ".join(" + ".join(c) for c in inf["conflicts"]))
     elif inf.get("closest") is not None:
-        out.append("no conflict among three or fewer requirements: only the full set conflicts")
+        size = SET_SIZES.get(max_conflict_size, str(max_conflict_size))
+        out.append(f"no set of {size} or fewer requirements conflicts (sets up to {size} were tested): the "
+                   "conflict takes more of them together")
     if inf.get("closest_note"):
         out.append(inf["closest_note"])
     if inf.get("closest"):

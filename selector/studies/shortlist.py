@@ -69,9 +69,11 @@ BOM_COLUMNS = [
     "rank", "design", "item", "part", "supplier", "quantity_per_vehicle", "vehicles", "quantity", "unit_cost",
     "extended_cost", "lead_time_weeks", "design_cost_per_vehicle", "design_extended_cost",
     "design_lead_time_weeks", *PERFORMANCE_COLUMNS, "mass_kg", "smallest_margin_pct", "smallest_margin_name",
+    "caution",
 ]
 """Columns of the CSV and of the "BOM" sheet: one row per design and part (an order line), each
-carrying its design's totals and figures so that filtering on ``rank`` gives a complete order."""
+carrying its design's totals and figures so that filtering on ``rank`` gives a complete order, and
+the caution (an order line copied out of the file still carries it)."""
 
 
 class ShortlistWarning(UserWarning):
@@ -361,7 +363,7 @@ def bom_rows(result: dict) -> list[list]:
                          line["quantity_per_vehicle"], b["vehicles"], line["quantity"], line["unit_cost"],
                          line["extended_cost"], line["lead_time_weeks"], b["cost_per_vehicle"], b["extended_cost"],
                          b["lead_time_weeks"], *[b[k] for k in PERFORMANCE_COLUMNS], b["mass_kg"],
-                         b["smallest_margin_pct"], b["smallest_margin_name"]])
+                         b["smallest_margin_pct"], b["smallest_margin_name"], CAUTION])
     return rows
 
 

@@ -356,14 +356,16 @@ def sweep_problem(problem: Problem, catalogs: Catalogs, vary, workers: int | Non
 
 
 def to_csv(result: dict) -> str:
-    """The rows of a sweep result as CSV text (header = ``columns``; empty cell = not applicable)."""
+    """The rows of a sweep result as CSV text (header = ``columns`` and a last ``caution`` column carrying
+    the caution on every row; empty cell = not applicable)."""
     from selector.io.export import neutral_text
+    from selector.records import CAUTION
 
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(result["columns"])
+    w.writerow([*result["columns"], "caution"])
     for r in result["rows"]:  # text cells (part ids) neutralised against spreadsheet formulas
         w.writerow(["" if r.get(c) is None else (repr(r[c]) if isinstance(r[c], float) else
                                                   neutral_text(r[c]) if isinstance(r[c], str) else r[c])
-                    for c in result["columns"]])
+                    for c in result["columns"]] + [CAUTION])
     return buf.getvalue()

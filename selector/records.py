@@ -41,6 +41,19 @@ def clean(x):
     return float(f"{x:.10g}")
 
 
+def smallest_margin(rows: list[dict]) -> tuple[float | None, str | None]:
+    """The smallest ``margin_pct`` [%] of requirement and check rows and its row's name, leaving out
+    `requirements.NO_HEADROOM` (the cycle followed in full, the range the battery is sized for);
+    (None, None) without any."""
+    from selector.requirements import NO_HEADROOM
+
+    kept = [r for r in rows if r["margin_pct"] is not None and r["name"] not in NO_HEADROOM]
+    if not kept:
+        return None, None
+    r = min(kept, key=lambda r: r["margin_pct"])
+    return clean(r["margin_pct"]), r["name"]
+
+
 def requirement_rows(parts: PartTables, metrics: dict, pos: int = 0) -> list[dict]:
     """Required / achieved / margin / binding of every stated requirement for design ``pos``."""
     from selector.requirements import margin_fraction, passes, stated
@@ -208,7 +221,6 @@ def design_record(parts: PartTables, design, *args, run=None) -> dict:
     info = part_info(parts, design)
     rows = requirement_rows(parts, metrics, pos)
     checks = check_rows(parts, metrics, pos, design.key)
-    margins = [r["margin_pct"] for r in rows + checks if r["margin_pct"] is not None]
     units = unit_rows(parts, design)
     single = not design.two_units and len(units) == 1
     rec = {
@@ -219,7 +231,7 @@ def design_record(parts: PartTables, design, *args, run=None) -> dict:
         "performance": {key: clean(metrics[key][pos]) for key in PERFORMANCE_UNITS},
         "requirements": rows,
         "checks": checks,
-        "smallest_margin_pct": clean(min(margins)) if margins else None,
+        "smallest_margin_pct": smallest_margin(rows + checks)[0],
         "parts": info,
         "units": units,
         "gear_ratios": units[0]["gear_ratios"] if single else None,

@@ -78,6 +78,11 @@ CHECK_LIMIT_METRIC = {
 
 BY_NAME = {r.name: r for r in REQUIREMENTS + CHECKS + ENERGY_CHECKS}
 
+NO_HEADROOM = frozenset({"cycle_followed_pct", "range_km"})
+"""Rows whose margin says nothing about a design's headroom, left out of its smallest margin (project
+convention): a design follows the whole cycle or is infeasible (100 % of 100 %), and the battery is
+sized to give exactly ``range_km``."""
+
 
 def check_rows(axles: tuple[str, ...], energy: bool = False):
     """(check, axle, limit metric key, demand metric key) of every part-rating check of a study.

@@ -368,3 +368,18 @@ def test_demo_shortlist_distinct_motor(path, tmp_path, capsys, monkeypatch):
     assert list(sheets["Shortlist"]["motor"]) == motors
     assert len(sheets["BOM"]) == 3 * len(motors)
     assert sorted(p.name for p in (tmp_path / "tmp").iterdir()) == ["shortlist.xlsx"]
+
+
+def test_energy_study_margins_leave_out_rows_without_headroom():
+    # Project convention (requirements.NO_HEADROOM): cycle_followed_pct (100 % of 100 %) and range_km
+    # (the battery is sized to give it exactly) would make every energy design's smallest margin 0.
+    from selector.api import open_study
+
+    res = sl.shortlist(open_study("problems/delivery_van_energy.toml"), 3)
+    for d, b in zip(res["designs"], res["bom"], strict=True):
+        rows = {r["name"]: r["margin_pct"] for r in d["requirements"] + d["checks"]}
+        assert rows["cycle_followed_pct"] == 0.0 and abs(rows["range_km"]) < 1e-6
+        others = {k: v for k, v in rows.items() if k not in ("cycle_followed_pct", "range_km") and v is not None}
+        name = min(others, key=others.get)
+        assert d["smallest_margin_pct"] == others[name] > 0
+        assert (b["smallest_margin_pct"], b["smallest_margin_name"]) == (others[name], name)

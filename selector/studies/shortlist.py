@@ -38,7 +38,7 @@ from selector.engine.search import (
 from selector.errors import InputError
 from selector.inputs import Procurement
 from selector.io.export import Sheet, output_format, write_csv, write_xlsx
-from selector.records import CAUTION, clean
+from selector.records import CAUTION, clean, smallest_margin
 
 DISTINCT_CHOICES = ("motor", "reducer", "tyre")
 DISTINCT_RULES = {
@@ -224,14 +224,6 @@ def shortlist_search(study: Study, count: int, distinct: str | None = None, obje
 
 # ----------------------------------------------------------------------------------- bill of materials
 
-def _smallest_margin(rec: dict) -> tuple[float | None, str | None]:
-    rows = [r for r in rec["requirements"] + rec["checks"] if r["margin_pct"] is not None]
-    if not rows:
-        return None, None
-    r = min(rows, key=lambda r: r["margin_pct"])
-    return r["margin_pct"], r["name"]
-
-
 def bom_lines(rec: dict, vehicles: int = 1) -> list[dict]:
     """Order lines of a design record: one per part and axle; a part fitted on both axles of a two-unit
     design (e.g. ``same_unit``) is one line with quantity 2 per vehicle and ``axle`` "both"."""
@@ -269,7 +261,7 @@ def bill_of_materials(rec: dict, rank: int, vehicles: int = 1) -> dict:
     ``ratio`` and list their ``units``.
     """
     lines = bom_lines(rec, vehicles)
-    margin, name = _smallest_margin(rec)
+    margin, name = smallest_margin(rec["requirements"] + rec["checks"])
     reducer = rec["parts"].get("reducer")
     out = {
         "rank": rank, "motor": rec["motor"], "reducer": rec["reducer"], "tyre": rec["tyre"],

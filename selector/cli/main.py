@@ -160,18 +160,29 @@ def _cmd_simulate(args) -> int:
 
 def _setup_solve(p):
     add_common(p)
-    p.add_argument("--time-limit", type=positive_float, metavar="SECONDS", help="wall-clock limit of the search")
+    p.add_argument("--time-limit", type=positive_float, metavar="SECONDS",
+                   help="wall-clock limit, counted from the start of the command (loading included); when "
+                        "reached: status time_limit, the best design found, the bound and the gap")
 
 
 def print_search_summary(res: dict, diagnosis: list[str] | None = None) -> None:
     """The search line, procurement filters and, for an infeasible study, the diagnosis lines."""
     s = res["search"]
-    print(f"searched {s['combinations']:,} combinations to proof ({s['iterations']} blocks opened), "
-          f"build {s['build_s']:.2f} s, solve {s['solve_s']:.2f} s, verify {s['verify_s']:.2f} s")
+    blocks = f"{s['iterations']} block{'s' if s['iterations'] != 1 else ''} opened"
+    if res["status"] == "time_limit":
+        gap = "no design found yet" if res.get("gap") is None else f"gap {100.0 * res['gap']:.3g} % to the bound"
+        print(f"stopped at the time limit before the proof over {s['combinations']:,} combinations ({blocks}; "
+              f"{gap}), build {s['build_s']:.2f} s, solve {s['solve_s']:.2f} s, verify {s['verify_s']:.2f} s")
+    else:
+        print(f"searched {s['combinations']:,} combinations to proof ({blocks}), "
+              f"build {s['build_s']:.2f} s, solve {s['solve_s']:.2f} s, verify {s['verify_s']:.2f} s")
     for note in s.get("procurement_filters", []):
         print(f"procurement filter: {note}")
+    if res["status"] == "time_limit" and not res["designs"]:
+        print("\nno design found before the time limit; rerun with a longer --time-limit, or without one.")
     if res["status"] == "infeasible":
-        print(f"\nno design meets every requirement: {res.get('reason')}")
+        reason = res.get("reason") or ""
+        print(f"\n{reason}" if reason.startswith("no design") else f"\nno design meets every requirement: {reason}")
         for line in diagnosis or []:
             print(f"  {line}")
         print("run `selector explain` for the closest design and the relaxation that fixes it.")

@@ -21,7 +21,8 @@ def setup(p) -> None:
                    help="never propose parts with a longer lead time (replaces the problem's)")
     p.add_argument("--vehicles", type=positive_int, default=1, metavar="Q",
                    help="vehicles to buy for: multiplies quantities and extended costs (default 1)")
-    p.add_argument("--time-limit", type=number(0.0, True), metavar="SECONDS", help="wall-clock limit of the search")
+    p.add_argument("--time-limit", type=number(0.0, True), metavar="SECONDS",
+                   help="wall-clock limit, counted from the start of the command (loading included)")
 
 
 def print_shortlist(res: dict) -> None:

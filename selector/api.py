@@ -342,26 +342,26 @@ def design_from_ids(parts: PartTables, motor=None, reducer=None, tyre=None, fron
     from selector.engine.parts import AXLE_COLUMNS, TY
 
     if tyre is None:
-        raise InputError("--tyre: name the tyre part id of the design.")
+        raise InputError("tyre: name the tyre part id of the design.")
     slots = {"front": (front_motor, front_reducer), "rear": (rear_motor, rear_reducer)}
     given = {a: v for a, v in slots.items() if any(x is not None for x in v)}
     single = motor is not None or reducer is not None
     p = parts.problem
     axles_txt = f'[vehicle] driven_axle = "{p.vehicle.driven_axle}"'
     if single and given:
-        raise InputError("give the design either as --motor/--reducer (single axle) or as --front-motor/"
-                         "--front-reducer and --rear-motor/--rear-reducer, not both.")
+        raise InputError("give the design either as motor=/reducer= (single axle) or as front_motor=/"
+                         "front_reducer= and rear_motor=/rear_reducer=, not both.")
     if single:
         if motor is None or reducer is None:
-            raise InputError(f"{'--reducer' if reducer is None else '--motor'}: missing; a drive unit is a motor "
+            raise InputError(f"{'reducer' if reducer is None else 'motor'}: missing; a drive unit is a motor "
                              "and a reducer, give both.")
         if parts.two_units:
-            raise InputError(f"{axles_txt}: this study has a unit on each axle; name them with --front-motor, "
-                             "--front-reducer, --rear-motor and --rear-reducer.")
+            raise InputError(f"{axles_txt}: this study has a unit on each axle; name them with front_motor=, "
+                             "front_reducer=, rear_motor= and rear_reducer=.")
         given = {parts.axles[-1]: (motor, reducer)}
     if not given:
-        raise InputError("name the drive unit: --motor and --reducer (single axle), or --front-motor/--front-reducer "
-                         "and --rear-motor/--rear-reducer.")
+        raise InputError("name the drive unit: motor= and reducer= (single axle), or front_motor=/front_reducer= "
+                         "and rear_motor=/rear_reducer=.")
     key = [-1, -1, -1, -1, -1]
     for axle, (m, r) in given.items():
         m_opt, r_opt = SLOT_OPTIONS[axle]

@@ -53,10 +53,17 @@ PARAMETER_FLAGS = {
 }
 """Library parameter names (as the library's error messages start) -> the command line's flags."""
 
-_PARAMETER = re.compile(r"^(" + "|".join(PARAMETER_FLAGS) + r")(?=[ :])")
+_NAMES = "|".join(sorted(PARAMETER_FLAGS, key=len, reverse=True))
+_PARAMETER = re.compile(r"^(" + _NAMES + r")(?=[ :])")
+_LEADING_LIST = re.compile(r"^((?:" + _NAMES + r")(?:, (?:" + _NAMES + r"))+)(?=:)")
+_KEYWORD = re.compile(r"(?<![\w-])(" + _NAMES + r")=")
 
 
 def flag_names(message: str) -> str:
-    """A library message naming a parameter (``count 0: ...``) as the CLI's flag (``--count 0: ...``)."""
+    """A library message naming parameters as the CLI's flags: a leading name or list of names
+    (``count 0: ...``, ``rear_motor, rear_reducer: missing``) and keyword forms anywhere
+    (``front_motor=``) become ``--count``, ``--rear-motor, --rear-reducer``, ``--front-motor``."""
+    message = _KEYWORD.sub(lambda m: PARAMETER_FLAGS[m.group(1)], message)
+    message = _LEADING_LIST.sub(lambda m: ", ".join(PARAMETER_FLAGS[n] for n in m.group(1).split(", ")), message)
     message = _PARAMETER.sub(lambda m: PARAMETER_FLAGS[m.group(1)], message)
     return message.replace("Rerun without time_limit_s", "Rerun without --time-limit")

@@ -432,7 +432,8 @@ def _energy_unmet(parts: PartTables, rec: dict, metrics: dict) -> list[dict]:
     off = float(metrics.get("cycle_out_of_map_pct", np.zeros(1))[0])
     if off > 0:
         out.append({"name": "efficiency_map", "why": f"{fmt(off)} % of the cycle's intervals fall outside the "
-                    "motor's efficiency map (within its envelope; a map is never extrapolated)"})
+                    "motor's efficiency map, or where it reads 0 % while motoring (within the envelope; a map "
+                    "is never extrapolated)"})
     return out
 
 

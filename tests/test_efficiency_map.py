@@ -183,3 +183,19 @@ def test_map_with_implausible_efficiency_warns(tmp_path):
     write_csv(tmp_path / "motors.csv", "motors", [motor_row("M-1", efficiency_map="perfect.csv")])
     with pytest.warns(CatalogWarning, match=r"has efficiencies up to 99.5 %; at or above 99 %"):
         load_catalog("motors", tmp_path / "motors.csv")
+
+
+@pytest.mark.parametrize("value, expected", [
+    (5.0, r"peaks at 5 % efficiency; below 80 %"),  # common practice: traction motors peak at 90-97 %
+    (0.0, r"reads 0 % at 4 grid points with speed and torque above zero"),
+])
+def test_map_with_low_or_zero_efficiency_warns(tmp_path, value, expected):
+    from selector.synthetic_files import motor_row, write_csv
+
+    # 5 %: every point (a map in fractions?); 0 %: the four points with speed and torque above zero
+    eff = {(w, t): (value if value > 0 or (w > 0 and t > 0) else 90.0) for w in (0, 6000, 12000) for t in (0, 125, 250)}
+    lines = ["speed_rpm,torque_nm,efficiency_pct"] + [f"{w},{t},{e}" for (w, t), e in eff.items()]
+    (tmp_path / "odd.csv").write_text("\n".join(lines) + "\n", encoding="utf-8")
+    write_csv(tmp_path / "motors.csv", "motors", [motor_row("M-1", efficiency_map="odd.csv")])
+    with pytest.warns(CatalogWarning, match=expected):
+        load_catalog("motors", tmp_path / "motors.csv")

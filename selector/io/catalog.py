@@ -236,6 +236,9 @@ MAP_COVER_WARN = 0.99
 """A map reaching less than this share of its motor's maximum speed or peak torque is warned about [-]."""
 MAP_EFFICIENCY_WARN = 0.99
 """A map efficiency at or above this is warned about (no traction motor reaches it) [-]."""
+MAP_PEAK_LOW_WARN = 0.80
+"""A map whose best efficiency is below this is warned about (traction motors peak at 90-97 %; common
+practice, no published source) [-]."""
 
 
 def _load_efficiency_maps(typed: dict, lines: list[int], path: Path, disp: str, errors: list[str],
@@ -277,6 +280,15 @@ def _map_findings(grid, loc: str, given: str, typed: dict, row: int) -> list[str
                    f"the motor's envelope {w_max / RPM_TO_RAD_S:.6g} rpm and {t_max:.6g} N m; operating points "
                    "beyond the map make a design fail an energy study (a map is never extrapolated). Check the map.")
     top = float(np.nanmax(grid.efficiency))
+    if top < MAP_PEAK_LOW_WARN:
+        out.append(f"{loc}: {MAP_COLUMN} = \"{given}\" peaks at {100 * top:.6g} % efficiency; below "
+                   f"{100 * MAP_PEAK_LOW_WARN:g} %, unusual for a traction motor (percent expected). Check the map.")
+    inner = (grid.speed_rad_s[:, None] > 0) & (np.abs(grid.torque_nm)[None, :] > 0)
+    zeros = int(np.count_nonzero(inner & ~(grid.efficiency > 0)))
+    if zeros:
+        out.append(f"{loc}: {MAP_COLUMN} = \"{given}\" reads 0 % at {zeros} grid point{'s' if zeros != 1 else ''} "
+                   "with speed and torque above zero; a design that motors near them cannot follow a cycle (no "
+                   "power reaches the shaft). Check the map.")
     if top >= MAP_EFFICIENCY_WARN:
         out.append(f"{loc}: {MAP_COLUMN} = \"{given}\" has efficiencies up to {100 * top:.6g} %; at or above "
                    f"{100 * MAP_EFFICIENCY_WARN:g} %, unusual for a traction motor. Check the map.")

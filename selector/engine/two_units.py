@@ -211,6 +211,7 @@ class TwoUnitSearch(TwoUnitBounds):
                 self.cut_short = min(self.cut_short, float(key_val[start]))  # (sorted: the rest's least bound)
                 break
             stop = min(keys.shape[0], start + size)
+            t_chunk = time.perf_counter()
             chunk = keys[start:stop]
             chunk = chunk[key_val[start:stop] <= kth + tie_tolerance(kth)]
             if self.time is not None and chunk.shape[0]:
@@ -229,8 +230,18 @@ class TwoUnitSearch(TwoUnitBounds):
                                  keep_best=self._keep_best())
                 self.stats["evaluated"] += chunk.shape[0]
                 self._add(obj[ok], chunk[ok])
-            start, size = stop, size * 2
+            start, size = stop, self._next_chunk(size, stop - start, time.perf_counter() - t_chunk)
 
+
+    def _next_chunk(self, size: int, done: int, took_s: float) -> int:
+        """The next chunk's size: twice the last; under a deadline at most what half the time left
+        allows at the last chunk's pace (energy studies evaluate a cycle per design: a doubled chunk
+        could overrun the limit by seconds)."""
+        if self.deadline is None or done <= 0:
+            return size * 2
+        left = self.deadline - time.perf_counter()
+        pace = max(took_s / done, 1e-9)
+        return max(1, min(size * 2, int(max(left, 0.0) / pace / 2)))
 
     def _keep_best(self) -> int | None:
         """``keep_best`` of `evaluate.screen` for a chunk: with a cost (mass) objective a design whose

@@ -104,7 +104,9 @@ def _setup_simulate(p):
     p.add_argument("--front-reducer", metavar="ID", help="reducer part id of the front unit")
     p.add_argument("--rear-motor", metavar="ID", help="motor part id of the rear unit (by slots)")
     p.add_argument("--rear-reducer", metavar="ID", help="reducer part id of the rear unit")
-    p.add_argument("--plot", metavar="FILE", help="write the tractive-effort diagram (PNG or SVG)")
+    p.add_argument("--plot", metavar="FILE",
+                   help="write the tractive-effort diagram (.png, .svg or .pdf); an energy study also writes "
+                        "the cycle's operating points beside it (FILE-cycle with the same suffix)")
 
 
 def _slot_ids(args) -> dict:
@@ -151,7 +153,7 @@ def _cmd_simulate(args) -> int:
     for u in d["unmet"]:
         print(f"not met: {u['name']}: {u['why']}")
     if args.plot is not None:
-        print(f"\nplot written to {args.plot}")
+        print(f"\nplot written to {args.plot}" + (f" and {res['cycle_plot']}" if res.get("cycle_plot") else ""))
     print("\n" + CAUTION)
     return 0
 

@@ -168,6 +168,8 @@ def test_all_errors_listed_at_once(tmp_path):
 def test_missing_file(tmp_path):
     with pytest.raises(InputError, match="cycle file not found"):
         load_cycle(tmp_path / "absent.csv")
+    with pytest.raises(InputError, match='named without a suffix: cycle = "udds"'):
+        load_cycle("udds.csv", base_dir=tmp_path)
 
 
 # ------------------------------------------------------------------------------ arithmetic

@@ -178,8 +178,11 @@ def _unknown_name_message(name: str) -> str:
 
 
 def _read_text(path: Path, disp: str) -> str:
-    return read_input_text(path, disp, f"{disp}: cycle file not found (looked for {path}). Check the path, or give "
-                           f"a built-in cycle name ({', '.join(BUILTIN_CYCLES)}).", "cycle CSV file", "CSV UTF-8")
+    stem = path.stem.lower()
+    hint = (f' The built-in cycle is named without a suffix: cycle = "{stem}".' if stem in BUILTIN_CYCLES
+            else "")
+    return read_input_text(path, disp, f"{disp}: cycle file not found (looked for {path}).{hint} Check the path, or "
+                           f"give a built-in cycle name ({', '.join(BUILTIN_CYCLES)}).", "cycle CSV file", "CSV UTF-8")
 
 
 def _load_file(path: Path, name: str, disp: str) -> Cycle:

@@ -161,8 +161,8 @@ def _check_objective(objective: str, req: Requirements) -> None:
 
 def _beyond_traction(parts: PartTables, req: Requirements, allowed: dict) -> str | None:
     """A reason when launch or gradeability is above what the driven axles' traction allows with any
-    parts (`bounds.traction_limits`, a proved upper bound), else None."""
-    from selector.engine.bounds import traction_limits
+    parts (`traction_bounds.traction_limits`, a proved upper bound), else None."""
+    from selector.engine.traction_bounds import traction_limits
 
     n = parts.sizes
     full = {k: np.arange(size) if allowed.get(k) is None else allowed[k]

@@ -246,23 +246,8 @@ def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[
         prev_t = t
         times.append(t if t is not None else math.nan)
         speeds.append(v if v is not None else math.nan)
-    if not errors and len(times) < 2:
-        errors.append(f"{disp}: {len(times)} data row{'s' if len(times) != 1 else ''}; a cycle needs at least two "
-                      "rows (times 0 and 1). Add the rows.")
-    elif not errors and len(times) > MAX_ROWS:
-        errors.append(f"{disp}: {len(times):,} data rows; at most {MAX_ROWS:,} (ten hours at 1 Hz). Use a shorter "
-                      "cycle, e.g. one representative part of the duty.")
-    elif not errors and (speeds[0] != 0.0 or speeds[-1] != 0.0):
-        ends = [f"line {head_no + 1} (the first row) has speed_kmh = {speeds[0]:g}" if speeds[0] != 0.0 else "",
-                f"line {head_no + len(speeds)} (the last row) has speed_kmh = {speeds[-1]:g}"
-                if speeds[-1] != 0.0 else ""]
-        errors.append(f"{disp}: {' and '.join(e for e in ends if e)}; a cycle must start and end at rest "
-                      "(0 km/h), or its energy per km counts kinetic energy the vehicle gains or gives back "
-                      "instead of what the drive uses. Add the rows from and to standstill.")
-    elif not errors and (dist := cycle_distance_m(np.asarray(times), np.asarray(speeds) / KMH_PER_MPS)) \
-            < MIN_DISTANCE_M:
-        errors.append(f"{disp}: the cycle covers {dist:.3g} m; at least {MIN_DISTANCE_M:g} m, or no meaningful "
-                      "energy per km can be taken over it. Give a cycle that moves.")
+    if not errors:
+        errors += _whole_cycle_errors(times, speeds, head_no, disp)
     if errors:
         n = len(errors)
         shown = errors[:_MAX_LISTED]
@@ -270,6 +255,29 @@ def _rows(lines: list[str], head_no: int, disp: str) -> tuple[list[float], list[
         raise InputError(f"{disp}: {n} error{'s' if n > 1 else ''} in the cycle file; it was not loaded.\n"
                          + "\n".join(f"  {e}" for e in shown + more))
     return times, speeds
+
+
+def _whole_cycle_errors(times: list[float], speeds: list[float], head_no: int, disp: str) -> list[str]:
+    """Rules on the whole cycle once every row is valid: rows (at least two, at most `MAX_ROWS`), start
+    and end at rest, distance (at least `MIN_DISTANCE_M`)."""
+    if len(times) < 2:
+        return [f"{disp}: {len(times)} data row{'s' if len(times) != 1 else ''}; a cycle needs at least two "
+                "rows (times 0 and 1). Add the rows."]
+    if len(times) > MAX_ROWS:
+        return [f"{disp}: {len(times):,} data rows; at most {MAX_ROWS:,} (ten hours at 1 Hz). Use a shorter "
+                "cycle, e.g. one representative part of the duty."]
+    if speeds[0] != 0.0 or speeds[-1] != 0.0:
+        ends = [f"line {head_no + 1} (the first row) has speed_kmh = {speeds[0]:g}" if speeds[0] != 0.0 else "",
+                f"line {head_no + len(speeds)} (the last row) has speed_kmh = {speeds[-1]:g}"
+                if speeds[-1] != 0.0 else ""]
+        return [f"{disp}: {' and '.join(e for e in ends if e)}; a cycle must start and end at rest (0 km/h), or "
+                "its energy per km counts kinetic energy the vehicle gains or gives back instead of what the "
+                "drive uses. Add the rows from and to standstill."]
+    dist = cycle_distance_m(np.asarray(times), np.asarray(speeds) / KMH_PER_MPS)
+    if dist < MIN_DISTANCE_M:
+        return [f"{disp}: the cycle covers {dist:.3g} m; at least {MIN_DISTANCE_M:g} m, or no meaningful "
+                "energy per km can be taken over it. Give a cycle that moves."]
+    return []
 
 
 def _check_time(t: float, expected: float, later: bool, raw: str, where: str, errors: list[str]) -> None:

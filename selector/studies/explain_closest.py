@@ -10,10 +10,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from selector.engine.traction_bounds import traction_limits
 from selector.engine.evaluate import OBJECTIVE_METRIC, evaluate, order_best, slice_keys, tie_tolerance, unit_options
 from selector.engine.parts import PartTables
 from selector.engine.search import STATUS_INFEASIBLE
+from selector.engine.traction_bounds import traction_limits
 from selector.inputs import Requirements
 from selector.io.catalog import distinct_numbers
 from selector.records import clean

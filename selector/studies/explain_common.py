@@ -97,6 +97,8 @@ class Context:
     progress: bool = False
     searches: int = 0
     search_s: float = 0.0
+    time_limit_s: float | None = None
+    """Wall-clock limit of each re-solve [s] (None: none); a stopped re-solve confirms nothing."""
 
     @property
     def parts(self) -> PartTables:
@@ -108,7 +110,7 @@ class Context:
         ``allowed`` to the study's procurement filter."""
         t0 = time.perf_counter()
         res = search(self.parts, objective=objective or self.objective, count=count, requirements=req,
-                     allowed=self.study.allowed if allowed is None else allowed)
+                     allowed=self.study.allowed if allowed is None else allowed, time_limit_s=self.time_limit_s)
         self.searches += 1
         self.search_s += time.perf_counter() - t0
         return res

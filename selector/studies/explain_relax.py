@@ -16,7 +16,7 @@ from selector.engine.search import STATUS_OPTIMAL, no_motor_reason
 from selector.inputs import Requirements
 from selector.records import clean
 from selector.requirements import margin_fraction, passes, stated
-from selector.studies.defaults import EXPLAIN_MAX_DESIGNS
+from selector.studies.defaults import EXPLAIN_CONFIRM_S, EXPLAIN_MAX_DESIGNS
 from selector.studies.explain_closest import closest_design, conflicts, enumerate_shortfalls, impossibilities
 from selector.studies.explain_common import (
     BISECT_STEPS,
@@ -264,7 +264,11 @@ def _impossible_only(ctx: Context, out: dict, first: dict, n_designs: int) -> di
             cand[d["name"]] = round_safe(float(d["limit"]), "min")
     note = (f"the closest design is not searched: {n_designs:,} designs are above explain's enumeration limit "
             f"({EXPLAIN_MAX_DESIGNS:,}); narrow the catalogues (procurement or [drive] filters) to get it")
-    options = _confirmed(ctx, req0, {}, [cand]) if cand else []
+    ctx.time_limit_s = EXPLAIN_CONFIRM_S
+    try:
+        options = _confirmed(ctx, req0, {}, [cand]) if cand else []
+    finally:
+        ctx.time_limit_s = None
     chosen = next((o for o in options if o["verified"]), None)
     out["closest_note"] = note
     out["relaxation_options"] = options
@@ -274,7 +278,7 @@ def _impossible_only(ctx: Context, out: dict, first: dict, n_designs: int) -> di
     else:
         out["relaxation_note"] = (f"no confirmed relaxation: {note}" if not options else
                                   f"no confirmed relaxation: loosening the impossible requirements to their limits "
-                                  f"did not make a re-solve feasible; {note}")
+                                  f"did not make a re-solve feasible within {EXPLAIN_CONFIRM_S:g} s; {note}")
     return out
 
 

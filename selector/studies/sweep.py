@@ -140,7 +140,9 @@ def sweep_point(problem, overrides: dict, catalogs: Catalogs | None = None,
         if rec.get("energy"):
             row.update({c: rec["energy"][k] for c, k in ENERGY_COLUMNS.items()})
     if res.status != STATUS_OPTIMAL:
-        row["reason"] = res.reason
+        row["reason"] = res.reason or (f"the time limit ({time_limit_s:g} s) stopped the search before the proof"
+                                       + ("; the best design found is shown" if res.designs else
+                                          "; no design found yet"))
     return row
 
 

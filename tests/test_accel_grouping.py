@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from selector.physics import accel_run
+from selector.physics import accel_run, accel_state
 from selector.synthetic import _all_keys, random_study
 from selector.units import kmh_to_mps
 
@@ -20,7 +20,7 @@ def _times(tmp_path, monkeypatch, piece_elements=None, cross_rows=None):
     if piece_elements is not None:
         monkeypatch.setattr(accel_run, "PIECE_ELEMENTS", piece_elements)
     if cross_rows is not None:
-        monkeypatch.setattr(accel_run, "CROSS_ROWS", cross_rows)
+        monkeypatch.setattr(accel_state, "CROSS_ROWS", cross_rows)
     out = []
     for seed in range(9):
         study = random_study(9100 + seed, tmp_path / str(seed), sizes=((3, 4), (3, 4), (2, 3)),
